@@ -1,0 +1,1 @@
+//! Measuring samples: Welch density estimates and running statistics.

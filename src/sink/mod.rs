@@ -1,0 +1,1 @@
+//! Writers behind one [`Sink`] trait: WAV, CSV, raw; the manifest.

@@ -1,0 +1,1 @@
+//! Engines that turn a target density into samples.
