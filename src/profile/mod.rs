@@ -8,7 +8,7 @@ mod quantity;
 mod schema;
 
 pub use quantity::{Dimension, format_quantity, parse_quantity};
-pub use schema::parse_profile;
+pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
 
 use serde::Serialize;
 
@@ -97,4 +97,106 @@ pub struct Profile {
     pub band: Band,
     /// The sources, in file order (floors, then resistors, then tables).
     pub sources: Vec<Source>,
+}
+
+impl Profile {
+    /// The resolved profile as JSON, for output manifests. Every value is in SI base units and
+    /// the key names carry the unit:
+    ///
+    /// ```json
+    /// { "name": "bench preamp" | null,
+    ///   "unit": "V",                        // densities below are in this unit per √Hz
+    ///   "sample_rate_hz": 48000.0,
+    ///   "band": { "low_hz": 20.0, "high_hz": 20000.0, "order": 2 },
+    ///   "sources": [
+    ///     { "name": "floor 1", "kind": "floor", "density_per_rthz": 4e-9,
+    ///       "corner_hz": 100.0 | null, "slope": 1.0 },
+    ///     { "name": "resistor 1 (10 kΩ)", "kind": "resistor",
+    ///       "resistance_ohm": 10000.0, "temperature_k": 298.15 },
+    ///     { "name": "table 1", "kind": "table",
+    ///       "points": [ { "frequency_hz": 1.0, "density_per_rthz": 3e-8 } ] } ] }
+    /// ```
+    pub fn to_json(&self) -> serde_json::Value {
+        use serde_json::json;
+        let sources: Vec<serde_json::Value> = self
+            .sources
+            .iter()
+            .map(|s| match &s.kind {
+                SourceKind::Floor {
+                    density,
+                    corner_hz,
+                    slope,
+                } => json!({
+                    "name": s.name,
+                    "kind": "floor",
+                    "density_per_rthz": density,
+                    "corner_hz": corner_hz,
+                    "slope": slope,
+                }),
+                SourceKind::Resistor {
+                    resistance_ohm,
+                    temperature_k,
+                } => json!({
+                    "name": s.name,
+                    "kind": "resistor",
+                    "resistance_ohm": resistance_ohm,
+                    "temperature_k": temperature_k,
+                }),
+                SourceKind::Table { points } => json!({
+                    "name": s.name,
+                    "kind": "table",
+                    "points": points
+                        .iter()
+                        .map(|&(f, d)| json!({ "frequency_hz": f, "density_per_rthz": d }))
+                        .collect::<Vec<_>>(),
+                }),
+            })
+            .collect();
+        json!({
+            "name": self.name,
+            "unit": self.unit.symbol(),
+            "sample_rate_hz": self.sample_rate_hz,
+            "band": {
+                "low_hz": self.band.low_hz,
+                "high_hz": self.band.high_hz,
+                "order": self.band.order,
+            },
+            "sources": sources,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn to_json_names_carry_units() {
+        let p = parse_profile(
+            "unit = \"A\"\nsample_rate = \"10 kHz\"\n[band]\nlow = 1\nhigh = \"2 kHz\"\norder = 3\n\
+             [[floor]]\ndensity = \"2 pA/rtHz\"\ncorner = \"5 Hz\"\n\
+             [[resistor]]\nresistance = \"1 MOhm\"\n[[table]]\npoints = [[1, 3e-12]]\n",
+            "t",
+        )
+        .unwrap();
+        let j = p.to_json();
+        assert_eq!(j["name"], serde_json::Value::Null);
+        assert_eq!(j["unit"], "A");
+        assert_eq!(j["sample_rate_hz"], 10e3);
+        assert_eq!(j["band"]["low_hz"], 1.0);
+        assert_eq!(j["band"]["high_hz"], 2e3);
+        assert_eq!(j["band"]["order"], 3);
+        let s = &j["sources"];
+        assert_eq!(s[0]["kind"], "floor");
+        assert_eq!(s[0]["name"], "floor 1");
+        assert_eq!(s[0]["density_per_rthz"], 2e-12);
+        assert_eq!(s[0]["corner_hz"], 5.0);
+        assert_eq!(s[0]["slope"], 1.0);
+        assert_eq!(s[1]["kind"], "resistor");
+        assert_eq!(s[1]["resistance_ohm"], 1e6);
+        assert_eq!(s[1]["temperature_k"], 298.15);
+        assert_eq!(s[2]["kind"], "table");
+        assert_eq!(s[2]["points"][0]["frequency_hz"], 1.0);
+        assert_eq!(s[2]["points"][0]["density_per_rthz"], 3e-12);
+    }
 }

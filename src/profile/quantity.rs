@@ -1,4 +1,14 @@
 //! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s".
+//!
+//! A quantity is a decimal number (optional sign, optional fraction, optional exponent such as
+//! `4e-9`), optional whitespace, then a unit made of an optional SI prefix and a unit symbol.
+//! Prefixes: `f` (1e-15), `p`, `n`, `u`/`µ`, `m`, `k`, `M`, `G`, `T` (1e12); they are
+//! case-sensitive (`m` is milli, `M` is mega). A string with no unit is a value in the SI base
+//! unit of its dimension.
+//!
+//! Parsing is exact: the prefix is folded into the number's decimal exponent before the one
+//! decimal-to-binary conversion, so `"4 nV/rtHz"` is the same `f64` as the literal `4e-9` and
+//! `"4.7 kOhm"` the same as `4700.0`.
 
 use serde::Serialize;
 
@@ -19,18 +29,431 @@ pub enum Dimension {
     Amplitude,
 }
 
+/// SI prefixes accepted in front of a unit symbol, with their decimal exponents.
+const PREFIXES: &[(&str, i32)] = &[
+    ("f", -15),
+    ("p", -12),
+    ("n", -9),
+    ("u", -6),
+    ("\u{b5}", -6),  // MICRO SIGN
+    ("\u{3bc}", -6), // GREEK SMALL LETTER MU
+    ("m", -3),
+    ("k", 3),
+    ("M", 6),
+    ("G", 9),
+    ("T", 12),
+];
+
+/// Ways of writing "per √Hz" after the numerator unit of a density.
+const PER_ROOT_HZ: &[&str] = &["/rtHz", "/\u{221a}Hz", "/sqrt(Hz)"];
+
+/// Symbols of the ohm (spelled out, OHM SIGN, GREEK CAPITAL OMEGA).
+const OHM: &[&str] = &["Ohm", "ohm", "Ohms", "ohms", "\u{3a9}", "\u{2126}"];
+
+/// Zero of the Celsius scale in kelvin (SI Brochure, 9th ed., 2019: t/°C = T/K − 273.15).
+const CELSIUS_ZERO_K: f64 = 273.15;
+
 /// Parse `text` as a quantity of `dim`, returning its value in SI base units.
 ///
 /// `unit` is the profile's unit symbol (`"V"` or `"A"`), used for `Density` and `Amplitude`.
 /// The error string says what was expected (it does not name the file or key: callers add those).
+///
+/// Results by dimension: hertz, seconds (`min` = 60 s, `h` = 3600 s), kelvin (`25 C` =
+/// 298.15 K; Celsius takes no prefix), ohms, unit/√Hz, unit. NaN and infinity are rejected;
+/// the sign is not checked here (the schema checks ranges).
 pub fn parse_quantity(text: &str, dim: Dimension, unit: &str) -> Result<f64, String> {
-    let _ = (text, dim, unit);
-    todo!()
+    let expected = || format!("{}, got \"{text}\"", expectation(dim, unit));
+    let trimmed = text.trim();
+    let Some(number) = Number::lex(trimmed) else {
+        return Err(expected());
+    };
+    // Unit symbols never contain spaces, so "4 nV / rtHz" is read as "nV/rtHz".
+    let unit_text: String = trimmed[number.len..]
+        .chars()
+        .filter(|c| !c.is_whitespace())
+        .collect();
+
+    let value = if unit_text.is_empty() {
+        number.value(0)
+    } else {
+        match resolve_unit(&unit_text, dim, unit)? {
+            Some(Scale::Exp10(e)) => number.value(e),
+            Some(Scale::Factor(k)) => number.value(0) * k,
+            Some(Scale::Celsius) => number.value(0) + CELSIUS_ZERO_K,
+            None => return Err(expected()),
+        }
+    };
+    if !value.is_finite() {
+        return Err(format!("{} (the value is out of range)", expected()));
+    }
+    Ok(value)
+}
+
+/// What a dimension's values look like, for error messages.
+pub(super) fn expectation(dim: Dimension, unit: &str) -> String {
+    match dim {
+        Dimension::Frequency => "expected a frequency such as \"48 kHz\" or a number in Hz".into(),
+        Dimension::Time => {
+            "expected a time such as \"10 s\", \"250 ms\" or \"2 min\", or a number in seconds"
+                .into()
+        }
+        Dimension::Temperature => {
+            "expected a temperature such as \"25 C\" or \"298.15 K\", or a number in kelvin".into()
+        }
+        Dimension::Resistance => {
+            "expected a resistance such as \"10 kOhm\" or \"4.7 k\u{3a9}\", or a number in ohms"
+                .into()
+        }
+        Dimension::Density => format!(
+            "expected a density such as \"4 n{unit}/rtHz\" (or n{unit}/\u{221a}Hz, \
+             n{unit}/sqrt(Hz)), or a number in {unit}/\u{221a}Hz"
+        ),
+        Dimension::Amplitude => {
+            format!("expected an amplitude such as \"10 u{unit}\", or a number in {unit}")
+        }
+    }
+}
+
+/// How a recognised unit maps the number to SI base units.
+enum Scale {
+    /// Multiply by 10^e (exactly, via the decimal exponent).
+    Exp10(i32),
+    /// Multiply by a factor (minutes, hours).
+    Factor(f64),
+    /// Degrees Celsius to kelvin.
+    Celsius,
+}
+
+/// Split `s` into an SI prefix and a remainder equal to one of `symbols`.
+fn prefixed(s: &str, symbols: &[&str]) -> Option<i32> {
+    for sym in symbols {
+        if let Some(head) = s.strip_suffix(sym) {
+            if head.is_empty() {
+                return Some(0);
+            }
+            if let Some(&(_, e)) = PREFIXES.iter().find(|(p, _)| *p == head) {
+                return Some(e);
+            }
+        }
+    }
+    None
+}
+
+/// Recognise `u` (whitespace removed) as a unit of `dim`. `Ok(None)` means "not a unit of this
+/// dimension"; `Err` is a more specific message (a density or amplitude in the wrong unit).
+fn resolve_unit(u: &str, dim: Dimension, unit: &str) -> Result<Option<Scale>, String> {
+    Ok(match dim {
+        Dimension::Frequency => prefixed(u, &["Hz"]).map(Scale::Exp10),
+        Dimension::Time => match u {
+            "min" => Some(Scale::Factor(60.0)),
+            "h" => Some(Scale::Factor(3600.0)),
+            _ => prefixed(u, &["s"]).map(Scale::Exp10),
+        },
+        Dimension::Temperature => match u {
+            "C" | "\u{b0}C" | "\u{2103}" => Some(Scale::Celsius),
+            _ => prefixed(u, &["K"]).map(Scale::Exp10),
+        },
+        Dimension::Resistance => prefixed(u, OHM).map(Scale::Exp10),
+        Dimension::Density => {
+            let Some(numerator) = PER_ROOT_HZ.iter().find_map(|d| u.strip_suffix(d)) else {
+                return Ok(None);
+            };
+            numerator_exp(numerator, unit)?.map(Scale::Exp10)
+        }
+        Dimension::Amplitude => numerator_exp(u, unit)?.map(Scale::Exp10),
+    })
+}
+
+/// The prefix exponent of `V`/`A` with a prefix; an error if it is the other of the two.
+fn numerator_exp(s: &str, unit: &str) -> Result<Option<i32>, String> {
+    if let Some(e) = prefixed(s, &[unit]) {
+        return Ok(Some(e));
+    }
+    for other in ["V", "A"] {
+        if other != unit && prefixed(s, &[other]).is_some() {
+            return Err(format!(
+                "\"{s}\" is in {other}, but this profile's unit is {unit}; write the value in \
+                 {unit} or set unit = \"{other}\""
+            ));
+        }
+    }
+    Ok(None)
+}
+
+/// A lexed decimal number: mantissa text (sign, digits, optional point) and its exponent.
+struct Number<'a> {
+    mantissa: &'a str,
+    exp: i32,
+    /// Bytes of the input taken by the number.
+    len: usize,
+}
+
+impl<'a> Number<'a> {
+    /// Lex the longest decimal number at the start of `s`; `None` if there is none.
+    fn lex(s: &'a str) -> Option<Number<'a>> {
+        let b = s.as_bytes();
+        let mut i = 0;
+        if matches!(b.first(), Some(b'+' | b'-')) {
+            i += 1;
+        }
+        let int_start = i;
+        while i < b.len() && b[i].is_ascii_digit() {
+            i += 1;
+        }
+        let mut digits = i - int_start;
+        if i < b.len() && b[i] == b'.' {
+            i += 1;
+            let frac_start = i;
+            while i < b.len() && b[i].is_ascii_digit() {
+                i += 1;
+            }
+            digits += i - frac_start;
+        }
+        if digits == 0 {
+            return None;
+        }
+        let mantissa = &s[..i];
+        let mut exp = 0i32;
+        // An exponent only counts if digits follow, so "4e" stays a (bad) unit.
+        if i < b.len() && (b[i] == b'e' || b[i] == b'E') {
+            let mut j = i + 1;
+            let neg = match b.get(j) {
+                Some(b'-') => {
+                    j += 1;
+                    true
+                }
+                Some(b'+') => {
+                    j += 1;
+                    false
+                }
+                _ => false,
+            };
+            let exp_start = j;
+            while j < b.len() && b[j].is_ascii_digit() {
+                j += 1;
+            }
+            if j > exp_start {
+                // Saturate: absurd exponents overflow to 0 or infinity in `value`.
+                let e: i32 = s[exp_start..j].parse().unwrap_or(99_999);
+                exp = if neg { -e } else { e };
+                i = j;
+            }
+        }
+        Some(Number {
+            mantissa,
+            exp,
+            len: i,
+        })
+    }
+
+    /// The value times 10^`extra`, with one correctly rounded decimal-to-binary conversion.
+    fn value(&self, extra: i32) -> f64 {
+        let e = self.exp.saturating_add(extra).clamp(-99_999, 99_999);
+        // The mantissa is digits with at most a sign and a point, so this always parses.
+        format!("{}e{e}", self.mantissa)
+            .parse::<f64>()
+            .unwrap_or(f64::NAN)
+    }
 }
 
 /// Format an SI value with an SI prefix and the unit, e.g. `4e-9, "V/√Hz"` → `"4 nV/√Hz"`.
 /// Uses up to 6 significant digits.
+///
+/// The prefix is the engineering one (exponent a multiple of 3) that puts the number in
+/// [1, 1000); trailing zeros are trimmed (`"48 kHz"`, `"10 kΩ"`, `"0 V"`). Values outside the
+/// prefix range f…T are written with an exponent (`"1e-18 V"`). The output parses back with
+/// [`parse_quantity`] for the units that function knows.
 pub fn format_quantity(value: f64, unit: &str) -> String {
-    let _ = (value, unit);
-    todo!()
+    if value == 0.0 {
+        return format!("0 {unit}");
+    }
+    if !value.is_finite() {
+        return format!("{value} {unit}");
+    }
+    // `{:.5e}` rounds correctly to 6 significant digits: "d.ddddde±x", carries included.
+    let sci = format!("{:.5e}", value.abs());
+    let (mant, exp) = sci
+        .split_once('e')
+        .expect("exponent format always has an 'e'");
+    let exp: i32 = exp.parse().expect("exponent is an integer");
+    let digits: String = mant.chars().filter(|c| c.is_ascii_digit()).collect();
+    let eng = exp.div_euclid(3) * 3;
+    let int_len = (exp - eng) as usize + 1;
+    let (int_part, frac_part) = digits.split_at(int_len);
+    let frac_part = frac_part.trim_end_matches('0');
+    let sign = if value < 0.0 { "-" } else { "" };
+    let number = if frac_part.is_empty() {
+        format!("{sign}{int_part}")
+    } else {
+        format!("{sign}{int_part}.{frac_part}")
+    };
+    let prefix = match eng {
+        0 => Some(""),
+        -6 => Some("\u{b5}"),
+        _ => PREFIXES.iter().find(|(_, e)| *e == eng).map(|(p, _)| *p),
+    };
+    match prefix {
+        Some(p) => format!("{number} {p}{unit}"),
+        None => format!("{number}e{eng} {unit}"),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use Dimension::*;
+
+    fn ok(text: &str, dim: Dimension) -> f64 {
+        parse_quantity(text, dim, "V").unwrap_or_else(|e| panic!("{text:?}: {e}"))
+    }
+
+    // Exactness is a property of IEEE 754 correctly rounded conversion (common practice): the
+    // parsed value must be the very same f64 as the literal, so `==` is the right comparison.
+    #[test]
+    fn densities_in_every_spelling_are_exact() {
+        for t in [
+            "4 nV/rtHz",
+            "4nV/rtHz",
+            "4 nV/\u{221a}Hz",
+            "4nV/\u{221a}Hz",
+            "4 nV/sqrt(Hz)",
+            "4e-9 V/rtHz",
+            "4e-9",
+            "0.004 uV/rtHz",
+            "0.004 \u{b5}V/rtHz",
+            "4000 pV/rtHz",
+            "4 nV / rtHz",
+        ] {
+            assert_eq!(ok(t, Density), 4e-9, "{t}");
+        }
+        assert_eq!(ok("1.5 fV/rtHz", Density), 1.5e-15);
+        assert_eq!(
+            parse_quantity("2 pA/\u{221a}Hz", Density, "A").unwrap(),
+            2e-12
+        );
+    }
+
+    #[test]
+    fn frequencies_times_temperatures_resistances_amplitudes() {
+        assert_eq!(ok("48 kHz", Frequency), 48e3);
+        assert_eq!(ok("48kHz", Frequency), 48000.0);
+        assert_eq!(ok("0.1Hz", Frequency), 0.1);
+        assert_eq!(ok("100 mHz", Frequency), 0.1);
+        assert_eq!(ok("1 MHz", Frequency), 1e6);
+        assert_eq!(ok("2.4 GHz", Frequency), 2.4e9);
+        assert_eq!(ok("1 THz", Frequency), 1e12);
+        assert_eq!(ok("20e3 Hz", Frequency), 20e3);
+        assert_eq!(ok("1E-1 Hz", Frequency), 0.1);
+        assert_eq!(ok("48000", Frequency), 48e3);
+        assert_eq!(ok("10 kOhm", Resistance), 10e3);
+        assert_eq!(ok("10 kohm", Resistance), 10e3);
+        assert_eq!(ok("4.7k\u{3a9}", Resistance), 4.7e3);
+        assert_eq!(ok("4.7 k\u{2126}", Resistance), 4700.0);
+        assert_eq!(ok("1 MOhm", Resistance), 1e6);
+        assert_eq!(ok("50 Ohm", Resistance), 50.0);
+        assert_eq!(ok("300 K", Temperature), 300.0);
+        assert_eq!(ok("300", Temperature), 300.0);
+        assert_eq!(ok("20 mK", Temperature), 0.02);
+        // 25 °C = 298.15 K (SI Brochure, 9th ed.: T/K = t/°C + 273.15); one rounding of the sum.
+        assert!((ok("25 C", Temperature) - 298.15).abs() < 1e-12);
+        assert!((ok("25 \u{b0}C", Temperature) - 298.15).abs() < 1e-12);
+        assert!((ok("-40C", Temperature) - 233.15).abs() < 1e-12);
+        assert_eq!(ok("10 s", Time), 10.0);
+        assert_eq!(ok("250 ms", Time), 0.25);
+        assert_eq!(ok("20 us", Time), 20e-6);
+        assert_eq!(ok("20 \u{b5}s", Time), 20e-6);
+        assert_eq!(ok("2 min", Time), 120.0);
+        assert_eq!(ok("1.5 h", Time), 5400.0);
+        assert_eq!(ok("10 uV", Amplitude), 10e-6);
+        assert_eq!(ok("+1.5 V", Amplitude), 1.5);
+        assert_eq!(parse_quantity("1.5 mA", Amplitude, "A").unwrap(), 1.5e-3);
+    }
+
+    #[test]
+    fn prefix_case_and_minutes_are_not_confused() {
+        assert_eq!(ok("1 Ms", Time), 1e6);
+        assert_eq!(ok("1 ms", Time), 1e-3);
+        assert_eq!(ok("1 min", Time), 60.0);
+        assert_eq!(ok("1 MOhm", Resistance), 1e6);
+        assert_eq!(ok("1 mOhm", Resistance), 1e-3);
+        assert!(parse_quantity("1 m", Time, "V").is_err());
+        assert!(parse_quantity("1 mmin", Time, "V").is_err());
+        assert!(parse_quantity("1 mC", Temperature, "V").is_err());
+        assert!(parse_quantity("1 KHz", Frequency, "V").is_err());
+    }
+
+    #[test]
+    fn bad_input_says_what_is_expected() {
+        assert_eq!(
+            parse_quantity("48 kHz2", Frequency, "V").unwrap_err(),
+            "expected a frequency such as \"48 kHz\" or a number in Hz, got \"48 kHz2\""
+        );
+        for (t, dim) in [
+            ("nan", Frequency),
+            ("NaN Hz", Frequency),
+            ("inf Hz", Frequency),
+            ("1e999 Hz", Frequency),
+            ("", Time),
+            ("kHz", Frequency),
+            ("4 nV", Density),
+            ("4 nV/Hz", Density),
+            ("10 kOhm", Frequency),
+            ("4e Hz", Frequency),
+            ("1.2.3 Hz", Frequency),
+        ] {
+            let e = parse_quantity(t, dim, "V").unwrap_err();
+            assert!(e.starts_with("expected a"), "{t}: {e}");
+            assert!(e.contains(&format!("\"{t}\"")), "{t}: {e}");
+        }
+        let e = parse_quantity("4 pA/rtHz", Density, "V").unwrap_err();
+        assert!(e.contains("in A") && e.contains("unit is V"), "{e}");
+        let e = parse_quantity("1.5 mA", Amplitude, "V").unwrap_err();
+        assert!(e.contains("unit = \"A\""), "{e}");
+    }
+
+    #[test]
+    fn format_uses_engineering_prefixes() {
+        assert_eq!(format_quantity(4e-9, "V/\u{221a}Hz"), "4 nV/\u{221a}Hz");
+        assert_eq!(format_quantity(48e3, "Hz"), "48 kHz");
+        assert_eq!(format_quantity(10e3, "\u{3a9}"), "10 k\u{3a9}");
+        assert_eq!(format_quantity(0.0, "V"), "0 V");
+        assert_eq!(format_quantity(1.0, "V"), "1 V");
+        assert_eq!(format_quantity(-2.5e-6, "A"), "-2.5 \u{b5}A");
+        assert_eq!(format_quantity(298.15, "K"), "298.15 K");
+        assert_eq!(format_quantity(123456789.0, "Hz"), "123.457 MHz");
+        assert_eq!(format_quantity(999.9999, "Hz"), "1 kHz");
+        assert_eq!(format_quantity(1e-18, "V"), "1e-18 V");
+    }
+
+    #[test]
+    fn format_then_parse_round_trips() {
+        let cases: [(f64, &str, Dimension); 10] = [
+            (4e-9, "V/\u{221a}Hz", Density),
+            (4.0578e-9, "V/\u{221a}Hz", Density),
+            (1.23456e-7, "V/\u{221a}Hz", Density),
+            (48e3, "Hz", Frequency),
+            (0.1, "Hz", Frequency),
+            (44.1e3, "Hz", Frequency),
+            (4.7e3, "\u{3a9}", Resistance),
+            (60.73, "\u{3a9}", Resistance),
+            (298.15, "K", Temperature),
+            (2.5e-3, "s", Time),
+        ];
+        // Values with at most 6 significant digits survive exactly: both directions are correctly
+        // rounded conversions of the same decimal (IEEE 754, common practice).
+        for (v, u, dim) in cases {
+            let text = format_quantity(v, u);
+            assert_eq!(ok(&text, dim), v, "{text}");
+        }
+        // Any other value comes back within half a unit in the 6th digit: |rel| ≤ 5e-6.
+        for v in [
+            std::f64::consts::PI * 1e-9,
+            1.0 / 3.0,
+            7.777_777_7e5,
+            2.0f64.sqrt() * 1e3,
+        ] {
+            let back = ok(&format_quantity(v, "Hz"), Frequency);
+            assert!(((back - v) / v).abs() <= 5e-6, "{v} -> {back}");
+        }
+    }
 }

@@ -1,10 +1,1078 @@
 //! The TOML schema of a profile file and its validation into a [`Profile`].
+//!
+//! ```toml
+//! name = "bench preamp"        # optional display name
+//! unit = "V"                   # "V" or "A"; optional, default "V"
+//! sample_rate = "48 kHz"       # required; a string with a unit or a number in Hz
+//! [band]                       # required
+//! low = "0.1 Hz"               # required, > 0
+//! high = "20 kHz"              # required, low < high ≤ sample_rate / 2
+//! order = 2                    # optional, 0..=8, default 0 (brick wall)
+//! [[floor]]
+//! name = "input stage"         # optional on every source
+//! density = "4 nV/rtHz"        # required, unit/√Hz
+//! corner = "100 Hz"            # optional; without it the floor is white
+//! slope = 1.0                  # optional, 0 < slope ≤ 2, default 1; needs a corner
+//! [[resistor]]
+//! resistance = "10 kOhm"       # required
+//! temperature = "25 C"         # optional, default 25 °C = 298.15 K
+//! [[table]]
+//! points = [[1.0, 30e-9], [10.0, "12 nV/rtHz"]]   # (Hz, unit/√Hz), ≥ 1 point
+//! ```
+//!
+//! Bare numbers are SI base units (Hz, Ω, K, unit/√Hz); strings carry units
+//! (see [`super::parse_quantity`]). A profile needs at least one source.
+//!
+//! Errors are [`Error::Profile`] with the 1-based line of the offending key or value and a
+//! dotted key path such as `floor[0].density` or `table[1].points[2]`; array indices in key
+//! paths count from 0, while default source names (`floor 1`) count from 1.
 
-use super::Profile;
-use crate::error::Result;
+use std::ops::Range;
+
+use serde::Deserialize;
+use toml::de::{DeTable, DeValue};
+use toml::{Spanned, Value};
+
+use super::quantity::expectation;
+use super::{Band, Dimension, Profile, Source, SourceKind, Unit, format_quantity, parse_quantity};
+use crate::error::{Error, Result};
+
+/// Temperature of a resistor without a `temperature` key: 25 °C in kelvin.
+pub const DEFAULT_TEMPERATURE_K: f64 = 298.15;
+
+/// Highest Butterworth order accepted for `band.order`.
+pub const MAX_ORDER: u32 = 8;
+
+const TOP_KEYS: &[&str] = &[
+    "name",
+    "unit",
+    "sample_rate",
+    "band",
+    "floor",
+    "resistor",
+    "table",
+];
+const BAND_KEYS: &[&str] = &["low", "high", "order"];
+const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
+const RESISTOR_KEYS: &[&str] = &["name", "resistance", "temperature"];
+const TABLE_KEYS: &[&str] = &["name", "points"];
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawProfile {
+    name: Option<Spanned<String>>,
+    unit: Option<Spanned<String>>,
+    sample_rate: Option<Spanned<Value>>,
+    band: Option<Spanned<RawBand>>,
+    #[serde(default)]
+    floor: Vec<Spanned<RawFloor>>,
+    #[serde(default)]
+    resistor: Vec<Spanned<RawResistor>>,
+    #[serde(default)]
+    table: Vec<Spanned<RawTable>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawBand {
+    low: Option<Spanned<Value>>,
+    high: Option<Spanned<Value>>,
+    order: Option<Spanned<Value>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawFloor {
+    name: Option<String>,
+    density: Option<Spanned<Value>>,
+    corner: Option<Spanned<Value>>,
+    slope: Option<Spanned<Value>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawResistor {
+    name: Option<String>,
+    resistance: Option<Spanned<Value>>,
+    temperature: Option<Spanned<Value>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawTable {
+    name: Option<String>,
+    points: Option<Spanned<Vec<Spanned<Value>>>>,
+}
 
 /// Parse and validate a profile from TOML text. `file` is the name used in error messages.
 pub fn parse_profile(text: &str, file: &str) -> Result<Profile> {
-    let _ = (text, file);
-    todo!()
+    let cx = Cx { text, file };
+    let doc = DeTable::parse(text).map_err(|e| {
+        cx.err(
+            "syntax",
+            e.span(),
+            format!("not valid TOML: {}", e.message().trim()),
+        )
+    })?;
+    check_keys(&cx, doc.get_ref())?;
+    let raw = RawProfile::deserialize(toml::de::Deserializer::from(doc.clone())).map_err(|e| {
+        let key = e
+            .span()
+            .and_then(|s| find_path(doc.get_ref(), s.start, ""))
+            .unwrap_or_else(|| "profile".into());
+        cx.err(&key, e.span(), e.message().to_string())
+    })?;
+    validate(&cx, raw)
+}
+
+/// The text being parsed and its file name, for building errors.
+struct Cx<'a> {
+    text: &'a str,
+    file: &'a str,
+}
+
+impl Cx<'_> {
+    fn err(&self, key: &str, span: Option<Range<usize>>, message: impl Into<String>) -> Error {
+        Error::Profile {
+            file: self.file.to_string(),
+            line: span.map(|s| line_of(self.text, s.start)),
+            key: key.to_string(),
+            message: message.into(),
+        }
+    }
+}
+
+/// 1-based line of byte offset `pos` in `text`.
+fn line_of(text: &str, pos: usize) -> usize {
+    let pos = pos.min(text.len());
+    text.as_bytes()[..pos]
+        .iter()
+        .filter(|&&b| b == b'\n')
+        .count()
+        + 1
+}
+
+fn join(prefix: &str, key: &str) -> String {
+    if prefix.is_empty() {
+        key.to_string()
+    } else {
+        format!("{prefix}.{key}")
+    }
+}
+
+fn contains(span: &Range<usize>, pos: usize) -> bool {
+    span.start <= pos && pos < span.end.max(span.start + 1)
+}
+
+/// The dotted path of the deepest key or value whose span holds byte `pos`.
+fn find_path(table: &DeTable<'_>, pos: usize, prefix: &str) -> Option<String> {
+    for (k, v) in table.iter() {
+        let path = join(prefix, k.get_ref());
+        let inner = match v.get_ref() {
+            DeValue::Table(t) => find_path(t, pos, &path),
+            DeValue::Array(a) => a.iter().enumerate().find_map(|(i, e)| {
+                let item = format!("{path}[{i}]");
+                match e.get_ref() {
+                    DeValue::Table(t) => find_path(t, pos, &item)
+                        .or_else(|| contains(&e.span(), pos).then(|| item.clone())),
+                    _ => contains(&e.span(), pos).then_some(item),
+                }
+            }),
+            _ => None,
+        };
+        if inner.is_some() {
+            return inner;
+        }
+        if contains(&k.span(), pos) || contains(&v.span(), pos) {
+            return Some(path);
+        }
+    }
+    None
+}
+
+/// Reject unknown keys (naming the nearest allowed one) and sections of the wrong shape,
+/// reporting the first problem in file order.
+fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
+    let mut problems: Vec<(Range<usize>, String, String)> = Vec::new();
+    unknown_keys(doc, TOP_KEYS, "", &mut problems);
+    for (k, v) in doc.iter() {
+        let name = k.get_ref().as_ref();
+        match (name, v.get_ref()) {
+            ("band", DeValue::Table(t)) => unknown_keys(t, BAND_KEYS, "band", &mut problems),
+            ("band", other) => problems.push((
+                v.span(),
+                "band".into(),
+                format!(
+                    "expected a [band] table with low, high and order, got {}",
+                    a(other.type_str())
+                ),
+            )),
+            ("floor" | "resistor" | "table", value) => {
+                let allowed = match name {
+                    "floor" => FLOOR_KEYS,
+                    "resistor" => RESISTOR_KEYS,
+                    _ => TABLE_KEYS,
+                };
+                match value {
+                    DeValue::Array(items) => {
+                        for (i, item) in items.iter().enumerate() {
+                            let path = format!("{name}[{i}]");
+                            match item.get_ref() {
+                                DeValue::Table(t) => unknown_keys(t, allowed, &path, &mut problems),
+                                other => problems.push((
+                                    item.span(),
+                                    path,
+                                    format!(
+                                        "expected a [[{name}]] table, got {}",
+                                        a(other.type_str())
+                                    ),
+                                )),
+                            }
+                        }
+                    }
+                    other => problems.push((
+                        k.span(),
+                        name.into(),
+                        format!(
+                            "expected [[{name}]] (double brackets: one table per source), \
+                             got {}",
+                            if matches!(other, DeValue::Table(_)) {
+                                "a single [".to_string() + name + "] table"
+                            } else {
+                                a(other.type_str())
+                            }
+                        ),
+                    )),
+                }
+            }
+            _ => {}
+        }
+    }
+    match problems.into_iter().min_by_key(|p| p.0.start) {
+        Some((span, key, message)) => Err(cx.err(&key, Some(span), message)),
+        None => Ok(()),
+    }
+}
+
+fn unknown_keys(
+    table: &DeTable<'_>,
+    allowed: &[&str],
+    prefix: &str,
+    problems: &mut Vec<(Range<usize>, String, String)>,
+) {
+    for (k, _) in table.iter() {
+        let key: &str = k.get_ref();
+        if allowed.contains(&key) {
+            continue;
+        }
+        let here = if prefix.is_empty() {
+            "at the top level".to_string()
+        } else {
+            format!("in {prefix}")
+        };
+        let suggestion = allowed
+            .iter()
+            .map(|a| (edit_distance(&key.to_lowercase(), a), *a))
+            .filter(|(d, a)| *d <= 2.max(a.len() / 3))
+            .min()
+            .map(|(_, a)| format!("; did you mean `{a}`?"))
+            .unwrap_or_default();
+        problems.push((
+            k.span(),
+            join(prefix, key),
+            format!(
+                "unknown key `{key}`{suggestion} (allowed {here}: {})",
+                allowed.join(", ")
+            ),
+        ));
+    }
+}
+
+/// A type name with its indefinite article: "an integer", "a string".
+fn a(type_name: &str) -> String {
+    let article = if type_name.starts_with(['a', 'e', 'i', 'o', 'u']) {
+        "an"
+    } else {
+        "a"
+    };
+    format!("{article} {type_name}")
+}
+
+/// Levenshtein distance in characters.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut prev: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut cur = vec![i + 1; b.len() + 1];
+        for (j, &cb) in b.iter().enumerate() {
+            cur[j + 1] = (prev[j] + usize::from(ca != cb))
+                .min(prev[j + 1] + 1)
+                .min(cur[j] + 1);
+        }
+        prev = cur;
+    }
+    prev[b.len()]
+}
+
+/// A number or a string with a unit, resolved to SI base units and checked finite.
+fn quantity(
+    cx: &Cx<'_>,
+    value: &Value,
+    span: Range<usize>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+) -> Result<f64> {
+    let sym = unit.symbol();
+    let x = match value {
+        Value::Float(x) => *x,
+        Value::Integer(i) => *i as f64,
+        Value::String(s) => {
+            parse_quantity(s, dim, sym).map_err(|m| cx.err(key, Some(span.clone()), m))?
+        }
+        other => {
+            return Err(cx.err(
+                key,
+                Some(span),
+                format!("{}, got {}", expectation(dim, sym), a(other.type_str())),
+            ));
+        }
+    };
+    if !x.is_finite() {
+        return Err(cx.err(
+            key,
+            Some(span),
+            format!("{}, got {x}", expectation(dim, sym)),
+        ));
+    }
+    Ok(x)
+}
+
+fn spanned_quantity(
+    cx: &Cx<'_>,
+    v: &Spanned<Value>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+) -> Result<f64> {
+    quantity(cx, v.get_ref(), v.span(), key, dim, unit)
+}
+
+/// SI symbol used when quoting a value of `dim` back to the user.
+fn symbol(dim: Dimension, unit: Unit) -> String {
+    match dim {
+        Dimension::Frequency => "Hz".into(),
+        Dimension::Time => "s".into(),
+        Dimension::Temperature => "K".into(),
+        Dimension::Resistance => "\u{3a9}".into(),
+        Dimension::Density => format!("{}/\u{221a}Hz", unit.symbol()),
+        Dimension::Amplitude => unit.symbol().into(),
+    }
+}
+
+/// A required positive quantity.
+fn positive(cx: &Cx<'_>, v: &Spanned<Value>, key: &str, dim: Dimension, unit: Unit) -> Result<f64> {
+    let x = spanned_quantity(cx, v, key, dim, unit)?;
+    if x > 0.0 {
+        Ok(x)
+    } else {
+        Err(cx.err(
+            key,
+            Some(v.span()),
+            format!(
+                "must be > 0, got {}",
+                format_quantity(x, &symbol(dim, unit))
+            ),
+        ))
+    }
+}
+
+/// A missing required key: the error points at the enclosing table.
+fn missing(cx: &Cx<'_>, key: &str, span: Option<Range<usize>>, example: &str) -> Error {
+    cx.err(key, span, format!("missing; expected e.g. {example}"))
+}
+
+fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
+    let unit = match &raw.unit {
+        None => Unit::Volt,
+        Some(u) => match u.get_ref().as_str() {
+            "V" => Unit::Volt,
+            "A" => Unit::Ampere,
+            other => {
+                return Err(cx.err(
+                    "unit",
+                    Some(u.span()),
+                    format!("expected \"V\" (volts) or \"A\" (amperes), got \"{other}\""),
+                ));
+            }
+        },
+    };
+
+    let Some(fs_v) = &raw.sample_rate else {
+        return Err(missing(cx, "sample_rate", None, "sample_rate = \"48 kHz\""));
+    };
+    let fs = positive(cx, fs_v, "sample_rate", Dimension::Frequency, unit)?;
+
+    let Some(band) = &raw.band else {
+        return Err(missing(
+            cx,
+            "band",
+            None,
+            "[band] with low = \"20 Hz\" and high = \"20 kHz\"",
+        ));
+    };
+    let band_span = Some(band.span());
+    let band = band.get_ref();
+    let low_v = band
+        .low
+        .as_ref()
+        .ok_or_else(|| missing(cx, "band.low", band_span.clone(), "low = \"20 Hz\""))?;
+    let high_v = band
+        .high
+        .as_ref()
+        .ok_or_else(|| missing(cx, "band.high", band_span.clone(), "high = \"20 kHz\""))?;
+    let low = positive(cx, low_v, "band.low", Dimension::Frequency, unit)?;
+    let high = positive(cx, high_v, "band.high", Dimension::Frequency, unit)?;
+    let hz = |x: f64| format_quantity(x, "Hz");
+    if low >= high {
+        return Err(cx.err(
+            "band.low",
+            Some(low_v.span()),
+            format!(
+                "band.low ({}) must be below band.high ({})",
+                hz(low),
+                hz(high)
+            ),
+        ));
+    }
+    let nyquist = fs / 2.0;
+    if high > nyquist {
+        return Err(cx.err(
+            "band.high",
+            Some(high_v.span()),
+            format!(
+                "{} is above the Nyquist frequency {} (half the sample rate {}); \
+                 lower band.high or raise sample_rate",
+                hz(high),
+                hz(nyquist),
+                hz(fs)
+            ),
+        ));
+    }
+    let order = match &band.order {
+        None => 0,
+        Some(o) => match o.get_ref() {
+            Value::Integer(n) if (0..=i64::from(MAX_ORDER)).contains(n) => *n as u32,
+            other => {
+                return Err(cx.err(
+                    "band.order",
+                    Some(o.span()),
+                    format!(
+                        "expected an integer from 0 (brick wall) to {MAX_ORDER} \
+                         (Butterworth order), got {other}"
+                    ),
+                ));
+            }
+        },
+    };
+
+    let mut sources = Vec::new();
+    for (i, f) in raw.floor.iter().enumerate() {
+        let key = |k: &str| format!("floor[{i}].{k}");
+        let span = Some(f.span());
+        let f = f.get_ref();
+        let d = f
+            .density
+            .as_ref()
+            .ok_or_else(|| missing(cx, &key("density"), span, "density = \"4 nV/rtHz\""))?;
+        let density = positive(cx, d, &key("density"), Dimension::Density, unit)?;
+        let corner_hz = match &f.corner {
+            Some(c) => Some(positive(cx, c, &key("corner"), Dimension::Frequency, unit)?),
+            None => None,
+        };
+        let slope = match &f.slope {
+            None => 1.0,
+            Some(s) => {
+                let k = key("slope");
+                let x = match s.get_ref() {
+                    Value::Float(x) => *x,
+                    Value::Integer(n) => *n as f64,
+                    _ => f64::NAN,
+                };
+                if !(x > 0.0 && x <= 2.0) {
+                    return Err(cx.err(
+                        &k,
+                        Some(s.span()),
+                        format!(
+                            "expected a number with 0 < slope <= 2 (1 = 1/f), got {}",
+                            s.get_ref()
+                        ),
+                    ));
+                }
+                if corner_hz.is_none() {
+                    return Err(cx.err(
+                        &k,
+                        Some(s.span()),
+                        "slope has no effect without a corner; add e.g. corner = \"100 Hz\" \
+                         or remove slope",
+                    ));
+                }
+                x
+            }
+        };
+        sources.push(Source {
+            name: f.name.clone().unwrap_or_else(|| format!("floor {}", i + 1)),
+            kind: SourceKind::Floor {
+                density,
+                corner_hz,
+                slope,
+            },
+        });
+    }
+    for (i, r) in raw.resistor.iter().enumerate() {
+        let key = |k: &str| format!("resistor[{i}].{k}");
+        let span = Some(r.span());
+        let r = r.get_ref();
+        let rv = r
+            .resistance
+            .as_ref()
+            .ok_or_else(|| missing(cx, &key("resistance"), span, "resistance = \"10 kOhm\""))?;
+        let resistance_ohm = positive(cx, rv, &key("resistance"), Dimension::Resistance, unit)?;
+        let temperature_k = match &r.temperature {
+            None => DEFAULT_TEMPERATURE_K,
+            Some(t) => positive(cx, t, &key("temperature"), Dimension::Temperature, unit)?,
+        };
+        sources.push(Source {
+            name: r.name.clone().unwrap_or_else(|| {
+                format!(
+                    "resistor {} ({})",
+                    i + 1,
+                    format_quantity(resistance_ohm, "\u{3a9}")
+                )
+            }),
+            kind: SourceKind::Resistor {
+                resistance_ohm,
+                temperature_k,
+            },
+        });
+    }
+    for (i, t) in raw.table.iter().enumerate() {
+        let key = format!("table[{i}].points");
+        let span = Some(t.span());
+        let t = t.get_ref();
+        let pts = t.points.as_ref().ok_or_else(|| {
+            missing(
+                cx,
+                &key,
+                span.clone(),
+                "points = [[10.0, 20e-9], [1000.0, 5e-9]] (Hz, unit/\u{221a}Hz)",
+            )
+        })?;
+        if pts.get_ref().is_empty() {
+            return Err(cx.err(
+                &key,
+                Some(pts.span()),
+                "needs at least one [frequency, density] point",
+            ));
+        }
+        let mut points: Vec<(f64, f64)> = Vec::with_capacity(pts.get_ref().len());
+        for (j, p) in pts.get_ref().iter().enumerate() {
+            let pkey = format!("{key}[{j}]");
+            let pair = match p.get_ref() {
+                Value::Array(a) if a.len() == 2 => a,
+                other => {
+                    return Err(cx.err(
+                        &pkey,
+                        Some(p.span()),
+                        format!(
+                            "expected a [frequency, density] pair such as [10.0, 20e-9] or \
+                             [\"10 Hz\", \"20 n{}/rtHz\"], got {other}",
+                            unit.symbol()
+                        ),
+                    ));
+                }
+            };
+            let f = quantity(cx, &pair[0], p.span(), &pkey, Dimension::Frequency, unit)?;
+            let d = quantity(cx, &pair[1], p.span(), &pkey, Dimension::Density, unit)?;
+            if f <= 0.0 {
+                return Err(cx.err(
+                    &pkey,
+                    Some(p.span()),
+                    format!("the frequency must be > 0 Hz, got {}", hz(f)),
+                ));
+            }
+            if d <= 0.0 {
+                return Err(cx.err(
+                    &pkey,
+                    Some(p.span()),
+                    format!(
+                        "the density must be > 0, got {}",
+                        format_quantity(d, &symbol(Dimension::Density, unit))
+                    ),
+                ));
+            }
+            if let Some(&(prev, _)) = points.last() {
+                if f <= prev {
+                    return Err(cx.err(
+                        &pkey,
+                        Some(p.span()),
+                        format!(
+                            "frequencies must increase strictly: {} follows {}",
+                            hz(f),
+                            hz(prev)
+                        ),
+                    ));
+                }
+            }
+            points.push((f, d));
+        }
+        sources.push(Source {
+            name: t.name.clone().unwrap_or_else(|| format!("table {}", i + 1)),
+            kind: SourceKind::Table { points },
+        });
+    }
+    if sources.is_empty() {
+        return Err(cx.err(
+            "sources",
+            None,
+            "a profile needs at least one [[floor]], [[resistor]] or [[table]]",
+        ));
+    }
+
+    Ok(Profile {
+        name: raw.name.as_ref().map(|n| n.get_ref().clone()),
+        unit,
+        sample_rate_hz: fs,
+        band: Band {
+            low_hz: low,
+            high_hz: high,
+            order,
+        },
+        sources,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const GOOD: &str = r#"name = "bench preamp"
+unit = "V"
+sample_rate = "48 kHz"
+[band]
+low = "0.1 Hz"
+high = "20 kHz"
+order = 2
+[[floor]]
+name = "input stage"
+density = "4 nV/rtHz"
+corner = "100 Hz"
+slope = 1.5
+[[floor]]
+density = 2e-9
+[[resistor]]
+resistance = "10 kOhm"
+[[resistor]]
+resistance = 50
+temperature = "300 K"
+[[table]]
+points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
+"#;
+
+    /// (key, line, message) of the error `text` gives.
+    fn fail(text: &str) -> (String, Option<usize>, String) {
+        match parse_profile(text, "t.toml") {
+            Err(Error::Profile {
+                file,
+                line,
+                key,
+                message,
+            }) => {
+                assert_eq!(file, "t.toml");
+                (key, line, message)
+            }
+            other => panic!("expected a profile error, got {other:?}"),
+        }
+    }
+
+    /// `GOOD` with the line starting `old` replaced by `new` (or removed if `new` is empty).
+    fn edit(old: &str, new: &str) -> String {
+        let mut found = false;
+        let out: Vec<&str> = GOOD
+            .lines()
+            .filter_map(|l| {
+                if !found && l.starts_with(old) {
+                    found = true;
+                    (!new.is_empty()).then_some(new)
+                } else {
+                    Some(l)
+                }
+            })
+            .collect();
+        assert!(found, "no line starts with {old:?}");
+        out.join("\n") + "\n"
+    }
+
+    #[test]
+    fn a_full_profile_resolves_to_si_units_with_default_names() {
+        let p = parse_profile(GOOD, "t.toml").unwrap();
+        assert_eq!(p.name.as_deref(), Some("bench preamp"));
+        assert_eq!(p.unit, Unit::Volt);
+        assert_eq!(p.sample_rate_hz, 48e3);
+        assert_eq!(
+            p.band,
+            Band {
+                low_hz: 0.1,
+                high_hz: 20e3,
+                order: 2
+            }
+        );
+        let names: Vec<&str> = p.sources.iter().map(|s| s.name.as_str()).collect();
+        assert_eq!(
+            names,
+            [
+                "input stage",
+                "floor 2",
+                "resistor 1 (10 k\u{3a9})",
+                "resistor 2 (50 \u{3a9})",
+                "table 1"
+            ]
+        );
+        assert_eq!(
+            p.sources[0].kind,
+            SourceKind::Floor {
+                density: 4e-9,
+                corner_hz: Some(100.0),
+                slope: 1.5
+            }
+        );
+        assert_eq!(
+            p.sources[1].kind,
+            SourceKind::Floor {
+                density: 2e-9,
+                corner_hz: None,
+                slope: 1.0
+            }
+        );
+        assert_eq!(
+            p.sources[2].kind,
+            SourceKind::Resistor {
+                resistance_ohm: 10e3,
+                temperature_k: DEFAULT_TEMPERATURE_K
+            }
+        );
+        assert_eq!(
+            p.sources[3].kind,
+            SourceKind::Resistor {
+                resistance_ohm: 50.0,
+                temperature_k: 300.0
+            }
+        );
+        assert_eq!(
+            p.sources[4].kind,
+            SourceKind::Table {
+                points: vec![(1.0, 30e-9), (10.0, 12e-9), (1000.0, 5e-9)]
+            }
+        );
+    }
+
+    #[test]
+    fn defaults_unit_volt_order_zero_and_25_celsius() {
+        let p = parse_profile(
+            "sample_rate = 1000\n[band]\nlow = 1\nhigh = 500\n[[resistor]]\nresistance = 1e3\n",
+            "t.toml",
+        )
+        .unwrap();
+        assert_eq!(p.unit, Unit::Volt);
+        assert_eq!(p.band.order, 0);
+        assert_eq!(p.name, None);
+        // 25 °C = 298.15 K (SI Brochure, 9th ed.).
+        assert_eq!(
+            p.sources[0].kind,
+            SourceKind::Resistor {
+                resistance_ohm: 1e3,
+                temperature_k: 298.15
+            }
+        );
+        let a = parse_profile(
+            &edit("unit", "unit = \"A\"").replace("nV/rtHz", "pA/rtHz"),
+            "t",
+        )
+        .unwrap();
+        assert_eq!(a.unit, Unit::Ampere);
+    }
+
+    #[test]
+    fn inline_tables_are_the_same_profile() {
+        let inline = "sample_rate = \"48 kHz\"\nband = { low = \"0.1 Hz\", high = \"20 kHz\", order = 2 }\n\
+                      floor = [{ density = \"4 nV/rtHz\", corner = 100 }]\n";
+        let tables = "sample_rate = 48000\n[band]\nlow = 0.1\nhigh = 20e3\norder = 2\n\
+                      [[floor]]\ndensity = 4e-9\ncorner = \"100 Hz\"\n";
+        assert_eq!(
+            parse_profile(inline, "a").unwrap(),
+            parse_profile(tables, "b").unwrap()
+        );
+        let (k, l, _) = fail("sample_rate = 1\nfloor = [{ density = 1 }, { dens = 1 }]\n");
+        assert_eq!((k.as_str(), l), ("floor[1].dens", Some(2)));
+    }
+
+    #[test]
+    fn band_high_above_nyquist_names_the_key_line_and_24_khz() {
+        let (key, line, msg) = fail(&edit("high", "high = \"30 kHz\""));
+        assert_eq!((key.as_str(), line), ("band.high", Some(6)));
+        assert!(msg.contains("24 kHz") && msg.contains("Nyquist"), "{msg}");
+        // Exactly at Nyquist is allowed.
+        assert!(parse_profile(&edit("high", "high = \"24 kHz\""), "t").is_ok());
+    }
+
+    #[test]
+    fn every_validation_error_has_its_key_and_line() {
+        let cases: &[(&str, &str, &str, usize, &str)] = &[
+            ("unit", "unit = \"mV\"", "unit", 2, "\"V\""),
+            ("sample_rate", "sample_rate = 0", "sample_rate", 3, "> 0"),
+            (
+                "sample_rate",
+                "sample_rate = \"48 kHz2\"",
+                "sample_rate",
+                3,
+                "\"48 kHz2\"",
+            ),
+            (
+                "sample_rate",
+                "sample_rate = nan",
+                "sample_rate",
+                3,
+                "frequency",
+            ),
+            (
+                "sample_rate",
+                "sample_rate = true",
+                "sample_rate",
+                3,
+                "boolean",
+            ),
+            ("low", "low = \"-1 Hz\"", "band.low", 5, "> 0"),
+            ("low", "low = \"30 kHz\"", "band.low", 5, "below band.high"),
+            ("low", "low = \"20 kHz\"", "band.low", 5, "below band.high"),
+            ("order", "order = 9", "band.order", 7, "0 (brick wall) to 8"),
+            ("order", "order = 1.5", "band.order", 7, "integer"),
+            ("order", "order = -1", "band.order", 7, "integer"),
+            (
+                "density = \"4",
+                "density = \"0 nV/rtHz\"",
+                "floor[0].density",
+                10,
+                "> 0",
+            ),
+            (
+                "density = \"4",
+                "density = \"4 pA/rtHz\"",
+                "floor[0].density",
+                10,
+                "unit is V",
+            ),
+            (
+                "density = 2e-9",
+                "density = -inf",
+                "floor[1].density",
+                14,
+                "density",
+            ),
+            ("corner", "corner = \"0 Hz\"", "floor[0].corner", 11, "> 0"),
+            (
+                "slope",
+                "slope = 2.5",
+                "floor[0].slope",
+                12,
+                "0 < slope <= 2",
+            ),
+            ("slope", "slope = 0", "floor[0].slope", 12, "0 < slope <= 2"),
+            (
+                "slope",
+                "slope = \"1\"",
+                "floor[0].slope",
+                12,
+                "0 < slope <= 2",
+            ),
+            (
+                "density = 2e-9",
+                "density = 2e-9\nslope = 1",
+                "floor[1].slope",
+                15,
+                "corner",
+            ),
+            (
+                "resistance = \"10",
+                "resistance = \"-10 kOhm\"",
+                "resistor[0].resistance",
+                16,
+                "> 0",
+            ),
+            (
+                "temperature",
+                "temperature = \"-300 C\"",
+                "resistor[1].temperature",
+                19,
+                "> 0",
+            ),
+            (
+                "temperature",
+                "temperature = \"300 Hz\"",
+                "resistor[1].temperature",
+                19,
+                "temperature such as",
+            ),
+            (
+                "points",
+                "points = []",
+                "table[0].points",
+                21,
+                "at least one",
+            ),
+            (
+                "points",
+                "points = [[10.0, 1e-9], [1.0, 2e-9]]",
+                "table[0].points[1]",
+                21,
+                "increase strictly",
+            ),
+            (
+                "points",
+                "points = [[1.0, 1e-9], [1.0, 2e-9]]",
+                "table[0].points[1]",
+                21,
+                "increase strictly",
+            ),
+            (
+                "points",
+                "points = [[0.0, 1e-9]]",
+                "table[0].points[0]",
+                21,
+                "> 0 Hz",
+            ),
+            (
+                "points",
+                "points = [[1.0, 0.0]]",
+                "table[0].points[0]",
+                21,
+                "> 0",
+            ),
+            (
+                "points",
+                "points = [[1.0, 1e-9, 3]]",
+                "table[0].points[0]",
+                21,
+                "pair",
+            ),
+            (
+                "points",
+                "points = [\n  [1.0, 1e-9],\n  [2.0, \"1 nV\"],\n]",
+                "table[0].points[1]",
+                23,
+                "density such as",
+            ),
+        ];
+        for &(old, new, key, line, needle) in cases {
+            let (k, l, msg) = fail(&edit(old, new));
+            assert_eq!((k.as_str(), l), (key, Some(line)), "{new}: {msg}");
+            assert!(msg.contains(needle), "{new}: {msg:?} lacks {needle:?}");
+        }
+    }
+
+    #[test]
+    fn missing_keys_are_reported() {
+        let (k, l, msg) = fail(&edit("sample_rate", ""));
+        assert_eq!((k.as_str(), l), ("sample_rate", None));
+        assert!(msg.contains("48 kHz"), "{msg}");
+        let (k, l, _) = fail(&edit("high", ""));
+        assert_eq!((k.as_str(), l), ("band.high", Some(4)));
+        let (k, l, _) = fail(&edit("density = 2e-9", ""));
+        assert_eq!((k.as_str(), l), ("floor[1].density", Some(13)));
+        let (k, _, _) = fail(&edit("resistance = 50", ""));
+        assert_eq!(k, "resistor[1].resistance");
+        let (k, l, _) = fail(&edit("points", ""));
+        assert_eq!((k.as_str(), l), ("table[0].points", Some(20)));
+        let (k, l, msg) = fail("sample_rate = 1000\n[band]\nlow = 1\nhigh = 10\n");
+        assert_eq!((k.as_str(), l), ("sources", None));
+        assert!(msg.contains("at least one [[floor]], [[resistor]] or [[table]]"));
+    }
+
+    #[test]
+    fn unknown_keys_are_named_with_a_suggestion() {
+        let (k, l, msg) = fail(&edit("density = 2e-9", "dnesity = 2e-9"));
+        assert_eq!((k.as_str(), l), ("floor[1].dnesity", Some(14)));
+        assert!(
+            msg.contains("`dnesity`") && msg.contains("did you mean `density`"),
+            "{msg}"
+        );
+        let (k, l, msg) = fail(&edit("order", "ordre = 2"));
+        assert_eq!((k.as_str(), l), ("band.ordre", Some(7)));
+        assert!(
+            msg.contains("`order`") && msg.contains("low, high, order"),
+            "{msg}"
+        );
+        let (k, l, msg) = fail(&edit("name = \"bench", "samplerate = 5"));
+        assert_eq!((k.as_str(), l), ("samplerate", Some(1)));
+        assert!(msg.contains("did you mean `sample_rate`"), "{msg}");
+        let (k, _, msg) = fail(&edit("name = \"bench", "colour = 5"));
+        assert_eq!(k, "colour");
+        assert!(
+            !msg.contains("did you mean") && msg.contains("allowed"),
+            "{msg}"
+        );
+        // Two unknown keys: the first in the file is reported.
+        let (k, _, _) = fail(&edit("slope", "zzz = 1\n[[floor]]\naaa = 1"));
+        assert_eq!(k, "floor[0].zzz");
+    }
+
+    #[test]
+    fn wrong_shapes_and_syntax_errors_have_lines() {
+        let (k, l, msg) =
+            fail("sample_rate = 10\n[band]\nlow = 1\nhigh = 2\n[resistor]\nresistance = 50\n");
+        assert_eq!((k.as_str(), l), ("resistor", Some(5)));
+        assert!(msg.contains("[[resistor]]"), "{msg}");
+        // The same section written both ways is a TOML error, reported at its line.
+        let (k, l, msg) = fail(&GOOD.replace(
+            "[[resistor]]\nresistance = 50",
+            "[resistor]\nresistance = 50",
+        ));
+        assert_eq!((k.as_str(), l), ("syntax", Some(17)), "{msg}");
+        let (k, l, msg) = fail("sample_rate = 10\nband = 3\n");
+        assert_eq!((k.as_str(), l), ("band", Some(2)));
+        assert!(msg.contains("[band] table"), "{msg}");
+        let (k, l, _) = fail(&edit("name = \"bench", "name = 3"));
+        assert_eq!((k.as_str(), l), ("name", Some(1)));
+        let (k, l, msg) = fail(&edit("corner", "corner = \"100 Hz"));
+        assert_eq!((k.as_str(), l), ("syntax", Some(11)));
+        assert!(msg.starts_with("not valid TOML"), "{msg}");
+        let (_, l, _) = fail("sample_rate = 10\n\n\nsample_rate = 20\n");
+        assert_eq!(l, Some(4));
+    }
+
+    #[test]
+    fn display_shows_file_line_and_key() {
+        let e = parse_profile(&edit("high", "high = \"30 kHz\""), "bench.toml").unwrap_err();
+        assert!(
+            e.to_string().starts_with("bench.toml:6: band.high: "),
+            "{e}"
+        );
+        assert_eq!(e.exit_code(), 2);
+    }
+
+    #[test]
+    fn every_bundled_profile_parses() {
+        let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/profiles");
+        let mut n = 0;
+        for entry in std::fs::read_dir(dir).unwrap() {
+            let path = entry.unwrap().path();
+            if path.extension().is_some_and(|e| e == "toml") {
+                let text = std::fs::read_to_string(&path).unwrap();
+                let p = parse_profile(&text, &path.display().to_string())
+                    .unwrap_or_else(|e| panic!("{e}"));
+                assert!(!p.sources.is_empty());
+                n += 1;
+            }
+        }
+        assert!(n >= 5, "found only {n} profiles in {dir}");
+    }
 }
