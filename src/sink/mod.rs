@@ -1,1 +1,730 @@
 //! Writers behind one [`Sink`] trait: WAV, CSV, raw; the manifest.
+//!
+//! Engines hand a sink blocks of **physical** samples (the profile's [`Unit`], volts or
+//! amperes). The sink scales them to digital units, clips, quantises and encodes them; the
+//! engine never knows the format. Every writer works on any [`std::io::Write`] (a file, a
+//! pipe, stdout, a `Vec<u8>`); none needs `Seek`, so WAV needs the total sample count up front
+//! ([`SinkSpec::frames`]).
+//!
+//! # Scaling and quantisation
+//!
+//! * `full_scale` (in [`Unit`]) is the physical value mapped to digital 1.0. A sample `x`
+//!   becomes `d = x / full_scale`. With no full scale, float formats store `x` itself.
+//! * Clipping: `|d| > 1.0` is clipped to ±1.0 and counted in [`SinkReport::clipped`]. This
+//!   applies to float formats too when a full scale is given (float WAV is nominally ±1.0,
+//!   Microsoft RIFF/WAVE Rev. 3, REFERENCES §10).
+//! * Integer codes: `code = round(d · (2^(b−1) − 1))`, rounding half away from zero (mid-tread:
+//!   0.0 is a code). So digital ±1.0 ↔ ±(2^(b−1) − 1), e.g. ±32767 for i16; the range is
+//!   symmetric and the most negative code −2^(b−1) is never written. One LSB is
+//!   `full_scale / (2^(b−1) − 1)`, which differs from the `FSR/2^b` of IEEE Std 1241 (REFERENCES
+//!   §9) by the factor `2^b/(2^b − 2)` (3·10⁻⁵ for 16 bits). Common practice; chosen so
+//!   clipping is exactly `|d| > 1.0` for every format.
+//! * Non-finite samples (NaN, ±∞) are refused with an error before any of the block is
+//!   encoded.
+//!
+//! When the output can reach hardware (a DAC, an amplifier, a bench source), check the
+//! full scale against the device's input range before playing it: a file at digital full
+//! scale drives the device to its maximum output.
+//!
+//! [`Unit`]: crate::profile::Unit
+
+mod csv;
+mod manifest;
+mod raw;
+mod wav;
+
+pub use csv::CsvSink;
+pub use manifest::{
+    DBFS_CONVENTION, Manifest, dbfs_from_rms_digital, rms_digital_from_dbfs, write_manifest,
+};
+pub use raw::RawSink;
+pub use wav::{WavSink, check_wav_size, wav_bytes, wav_max_frames};
+
+use std::fmt;
+use std::io::{self, Write};
+use std::str::FromStr;
+
+use serde::Serialize;
+
+use crate::error::{Error, Result};
+use crate::profile::Unit;
+
+/// Samples encoded per inner loop; keeps the byte buffer near [`FLUSH_BYTES`].
+const CHUNK_SAMPLES: usize = 16 * 1024;
+/// The byte buffer is handed to `write_all` once it holds at least this much (64 KiB).
+const FLUSH_BYTES: usize = 64 * 1024;
+
+/// Output container.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Format {
+    /// RIFF/WAVE, mono, with a header written first (needs the total sample count).
+    Wav,
+    /// Text: a header line, then `time,value` per sample.
+    Csv,
+    /// Headerless little-endian samples.
+    Raw,
+}
+
+impl Format {
+    /// The format for a file extension (with or without the dot, any case): `wav`; `csv`;
+    /// `raw`, `bin`, `f32`, `f64`, `i16`, `i24`, `i32` → [`Format::Raw`]. `None` otherwise.
+    pub fn from_extension(ext: &str) -> Option<Format> {
+        let e = ext.strip_prefix('.').unwrap_or(ext).to_ascii_lowercase();
+        match e.as_str() {
+            "wav" => Some(Format::Wav),
+            "csv" => Some(Format::Csv),
+            "raw" | "bin" | "f32" | "f64" | "i16" | "i24" | "i32" => Some(Format::Raw),
+            _ => None,
+        }
+    }
+
+    /// The format's name as accepted by [`FromStr`]: `"wav"`, `"csv"` or `"raw"`.
+    pub fn name(self) -> &'static str {
+        match self {
+            Format::Wav => "wav",
+            Format::Csv => "csv",
+            Format::Raw => "raw",
+        }
+    }
+}
+
+impl fmt::Display for Format {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+impl FromStr for Format {
+    type Err = Error;
+
+    /// Parses `wav`, `csv` or `raw` (any case).
+    fn from_str(s: &str) -> Result<Format> {
+        match s.to_ascii_lowercase().as_str() {
+            "wav" => Ok(Format::Wav),
+            "csv" => Ok(Format::Csv),
+            "raw" => Ok(Format::Raw),
+            _ => Err(Error::option(
+                "--format",
+                format!("unknown format \"{s}\"; expected wav, csv or raw"),
+            )),
+        }
+    }
+}
+
+/// How one sample is stored.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum SampleFormat {
+    /// IEEE 754 binary32, 4 bytes.
+    F32,
+    /// IEEE 754 binary64, 8 bytes (raw and CSV only).
+    F64,
+    /// Signed 16-bit integer code, 2 bytes.
+    I16,
+    /// Signed 24-bit integer code, 3 bytes packed little-endian.
+    I24,
+    /// Signed 32-bit integer code, 4 bytes.
+    I32,
+}
+
+impl SampleFormat {
+    /// Every sample format, in a fixed order.
+    pub const ALL: [SampleFormat; 5] = [
+        SampleFormat::F32,
+        SampleFormat::F64,
+        SampleFormat::I16,
+        SampleFormat::I24,
+        SampleFormat::I32,
+    ];
+
+    /// Bytes per stored sample: 4, 8, 2, 3, 4.
+    pub fn bytes(self) -> usize {
+        match self {
+            SampleFormat::F32 => 4,
+            SampleFormat::F64 => 8,
+            SampleFormat::I16 => 2,
+            SampleFormat::I24 => 3,
+            SampleFormat::I32 => 4,
+        }
+    }
+
+    /// True for the integer (PCM code) formats.
+    pub fn is_integer(self) -> bool {
+        matches!(
+            self,
+            SampleFormat::I16 | SampleFormat::I24 | SampleFormat::I32
+        )
+    }
+
+    /// The name as accepted by [`FromStr`]: `"f32"`, `"f64"`, `"i16"`, `"i24"`, `"i32"`.
+    pub fn name(self) -> &'static str {
+        match self {
+            SampleFormat::F32 => "f32",
+            SampleFormat::F64 => "f64",
+            SampleFormat::I16 => "i16",
+            SampleFormat::I24 => "i24",
+            SampleFormat::I32 => "i32",
+        }
+    }
+
+    /// The integer code of digital +1.0, `2^(b−1) − 1` (32767 for i16); `None` for floats.
+    /// Digital −1.0 is its negative (see the module docs).
+    pub fn full_scale_code(self) -> Option<i32> {
+        match self {
+            SampleFormat::I16 => Some(i16::MAX as i32),
+            SampleFormat::I24 => Some((1 << 23) - 1),
+            SampleFormat::I32 => Some(i32::MAX),
+            SampleFormat::F32 | SampleFormat::F64 => None,
+        }
+    }
+
+    /// The sample format named by a raw file extension (`f32`, `f64`, `i16`, `i24`, `i32`,
+    /// with or without the dot, any case); `None` for any other extension.
+    pub fn from_extension(ext: &str) -> Option<SampleFormat> {
+        let e = ext.strip_prefix('.').unwrap_or(ext);
+        e.parse().ok()
+    }
+}
+
+impl fmt::Display for SampleFormat {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+impl FromStr for SampleFormat {
+    type Err = Error;
+
+    /// Parses `f32`, `f64`, `i16`, `i24` or `i32` (any case).
+    fn from_str(s: &str) -> Result<SampleFormat> {
+        let l = s.to_ascii_lowercase();
+        SampleFormat::ALL
+            .into_iter()
+            .find(|f| f.name() == l)
+            .ok_or_else(|| {
+                Error::option(
+                    "--sample-format",
+                    format!("unknown sample format \"{s}\"; expected f32, f64, i16, i24 or i32"),
+                )
+            })
+    }
+}
+
+/// Everything a sink needs to know before the first sample.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SinkSpec {
+    /// Output container.
+    pub format: Format,
+    /// How each sample is stored (for CSV: only matters with a full scale, see [`CsvSink`]).
+    pub sample_format: SampleFormat,
+    /// Sample rate in samples per second (Hz), e.g. 48000. WAV needs a whole number.
+    pub sample_rate_hz: f64,
+    /// The physical value (in `unit`) mapped to digital 1.0, e.g. 1.0 for ±1 V. `None` writes
+    /// physical values; allowed only for float raw and CSV output.
+    pub full_scale: Option<f64>,
+    /// Total number of samples (mono: frames) when known in advance. WAV requires it: its
+    /// header is written first and states the data size.
+    pub frames: Option<u64>,
+    /// The physical unit of the samples handed to [`Sink::write`].
+    pub unit: Unit,
+}
+
+impl SinkSpec {
+    /// Checks that the spec can be written at all, before any output: a positive sample rate,
+    /// a positive finite full scale where one is needed, and the format's own limits (for
+    /// WAV: no f64, a whole sample rate, a known sample count, the 4 GiB size limit).
+    pub fn validate(&self) -> Result<()> {
+        if !(self.sample_rate_hz.is_finite() && self.sample_rate_hz > 0.0) {
+            return Err(Error::option(
+                "--sample-rate",
+                format!(
+                    "sample rate {} Hz must be a positive number of samples per second",
+                    self.sample_rate_hz
+                ),
+            ));
+        }
+        match self.full_scale {
+            Some(fs) if !(fs.is_finite() && fs > 0.0) => {
+                return Err(Error::option(
+                    "--full-scale",
+                    format!(
+                        "full scale {fs} {} must be a positive physical value (the value of digital 1.0)",
+                        self.unit.symbol()
+                    ),
+                ));
+            }
+            Some(_) => {}
+            None => {
+                if self.format == Format::Wav || self.sample_format.is_integer() {
+                    let what = if self.sample_format.is_integer() {
+                        format!("{} output stores integer codes", self.sample_format)
+                    } else {
+                        "WAV output stores digital values (float WAV is nominally ±1.0)".to_string()
+                    };
+                    return Err(Error::option(
+                        "--full-scale",
+                        format!(
+                            "{what} and needs a full scale: the physical value in {} that maps \
+                             to digital 1.0 (only float raw or CSV output can hold physical values)",
+                            self.unit.symbol()
+                        ),
+                    ));
+                }
+            }
+        }
+        if self.format == Format::Wav {
+            wav::validate(self)?;
+        }
+        Ok(())
+    }
+}
+
+/// What a sink wrote, returned by [`Sink::finish`].
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct SinkReport {
+    /// Samples written.
+    pub samples: u64,
+    /// Samples whose digital value exceeded ±1.0 and were clipped (0 without a full scale,
+    /// except f32 values beyond the f32 range).
+    pub clipped: u64,
+    /// Largest |sample| seen, in physical units (before scaling and clipping); 0 if none.
+    pub peak_abs: f64,
+}
+
+/// A writer of physical samples in one output format.
+///
+/// Call [`write`](Sink::write) with consecutive blocks, then [`finish`](Sink::finish) exactly
+/// once. Output is buffered: dropping a sink without `finish` loses the buffered tail.
+pub trait Sink {
+    /// Scales, clips, quantises and writes a block of physical samples (in the spec's unit).
+    fn write(&mut self, samples: &[f64]) -> Result<()>;
+    /// Writes what is buffered (and any trailing pad), flushes the writer and reports.
+    fn finish(&mut self) -> Result<SinkReport>;
+}
+
+/// Builds the sink for `spec` over `out`. Validates the spec first ([`SinkSpec::validate`]);
+/// nothing is written to `out` until the first [`Sink::write`] or [`Sink::finish`].
+pub fn open_sink<'a, W: Write + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn Sink + 'a>> {
+    Ok(match spec.format {
+        Format::Wav => Box::new(WavSink::new(spec, out)?),
+        Format::Csv => Box::new(CsvSink::new(spec, out)?),
+        Format::Raw => Box::new(RawSink::new(spec, out)?),
+    })
+}
+
+/// Scaling, clipping and the report shared by all writers.
+#[derive(Debug, Clone)]
+struct Scaler {
+    sample_format: SampleFormat,
+    /// `1 / full_scale`, or `None` for physical output.
+    gain: Option<f64>,
+    /// `2^(b−1) − 1` as f64 for integer formats, 1.0 for floats.
+    code_max: f64,
+    report: SinkReport,
+}
+
+impl Scaler {
+    fn new(spec: &SinkSpec) -> Scaler {
+        Scaler {
+            sample_format: spec.sample_format,
+            gain: spec.full_scale.map(|fs| 1.0 / fs),
+            code_max: spec.sample_format.full_scale_code().map_or(1.0, f64::from),
+            report: SinkReport::default(),
+        }
+    }
+
+    /// Refuses a block holding a non-finite value; call before encoding any of it.
+    fn check_finite(&self, samples: &[f64]) -> Result<()> {
+        match samples.iter().position(|x| !x.is_finite()) {
+            None => Ok(()),
+            Some(i) => Err(Error::io(
+                "writing samples",
+                io::Error::new(
+                    io::ErrorKind::InvalidData,
+                    format!(
+                        "sample {} is {}; only finite values can be written",
+                        self.report.samples + i as u64,
+                        samples[i]
+                    ),
+                ),
+            )),
+        }
+    }
+
+    /// The value to store for physical `x`: digital (clipped to ±1) or, with no full scale,
+    /// `x` itself. Updates peak and clip counts.
+    #[inline]
+    fn digital(&mut self, x: f64) -> f64 {
+        let a = x.abs();
+        if a > self.report.peak_abs {
+            self.report.peak_abs = a;
+        }
+        match self.gain {
+            None => x,
+            Some(g) => {
+                let d = x * g;
+                if d > 1.0 {
+                    self.report.clipped += 1;
+                    1.0
+                } else if d < -1.0 {
+                    self.report.clipped += 1;
+                    -1.0
+                } else {
+                    d
+                }
+            }
+        }
+    }
+
+    /// The integer code for physical `x` (integer formats; a full scale is guaranteed).
+    #[inline]
+    fn code(&mut self, x: f64) -> i32 {
+        // |digital| ≤ 1, so the product is within ±code_max and the cast cannot saturate.
+        (self.digital(x) * self.code_max).round() as i32
+    }
+
+    /// f32 value for physical `x`; beyond the f32 range (only possible without a full scale)
+    /// it is clipped to ±f32::MAX and counted.
+    #[inline]
+    fn f32_value(&mut self, x: f64) -> f32 {
+        let v = self.digital(x) as f32;
+        if v.is_infinite() {
+            self.report.clipped += 1;
+            f32::MAX.copysign(v)
+        } else {
+            v
+        }
+    }
+
+    /// Appends the little-endian encoding of `samples` to `buf`.
+    fn encode_le(&mut self, samples: &[f64], buf: &mut Vec<u8>) {
+        buf.reserve(samples.len() * self.sample_format.bytes());
+        match self.sample_format {
+            SampleFormat::F32 => {
+                for &x in samples {
+                    buf.extend_from_slice(&self.f32_value(x).to_le_bytes());
+                }
+            }
+            SampleFormat::F64 => {
+                for &x in samples {
+                    buf.extend_from_slice(&self.digital(x).to_le_bytes());
+                }
+            }
+            SampleFormat::I16 => {
+                for &x in samples {
+                    buf.extend_from_slice(&(self.code(x) as i16).to_le_bytes());
+                }
+            }
+            SampleFormat::I24 => {
+                for &x in samples {
+                    buf.extend_from_slice(&self.code(x).to_le_bytes()[..3]);
+                }
+            }
+            SampleFormat::I32 => {
+                for &x in samples {
+                    buf.extend_from_slice(&self.code(x).to_le_bytes());
+                }
+            }
+        }
+        self.report.samples += samples.len() as u64;
+    }
+}
+
+/// An output writer with a reusable byte buffer, flushed in chunks of at least
+/// [`FLUSH_BYTES`].
+#[derive(Debug)]
+struct Buffered<W: Write> {
+    out: W,
+    buf: Vec<u8>,
+    context: &'static str,
+    finished: bool,
+}
+
+impl<W: Write> Buffered<W> {
+    fn new(out: W, context: &'static str) -> Buffered<W> {
+        Buffered {
+            out,
+            buf: Vec::with_capacity(2 * FLUSH_BYTES),
+            context,
+            finished: false,
+        }
+    }
+
+    fn ensure_open(&self) -> Result<()> {
+        if self.finished {
+            return Err(Error::io(
+                self.context,
+                io::Error::other("the sink was already finished"),
+            ));
+        }
+        Ok(())
+    }
+
+    /// Writes the buffer out if it is large enough.
+    fn maybe_flush(&mut self) -> Result<()> {
+        if self.buf.len() >= FLUSH_BYTES {
+            self.drain()?;
+        }
+        Ok(())
+    }
+
+    fn drain(&mut self) -> Result<()> {
+        if !self.buf.is_empty() {
+            self.out
+                .write_all(&self.buf)
+                .map_err(|e| Error::io(self.context, e))?;
+            self.buf.clear();
+        }
+        Ok(())
+    }
+
+    /// Writes everything left and flushes the writer; marks the sink finished.
+    fn close(&mut self) -> Result<()> {
+        self.finished = true;
+        self.drain()?;
+        self.out.flush().map_err(|e| Error::io(self.context, e))
+    }
+}
+
+#[cfg(test)]
+pub(crate) mod test_util {
+    //! Helpers shared by the sink tests.
+
+    use super::*;
+
+    /// Fixed seed for every random test input in the sink tests.
+    pub const SEED: u64 = 0x5EED_0005;
+
+    /// A spec with the given format fields, 48 kHz, volts.
+    pub fn spec(
+        format: Format,
+        sample_format: SampleFormat,
+        full_scale: Option<f64>,
+        frames: Option<u64>,
+    ) -> SinkSpec {
+        SinkSpec {
+            format,
+            sample_format,
+            sample_rate_hz: 48_000.0,
+            full_scale,
+            frames,
+            unit: Unit::Volt,
+        }
+    }
+
+    /// Writes `samples` in uneven blocks (to cross block boundaries) and returns bytes + report.
+    pub fn render(spec: &SinkSpec, samples: &[f64]) -> Result<(Vec<u8>, SinkReport)> {
+        let mut bytes = Vec::new();
+        let report = {
+            let mut sink = open_sink(spec, &mut bytes)?;
+            let mut rest = samples;
+            let mut step = 1usize;
+            while !rest.is_empty() {
+                let n = step.min(rest.len());
+                sink.write(&rest[..n])?;
+                rest = &rest[n..];
+                step = step * 7 + 3;
+            }
+            sink.finish()?
+        };
+        Ok((bytes, report))
+    }
+
+    /// `n` seeded Gaussian samples with standard deviation `sigma`.
+    pub fn gaussian(n: usize, sigma: f64, seed: u64) -> Vec<f64> {
+        use rand_chacha::ChaCha8Rng;
+        use rand_core::SeedableRng;
+        use rand_distr::{Distribution, StandardNormal};
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        (0..n)
+            .map(|_| {
+                let z: f64 = StandardNormal.sample(&mut rng);
+                sigma * z
+            })
+            .collect()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::test_util::*;
+    use super::*;
+
+    #[test]
+    fn extensions_map_to_formats() {
+        assert_eq!(Format::from_extension("wav"), Some(Format::Wav));
+        assert_eq!(Format::from_extension(".WAV"), Some(Format::Wav));
+        assert_eq!(Format::from_extension("csv"), Some(Format::Csv));
+        for e in ["raw", "f32", "f64", "i16", "i24", "i32", "bin", ".I24"] {
+            assert_eq!(Format::from_extension(e), Some(Format::Raw), "{e}");
+        }
+        assert_eq!(Format::from_extension("flac"), None);
+        assert_eq!(
+            SampleFormat::from_extension(".i24"),
+            Some(SampleFormat::I24)
+        );
+        assert_eq!(SampleFormat::from_extension("raw"), None);
+    }
+
+    #[test]
+    fn names_parse_back() {
+        for f in [Format::Wav, Format::Csv, Format::Raw] {
+            assert_eq!(f.name().parse::<Format>().unwrap(), f);
+        }
+        for s in SampleFormat::ALL {
+            assert_eq!(s.name().parse::<SampleFormat>().unwrap(), s);
+            assert_eq!(
+                s.to_string()
+                    .to_uppercase()
+                    .parse::<SampleFormat>()
+                    .unwrap(),
+                s
+            );
+        }
+        let e = "mp3".parse::<Format>().unwrap_err();
+        assert!(matches!(e, Error::Option { ref option, .. } if option == "--format"));
+        let e = "u8".parse::<SampleFormat>().unwrap_err();
+        assert!(e.to_string().contains("i24"), "{e}");
+    }
+
+    #[test]
+    fn sample_format_facts() {
+        let bytes: Vec<usize> = SampleFormat::ALL.iter().map(|s| s.bytes()).collect();
+        assert_eq!(bytes, [4, 8, 2, 3, 4]);
+        // 2^(b-1) - 1, exact integers.
+        assert_eq!(SampleFormat::I16.full_scale_code(), Some(32_767));
+        assert_eq!(SampleFormat::I24.full_scale_code(), Some(8_388_607));
+        assert_eq!(SampleFormat::I32.full_scale_code(), Some(2_147_483_647));
+        assert_eq!(SampleFormat::F32.full_scale_code(), None);
+        assert!(SampleFormat::I24.is_integer() && !SampleFormat::F64.is_integer());
+    }
+
+    #[test]
+    fn integer_formats_without_full_scale_are_refused() {
+        for sf in [SampleFormat::I16, SampleFormat::I24, SampleFormat::I32] {
+            for f in [Format::Raw, Format::Csv, Format::Wav] {
+                let e = open_sink(&spec(f, sf, None, Some(4)), Vec::new())
+                    .err()
+                    .unwrap();
+                assert!(
+                    matches!(e, Error::Option { ref option, .. } if option == "--full-scale"),
+                    "{f} {sf}: {e}"
+                );
+            }
+        }
+        // Float WAV is digital too.
+        let e = open_sink(
+            &spec(Format::Wav, SampleFormat::F32, None, Some(4)),
+            Vec::new(),
+        )
+        .err()
+        .unwrap();
+        assert!(e.to_string().contains("full scale"), "{e}");
+        // Float raw and CSV may hold physical values.
+        for f in [Format::Raw, Format::Csv] {
+            assert!(open_sink(&spec(f, SampleFormat::F64, None, None), Vec::new()).is_ok());
+        }
+    }
+
+    #[test]
+    fn bad_rate_and_full_scale_are_refused() {
+        let mut s = spec(Format::Raw, SampleFormat::F32, Some(1.0), None);
+        s.sample_rate_hz = 0.0;
+        assert!(
+            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--sample-rate")
+        );
+        let mut s = spec(Format::Raw, SampleFormat::F32, Some(-1.0), None);
+        assert!(
+            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--full-scale")
+        );
+        s.full_scale = Some(f64::NAN);
+        assert!(s.validate().is_err());
+    }
+
+    /// 1.5 × full scale clips and is counted; exactly ±full scale does not clip.
+    #[test]
+    fn clipping_is_counted_and_peak_reported() {
+        let fs = 2.0;
+        let x = [1.0, 3.0, -3.0, -2.0, 2.0, 0.0];
+        for f in [Format::Raw, Format::Wav, Format::Csv] {
+            for sf in [SampleFormat::I16, SampleFormat::I24, SampleFormat::F32] {
+                let s = spec(f, sf, Some(fs), Some(x.len() as u64));
+                let (_, r) = render(&s, &x).unwrap();
+                assert_eq!(r.samples, 6, "{f} {sf}");
+                assert_eq!(r.clipped, 2, "{f} {sf}");
+                assert_eq!(r.peak_abs, 3.0, "{f} {sf}");
+            }
+        }
+        // The clipped codes are the symmetric extremes.
+        let (b, _) = render(&spec(Format::Raw, SampleFormat::I16, Some(fs), None), &x).unwrap();
+        let codes: Vec<i16> = b
+            .chunks_exact(2)
+            .map(|c| i16::from_le_bytes([c[0], c[1]]))
+            .collect();
+        assert_eq!(codes, [16_384, 32_767, -32_767, -32_767, 32_767, 0]);
+        // Physical output never clips.
+        let (_, r) = render(&spec(Format::Raw, SampleFormat::F64, None, None), &x).unwrap();
+        assert_eq!((r.clipped, r.peak_abs), (0, 3.0));
+    }
+
+    #[test]
+    fn non_finite_samples_are_refused_before_encoding() {
+        let mut bytes = Vec::new();
+        let report = {
+            let mut sink = open_sink(
+                &spec(Format::Raw, SampleFormat::F32, None, None),
+                &mut bytes,
+            )
+            .unwrap();
+            sink.write(&[1.0, 2.0]).unwrap();
+            let e = sink.write(&[3.0, f64::NAN]).unwrap_err();
+            assert!(e.to_string().contains("sample 3 is NaN"), "{e}");
+            sink.finish().unwrap()
+        };
+        assert_eq!(report.samples, 2);
+        assert_eq!(bytes.len(), 8);
+    }
+
+    #[test]
+    fn output_is_written_in_large_chunks() {
+        /// Records the size of every write call.
+        struct Sizes(Vec<usize>);
+        impl Write for Sizes {
+            fn write(&mut self, b: &[u8]) -> io::Result<usize> {
+                self.0.push(b.len());
+                Ok(b.len())
+            }
+            fn flush(&mut self) -> io::Result<()> {
+                Ok(())
+            }
+        }
+        let n = 100_000;
+        let x = gaussian(n, 0.1, SEED);
+        for f in [Format::Raw, Format::Csv, Format::Wav] {
+            let mut sizes = Sizes(Vec::new());
+            {
+                let s = spec(f, SampleFormat::I16, Some(1.0), Some(n as u64));
+                let mut sink = open_sink(&s, &mut sizes).unwrap();
+                for block in x.chunks(100) {
+                    sink.write(block).unwrap();
+                }
+                sink.finish().unwrap();
+            }
+            let (last, rest) = sizes.0.split_last().unwrap();
+            assert!(*last > 0, "{f}");
+            assert!(rest.iter().all(|&s| s >= FLUSH_BYTES), "{f}: {:?}", sizes.0);
+        }
+    }
+
+    #[test]
+    fn writing_after_finish_is_an_error() {
+        let mut sink = open_sink(
+            &spec(Format::Raw, SampleFormat::F32, None, None),
+            Vec::new(),
+        )
+        .unwrap();
+        sink.finish().unwrap();
+        assert!(sink.write(&[0.0]).is_err());
+    }
+}

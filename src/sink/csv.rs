@@ -1,0 +1,199 @@
+//! CSV text: a header line, then `time,value` per sample, `\n` line ends.
+
+use std::io::Write;
+
+use super::{Buffered, Format, SampleFormat, Scaler, Sink, SinkReport, SinkSpec};
+use crate::error::{Error, Result};
+
+/// Samples formatted per inner loop (≈ 40 bytes each, so a chunk is ~80 KiB of text).
+const CSV_CHUNK: usize = 2048;
+
+/// CSV writer. Columns:
+///
+/// * `time_s`: sample index `n` divided by the sample rate, in seconds (`n as f64 / fs`).
+/// * The value column, named by what it holds:
+///   * no full scale → `value_<unit>`, e.g. `value_V`: the physical value in the unit;
+///   * full scale, f32/f64 → `value_fs`: the digital value (physical / full scale), clipped
+///     to ±1.0; rounded to f32 first for f32;
+///   * full scale, integer format → `code_i16` / `code_i24` / `code_i32`: the integer code
+///     (digital ±1.0 ↔ ±(2^(b−1) − 1), see the module docs).
+///
+/// Floats are printed with Rust's `{}` for f64 (or f32 for f32 values): the shortest decimal
+/// that parses back to the same value, never in exponent form. So every value, and every
+/// time, round-trips exactly through `str::parse`. [`SinkSpec::frames`] is not needed.
+#[derive(Debug)]
+pub struct CsvSink<W: Write> {
+    out: Buffered<W>,
+    scaler: Scaler,
+    sample_rate_hz: f64,
+    header: Option<String>,
+}
+
+impl<W: Write> CsvSink<W> {
+    /// Validates `spec` (see [`SinkSpec::validate`]); writes nothing yet (the header goes out
+    /// with the first samples or at `finish`).
+    pub fn new(spec: &SinkSpec, out: W) -> Result<CsvSink<W>> {
+        spec.validate()?;
+        if spec.format != Format::Csv {
+            return Err(Error::Unsupported(format!(
+                "a CSV writer was asked for {} output",
+                spec.format
+            )));
+        }
+        Ok(CsvSink {
+            out: Buffered::new(out, "writing CSV"),
+            scaler: Scaler::new(spec),
+            sample_rate_hz: spec.sample_rate_hz,
+            header: Some(format!("time_s,{}\n", value_column(spec))),
+        })
+    }
+
+    fn put_header(&mut self) {
+        if let Some(h) = self.header.take() {
+            self.out.buf.extend_from_slice(h.as_bytes());
+        }
+    }
+}
+
+/// The value column's name for `spec` (see [`CsvSink`]).
+fn value_column(spec: &SinkSpec) -> String {
+    match spec.full_scale {
+        None => format!("value_{}", spec.unit.symbol()),
+        Some(_) if spec.sample_format.is_integer() => format!("code_{}", spec.sample_format),
+        Some(_) => "value_fs".to_string(),
+    }
+}
+
+impl<W: Write> Sink for CsvSink<W> {
+    fn write(&mut self, samples: &[f64]) -> Result<()> {
+        self.out.ensure_open()?;
+        self.scaler.check_finite(samples)?;
+        self.put_header();
+        let fs = self.sample_rate_hz;
+        let sf = self.scaler.sample_format;
+        let digital = self.scaler.gain.is_some();
+        for chunk in samples.chunks(CSV_CHUNK) {
+            let mut n = self.scaler.report.samples;
+            let buf = &mut self.out.buf;
+            for &x in chunk {
+                let t = n as f64 / fs;
+                // Writing into a Vec<u8> cannot fail.
+                let r = if sf.is_integer() {
+                    writeln!(buf, "{t},{}", self.scaler.code(x))
+                } else if sf == SampleFormat::F32 && digital {
+                    writeln!(buf, "{t},{}", self.scaler.f32_value(x))
+                } else {
+                    writeln!(buf, "{t},{}", self.scaler.digital(x))
+                };
+                r.expect("writing to a Vec");
+                n += 1;
+            }
+            self.scaler.report.samples = n;
+            self.out.maybe_flush()?;
+        }
+        Ok(())
+    }
+
+    fn finish(&mut self) -> Result<SinkReport> {
+        self.out.ensure_open()?;
+        self.put_header();
+        self.out.close()?;
+        Ok(self.scaler.report)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::test_util::*;
+    use super::*;
+    use crate::profile::Unit;
+
+    fn lines(b: &[u8]) -> Vec<String> {
+        String::from_utf8(b.to_vec())
+            .unwrap()
+            .lines()
+            .map(str::to_string)
+            .collect()
+    }
+
+    /// Parses the body into (time, value text) pairs, checking the times are exactly n/fs.
+    fn body(ls: &[String], fs: f64) -> Vec<String> {
+        ls[1..]
+            .iter()
+            .enumerate()
+            .map(|(n, l)| {
+                let (t, v) = l.split_once(',').unwrap();
+                assert_eq!(t.parse::<f64>().unwrap(), n as f64 / fs, "line {n}");
+                v.to_string()
+            })
+            .collect()
+    }
+
+    #[test]
+    fn physical_values_round_trip_exactly() {
+        // Values at the nV scale and a large DC offset, the hard cases for short printing.
+        let mut x = gaussian(5_000, 3e-9, SEED);
+        x.extend(gaussian(5_000, 1e-3, SEED + 1).iter().map(|v| v + 12.5));
+        x.push(-0.0);
+        let mut s = spec(Format::Csv, SampleFormat::F64, None, None);
+        s.sample_rate_hz = 44_100.0; // 1/44100 is not a short decimal
+        let (b, r) = render(&s, &x).unwrap();
+        let ls = lines(&b);
+        assert_eq!(ls[0], "time_s,value_V");
+        assert_eq!(ls.len(), x.len() + 1);
+        let vals = body(&ls, s.sample_rate_hz);
+        for (v, want) in vals.iter().zip(&x) {
+            assert!(!v.contains('e'), "{v}");
+            assert_eq!(v.parse::<f64>().unwrap().to_bits(), want.to_bits(), "{v}");
+        }
+        assert_eq!(r.samples, x.len() as u64);
+    }
+
+    #[test]
+    fn amperes_name_their_column() {
+        let mut s = spec(Format::Csv, SampleFormat::F32, None, None);
+        s.unit = Unit::Ampere;
+        let (b, _) = render(&s, &[1e-12]).unwrap();
+        assert_eq!(lines(&b), ["time_s,value_A", "0,0.000000000001"]);
+    }
+
+    #[test]
+    fn full_scale_writes_codes_or_normalised_values() {
+        let x = gaussian(3_000, 0.4, SEED);
+        let full_scale = 1.0;
+        // Integer codes agree with the raw writer's bytes.
+        let s = spec(Format::Csv, SampleFormat::I16, Some(full_scale), None);
+        let (b, _) = render(&s, &x).unwrap();
+        let ls = lines(&b);
+        assert_eq!(ls[0], "time_s,code_i16");
+        let codes: Vec<i16> = body(&ls, 48_000.0)
+            .iter()
+            .map(|v| v.parse().unwrap())
+            .collect();
+        let raw = spec(Format::Raw, SampleFormat::I16, Some(full_scale), None);
+        let (rb, _) = render(&raw, &x).unwrap();
+        let raw_codes: Vec<i16> = rb
+            .chunks_exact(2)
+            .map(|c| i16::from_le_bytes([c[0], c[1]]))
+            .collect();
+        assert_eq!(codes, raw_codes);
+        // f32 normalised values: exactly the f32 of the clipped digital value.
+        let s = spec(Format::Csv, SampleFormat::F32, Some(full_scale), None);
+        let (b, r) = render(&s, &x).unwrap();
+        let ls = lines(&b);
+        assert_eq!(ls[0], "time_s,value_fs");
+        for (v, want) in body(&ls, 48_000.0).iter().zip(&x) {
+            assert_eq!(v.parse::<f32>().unwrap(), want.clamp(-1.0, 1.0) as f32);
+        }
+        // 1.0 = 2.5σ: ~1.2 % clip (two-sided normal tail); the count of |x| > 1 is what was clipped.
+        let over = x.iter().filter(|v| v.abs() > 1.0).count() as u64;
+        assert_eq!(r.clipped, over);
+        assert!(r.clipped > 0, "seed {SEED}: no sample clipped");
+    }
+
+    #[test]
+    fn empty_csv_still_has_its_header() {
+        let (b, _) = render(&spec(Format::Csv, SampleFormat::F64, None, None), &[]).unwrap();
+        assert_eq!(b, b"time_s,value_V\n");
+    }
+}

@@ -1,0 +1,235 @@
+//! The run manifest: a JSON record of what was generated, with which settings and seed, and
+//! what was measured.
+
+use std::io::Write;
+
+use serde::Serialize;
+
+use super::{Format, SampleFormat, SinkReport, SinkSpec};
+use crate::analysis::stats::RunningStats;
+use crate::error::{Error, Result};
+use crate::profile::Unit;
+
+/// The dBFS convention every level in noisewright uses, as stated in manifests.
+pub const DBFS_CONVENTION: &str = "AES17: 0 dBFS = RMS of a sine whose peak is digital full \
+     scale (1.0), so a level of L dBFS is RMS_digital = 10^(L/20)/sqrt(2); a full-scale square \
+     wave is +3.01 dBFS";
+
+/// Digital RMS (relative to digital full scale 1.0) of a level in dBFS, AES17 convention
+/// (REFERENCES §9): `10^(L/20) / √2`. E.g. 0 dBFS → 0.7071, −20 dBFS → 0.07071.
+pub fn rms_digital_from_dbfs(level_dbfs: f64) -> f64 {
+    10f64.powf(level_dbfs / 20.0) / std::f64::consts::SQRT_2
+}
+
+/// Level in dBFS (AES17, REFERENCES §9) of a digital RMS relative to full scale 1.0:
+/// `20·log10(√2 · rms)`. The inverse of [`rms_digital_from_dbfs`].
+pub fn dbfs_from_rms_digital(rms: f64) -> f64 {
+    20.0 * (std::f64::consts::SQRT_2 * rms).log10()
+}
+
+/// What one run produced, written next to the output as JSON by [`write_manifest`].
+///
+/// Physical quantities are in `unit` (volts or amperes); measured values are of the physical
+/// samples handed to the sink, before scaling, clipping and quantisation.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Manifest {
+    /// noisewright's version that wrote the file.
+    pub version: String,
+    /// The resolved profile (filled by the caller; `null` until then).
+    pub profile: serde_json::Value,
+    /// The random seed; the same seed and version give byte-identical output.
+    pub seed: u64,
+    /// Sample rate in samples per second (Hz).
+    pub sample_rate_hz: f64,
+    /// Samples written.
+    pub samples: u64,
+    /// Duration in seconds: `samples / sample_rate_hz`.
+    pub duration_s: f64,
+    /// Output container.
+    pub format: Format,
+    /// Stored sample format.
+    pub sample_format: SampleFormat,
+    /// Physical unit of the samples.
+    pub unit: Unit,
+    /// Physical value (in `unit`) of digital 1.0; `None` when physical values were written.
+    pub full_scale: Option<f64>,
+    /// Requested RMS level in dBFS, if the level was set that way; see `dbfs_convention`.
+    pub level_dbfs: Option<f64>,
+    /// How dBFS is defined here: [`DBFS_CONVENTION`].
+    pub dbfs_convention: String,
+    /// RMS the density model predicts, in `unit`.
+    pub expected_rms: f64,
+    /// Measured RMS (AC + DC) in `unit`.
+    pub measured_rms: f64,
+    /// Measured standard deviation (population, divide by n) in `unit`.
+    pub measured_std: f64,
+    /// Measured mean in `unit`.
+    pub measured_mean: f64,
+    /// Samples clipped at digital full scale.
+    pub clipped: u64,
+    /// True if the output is a seamless loop (periodic block).
+    #[serde(rename = "loop")]
+    pub looped: bool,
+    /// Free-text remarks for the reader (warnings, caveats).
+    pub notes: Vec<String>,
+    /// Further keys added by later features, kept under `extra`.
+    pub extra: serde_json::Map<String, serde_json::Value>,
+}
+
+impl Manifest {
+    /// A manifest from the sink's spec and report and the statistics of the samples written.
+    /// `profile` is `null`, `level_dbfs` `None`, `loop` false and `notes`/`extra` empty: the
+    /// caller fills them.
+    pub fn new(
+        spec: &SinkSpec,
+        seed: u64,
+        report: &SinkReport,
+        stats: &RunningStats,
+        expected_rms: f64,
+    ) -> Manifest {
+        Manifest {
+            version: env!("CARGO_PKG_VERSION").to_string(),
+            profile: serde_json::Value::Null,
+            seed,
+            sample_rate_hz: spec.sample_rate_hz,
+            samples: report.samples,
+            duration_s: report.samples as f64 / spec.sample_rate_hz,
+            format: spec.format,
+            sample_format: spec.sample_format,
+            unit: spec.unit,
+            full_scale: spec.full_scale,
+            level_dbfs: None,
+            dbfs_convention: DBFS_CONVENTION.to_string(),
+            expected_rms,
+            measured_rms: stats.rms(),
+            measured_std: stats.std(),
+            measured_mean: stats.mean(),
+            clipped: report.clipped,
+            looped: false,
+            notes: Vec::new(),
+            extra: serde_json::Map::new(),
+        }
+    }
+}
+
+/// Writes `m` as pretty-printed JSON followed by a newline. Non-finite numbers (e.g. the
+/// mean of zero samples) are written as `null`.
+pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
+    let ctx = "writing the manifest";
+    serde_json::to_writer_pretty(&mut out, m).map_err(|e| Error::io(ctx, e.into()))?;
+    out.write_all(b"\n").map_err(|e| Error::io(ctx, e))?;
+    out.flush().map_err(|e| Error::io(ctx, e))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::test_util::*;
+    use super::*;
+
+    #[test]
+    fn manifest_has_every_key_and_ends_with_a_newline() {
+        let x = gaussian(1_000, 0.1, SEED);
+        let s = spec(Format::Wav, SampleFormat::I24, Some(1.0), Some(1_000));
+        let (_, report) = render(&s, &x).unwrap();
+        let mut stats = RunningStats::new();
+        stats.push(&x);
+        let mut m = Manifest::new(&s, 42, &report, &stats, 0.1);
+        m.profile = serde_json::json!({"name": "demo"});
+        m.level_dbfs = Some(-20.0);
+        m.notes.push("a note".into());
+        m.extra.insert("later".into(), serde_json::json!(1));
+        let mut out = Vec::new();
+        write_manifest(&m, &mut out).unwrap();
+        assert!(out.ends_with(b"}\n"));
+        let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+        let keys: Vec<&str> = v.as_object().unwrap().keys().map(|k| k.as_str()).collect();
+        for k in [
+            "version",
+            "profile",
+            "seed",
+            "sample_rate_hz",
+            "samples",
+            "duration_s",
+            "format",
+            "sample_format",
+            "unit",
+            "full_scale",
+            "level_dbfs",
+            "dbfs_convention",
+            "expected_rms",
+            "measured_rms",
+            "measured_std",
+            "measured_mean",
+            "clipped",
+            "loop",
+            "notes",
+            "extra",
+        ] {
+            assert!(keys.contains(&k), "missing {k}");
+        }
+        assert_eq!(keys.len(), 20);
+        assert_eq!(v["version"], env!("CARGO_PKG_VERSION"));
+        assert_eq!(v["format"], "wav");
+        assert_eq!(v["sample_format"], "i24");
+        assert_eq!(v["unit"], "V");
+        assert_eq!(v["loop"], false);
+        assert_eq!(v["samples"], 1_000);
+        let d = 1_000.0 / 48_000.0;
+        assert!((v["duration_s"].as_f64().unwrap() - d).abs() <= 2.0 * f64::EPSILON * d);
+        // Floats are written shortest-round-trip; read the text with std's exact parser
+        // (serde_json's default parser may be off by an ulp).
+        let text = String::from_utf8(out.clone()).unwrap();
+        let rms_text = text
+            .lines()
+            .find_map(|l| l.trim().strip_prefix("\"measured_rms\": "))
+            .unwrap()
+            .trim_end_matches(',');
+        assert_eq!(rms_text.parse::<f64>().unwrap(), stats.rms());
+        assert_eq!(v["profile"]["name"], "demo");
+        assert_eq!(v["extra"]["later"], 1);
+        // Physical output: no full scale.
+        let s = spec(Format::Raw, SampleFormat::F64, None, None);
+        let m = Manifest::new(&s, 1, &report, &stats, 0.1);
+        let v = serde_json::to_value(&m).unwrap();
+        assert!(v["full_scale"].is_null() && v["level_dbfs"].is_null());
+    }
+
+    /// AES17 (REFERENCES §9): a full-scale sine is 0 dBFS and a full-scale square +3.01 dBFS.
+    #[test]
+    fn dbfs_matches_the_aes17_definition() {
+        let n = 48 * 1000; // 1000 whole periods of 48 samples
+        let sine: Vec<f64> = (0..n)
+            .map(|k| (2.0 * std::f64::consts::PI * k as f64 / 48.0).sin())
+            .collect();
+        let mut st = RunningStats::new();
+        st.push(&sine);
+        assert!(dbfs_from_rms_digital(st.rms()).abs() < 1e-12);
+        let square: Vec<f64> = (0..n)
+            .map(|k| if k % 48 < 24 { 1.0 } else { -1.0 })
+            .collect();
+        let mut st = RunningStats::new();
+        st.push(&square);
+        // 20·log10(√2) = 10·log10(2) = 3.0103 dB (exact math).
+        assert!((dbfs_from_rms_digital(st.rms()) - 10.0 * 2f64.log10()).abs() < 1e-12);
+        for l in [-40.0, -20.0, -3.0, 0.0, 6.0] {
+            assert!((dbfs_from_rms_digital(rms_digital_from_dbfs(l)) - l).abs() < 1e-12);
+        }
+    }
+
+    /// Gaussian noise at L dBFS clips with probability erfc(1/(σ√2)), σ = 10^(L/20)/√2;
+    /// check values from REFERENCES §9 [V], to their printed two figures.
+    #[test]
+    fn clip_probabilities_match_the_reference_table() {
+        use statrs::function::erf::erfc;
+        // (level, printed value, half a unit of its last printed digit)
+        for (l, p, tol) in [
+            (-6.0, 4.8e-3, 0.05e-3),
+            (-10.0, 7.7e-6, 0.05e-6),
+            (-12.0, 1.8e-8, 0.05e-8),
+        ] {
+            let sigma = rms_digital_from_dbfs(l);
+            let got = erfc(1.0 / (sigma * std::f64::consts::SQRT_2));
+            assert!((got - p).abs() <= tol, "{l} dBFS: {got:e} vs {p:e}");
+        }
+    }
+}
