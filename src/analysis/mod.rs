@@ -1,1 +1,4 @@
 //! Measuring samples: Welch density estimates and running statistics.
+
+pub mod stats;
+pub mod welch;

@@ -1,0 +1,103 @@
+//! Shared helpers for the integration tests: χ² acceptance bands for density and variance
+//! estimates, and a band-by-band check of a Welch estimate against a designed density.
+//!
+//! Each test binary uses only some of these.
+#![allow(dead_code)]
+
+use noisewright::analysis::welch::BandEstimate;
+use statrs::distribution::{ChiSquared, ContinuousCDF};
+
+/// Two-sided acceptance interval `[χ²_ν(p/2)/ν, χ²_ν(1−p/2)/ν]` for an estimate whose ratio to
+/// the truth is distributed as χ²_ν/ν (a Welch bin or band, references §3; a variance, §8).
+/// A correct estimate falls outside with probability `p_two_sided`.
+///
+/// # Panics
+/// If `dof` is not positive and finite or `p_two_sided` is not in (0, 1).
+pub fn chi2_band(dof: f64, p_two_sided: f64) -> (f64, f64) {
+    assert!(dof > 0.0 && dof.is_finite(), "degrees of freedom {dof}");
+    assert!(
+        p_two_sided > 0.0 && p_two_sided < 1.0,
+        "false-failure probability {p_two_sided}"
+    );
+    let chi2 = ChiSquared::new(dof).expect("positive degrees of freedom");
+    (
+        chi2.inverse_cdf(p_two_sided / 2.0) / dof,
+        chi2.inverse_cdf(1.0 - p_two_sided / 2.0) / dof,
+    )
+}
+
+/// Interval for `s²/σ²` where s² is a sample variance (mean removed) from `n_eff` independent
+/// Gaussian samples: `(n−1)s²/σ² ~ χ²_{n−1}` (references §8), at two-sided false-failure
+/// probability `p`. For correlated samples pass an effective count (e.g. `B_s·T`, §8).
+pub fn variance_bounds(n_eff: f64, p: f64) -> (f64, f64) {
+    chi2_band(n_eff - 1.0, p)
+}
+
+/// Decibels of a power ratio.
+pub fn db(ratio: f64) -> f64 {
+    10.0 * ratio.log10()
+}
+
+/// Checks every band's `psd_mean` against `expected(f_lo_hz, f_hi_hz)`, the mean designed
+/// density over the band in the same unit²/Hz, with χ²_ν/ν acceptance intervals (ν from the
+/// band, references §3). The total false-failure probability `p_total` is split evenly over
+/// the bands (Bonferroni, §11).
+///
+/// On failure the message names the worst band (smallest two-sided tail probability), its
+/// ratio and allowed interval in dB, how many bands failed, and `seed`, so the run can be
+/// repeated.
+pub fn check_bands_against(
+    bands: &[BandEstimate],
+    expected: &dyn Fn(f64, f64) -> f64,
+    p_total: f64,
+    seed: u64,
+) -> Result<(), String> {
+    if bands.is_empty() {
+        return Err(format!("no bands to check (seed {seed})"));
+    }
+    let p_band = p_total / bands.len() as f64;
+    let mut failed = 0usize;
+    let mut worst: Option<(f64, String)> = None;
+    for (i, band) in bands.iter().enumerate() {
+        let want = expected(band.f_lo_hz, band.f_hi_hz);
+        if !(want.is_finite() && want > 0.0) {
+            return Err(format!(
+                "band {i} ({:.6}..{:.6} Hz): expected density {want} is not positive (seed {seed})",
+                band.f_lo_hz, band.f_hi_hz
+            ));
+        }
+        let ratio = band.psd_mean / want;
+        let (lo, hi) = chi2_band(band.dof, p_band);
+        let outside = !(lo..=hi).contains(&ratio);
+        if outside {
+            failed += 1;
+        }
+        let chi2 = ChiSquared::new(band.dof).expect("positive degrees of freedom");
+        let x = ratio * band.dof;
+        let tail = 2.0 * chi2.cdf(x).min(chi2.sf(x));
+        if worst.as_ref().is_none_or(|(t, _)| tail < *t) {
+            let text = format!(
+                "band {i} {:.6}..{:.6} Hz (bins {:?}, ν = {:.1}): measured/expected = {:+.3} dB, \
+                 allowed {:+.3} / {:+.3} dB (p = {p_band:.3e} per band, {} bands)",
+                band.f_lo_hz,
+                band.f_hi_hz,
+                band.bins,
+                band.dof,
+                db(ratio),
+                db(lo),
+                db(hi),
+                bands.len()
+            );
+            worst = Some((tail, text));
+        }
+    }
+    if failed == 0 {
+        Ok(())
+    } else {
+        let (_, text) = worst.expect("at least one band");
+        Err(format!(
+            "{failed} of {} bands outside their χ² interval; worst: {text}; seed {seed}",
+            bands.len()
+        ))
+    }
+}
