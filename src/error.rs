@@ -57,6 +57,9 @@ pub enum Error {
         /// A full scale that would have held every sample, formatted with its unit.
         suggested: String,
     },
+    /// The run was stopped by SIGINT or SIGTERM; nothing was left under the target name.
+    #[error("interrupted: no output was written under the target name")]
+    Interrupted,
     /// The requested output cannot be produced in the chosen format (e.g. a WAV past 4 GiB).
     #[error("{0}")]
     Unsupported(String),
@@ -76,6 +79,7 @@ impl Error {
         match self {
             Error::Profile { .. } | Error::Option { .. } | Error::Unsupported(_) => 2,
             Error::Io { .. } | Error::Clipped { .. } => 1,
+            Error::Interrupted => 130,
         }
     }
 

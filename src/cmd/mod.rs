@@ -1,1 +1,41 @@
-//! One module per subcommand.
+//! One module per subcommand, and the command line that selects them.
+
+pub mod generate;
+
+use std::sync::atomic::AtomicBool;
+
+use crate::error::Result;
+
+/// noisewright turns a noise density profile into real, reproducible noise.
+#[derive(Debug, clap::Parser)]
+#[command(name = "noisewright", version, about, long_about = None)]
+pub struct Cli {
+    /// The subcommand.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, clap::Subcommand)]
+pub enum Command {
+    /// Synthesise noise with a profile's density and write it with a manifest and a summary.
+    Generate(generate::GenerateArgs),
+}
+
+/// Run the selected subcommand. Summaries go to standard output, or to standard error when
+/// the samples themselves go to standard output.
+pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
+    match &cli.command {
+        Command::Generate(args) => {
+            let summary = generate::run(args, interrupted)?;
+            if !args.quiet && !summary.is_empty() {
+                if args.output.as_deref() == Some("-") {
+                    eprint!("{summary}");
+                } else {
+                    print!("{summary}");
+                }
+            }
+            Ok(())
+        }
+    }
+}

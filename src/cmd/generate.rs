@@ -1,0 +1,605 @@
+//! `noisewright generate`: a profile becomes a noise file, a manifest and a summary.
+
+use std::fs;
+use std::io::{self, BufWriter, IsTerminal};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+
+use crate::analysis::stats::RunningStats;
+use crate::density;
+use crate::error::{Error, Result};
+use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
+use crate::sink::{
+    Format, Manifest, SampleFormat, SinkSpec, check_wav_size, open_sink, rms_digital_from_dbfs,
+    write_manifest,
+};
+use crate::synth::{Design, Shaper, periodic_buffer, periodic_variance};
+
+/// Samples produced and written per step.
+const CHUNK: usize = 1 << 16;
+/// Runs longer than this many samples show a progress bar (when stderr is a terminal).
+const PROGRESS_MIN_SAMPLES: u64 = 1 << 23;
+/// WAV and integer formats default to this level (dBFS, AES17 convention).
+const DEFAULT_LEVEL_DBFS: f64 = -20.0;
+/// Default length of a run, in seconds.
+const DEFAULT_DURATION_S: f64 = 10.0;
+
+/// Options of `noisewright generate`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct GenerateArgs {
+    /// The profile (TOML) to synthesise.
+    pub profile: PathBuf,
+    /// Output file; `-` streams raw samples to standard output. Default: `out/<profile stem>.wav`
+    #[arg(short = 'o', long = "output", value_name = "OUT")]
+    pub output: Option<String>,
+    /// Length of the run, e.g. `10s`, `250 ms`, `2 min`; `inf` (standard output only) runs
+    /// until the reader closes. Default: 10 s.
+    #[arg(long, value_name = "TIME", conflicts_with = "samples")]
+    pub duration: Option<String>,
+    /// Length of the run in samples (instead of --duration).
+    #[arg(long, value_name = "N")]
+    pub samples: Option<u64>,
+    /// Sample rate, overriding the profile's, e.g. `96 kHz` (reported in the summary and manifest).
+    #[arg(long, value_name = "R")]
+    pub rate: Option<String>,
+    /// Seed of the random numbers: the same profile, seed and version give the same bytes.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Write one periodic buffer whose end joins its start (for generators that repeat a buffer).
+    #[arg(long = "loop")]
+    pub loop_buffer: bool,
+    /// Output format: wav, csv or raw. Default: from the extension of OUT.
+    #[arg(long, value_name = "FORMAT")]
+    pub format: Option<String>,
+    /// Sample format: f32, f64 (raw/CSV only), i16, i24 or i32. Default: f32.
+    #[arg(long = "sample-format", value_name = "F")]
+    pub sample_format: Option<String>,
+    /// Physical value that maps to digital 1.0, e.g. `10uV`.
+    #[arg(long = "full-scale", value_name = "Q", conflicts_with = "level")]
+    pub full_scale: Option<String>,
+    /// Expected RMS relative to full scale, e.g. `-20dBFS` (AES17: 0 dBFS is the RMS of a
+    /// full-scale sine). WAV and integer formats default to -20 dBFS.
+    #[arg(long, value_name = "DBFS", allow_hyphen_values = true)]
+    pub level: Option<String>,
+    /// Write even if samples exceed full scale (they are clipped, counted and reported).
+    #[arg(long = "allow-clipping")]
+    pub allow_clipping: bool,
+    /// Print no summary.
+    #[arg(short, long)]
+    pub quiet: bool,
+}
+
+/// Whatever produces the next samples (unit) into a slice.
+type Engine = Box<dyn FnMut(&mut [f64])>;
+
+enum Target {
+    Stdout,
+    File(PathBuf),
+}
+
+/// How the physical values map to digital ones.
+struct Scale {
+    full_scale: Option<f64>,
+    level_dbfs: Option<f64>,
+}
+
+/// Run `generate`; returns the summary text (empty when a reader closed the output pipe).
+/// `interrupted` is polled between chunks: when it becomes true the run stops, and no file is
+/// left under the target name.
+pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
+    let file = args.profile.display().to_string();
+    let text = fs::read_to_string(&args.profile)
+        .map_err(|e| Error::option("PROFILE", format!("cannot read {file}: {e}")))?;
+    let mut profile = parse_profile(&text, &file)?;
+    let unit = profile.unit.symbol();
+    let mut notes = Vec::new();
+
+    if let Some(r) = &args.rate {
+        let rate = parse_quantity(r, Dimension::Frequency, unit)
+            .map_err(|m| Error::option("--rate", m))?;
+        if profile.band.high_hz > rate / 2.0 {
+            return Err(Error::option(
+                "--rate",
+                format!(
+                    "band.high = {} in {file} is above half of {} ({}): choose a rate of at \
+                     least {}",
+                    format_quantity(profile.band.high_hz, "Hz"),
+                    format_quantity(rate, "Hz"),
+                    format_quantity(rate / 2.0, "Hz"),
+                    format_quantity(2.0 * profile.band.high_hz, "Hz")
+                ),
+            ));
+        }
+        if rate != profile.sample_rate_hz {
+            notes.push(format!(
+                "sample rate {} from --rate replaces the profile's {}",
+                format_quantity(rate, "Hz"),
+                format_quantity(profile.sample_rate_hz, "Hz")
+            ));
+            profile.sample_rate_hz = rate;
+        }
+    }
+    let fs = profile.sample_rate_hz;
+
+    let target = match args.output.as_deref() {
+        Some("-") => Target::Stdout,
+        Some(p) => Target::File(PathBuf::from(p)),
+        None => {
+            let stem = args
+                .profile
+                .file_stem()
+                .map_or("noise".into(), |s| s.to_string_lossy().into_owned());
+            Target::File(Path::new("out").join(format!("{stem}.wav")))
+        }
+    };
+    let format = match (&args.format, &target) {
+        (Some(f), _) => f
+            .parse::<Format>()
+            .map_err(|m| Error::option("--format", m))?,
+        (None, Target::Stdout) => Format::Raw,
+        (None, Target::File(p)) => {
+            let ext = p.extension().map(|e| e.to_string_lossy().to_lowercase());
+            ext.as_deref()
+                .and_then(Format::from_extension)
+                .ok_or_else(|| {
+                    Error::option(
+                        "--output",
+                        format!(
+                            "cannot tell the format of {} from its extension: use .wav, .csv, \
+                         .raw/.f32/.i16/.bin, or give --format",
+                            p.display()
+                        ),
+                    )
+                })?
+        }
+    };
+    let sample_format = match &args.sample_format {
+        Some(s) => s
+            .parse::<SampleFormat>()
+            .map_err(|m| Error::option("--sample-format", m))?,
+        None => SampleFormat::F32,
+    };
+
+    // Length.
+    let samples: Option<u64> = match (&args.samples, args.duration.as_deref()) {
+        (Some(n), _) => Some(*n),
+        (None, Some("inf")) => match target {
+            Target::Stdout if !args.loop_buffer => None,
+            _ => {
+                return Err(Error::option(
+                    "--duration",
+                    "inf is only possible when streaming to standard output (-o -) without --loop",
+                ));
+            }
+        },
+        (None, d) => {
+            let secs = match d {
+                Some(d) => parse_quantity(d, Dimension::Time, unit)
+                    .map_err(|m| Error::option("--duration", m))?,
+                None => DEFAULT_DURATION_S,
+            };
+            if !(secs > 0.0 && secs.is_finite()) {
+                return Err(Error::option(
+                    "--duration",
+                    "expected a positive time such as 10s",
+                ));
+            }
+            let n = (secs * fs).round();
+            if n < 1.0 {
+                return Err(Error::option(
+                    "--duration",
+                    format!(
+                        "{d:?} is shorter than one sample at {}",
+                        format_quantity(fs, "Hz")
+                    ),
+                ));
+            }
+            Some(n as u64)
+        }
+    };
+    if samples == Some(0) {
+        return Err(Error::option("--samples", "expected at least one sample"));
+    }
+
+    // Engine and expected variance.
+    let target_psd = |f: f64| density::target_psd(&profile, f);
+    let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
+    let (mut engine, expected_variance): (Engine, f64) = if args.loop_buffer {
+        let n = samples.unwrap_or(0) as usize;
+        let buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
+        let var = periodic_variance(&target_psd, fs, n);
+        let mut pos = 0;
+        (
+            Box::new(move |out: &mut [f64]| {
+                for x in out {
+                    *x = buffer[pos % buffer.len()];
+                    pos += 1;
+                }
+            }),
+            var,
+        )
+    } else {
+        let design = Design::new(&target_psd, fs, profile.band.low_hz)?;
+        let var = design.variance();
+        let mut shaper = Shaper::new(&design, args.seed);
+        (Box::new(move |out: &mut [f64]| shaper.fill(out)), var)
+    };
+    let expected_rms = expected_variance.sqrt();
+
+    // Scale.
+    let needs_scale = format == Format::Wav || sample_format.is_integer();
+    let scale = if let Some(q) = &args.full_scale {
+        let v = parse_quantity(q, Dimension::Amplitude, unit)
+            .map_err(|m| Error::option("--full-scale", m))?;
+        if !(v > 0.0 && v.is_finite()) {
+            return Err(Error::option(
+                "--full-scale",
+                "expected a positive value such as 10uV",
+            ));
+        }
+        Scale {
+            full_scale: Some(v),
+            level_dbfs: None,
+        }
+    } else if args.level.is_some() || needs_scale {
+        let level = match &args.level {
+            Some(l) => parse_dbfs(l)?,
+            None => DEFAULT_LEVEL_DBFS,
+        };
+        Scale {
+            full_scale: Some(expected_rms / rms_digital_from_dbfs(level)),
+            level_dbfs: Some(level),
+        }
+    } else {
+        Scale {
+            full_scale: None,
+            level_dbfs: None,
+        }
+    };
+    if let (Some(fsc), true) = (scale.full_scale, sample_format.is_integer()) {
+        if let Some(note) = quantisation_note(&profile, fsc, sample_format) {
+            notes.push(note);
+        }
+    }
+
+    if let (Format::Wav, Some(n)) = (format, samples) {
+        check_wav_size(n, sample_format)?;
+    }
+    let spec = SinkSpec {
+        format,
+        sample_format,
+        sample_rate_hz: fs,
+        full_scale: scale.full_scale,
+        frames: samples,
+        unit: profile.unit,
+    };
+
+    let mut stats = RunningStats::new();
+    let progress = progress_bar(samples);
+    let report;
+    match &target {
+        Target::Stdout => {
+            let stdout = io::stdout();
+            let mut sink = open_sink(&spec, BufWriter::with_capacity(1 << 20, stdout.lock()))?;
+            let result = pump(
+                &mut *engine,
+                &mut *sink,
+                samples,
+                &mut stats,
+                interrupted,
+                &progress,
+            )
+            .and_then(|_| sink.finish());
+            match result {
+                Ok(r) => report = r,
+                Err(Error::Io { source, .. }) if source.kind() == io::ErrorKind::BrokenPipe => {
+                    return Ok(String::new());
+                }
+                Err(e) => return Err(e),
+            }
+        }
+        Target::File(path) => {
+            let pending = PendingFile::create(path)?;
+            {
+                let writer = BufWriter::with_capacity(1 << 20, pending.file()?);
+                let mut sink = open_sink(&spec, writer)?;
+                pump(
+                    &mut *engine,
+                    &mut *sink,
+                    samples,
+                    &mut stats,
+                    interrupted,
+                    &progress,
+                )?;
+                report = sink.finish()?;
+            }
+            if report.clipped > 0 && !args.allow_clipping {
+                let fsc = scale.full_scale.unwrap_or(1.0);
+                return Err(Error::Clipped {
+                    count: report.clipped,
+                    total: report.samples,
+                    full_scale: format_quantity(fsc, unit),
+                    suggested: format_quantity(round_up(report.peak_abs), unit),
+                });
+            }
+            if report.clipped > 0 {
+                notes.push(format!(
+                    "{} samples clipped at full scale (--allow-clipping)",
+                    report.clipped
+                ));
+            }
+            let mut manifest = Manifest::new(&spec, args.seed, &report, &stats, expected_rms);
+            manifest.profile = profile.to_json();
+            manifest.level_dbfs = scale.level_dbfs;
+            manifest.looped = args.loop_buffer;
+            manifest.notes = notes.clone();
+            let manifest_path = manifest_path(path);
+            let mp = PendingFile::create(&manifest_path)?;
+            write_manifest(&manifest, BufWriter::new(mp.file()?))?;
+            pending.commit()?;
+            mp.commit()?;
+        }
+    }
+    progress.finish_and_clear();
+
+    let summary = summary_text(
+        &profile,
+        &target,
+        args,
+        &scale,
+        band_variance.sqrt(),
+        expected_rms,
+        &stats,
+        report.clipped,
+        &notes,
+    );
+    Ok(summary)
+}
+
+fn parse_dbfs(text: &str) -> Result<f64> {
+    let t = text.trim();
+    let number = t
+        .strip_suffix("dBFS")
+        .or_else(|| t.strip_suffix("dbfs"))
+        .unwrap_or(t)
+        .trim();
+    match number.parse::<f64>() {
+        Ok(v) if v.is_finite() && v <= 0.0 => Ok(v),
+        Ok(v) if v.is_finite() => Err(Error::option(
+            "--level",
+            format!("{v} dBFS is above full scale: expected 0 dBFS or less, e.g. -20dBFS"),
+        )),
+        _ => Err(Error::option(
+            "--level",
+            format!("expected a level such as -20dBFS, got {text:?}"),
+        )),
+    }
+}
+
+/// A note when an integer format's quantisation noise density Q/√(6·fs) (REFERENCES: IEEE Std
+/// 1241 uniform-error model) comes within 10 dB of the lowest target density in the band.
+fn quantisation_note(profile: &Profile, full_scale: f64, sf: SampleFormat) -> Option<String> {
+    let bits = (sf.bytes() * 8) as i32;
+    let lsb = 2.0 * full_scale / 2f64.powi(bits);
+    let q_density = lsb / (6.0 * profile.sample_rate_hz).sqrt();
+    let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
+    let lowest = (0..=200)
+        .map(|i| lo * (hi / lo).powf(i as f64 / 200.0))
+        .map(|f| density::target_psd(profile, f).sqrt())
+        .fold(f64::INFINITY, f64::min);
+    let margin_db = 20.0 * (lowest / q_density).log10();
+    let unit = format!("{}/√Hz", profile.unit.symbol());
+    (margin_db < 10.0).then(|| {
+        format!(
+            "the {}-bit quantisation noise ({}) is only {:.1} dB below the lowest density in \
+             the band ({}): use more bits or a smaller full scale",
+            bits,
+            format_quantity(q_density, &unit),
+            margin_db,
+            format_quantity(lowest, &unit)
+        )
+    })
+}
+
+/// Round a peak up to two significant digits (a full scale that holds it).
+fn round_up(x: f64) -> f64 {
+    if x <= 0.0 {
+        return 0.0;
+    }
+    let p = 10f64.powf(x.log10().floor() - 1.0);
+    (x / p).ceil() * p
+}
+
+fn manifest_path(path: &Path) -> PathBuf {
+    let mut s = path.as_os_str().to_owned();
+    s.push(".json");
+    PathBuf::from(s)
+}
+
+fn pump(
+    engine: &mut dyn FnMut(&mut [f64]),
+    sink: &mut dyn crate::sink::Sink,
+    samples: Option<u64>,
+    stats: &mut RunningStats,
+    interrupted: &AtomicBool,
+    progress: &indicatif::ProgressBar,
+) -> Result<()> {
+    let mut buf = vec![0.0; CHUNK];
+    let mut done: u64 = 0;
+    loop {
+        let n = match samples {
+            Some(total) if done >= total => break,
+            Some(total) => ((total - done) as usize).min(CHUNK),
+            None => CHUNK,
+        };
+        if interrupted.load(Ordering::Relaxed) {
+            return Err(Error::Interrupted);
+        }
+        engine(&mut buf[..n]);
+        stats.push(&buf[..n]);
+        sink.write(&buf[..n])?;
+        done += n as u64;
+        progress.set_position(done);
+    }
+    Ok(())
+}
+
+fn progress_bar(samples: Option<u64>) -> indicatif::ProgressBar {
+    match samples {
+        Some(n) if n >= PROGRESS_MIN_SAMPLES && io::stderr().is_terminal() => {
+            let bar = indicatif::ProgressBar::new(n);
+            if let Ok(style) = indicatif::ProgressStyle::with_template(
+                "{bar:40} {percent:>3}% {pos}/{len} samples, {eta} left",
+            ) {
+                bar.set_style(style);
+            }
+            bar
+        }
+        _ => indicatif::ProgressBar::hidden(),
+    }
+}
+
+/// A file being written under a temporary name beside its target; renamed into place by
+/// [`PendingFile::commit`], removed if dropped before that (an error or an interruption).
+struct PendingFile {
+    tmp: PathBuf,
+    target: PathBuf,
+    committed: bool,
+}
+
+impl PendingFile {
+    fn create(target: &Path) -> Result<PendingFile> {
+        let dir = match target.parent() {
+            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
+        if !dir.is_dir() {
+            fs::create_dir_all(&dir)
+                .map_err(|e| Error::io(format!("creating folder {}", dir.display()), e))?;
+        }
+        let name = target
+            .file_name()
+            .map_or("output".into(), |n| n.to_string_lossy().into_owned());
+        let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
+        fs::File::create(&tmp).map_err(|e| Error::io(format!("creating {}", tmp.display()), e))?;
+        Ok(PendingFile {
+            tmp,
+            target: target.to_path_buf(),
+            committed: false,
+        })
+    }
+
+    fn file(&self) -> Result<fs::File> {
+        fs::OpenOptions::new()
+            .write(true)
+            .open(&self.tmp)
+            .map_err(|e| Error::io(format!("opening {}", self.tmp.display()), e))
+    }
+
+    fn commit(mut self) -> Result<()> {
+        fs::rename(&self.tmp, &self.target)
+            .map_err(|e| Error::io(format!("renaming into {}", self.target.display()), e))?;
+        self.committed = true;
+        Ok(())
+    }
+}
+
+impl Drop for PendingFile {
+    fn drop(&mut self) {
+        if !self.committed {
+            let _ = fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn summary_text(
+    profile: &Profile,
+    target: &Target,
+    args: &GenerateArgs,
+    scale: &Scale,
+    band_rms: f64,
+    expected_rms: f64,
+    stats: &RunningStats,
+    clipped: u64,
+    notes: &[String],
+) -> String {
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let mut s = String::new();
+    let name = profile.name.as_deref().unwrap_or("(unnamed profile)");
+    let out = match target {
+        Target::Stdout => "standard output".to_string(),
+        Target::File(p) => p.display().to_string(),
+    };
+    s += &format!(
+        "noisewright {}: {name} -> {out}\n",
+        env!("CARGO_PKG_VERSION")
+    );
+    s += &format!(
+        "  band            {} .. {} (order {}), {} samples at {}{}\n",
+        format_quantity(profile.band.low_hz, "Hz"),
+        format_quantity(profile.band.high_hz, "Hz"),
+        profile.band.order,
+        stats.count(),
+        format_quantity(profile.sample_rate_hz, "Hz"),
+        if args.loop_buffer {
+            ", loop buffer"
+        } else {
+            ""
+        }
+    );
+    s += &format!(
+        "  expected RMS    {} in the band, {} in the output\n",
+        q(band_rms),
+        q(expected_rms)
+    );
+    s += &format!(
+        "  peak-to-peak    {} (6σ), {} (6.6σ) expected\n",
+        q(6.0 * expected_rms),
+        q(6.6 * expected_rms)
+    );
+    s += &format!(
+        "  measured        RMS {}, std {}, mean {}, peak-to-peak {}\n",
+        q(stats.rms()),
+        q(stats.std()),
+        q(stats.mean()),
+        q(stats.peak_to_peak())
+    );
+    match (scale.full_scale, scale.level_dbfs) {
+        (Some(f), Some(l)) => {
+            s += &format!(
+                "  scale           digital 1.0 = {} ({l} dBFS, AES17)\n",
+                q(f)
+            )
+        }
+        (Some(f), None) => s += &format!("  scale           digital 1.0 = {}\n", q(f)),
+        _ => s += &format!("  scale           physical units ({u})\n"),
+    }
+    s += &format!("  clipped         {clipped}\n");
+    s += &format!("  seed            {}\n", args.seed);
+    for n in notes {
+        s += &format!("  note: {n}\n");
+    }
+    s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn round_up_holds_the_peak() {
+        assert!((round_up(1.234e-6) - 1.3e-6).abs() < 1e-18);
+        assert!(round_up(9.99) >= 9.99);
+        assert!(round_up(0.0123) >= 0.0123);
+    }
+
+    #[test]
+    fn levels_parse() {
+        assert_eq!(parse_dbfs("-20dBFS").unwrap(), -20.0);
+        assert_eq!(parse_dbfs("-6.5").unwrap(), -6.5);
+        assert!(parse_dbfs("3dBFS").is_err());
+        assert!(parse_dbfs("loud").is_err());
+    }
+}

@@ -1,0 +1,424 @@
+//! CLI tests of `noisewright generate`: outputs, manifest, honesty about scale and clipping,
+//! and bad input (exit 2, a message naming file, line and key, no output file).
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output, Stdio};
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_noisewright"))
+}
+
+/// A fresh, empty folder for one test.
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("noisewright-cli-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+fn run(args: &[&str], cwd: &Path) -> Output {
+    bin().args(args).current_dir(cwd).output().unwrap()
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+const WHITE: &str = r#"
+name = "cli white"
+unit = "V"
+sample_rate = "48 kHz"
+[band]
+low = "10 Hz"
+high = "20 kHz"
+order = 0
+[[floor]]
+density = "10 nV/rtHz"
+"#;
+
+fn write_profile(dir: &Path, name: &str, body: &str) -> PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, body).unwrap();
+    p
+}
+
+/// Files in `dir` other than the profiles we put there.
+fn outputs(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| !n.ends_with(".toml"))
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn every_bundled_profile_generates_a_wav_and_its_manifest() {
+    let dir = scratch("bundled");
+    let profiles = Path::new(env!("CARGO_MANIFEST_DIR")).join("profiles");
+    let mut count = 0;
+    for entry in std::fs::read_dir(&profiles).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_none_or(|e| e != "toml") {
+            continue;
+        }
+        count += 1;
+        let stem = path.file_stem().unwrap().to_string_lossy().into_owned();
+        let out = dir.join(format!("{stem}.wav"));
+        let o = run(
+            &[
+                "generate",
+                path.to_str().unwrap(),
+                "-o",
+                out.to_str().unwrap(),
+                "--samples",
+                "50000",
+            ],
+            &dir,
+        );
+        assert!(o.status.success(), "{stem}: {}", text(&o.stderr));
+        let reader = hound::WavReader::open(&out).unwrap();
+        assert_eq!(reader.len(), 50_000, "{stem}");
+        let manifest: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(dir.join(format!("{stem}.wav.json"))).unwrap())
+                .unwrap();
+        assert_eq!(manifest["samples"], 50_000, "{stem}");
+        assert_eq!(manifest["seed"], 1, "{stem}");
+        assert!(manifest["full_scale"].as_f64().unwrap() > 0.0, "{stem}");
+        let summary = text(&o.stdout);
+        assert!(summary.contains("expected RMS"), "{stem}: {summary}");
+        assert!(summary.contains("seed"), "{stem}: {summary}");
+    }
+    assert!(count >= 3, "expected the bundled scenarios, found {count}");
+}
+
+#[test]
+fn default_output_goes_to_out_folder_named_after_the_profile() {
+    let dir = scratch("default-out");
+    let p = write_profile(&dir, "bench.toml", WHITE);
+    let o = run(
+        &["generate", p.to_str().unwrap(), "--duration", "0.1s"],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(dir.join("out/bench.wav").is_file());
+    assert!(dir.join("out/bench.wav.json").is_file());
+}
+
+#[test]
+fn same_seed_same_bytes_other_seed_other_bytes() {
+    let dir = scratch("determinism");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let mut files = Vec::new();
+    for (name, seed) in [("a.raw", "5"), ("b.raw", "5"), ("c.raw", "6")] {
+        let o = run(
+            &[
+                "generate",
+                p.to_str().unwrap(),
+                "-o",
+                name,
+                "--seed",
+                seed,
+                "--samples",
+                "30000",
+            ],
+            &dir,
+        );
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        files.push(std::fs::read(dir.join(name)).unwrap());
+    }
+    assert_eq!(files[0].len(), 30_000 * 4);
+    assert_eq!(files[0], files[1]);
+    assert_ne!(files[0], files[2]);
+}
+
+#[test]
+fn csv_and_raw_carry_physical_units_by_default() {
+    let dir = scratch("physical");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "n.csv",
+            "--samples",
+            "1000",
+        ],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let csv = std::fs::read_to_string(dir.join("n.csv")).unwrap();
+    let mut lines = csv.lines();
+    assert!(lines.next().unwrap().contains("time_s"));
+    let values: Vec<f64> = lines
+        .map(|l| l.split(',').nth(1).unwrap().parse().unwrap())
+        .collect();
+    assert_eq!(values.len(), 1000);
+    // 10 nV/√Hz over ~20 kHz is ~1.4 µV RMS: the values are volts, not normalised.
+    let rms = (values.iter().map(|v| v * v).sum::<f64>() / 1000.0).sqrt();
+    assert!(rms > 0.5e-6 && rms < 5e-6, "rms {rms}");
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.join("n.csv.json")).unwrap()).unwrap();
+    assert!(m["full_scale"].is_null());
+    assert_eq!(m["unit"], "V");
+}
+
+#[test]
+fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
+    let dir = scratch("clip");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "c.wav",
+            "--full-scale",
+            "1uV",
+            "--samples",
+            "20000",
+        ],
+        &dir,
+    );
+    assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
+    let err = text(&o.stderr);
+    assert!(err.contains("full scale of at least"), "{err}");
+    assert!(outputs(&dir).is_empty(), "left behind: {:?}", outputs(&dir));
+
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "c.wav",
+            "--full-scale",
+            "1uV",
+            "--samples",
+            "20000",
+            "--allow-clipping",
+        ],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.join("c.wav.json")).unwrap()).unwrap();
+    assert!(m["clipped"].as_u64().unwrap() > 0);
+    assert!(text(&o.stdout).contains("clipped"));
+}
+
+#[test]
+fn a_wav_past_4_gib_is_refused_before_writing() {
+    let dir = scratch("wav4g");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "big.wav",
+            "--samples",
+            "1200000000",
+        ],
+        &dir,
+    );
+    assert_eq!(o.status.code(), Some(2));
+    let err = text(&o.stderr);
+    assert!(err.contains("4 GiB") && err.contains("raw"), "{err}");
+    assert!(outputs(&dir).is_empty());
+}
+
+#[test]
+fn streaming_to_a_closed_pipe_ends_quietly() {
+    let dir = scratch("pipe");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let mut child = bin()
+        .args([
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "-",
+            "--duration",
+            "inf",
+        ])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    {
+        use std::io::Read;
+        let mut stdout = child.stdout.take().unwrap();
+        let mut buf = vec![0u8; 1 << 20];
+        stdout.read_exact(&mut buf).unwrap();
+        // Dropping stdout closes the pipe.
+    }
+    let o = child.wait_with_output().unwrap();
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+}
+
+#[test]
+fn sigint_leaves_no_file_under_the_target_name() {
+    let dir = scratch("sigint");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let child = bin()
+        .args([
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "long.raw",
+            "--duration",
+            "2h",
+        ])
+        .current_dir(&dir)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    // Wait until the partial file exists, then interrupt.
+    for _ in 0..200 {
+        if !outputs(&dir).is_empty() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    std::thread::sleep(std::time::Duration::from_millis(200));
+    let status = Command::new("kill")
+        .args(["-INT", &child.id().to_string()])
+        .status()
+        .unwrap();
+    assert!(status.success());
+    let o = child.wait_with_output().unwrap();
+    assert_eq!(o.status.code(), Some(130), "{}", text(&o.stderr));
+    assert!(outputs(&dir).is_empty(), "left behind: {:?}", outputs(&dir));
+}
+
+/// Each malformed profile gives exit 2, names the file, the line where known and the key,
+/// and leaves no output.
+#[test]
+fn bad_profiles_are_rejected_with_file_line_and_key() {
+    let dir = scratch("bad");
+    let cases: &[(&str, &str, &[&str])] = &[
+        (
+            "syntax",
+            "unit = \"V\"\nsample_rate = \n",
+            &["syntax.toml", ":2"],
+        ),
+        (
+            "unknown-key",
+            "unit = \"V\"\nsample_rate = \"48 kHz\"\ncolour = 3\n[band]\nlow = 1\nhigh = 100\n[[floor]]\ndensity = 1e-9\n",
+            &["unknown-key.toml", ":3", "colour"],
+        ),
+        (
+            "missing-density",
+            "unit = \"V\"\nsample_rate = \"48 kHz\"\n[band]\nlow = 1\nhigh = 100\n[[floor]]\ncorner = \"10 Hz\"\n",
+            &["missing-density.toml", "density"],
+        ),
+        (
+            "negative",
+            "unit = \"V\"\nsample_rate = \"48 kHz\"\n[band]\nlow = 1\nhigh = 100\n[[floor]]\ndensity = -1e-9\n",
+            &["negative.toml", ":7", "floor[0].density"],
+        ),
+        (
+            "nyquist",
+            "unit = \"V\"\nsample_rate = \"48 kHz\"\n[band]\nlow = 1\nhigh = \"30 kHz\"\n[[floor]]\ndensity = 1e-9\n",
+            &["nyquist.toml", ":5", "band.high", "24 kHz"],
+        ),
+        (
+            "low-above-high",
+            "unit = \"V\"\nsample_rate = \"48 kHz\"\n[band]\nlow = \"2 kHz\"\nhigh = \"1 kHz\"\n[[floor]]\ndensity = 1e-9\n",
+            &["low-above-high.toml", "band.low"],
+        ),
+        (
+            "unknown-unit",
+            "unit = \"V\"\nsample_rate = \"48 kHz\"\n[band]\nlow = 1\nhigh = 100\n[[floor]]\ndensity = \"4 nV/furlong\"\n",
+            &["unknown-unit.toml", ":7", "floor[0].density"],
+        ),
+    ];
+    for (name, body, needles) in cases {
+        let p = write_profile(&dir, &format!("{name}.toml"), body);
+        let o = run(&["generate", p.to_str().unwrap(), "-o", "x.wav"], &dir);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{name}: {err}");
+        for n in *needles {
+            assert!(err.contains(n), "{name}: {n:?} missing from {err:?}");
+        }
+        assert!(outputs(&dir).is_empty(), "{name}: left {:?}", outputs(&dir));
+    }
+}
+
+#[test]
+fn bad_options_are_rejected_with_exit_2_and_no_output() {
+    let dir = scratch("badopt");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let cases: &[(&[&str], &str)] = &[
+        (&["--duration", "ten"], "--duration"),
+        (&["--rate", "20 kHz"], "--rate"),
+        (&["--level", "+3dBFS"], "--level"),
+        (&["--sample-format", "i12"], "--sample-format"),
+        (&["--duration", "inf"], "--duration"),
+    ];
+    for (extra, needle) in cases {
+        let mut args = vec!["generate", p.to_str().unwrap(), "-o", "x.wav"];
+        args.extend_from_slice(extra);
+        let o = run(&args, &dir);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{extra:?}: {err}");
+        assert!(err.contains(needle), "{extra:?}: {err}");
+        assert!(outputs(&dir).is_empty());
+    }
+}
+
+#[test]
+fn a_rate_change_is_reported_not_silent() {
+    let dir = scratch("rate");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "r.raw",
+            "--rate",
+            "96 kHz",
+            "--samples",
+            "1000",
+        ],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(text(&o.stdout).contains("replaces the profile's 48 kHz"));
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.join("r.raw.json")).unwrap()).unwrap();
+    assert_eq!(m["sample_rate_hz"], 96_000.0);
+    assert!(m["notes"][0].as_str().unwrap().contains("96 kHz"));
+}
+
+#[test]
+fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
+    // 16 bits at a full scale of 1 V: Q/√(6 fs) ≈ 62 nV/√Hz, far above 10 nV/√Hz
+    // (uniform quantisation error model, IEEE Std 1241; REFERENCES §9).
+    let dir = scratch("quant");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "q.wav",
+            "--sample-format",
+            "i16",
+            "--full-scale",
+            "1V",
+            "--samples",
+            "1000",
+        ],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stdout).contains("quantisation noise"),
+        "{}",
+        text(&o.stdout)
+    );
+}
