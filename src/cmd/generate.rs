@@ -13,7 +13,7 @@ use crate::sink::{
     Format, Manifest, SampleFormat, SinkSpec, check_wav_size, open_sink, rms_digital_from_dbfs,
     write_manifest,
 };
-use crate::synth::{Design, Shaper, periodic_buffer, periodic_variance};
+use crate::synth::{Shaper, design_profile, periodic_buffer, periodic_variance};
 
 /// Samples produced and written per step.
 const CHUNK: usize = 1 << 16;
@@ -219,7 +219,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             var,
         )
     } else {
-        let design = Design::new(&target_psd, fs, profile.band.low_hz)?;
+        let design = design_profile(&profile)?;
         let var = design.variance();
         let mut shaper = Shaper::new(&design, args.seed);
         (Box::new(move |out: &mut [f64]| shaper.fill(out)), var)
