@@ -1,4 +1,30 @@
 //! noisewright turns a noise density profile into real, reproducible noise.
+//!
+//! Data flows one way: a profile file becomes a [`profile::Profile`]; [`density`] gives its
+//! one-sided target density S(f) in unit²/Hz (unit = V or A); [`synth`] designs and runs the
+//! engine that synthesises noise with that density (and computes the density it actually
+//! makes); [`sink`] scales, quantises and writes the samples with a manifest; [`analysis`]
+//! measures samples. [`cmd`] holds the subcommands the binary calls.
+//!
+//! ```
+//! use noisewright::profile::parse_profile;
+//! use noisewright::synth::Generator;
+//!
+//! let profile = parse_profile(
+//!     "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n\
+//!      [[floor]]\ndensity = \"4 nV/rtHz\"\ncorner = \"100 Hz\"\n",
+//!     "inline",
+//! )?;
+//! let mut noise = Generator::new(&profile, 42)?;
+//! let mut block = vec![0.0; 4800];
+//! noise.fill(&mut block); // the next 0.1 s, in volts
+//! // Designed density at 1 kHz (V²/Hz) and the expected RMS (V) of the output.
+//! let d = noise.design().density(1000.0);
+//! assert!((d.sqrt() / (4e-9 * 1.1f64.sqrt()) - 1.0).abs() < 1e-3); // 4 nV/√Hz·√(1 + 100/1000)
+//! let rms = noise.design().variance().sqrt();
+//! assert!(rms > 4e-9 * 20_000f64.sqrt());
+//! # Ok::<(), noisewright::Error>(())
+//! ```
 #![deny(missing_docs)]
 
 pub mod analysis;
@@ -10,3 +36,8 @@ pub mod sink;
 pub mod synth;
 
 pub use error::{Error, Result};
+
+/// The README's Rust example, compiled and run as a doctest.
+#[doc = include_str!("../README.md")]
+#[cfg(doctest)]
+pub struct ReadmeDoctests;

@@ -149,7 +149,7 @@ fn reference_unavailable(why: &str) -> Option<(Vec<f64>, Vec<f64>)> {
     } else {
         panic!(
             "the SciPy reference is unavailable: {why}\n\
-             install it with `python3 -m pip install numpy scipy` (.ci/run does), \
+             install it with `python3 -m pip install -r tests/python/requirements.txt` (.ci/run does), \
              or set NOISEWRIGHT_SKIP_PYTHON=1 to skip this comparison"
         )
     }
@@ -163,6 +163,9 @@ fn scipy_welch(
     noverlap: usize,
     tag: &str,
 ) -> Option<(Vec<f64>, Vec<f64>)> {
+    if let Err(why) = common::ensure_python_reference() {
+        return reference_unavailable(&why);
+    }
     let files = TempFiles::new(tag);
     write_f64(&files.0[0], x);
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/welch_ref.py");

@@ -51,7 +51,8 @@ pub struct GenerateArgs {
     /// Output format: wav, csv or raw. Default: from the extension of OUT.
     #[arg(long, value_name = "FORMAT")]
     pub format: Option<String>,
-    /// Sample format: f32, f64 (raw/CSV only), i16, i24 or i32. Default: f32.
+    /// Sample format: f32, f64 (raw/CSV only), i16, i24 or i32. Default: the extension of a
+    /// raw file (.i16, .i24, .i32, .f64), else f32.
     #[arg(long = "sample-format", value_name = "F")]
     pub sample_format: Option<String>,
     /// Physical value that maps to digital 1.0, e.g. `10uV`.
@@ -157,7 +158,14 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         Some(s) => s
             .parse::<SampleFormat>()
             .map_err(|m| Error::option("--sample-format", m))?,
-        None => SampleFormat::F32,
+        // A raw file named .i16/.i24/.i32/.f64 says its own sample format.
+        None => match (&target, format) {
+            (Target::File(p), Format::Raw) => p
+                .extension()
+                .and_then(|e| SampleFormat::from_extension(&e.to_string_lossy()))
+                .unwrap_or(SampleFormat::F32),
+            _ => SampleFormat::F32,
+        },
     };
 
     // Length.

@@ -101,3 +101,49 @@ pub fn check_bands_against(
         ))
     }
 }
+
+/// Makes sure `python3` can import the reference libraries (numpy, scipy): on first use in a
+/// test binary, when they are missing, installs the versions pinned in
+/// `tests/python/requirements.txt` with pip (CI installs them up front in `.ci/run`). Returns
+/// why the reference is unavailable if Python is missing or the install fails.
+pub fn ensure_python_reference() -> Result<(), String> {
+    static READY: std::sync::OnceLock<Result<(), String>> = std::sync::OnceLock::new();
+    READY
+        .get_or_init(|| {
+            let probe = || {
+                std::process::Command::new("python3")
+                    .args(["-c", "import numpy, scipy.signal, scipy.io.wavfile"])
+                    .output()
+            };
+            match probe() {
+                Err(e) => return Err(format!("python3 was not found ({e})")),
+                Ok(o) if o.status.success() => return Ok(()),
+                Ok(_) => {}
+            }
+            let req = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/python/requirements.txt");
+            eprintln!("installing the test reference libraries: python3 -m pip install -r {req}");
+            let install = std::process::Command::new("python3")
+                .args([
+                    "-m",
+                    "pip",
+                    "install",
+                    "--quiet",
+                    "--disable-pip-version-check",
+                    "-r",
+                    req,
+                ])
+                .output()
+                .map_err(|e| format!("could not run pip ({e})"))?;
+            if !install.status.success() {
+                return Err(format!(
+                    "pip could not install {req}: {}",
+                    String::from_utf8_lossy(&install.stderr).trim()
+                ));
+            }
+            match probe() {
+                Ok(o) if o.status.success() => Ok(()),
+                _ => Err("numpy/scipy still cannot be imported after pip install".into()),
+            }
+        })
+        .clone()
+}
