@@ -5,7 +5,6 @@
 mod common;
 
 use std::path::{Path, PathBuf};
-use std::process::Command;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 use common::{check_bands_against, chi2_band, db, variance_bounds};
@@ -141,20 +140,6 @@ fn read_f64(path: &Path) -> Vec<f64> {
         .collect()
 }
 
-/// Handles a missing Python or SciPy: fail, unless NOISEWRIGHT_SKIP_PYTHON=1.
-fn reference_unavailable(why: &str) -> Option<(Vec<f64>, Vec<f64>)> {
-    if std::env::var("NOISEWRIGHT_SKIP_PYTHON").as_deref() == Ok("1") {
-        println!("skipped the SciPy comparison (NOISEWRIGHT_SKIP_PYTHON=1): {why}");
-        None
-    } else {
-        panic!(
-            "the SciPy reference is unavailable: {why}\n\
-             install it with `python3 -m pip install -r tests/python/requirements.txt` (.ci/run does), \
-             or set NOISEWRIGHT_SKIP_PYTHON=1 to skip this comparison"
-        )
-    }
-}
-
 /// `scipy.signal.welch` of `x` (frequencies, density), or None when skipped.
 fn scipy_welch(
     x: &[f64],
@@ -163,38 +148,17 @@ fn scipy_welch(
     noverlap: usize,
     tag: &str,
 ) -> Option<(Vec<f64>, Vec<f64>)> {
-    if let Err(why) = common::ensure_python_reference() {
-        return reference_unavailable(&why);
-    }
     let files = TempFiles::new(tag);
     write_f64(&files.0[0], x);
-    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/welch_ref.py");
-    let run = Command::new("python3")
-        .arg(&script)
-        .arg(&files.0[0])
-        .arg(&files.0[1])
-        .arg(format!("{fs:?}"))
-        .arg(seg_len.to_string())
-        .arg(noverlap.to_string())
-        .output();
-    let out = match run {
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
-            return reference_unavailable(&format!("python3 was not found ({e})"));
-        }
-        Err(e) => panic!("could not run python3 {}: {e}", script.display()),
-        Ok(out) => out,
-    };
-    let stderr = String::from_utf8_lossy(&out.stderr);
-    if out.status.code() == Some(3) {
-        return reference_unavailable(stderr.trim());
-    }
-    assert!(
-        out.status.success(),
-        "{} failed ({}): {stderr}",
-        script.display(),
-        out.status
-    );
-    println!("{tag}: {}", String::from_utf8_lossy(&out.stdout).trim());
+    let args: Vec<std::ffi::OsString> = vec![
+        files.0[0].clone().into(),
+        files.0[1].clone().into(),
+        format!("{fs:?}").into(),
+        seg_len.to_string().into(),
+        noverlap.to_string().into(),
+    ];
+    let stdout = common::python_script("welch_ref.py", &args, &format!("seed {SEED}"))?;
+    println!("{tag}: {}", stdout.trim());
     let both = read_f64(&files.0[1]);
     let n = seg_len / 2 + 1;
     assert_eq!(both.len(), 2 * n, "reference output length");

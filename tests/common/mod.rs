@@ -147,3 +147,52 @@ pub fn ensure_python_reference() -> Result<(), String> {
         })
         .clone()
 }
+
+/// What a cross-check does when the reference is unavailable: fail with how to install it,
+/// unless `NOISEWRIGHT_SKIP_PYTHON=1` (then say it skipped and return `None`).
+pub fn reference_unavailable<T>(why: &str) -> Option<T> {
+    if std::env::var("NOISEWRIGHT_SKIP_PYTHON").as_deref() == Ok("1") {
+        println!("skipped the SciPy comparison (NOISEWRIGHT_SKIP_PYTHON=1): {why}");
+        None
+    } else {
+        panic!(
+            "the SciPy reference is unavailable: {why}\n\
+             install it with `python3 -m pip install -r tests/python/requirements.txt` \
+             (.ci/run does), or set NOISEWRIGHT_SKIP_PYTHON=1 to skip this comparison"
+        )
+    }
+}
+
+/// Runs `tests/python/<script>` with `args` and returns its stdout, or `None` when the
+/// reference is skipped. Exit status 3 from a script means numpy/scipy is missing; any other
+/// failure panics with the script's stderr and `context` (say, the seed).
+pub fn python_script(script: &str, args: &[std::ffi::OsString], context: &str) -> Option<String> {
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/python")
+        .join(script);
+    if let Err(why) = ensure_python_reference() {
+        return reference_unavailable(&why);
+    }
+    let out = match std::process::Command::new("python3")
+        .arg(&path)
+        .args(args)
+        .output()
+    {
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+            return reference_unavailable(&format!("python3 was not found ({e})"));
+        }
+        Err(e) => panic!("could not run python3 {}: {e}", path.display()),
+        Ok(out) => out,
+    };
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    if out.status.code() == Some(3) {
+        return reference_unavailable(stderr.trim());
+    }
+    assert!(
+        out.status.success(),
+        "{} failed ({}): {stderr} ({context})",
+        path.display(),
+        out.status
+    );
+    Some(String::from_utf8_lossy(&out.stdout).into_owned())
+}
