@@ -422,3 +422,51 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
         text(&o.stdout)
     );
 }
+
+#[test]
+fn loop_writes_one_period_and_says_so() {
+    let dir = scratch("loop");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "--loop",
+            "-o",
+            "l.f64",
+            "--samples",
+            "4800",
+        ],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let bytes = std::fs::read(dir.join("l.f64")).unwrap();
+    let x: Vec<f64> = bytes
+        .chunks_exact(8)
+        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
+        .collect();
+    assert_eq!(x.len(), 4800);
+    // One period of a sum of Fourier-frequency sinusoids with no DC: the mean is zero to
+    // rounding (REFERENCES §1.1).
+    let mean = x.iter().sum::<f64>() / x.len() as f64;
+    let rms = (x.iter().map(|v| v * v).sum::<f64>() / x.len() as f64).sqrt();
+    assert!(mean.abs() < 1e-12 * rms, "mean {mean}, rms {rms}");
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.join("l.f64.json")).unwrap()).unwrap();
+    assert_eq!(m["loop"], true);
+    assert!(text(&o.stdout).contains("loop buffer"));
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "--loop",
+            "-o",
+            "l.raw",
+            "--duration",
+            "2h",
+        ],
+        &dir,
+    );
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o.stderr).contains("--loop"), "{}", text(&o.stderr));
+}
