@@ -7,11 +7,17 @@
 //! FIR over i.i.d. input, so the output is stationary from its first sample; memory is a few
 //! FFT blocks per level and does not grow with duration.
 //!
+//! Work is done in batches of [`BATCH_PAIRS`] block pairs per level. Within a batch the white
+//! chunks (each its own random stream) and the block pairs (each a pure function of its input
+//! windows) are computed in parallel on rayon's pool; the result does not depend on the number
+//! of threads or on how they share the work.
+//!
 //! The FFTs are rustfft's scalar ones: the SIMD paths give different rounding on different
 //! CPUs, and the output must be identical on every machine.
 
 use std::sync::Arc;
 
+use rayon::prelude::*;
 use rustfft::num_complex::Complex;
 use rustfft::{Fft, FftPlannerScalar};
 
@@ -20,6 +26,9 @@ use super::white::{Domain, WhiteStreams};
 
 const LOW_HOP: usize = HOP / RATIO;
 const LOW_LEN: usize = FFT_LEN / RATIO;
+/// Block pairs (2·HOP output samples each) computed per batch and level.
+pub const BATCH_PAIRS: usize = 8;
+const BATCH_OUT: usize = 2 * HOP * BATCH_PAIRS;
 
 struct LevelState {
     index: usize,
@@ -27,31 +36,46 @@ struct LevelState {
     shaper: Vec<Complex<f64>>,
     /// DFT of the zero-padded interpolator taps / FFT_LEN; empty for the deepest level.
     interp: Vec<Complex<f64>>,
-    /// White input: HOP samples of history, then two new chunks.
+    /// White input of the batch: one chunk of history, then 2·BATCH_PAIRS new chunks.
     white: Vec<f64>,
     next_chunk: u64,
-    /// Samples from the level below: LOW_HOP of history, then 2·LOW_HOP new.
+    /// Samples from the level below: LOW_HOP of history, then 2·BATCH_PAIRS·LOW_HOP new.
     low: Vec<f64>,
     /// Output produced but not yet handed up.
     ready: Vec<f64>,
     ready_pos: usize,
     primed: bool,
+}
+
+/// Per-worker buffers for one block pair.
+struct Scratch {
     spec: Vec<Complex<f64>>,
     low_spec: Vec<Complex<f64>>,
+    fft: Vec<Complex<f64>>,
 }
 
 struct Transforms {
     forward: Arc<dyn Fft<f64>>,
     inverse: Arc<dyn Fft<f64>>,
     forward_low: Arc<dyn Fft<f64>>,
-    scratch: Vec<Complex<f64>>,
+    scratch_len: usize,
     white: WhiteStreams,
+}
+
+impl Transforms {
+    fn scratch(&self) -> Scratch {
+        Scratch {
+            spec: vec![Complex::new(0.0, 0.0); FFT_LEN],
+            low_spec: vec![Complex::new(0.0, 0.0); LOW_LEN],
+            fft: vec![Complex::new(0.0, 0.0); self.scratch_len],
+        }
+    }
 }
 
 /// A seeded, streaming generator of noise with a [`Design`]'s density.
 ///
 /// Pull samples with [`Shaper::fill`]; the sequence depends only on the design and the seed,
-/// never on how the calls are split.
+/// never on how the calls are split or how many threads rayon's pool has.
 pub struct Shaper {
     levels: Vec<LevelState>,
     tx: Transforms,
@@ -93,14 +117,12 @@ impl Shaper {
                 } else {
                     Vec::new()
                 },
-                white: vec![0.0; 3 * HOP],
+                white: vec![0.0; (2 * BATCH_PAIRS + 1) * HOP],
                 next_chunk: 0,
-                low: vec![0.0; 3 * LOW_HOP],
-                ready: vec![0.0; 2 * HOP],
-                ready_pos: 2 * HOP,
+                low: vec![0.0; (2 * BATCH_PAIRS + 1) * LOW_HOP],
+                ready: vec![0.0; BATCH_OUT],
+                ready_pos: BATCH_OUT,
                 primed: false,
-                spec: vec![Complex::new(0.0, 0.0); FFT_LEN],
-                low_spec: vec![Complex::new(0.0, 0.0); LOW_LEN],
             })
             .collect();
         Shaper {
@@ -109,7 +131,7 @@ impl Shaper {
                 forward,
                 inverse,
                 forward_low,
-                scratch: vec![Complex::new(0.0, 0.0); scratch_len],
+                scratch_len,
                 white: WhiteStreams::new(seed),
             },
         }
@@ -117,11 +139,11 @@ impl Shaper {
 
     /// Fill `out` with the next samples, in the design's unit.
     pub fn fill(&mut self, out: &mut [f64]) {
-        pull(&mut self.levels, &mut self.tx, out);
+        pull(&mut self.levels, &self.tx, out);
     }
 }
 
-fn pull(levels: &mut [LevelState], tx: &mut Transforms, out: &mut [f64]) {
+fn pull(levels: &mut [LevelState], tx: &Transforms, out: &mut [f64]) {
     let Some((head, below)) = levels.split_first_mut() else {
         out.fill(0.0);
         return;
@@ -129,7 +151,7 @@ fn pull(levels: &mut [LevelState], tx: &mut Transforms, out: &mut [f64]) {
     let mut done = 0;
     while done < out.len() {
         if head.ready_pos == head.ready.len() {
-            step(head, below, tx);
+            batch(head, below, tx);
         }
         let n = (out.len() - done).min(head.ready.len() - head.ready_pos);
         out[done..done + n].copy_from_slice(&head.ready[head.ready_pos..head.ready_pos + n]);
@@ -138,18 +160,21 @@ fn pull(levels: &mut [LevelState], tx: &mut Transforms, out: &mut [f64]) {
     }
 }
 
+/// Draw consecutive white chunks into `buf` (a whole number of chunks), in parallel.
 fn draw(level: &mut LevelState, tx: &Transforms, range: std::ops::Range<usize>) {
-    let mut start = range.start;
-    while start < range.end {
-        let stream = WhiteStreams::stream_id(Domain::Shaper, level.index, level.next_chunk);
-        tx.white.fill(stream, &mut level.white[start..start + HOP]);
-        level.next_chunk += 1;
-        start += HOP;
-    }
+    let (index, first) = (level.index, level.next_chunk);
+    level.white[range.clone()]
+        .par_chunks_mut(HOP)
+        .enumerate()
+        .for_each(|(c, chunk)| {
+            let stream = WhiteStreams::stream_id(Domain::Shaper, index, first + c as u64);
+            tx.white.fill(stream, chunk);
+        });
+    level.next_chunk += (range.len() / HOP) as u64;
 }
 
-/// Produce the next 2·HOP output samples of `level`.
-fn step(level: &mut LevelState, below: &mut [LevelState], tx: &mut Transforms) {
+/// Produce the next BATCH_PAIRS block pairs (BATCH_OUT samples) of `level`.
+fn batch(level: &mut LevelState, below: &mut [LevelState], tx: &Transforms) {
     let active = !level.shaper.is_empty();
     let has_below = !level.interp.is_empty();
     if !level.primed {
@@ -162,40 +187,74 @@ fn step(level: &mut LevelState, below: &mut [LevelState], tx: &mut Transforms) {
         level.primed = true;
     }
     if active {
-        draw(level, tx, HOP..3 * HOP);
-        for (n, s) in level.spec.iter_mut().enumerate() {
-            *s = Complex::new(level.white[n], level.white[HOP + n]);
-        }
-        tx.forward
-            .process_with_scratch(&mut level.spec, &mut tx.scratch);
-        for (s, h) in level.spec.iter_mut().zip(&level.shaper) {
-            *s *= *h;
-        }
-    } else {
-        level.spec.fill(Complex::new(0.0, 0.0));
+        let end = level.white.len();
+        draw(level, tx, HOP..end);
     }
     if has_below {
         pull(below, tx, &mut level.low[LOW_HOP..]);
-        for (m, s) in level.low_spec.iter_mut().enumerate() {
-            *s = Complex::new(level.low[m], level.low[LOW_HOP + m]);
-        }
-        tx.forward_low
-            .process_with_scratch(&mut level.low_spec, &mut tx.scratch);
-        for (k, (s, g)) in level.spec.iter_mut().zip(&level.interp).enumerate() {
-            *s += *g * level.low_spec[k % LOW_LEN];
-        }
-        level.low.copy_within(2 * LOW_HOP.., 0);
     }
-    tx.inverse
-        .process_with_scratch(&mut level.spec, &mut tx.scratch);
-    let (a, b) = level.ready.split_at_mut(HOP);
-    for (i, s) in level.spec[HOP..].iter().enumerate() {
-        a[i] = s.re;
-        b[i] = s.im;
-    }
+    let (white, low) = (&level.white, &level.low);
+    let (shaper, interp) = (&level.shaper, &level.interp);
+    level
+        .ready
+        .par_chunks_mut(2 * HOP)
+        .enumerate()
+        .for_each_init(
+            || tx.scratch(),
+            |s, (p, out)| {
+                let w = &white[2 * p * HOP..(2 * p + 3) * HOP];
+                let l = &low[2 * p * LOW_HOP..(2 * p + 3) * LOW_HOP];
+                pair(tx, s, shaper, interp, w, l, out);
+            },
+        );
     level.ready_pos = 0;
     if active {
-        level.white.copy_within(2 * HOP.., 0);
+        let end = level.white.len();
+        level.white.copy_within(end - HOP.., 0);
+    }
+    if has_below {
+        let end = level.low.len();
+        level.low.copy_within(end - LOW_HOP.., 0);
+    }
+}
+
+/// One block pair: `white` holds 3·HOP input samples (blocks A = [0, 2H), B = [H, 3H)),
+/// `low` the matching 3·LOW_HOP samples of the level below; writes 2·HOP outputs.
+fn pair(
+    tx: &Transforms,
+    s: &mut Scratch,
+    shaper: &[Complex<f64>],
+    interp: &[Complex<f64>],
+    white: &[f64],
+    low: &[f64],
+    out: &mut [f64],
+) {
+    if shaper.is_empty() {
+        s.spec.fill(Complex::new(0.0, 0.0));
+    } else {
+        for (n, c) in s.spec.iter_mut().enumerate() {
+            *c = Complex::new(white[n], white[HOP + n]);
+        }
+        tx.forward.process_with_scratch(&mut s.spec, &mut s.fft);
+        for (c, h) in s.spec.iter_mut().zip(shaper) {
+            *c *= *h;
+        }
+    }
+    if !interp.is_empty() {
+        for (m, c) in s.low_spec.iter_mut().enumerate() {
+            *c = Complex::new(low[m], low[LOW_HOP + m]);
+        }
+        tx.forward_low
+            .process_with_scratch(&mut s.low_spec, &mut s.fft);
+        for (k, (c, g)) in s.spec.iter_mut().zip(interp).enumerate() {
+            *c += *g * s.low_spec[k % LOW_LEN];
+        }
+    }
+    tx.inverse.process_with_scratch(&mut s.spec, &mut s.fft);
+    let (a, b) = out.split_at_mut(HOP);
+    for (i, c) in s.spec[HOP..].iter().enumerate() {
+        a[i] = c.re;
+        b[i] = c.im;
     }
 }
 
@@ -211,12 +270,12 @@ mod tests {
     fn output_does_not_depend_on_how_calls_are_split() {
         let d = Design::new(&flat, 48_000.0, 100.0).unwrap();
         let mut a = Shaper::new(&d, 42);
-        let mut whole = vec![0.0; 20_000];
+        let mut whole = vec![0.0; 100_000];
         a.fill(&mut whole);
         let mut b = Shaper::new(&d, 42);
-        let mut parts = vec![0.0; 20_000];
+        let mut parts = vec![0.0; 100_000];
         let mut pos = 0;
-        for n in [1usize, 7, 4095, 333, 10_000].iter().cycle() {
+        for n in [1usize, 7, 4095, 333, 40_000].iter().cycle() {
             let end = (pos + n).min(parts.len());
             b.fill(&mut parts[pos..end]);
             pos = end;
@@ -226,9 +285,29 @@ mod tests {
         }
         assert_eq!(whole, parts);
         let mut c = Shaper::new(&d, 43);
-        let mut other = vec![0.0; 20_000];
+        let mut other = vec![0.0; 100_000];
         c.fill(&mut other);
         assert_ne!(whole, other);
+    }
+
+    #[test]
+    fn output_does_not_depend_on_the_thread_count() {
+        let d = Design::new(&flat, 48_000.0, 1.0).unwrap();
+        let run = |threads: usize| {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap();
+            pool.install(|| {
+                let mut s = Shaper::new(&d, 9);
+                let mut x = vec![0.0; 3 * BATCH_OUT + 17];
+                s.fill(&mut x);
+                x
+            })
+        };
+        let one = run(1);
+        assert_eq!(one, run(2));
+        assert_eq!(one, run(3));
     }
 
     #[test]
