@@ -25,11 +25,13 @@ use crate::error::{Error, Result};
 /// Rate ratio between adjacent pyramid levels.
 pub const RATIO: usize = 4;
 /// Complex FFT length of the overlap-save blocks, in samples.
-pub const FFT_LEN: usize = 4096;
+pub const FFT_LEN: usize = 8192;
+/// Input samples each overlap-save block shares with the one before (≥ filter length − 1).
+pub const HISTORY: usize = 2048;
 /// New samples per overlap-save block.
-pub const HOP: usize = FFT_LEN / 2;
+pub const HOP: usize = FFT_LEN - HISTORY;
 /// Length of each level's shaping FIR (odd: linear phase, integer delay).
-pub const SHAPER_TAPS: usize = HOP - 1;
+pub const SHAPER_TAPS: usize = HISTORY - 1;
 /// Length of the interpolation filter.
 pub const INTERP_TAPS: usize = 511;
 /// Kaiser β of the shaping FIR window (sidelobes ≈ −90 dB).

@@ -9,9 +9,9 @@ mod periodic;
 mod shaper;
 mod white;
 
-pub use design::{Design, FFT_LEN, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
+pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
-pub use shaper::Shaper;
+pub use shaper::{BATCH_PAIRS, Shaper};
 pub use white::{Domain, WhiteStreams};
 
 use crate::density::target_psd;

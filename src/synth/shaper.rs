@@ -21,13 +21,16 @@ use rayon::prelude::*;
 use rustfft::num_complex::Complex;
 use rustfft::{Fft, FftPlannerScalar};
 
-use super::design::{Design, FFT_LEN, HOP, RATIO};
+use super::design::{Design, FFT_LEN, HISTORY, HOP, RATIO};
 use super::white::{Domain, WhiteStreams};
 
 const LOW_HOP: usize = HOP / RATIO;
+const LOW_HISTORY: usize = HISTORY / RATIO;
 const LOW_LEN: usize = FFT_LEN / RATIO;
+/// White samples per random stream.
+const CHUNK: usize = 2048;
 /// Block pairs (2·HOP output samples each) computed per batch and level.
-pub const BATCH_PAIRS: usize = 8;
+pub const BATCH_PAIRS: usize = 4;
 const BATCH_OUT: usize = 2 * HOP * BATCH_PAIRS;
 
 struct LevelState {
@@ -36,10 +39,11 @@ struct LevelState {
     shaper: Vec<Complex<f64>>,
     /// DFT of the zero-padded interpolator taps / FFT_LEN; empty for the deepest level.
     interp: Vec<Complex<f64>>,
-    /// White input of the batch: one chunk of history, then 2·BATCH_PAIRS new chunks.
+    /// White input of the batch: HISTORY samples shared with the last batch, then BATCH_OUT new.
     white: Vec<f64>,
     next_chunk: u64,
-    /// Samples from the level below: LOW_HOP of history, then 2·BATCH_PAIRS·LOW_HOP new.
+    /// Samples from the level below: LOW_HISTORY shared with the last batch, then
+    /// BATCH_OUT / RATIO new.
     low: Vec<f64>,
     /// Output produced but not yet handed up.
     ready: Vec<f64>,
@@ -117,9 +121,9 @@ impl Shaper {
                 } else {
                     Vec::new()
                 },
-                white: vec![0.0; (2 * BATCH_PAIRS + 1) * HOP],
+                white: vec![0.0; HISTORY + BATCH_OUT],
                 next_chunk: 0,
-                low: vec![0.0; (2 * BATCH_PAIRS + 1) * LOW_HOP],
+                low: vec![0.0; LOW_HISTORY + BATCH_OUT / RATIO],
                 ready: vec![0.0; BATCH_OUT],
                 ready_pos: BATCH_OUT,
                 primed: false,
@@ -160,17 +164,17 @@ fn pull(levels: &mut [LevelState], tx: &Transforms, out: &mut [f64]) {
     }
 }
 
-/// Draw consecutive white chunks into `buf` (a whole number of chunks), in parallel.
+/// Draw the white samples `range` (whole chunks) of `level`'s batch buffer, in parallel.
 fn draw(level: &mut LevelState, tx: &Transforms, range: std::ops::Range<usize>) {
     let (index, first) = (level.index, level.next_chunk);
     level.white[range.clone()]
-        .par_chunks_mut(HOP)
+        .par_chunks_mut(CHUNK)
         .enumerate()
         .for_each(|(c, chunk)| {
             let stream = WhiteStreams::stream_id(Domain::Shaper, index, first + c as u64);
             tx.white.fill(stream, chunk);
         });
-    level.next_chunk += (range.len() / HOP) as u64;
+    level.next_chunk += (range.len() / CHUNK) as u64;
 }
 
 /// Produce the next BATCH_PAIRS block pairs (BATCH_OUT samples) of `level`.
@@ -179,19 +183,19 @@ fn batch(level: &mut LevelState, below: &mut [LevelState], tx: &Transforms) {
     let has_below = !level.interp.is_empty();
     if !level.primed {
         if active {
-            draw(level, tx, 0..HOP);
+            draw(level, tx, 0..HISTORY);
         }
         if has_below {
-            pull(below, tx, &mut level.low[..LOW_HOP]);
+            pull(below, tx, &mut level.low[..LOW_HISTORY]);
         }
         level.primed = true;
     }
     if active {
         let end = level.white.len();
-        draw(level, tx, HOP..end);
+        draw(level, tx, HISTORY..end);
     }
     if has_below {
-        pull(below, tx, &mut level.low[LOW_HOP..]);
+        pull(below, tx, &mut level.low[LOW_HISTORY..]);
     }
     let (white, low) = (&level.white, &level.low);
     let (shaper, interp) = (&level.shaper, &level.interp);
@@ -202,24 +206,25 @@ fn batch(level: &mut LevelState, below: &mut [LevelState], tx: &Transforms) {
         .for_each_init(
             || tx.scratch(),
             |s, (p, out)| {
-                let w = &white[2 * p * HOP..(2 * p + 3) * HOP];
-                let l = &low[2 * p * LOW_HOP..(2 * p + 3) * LOW_HOP];
+                let w = &white[2 * p * HOP..2 * p * HOP + HOP + FFT_LEN];
+                let l = &low[2 * p * LOW_HOP..2 * p * LOW_HOP + LOW_HOP + LOW_LEN];
                 pair(tx, s, shaper, interp, w, l, out);
             },
         );
     level.ready_pos = 0;
     if active {
         let end = level.white.len();
-        level.white.copy_within(end - HOP.., 0);
+        level.white.copy_within(end - HISTORY.., 0);
     }
     if has_below {
         let end = level.low.len();
-        level.low.copy_within(end - LOW_HOP.., 0);
+        level.low.copy_within(end - LOW_HISTORY.., 0);
     }
 }
 
-/// One block pair: `white` holds 3·HOP input samples (blocks A = [0, 2H), B = [H, 3H)),
-/// `low` the matching 3·LOW_HOP samples of the level below; writes 2·HOP outputs.
+/// One block pair: `white` holds HOP + FFT_LEN input samples (block A's window is
+/// [0, FFT_LEN), block B's [HOP, HOP + FFT_LEN)), `low` the matching LOW_HOP + LOW_LEN samples
+/// of the level below; writes 2·HOP outputs, the valid tail of each circular convolution.
 fn pair(
     tx: &Transforms,
     s: &mut Scratch,
@@ -252,7 +257,7 @@ fn pair(
     }
     tx.inverse.process_with_scratch(&mut s.spec, &mut s.fft);
     let (a, b) = out.split_at_mut(HOP);
-    for (i, c) in s.spec[HOP..].iter().enumerate() {
+    for (i, c) in s.spec[HISTORY..].iter().enumerate() {
         a[i] = c.re;
         b[i] = c.im;
     }
