@@ -26,6 +26,8 @@ pub const BRICK_WALL_TAPER_OCTAVES: f64 = 0.25;
 /// - floor: density²·(1 + (corner/f)^slope), or density² without a corner;
 /// - resistor: 4kTR in V²/Hz in a volt profile, 4kT/R in A²/Hz in an ampere profile
 ///   (Johnson–Nyquist, valid for hf ≪ kT);
+/// - amplifier part: density²·(1 + corner/f)/(1 + (f/pole)²) in V²/Hz (see
+///   [`crate::amplifier::part_psd`]);
 /// - table: the density interpolated linearly in log f–log density between points, held at
 ///   the first/last point's density outside them; the power is its square.
 ///
@@ -60,6 +62,12 @@ pub fn source_psd(source: &Source, profile: &Profile, f: f64) -> f64 {
             let d = table_density(points, f);
             d * d
         }
+        SourceKind::AmplifierPart {
+            density,
+            corner_hz,
+            pole_hz,
+            ..
+        } => crate::amplifier::part_psd(*density, *corner_hz, *pole_hz, f),
     }
 }
 
@@ -162,6 +170,9 @@ pub fn target_variance(profile: &Profile) -> f64 {
                 ..
             } => breaks.push(*fc),
             SourceKind::Table { points } => breaks.extend(points.iter().map(|p| p.0)),
+            SourceKind::AmplifierPart {
+                corner_hz, pole_hz, ..
+            } => breaks.extend(corner_hz.iter().chain(pole_hz)),
             _ => {}
         }
     }

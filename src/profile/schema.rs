@@ -37,6 +37,8 @@ use super::quantity::expectation;
 use super::{Band, Dimension, Profile, Source, SourceKind, Unit, format_quantity, parse_quantity};
 use crate::error::{Error, Result};
 
+mod amplifier;
+
 /// Temperature of a resistor without a `temperature` key: 25 °C in kelvin.
 pub const DEFAULT_TEMPERATURE_K: f64 = 298.15;
 
@@ -51,6 +53,7 @@ const TOP_KEYS: &[&str] = &[
     "floor",
     "resistor",
     "table",
+    "amplifier",
 ];
 const BAND_KEYS: &[&str] = &["low", "high", "order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
@@ -70,6 +73,8 @@ struct RawProfile {
     resistor: Vec<Spanned<RawResistor>>,
     #[serde(default)]
     table: Vec<Spanned<RawTable>>,
+    #[serde(default)]
+    amplifier: Vec<Spanned<amplifier::RawAmplifier>>,
 }
 
 #[derive(Deserialize)]
@@ -207,10 +212,11 @@ fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
                     a(other.type_str())
                 ),
             )),
-            ("floor" | "resistor" | "table", value) => {
+            ("floor" | "resistor" | "table" | "amplifier", value) => {
                 let allowed = match name {
                     "floor" => FLOOR_KEYS,
                     "resistor" => RESISTOR_KEYS,
+                    "amplifier" => amplifier::KEYS,
                     _ => TABLE_KEYS,
                 };
                 match value {
@@ -631,11 +637,15 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
             kind: SourceKind::Table { points },
         });
     }
+    for (i, a) in raw.amplifier.iter().enumerate() {
+        sources.extend(amplifier::validate(cx, i, a, unit)?);
+    }
     if sources.is_empty() {
         return Err(cx.err(
             "sources",
             None,
-            "a profile needs at least one [[floor]], [[resistor]] or [[table]]",
+            "a profile needs at least one [[floor]], [[resistor]] or [[table]] (or an \
+             [[amplifier]])",
         ));
     }
 

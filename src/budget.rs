@@ -1,0 +1,718 @@
+//! A noise budget: what each source of a profile contributes in a band, and what they add up
+//! to.
+//!
+//! **What is measured.** A budget measures the design — the sum of the profile's sources,
+//! S(f) = Σ Sᵢ(f) in unit²/Hz, amplifier parts with their closed-loop pole included — through
+//! the band's filter, not the engine's synthesis tapers or the file's sample rate. A band
+//! ([`BandSpec`]) has a brick-wall lower edge at `low_hz` and, at `high_hz`, a brick wall
+//! (order 0) or an n-th order Butterworth low-pass whose tail is integrated to infinity:
+//! variance = ∫_low^∞ S(f)·w(f) df with w = 1/(1 + (f/high)^(2n)) (w = 1 up to `high` and 0
+//! above for n = 0). The profile's own band is `[band.low, band.high]` with `band.order`; a
+//! band given on the command line takes the profile's order at its own upper edge (the same
+//! measuring filter, moved), and the profile's roll-off at `band.high` is not applied on top,
+//! so a band beyond the profile's reports what the design would give there (with a note).
+//!
+//! **Totals.** Every source's variance is integrated numerically
+//! ([`crate::density::integrate_pieces`]) and, where a closed form exists, also in closed
+//! form (REFERENCES §6): white and 1/f^α floors, resistors and amplifier parts in a brick-wall
+//! band; white and 1/f parts through a one-pole closed loop or a first-order band. The band's
+//! RMS is the closed form when every source has one, else the numeric integral; both are
+//! reported. Uncorrelated sources add in power, so each share is its variance over the total.
+
+use std::io::{self, Write};
+
+use serde::Serialize;
+
+use crate::density::{
+    BOLTZMANN, butterworth_enbw_ratio, floor_band_variance, integrate_pieces,
+    resistance_for_density, source_psd,
+};
+use crate::profile::{DEFAULT_TEMPERATURE_K, Profile, Source, SourceKind, Unit, format_quantity};
+
+/// One budget band: a brick-wall lower edge and a Butterworth (or brick-wall) upper edge.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct BandSpec {
+    /// Lower edge in Hz (> 0), a brick wall.
+    pub low_hz: f64,
+    /// Upper edge in Hz (> `low_hz`): the −3 dB point of the Butterworth, or the brick wall.
+    pub high_hz: f64,
+    /// Butterworth order at `high_hz`; 0 = brick wall.
+    pub order: u32,
+}
+
+impl BandSpec {
+    /// The profile's own band: `[band.low, band.high]` with `band.order`.
+    pub fn of_profile(profile: &Profile) -> BandSpec {
+        BandSpec {
+            low_hz: profile.band.low_hz,
+            high_hz: profile.band.high_hz,
+            order: profile.band.order,
+        }
+    }
+
+    /// Power weight (0..=1, dimensionless) of the band's filter at `f` Hz.
+    pub fn weight(&self, f: f64) -> f64 {
+        if f.is_nan() || f < self.low_hz {
+            return 0.0;
+        }
+        if self.order == 0 {
+            return if f <= self.high_hz { 1.0 } else { 0.0 };
+        }
+        1.0 / (1.0 + (f / self.high_hz).powi(2 * self.order as i32))
+    }
+
+    /// Where the numeric integral stops, in Hz: `high_hz` for a brick wall; for order n the
+    /// frequency high·10^(12/(2n−1)), above which a white density's Butterworth tail holds
+    /// less than 1e−12 of high·ENBW.
+    pub fn upper_limit_hz(&self) -> f64 {
+        if self.order == 0 {
+            self.high_hz
+        } else {
+            self.high_hz * 10f64.powf(12.0 / f64::from(2 * self.order - 1))
+        }
+    }
+
+    /// Noise bandwidth in Hz of the band's filter for a white density, ∫_low^∞ w(f) df:
+    /// high − low for a brick wall; high·atan(high/low) for order 1; numeric otherwise
+    /// (≈ high·ENBW ratio − low when low ≪ high).
+    pub fn noise_bandwidth_hz(&self) -> f64 {
+        match self.order {
+            0 => self.high_hz - self.low_hz,
+            1 => self.high_hz * (self.high_hz / self.low_hz).atan(),
+            _ => integrate_pieces(
+                &|f| self.weight(f),
+                &[self.low_hz, self.high_hz, self.upper_limit_hz()],
+            ),
+        }
+    }
+}
+
+/// What a source is, for the notes: the amplifier's own noise, resistor thermal noise, or
+/// anything else (floors, tables).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SourceClass {
+    /// An amplifier's voltage noise or a current noise times a resistance.
+    Amplifier,
+    /// Thermal noise of a resistor (a `[[resistor]]` or a resistor of a stage).
+    Resistor,
+    /// A floor or a table.
+    Other,
+}
+
+/// The class of `source`.
+pub fn class_of(source: &Source) -> SourceClass {
+    match &source.kind {
+        SourceKind::Resistor { .. } => SourceClass::Resistor,
+        SourceKind::AmplifierPart { part, .. } if part.is_resistor_thermal() => {
+            SourceClass::Resistor
+        }
+        SourceKind::AmplifierPart { .. } => SourceClass::Amplifier,
+        _ => SourceClass::Other,
+    }
+}
+
+/// The white level of `source` in unit²/Hz: its density where 1/f rises and the closed-loop
+/// pole do not act (a table's last point).
+pub fn white_psd(source: &Source, profile: &Profile) -> f64 {
+    match &source.kind {
+        SourceKind::Floor { density, .. } | SourceKind::AmplifierPart { density, .. } => {
+            density * density
+        }
+        SourceKind::Resistor { .. } => source_psd(source, profile, 1.0),
+        SourceKind::Table { points } => points.last().map_or(0.0, |p| p.1 * p.1),
+    }
+}
+
+/// Sum of every source's density in unit²/Hz at `f` Hz, without band shaping.
+pub fn total_psd(profile: &Profile, f: f64) -> f64 {
+    profile
+        .sources
+        .iter()
+        .map(|s| source_psd(s, profile, f))
+        .sum()
+}
+
+/// Frequencies (Hz) where the integrand of `source` has a kink or changes shape, within
+/// `[lo, hi]`.
+fn source_breaks(source: &Source, lo: f64, hi: f64, out: &mut Vec<f64>) {
+    match &source.kind {
+        SourceKind::Floor {
+            corner_hz: Some(c), ..
+        } => out.push(*c),
+        SourceKind::Table { points } => out.extend(points.iter().map(|p| p.0)),
+        SourceKind::AmplifierPart {
+            corner_hz, pole_hz, ..
+        } => out.extend(corner_hz.iter().chain(pole_hz)),
+        _ => {}
+    }
+    out.retain(|&b| b >= lo && b <= hi);
+}
+
+/// Sorted integration breaks for `sources` over `[lo, hi]` within `band`.
+fn breaks_for(sources: &[&Source], band: &BandSpec, lo: f64, hi: f64) -> Vec<f64> {
+    let mut b = vec![lo, hi];
+    if band.high_hz > lo && band.high_hz < hi {
+        b.push(band.high_hz);
+    }
+    for s in sources {
+        source_breaks(s, lo, hi, &mut b);
+    }
+    b.sort_by(f64::total_cmp);
+    b.dedup();
+    b
+}
+
+/// Numeric variance in unit² of the sum of `sources` through `band` over `[lo, hi]` Hz
+/// (clipped to the band's support).
+fn numeric_variance(
+    profile: &Profile,
+    sources: &[&Source],
+    band: &BandSpec,
+    lo: f64,
+    hi: f64,
+) -> f64 {
+    let lo = lo.max(band.low_hz);
+    let hi = hi.min(band.upper_limit_hz());
+    if hi <= lo || hi.is_nan() || lo.is_nan() {
+        return 0.0;
+    }
+    let breaks = breaks_for(sources, band, lo, hi);
+    integrate_pieces(
+        &|f| {
+            band.weight(f)
+                * sources
+                    .iter()
+                    .map(|s| source_psd(s, profile, f))
+                    .sum::<f64>()
+        },
+        &breaks,
+    )
+}
+
+/// Numeric variance in unit² of one source through `band` (∫_low^∞ Sᵢ·w df).
+pub fn source_variance_numeric(source: &Source, profile: &Profile, band: &BandSpec) -> f64 {
+    numeric_variance(profile, &[source], band, band.low_hz, f64::INFINITY)
+}
+
+/// Closed-form variance in unit² of one source through `band`, where one exists
+/// (REFERENCES §6): white and 1/f^α shapes in a brick-wall band (α = 1 only with a
+/// closed-loop pole), white and 1/f shapes through a first-order band with or without a pole
+/// (the pole at least 1 % away from the band edge, so the partial fractions stay accurate).
+/// `None` for tables and the other cases.
+pub fn source_variance_closed(source: &Source, profile: &Profile, band: &BandSpec) -> Option<f64> {
+    let (lo, hi) = (band.low_hz, band.high_hz);
+    let (a, corner, slope, pole) = match &source.kind {
+        SourceKind::Floor {
+            density,
+            corner_hz,
+            slope,
+        } => (density * density, corner_hz.unwrap_or(0.0), *slope, None),
+        SourceKind::Resistor { .. } => (white_psd(source, profile), 0.0, 1.0, None),
+        SourceKind::AmplifierPart {
+            density,
+            corner_hz,
+            pole_hz,
+            ..
+        } => (density * density, corner_hz.unwrap_or(0.0), 1.0, *pole_hz),
+        SourceKind::Table { .. } => return None,
+    };
+    match (band.order, pole) {
+        (0, None) => Some(floor_band_variance(a.sqrt(), corner, slope, lo, hi)),
+        _ if corner > 0.0 && slope != 1.0 => None,
+        (0, Some(p)) => {
+            // ∫ 1/(1+(f/p)²) = p·atan(f/p); ∫ (1/f)/(1+(f/p)²) = ln f − ½ ln(1+(f/p)²).
+            let white = p * ((hi - lo) * p / (p * p + hi * lo)).atan();
+            let rise = (hi / lo).ln() - 0.5 * ((hi / p).powi(2).ln_1p() - (lo / p).powi(2).ln_1p());
+            Some(a * (white + corner * rise))
+        }
+        (1, None) => {
+            // ∫_lo^∞ 1/(1+(f/h)²) = h·atan(h/lo); ∫_lo^∞ (1/f)/(1+(f/h)²) = ½ ln(1+(h/lo)²).
+            let white = hi * (hi / lo).atan();
+            let rise = 0.5 * (hi / lo).powi(2).ln_1p();
+            Some(a * (white + corner * rise))
+        }
+        (1, Some(p)) if (p - hi).abs() > 0.01 * p.max(hi) => {
+            // Partial fractions in x = f²: 1/((1+x/p²)(1+x/h²)) = (u/(1+ux) − v/(1+vx))/(u − v)
+            // with u = 1/p², v = 1/h².
+            let (u, v) = (1.0 / (p * p), 1.0 / (hi * hi));
+            let white = ((p / lo).atan() / p - (hi / lo).atan() / hi) / (u - v);
+            let rise =
+                0.5 * (u * (p / lo).powi(2).ln_1p() - v * (hi / lo).powi(2).ln_1p()) / (u - v);
+            Some(a * (white + corner * rise))
+        }
+        _ => None,
+    }
+}
+
+/// One source's part of a band.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SourceShare {
+    /// The source's name.
+    pub name: String,
+    /// Amplifier, resistor or other.
+    pub class: SourceClass,
+    /// RMS in the profile unit (closed form where one exists, else numeric).
+    pub rms: f64,
+    /// Share of the band's total power, 0..=1.
+    pub share: f64,
+    /// Numeric RMS in the profile unit.
+    pub rms_numeric: f64,
+    /// Closed-form RMS in the profile unit, where one exists.
+    pub rms_closed_form: Option<f64>,
+}
+
+/// RMS over one decade (or part of one) of a band.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DecadeRms {
+    /// Lower edge in Hz.
+    pub low_hz: f64,
+    /// Upper edge in Hz; `None` for the Butterworth tail above the band's `high_hz`.
+    pub high_hz: Option<f64>,
+    /// RMS in the profile unit of the total density through the band's filter in this span.
+    pub rms: f64,
+}
+
+/// The budget of one band.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BandBudget {
+    /// Lower edge in Hz.
+    pub low_hz: f64,
+    /// Upper edge in Hz.
+    pub high_hz: f64,
+    /// Butterworth order at `high_hz` (0 = brick wall).
+    pub order: u32,
+    /// ENBW of the band's low-pass relative to `high_hz`: (π/2n)/sin(π/2n), 1 for a brick wall.
+    pub enbw_ratio: f64,
+    /// ∫_low^∞ w(f) df in Hz: the bandwidth a white density is integrated over.
+    pub noise_bandwidth_hz: f64,
+    /// Total RMS in the profile unit (closed form when every source has one, else numeric).
+    pub rms: f64,
+    /// Total RMS by numeric integration of the summed density.
+    pub rms_numeric: f64,
+    /// Total RMS in closed form, when every source has one.
+    pub rms_closed_form: Option<f64>,
+    /// Peak-to-peak as 6σ (±3σ, exceeded by 0.27 % of Gaussian samples), profile unit.
+    pub p2p_6sigma: f64,
+    /// Peak-to-peak as 6.6σ (±3.3σ, ≈ 0.1 %), profile unit.
+    pub p2p_6_6sigma: f64,
+    /// Each source's RMS and share, in profile order.
+    pub sources: Vec<SourceShare>,
+    /// RMS per decade from `low_hz` (edges at powers of ten), with the roll-off tail last.
+    pub per_decade: Vec<DecadeRms>,
+    /// Total resistor thermal noise RMS in the band, profile unit.
+    pub resistor_rms: f64,
+    /// Total RMS of the amplifiers' own voltage and current noise, profile unit.
+    pub amplifier_rms: f64,
+    /// Findings in words: a source holding ≥ 90 % of the power, resistors noisier than the
+    /// amplifier, a band beyond the profile's.
+    pub notes: Vec<String>,
+}
+
+/// Each source's density at one frequency.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DensityRow {
+    /// Frequency in Hz.
+    pub frequency_hz: f64,
+    /// Density of each source in unit/√Hz, in profile order.
+    pub sources: Vec<f64>,
+    /// √(Σ Sᵢ) in unit/√Hz.
+    pub total: f64,
+}
+
+/// A whole budget: the bands, and the profile's densities.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Budget {
+    /// The profile's display name, if any.
+    pub name: Option<String>,
+    /// `"V"` or `"A"`: every RMS is in this unit, every density in this unit per √Hz.
+    pub unit: &'static str,
+    /// The bands, in the order asked.
+    pub bands: Vec<BandBudget>,
+    /// Source names, in profile order.
+    pub source_names: Vec<String>,
+    /// Density of every source and the total at each decade (10^k Hz) the bands span; the
+    /// band edges when no decade falls inside.
+    pub densities: Vec<DensityRow>,
+    /// The white floor in unit/√Hz: √(Σ white levels), above the 1/f corners and below the
+    /// band edge and any closed-loop pole.
+    pub white_floor: f64,
+    /// The resistance in Ω whose thermal noise at 25 °C equals the white floor: e²/(4kT) in a
+    /// volt profile, 4kT/i² in an ampere profile.
+    pub floor_resistance_ohm: f64,
+}
+
+/// Share of the band's power at or above which a single source gets a note.
+pub const DOMINANT_SHARE: f64 = 0.9;
+
+/// The budget of `profile` in each of `bands` (the profile's own band when `bands` is empty).
+pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
+    let own = [BandSpec::of_profile(profile)];
+    let bands = if bands.is_empty() { &own[..] } else { bands };
+    let unit = profile.unit.symbol();
+    let band_budgets: Vec<BandBudget> = bands.iter().map(|b| band_budget(profile, b)).collect();
+    let lo = bands.iter().map(|b| b.low_hz).fold(f64::INFINITY, f64::min);
+    let hi = bands.iter().map(|b| b.high_hz).fold(0.0, f64::max);
+    let mut freqs: Vec<f64> = decade_points(lo, hi);
+    if freqs.is_empty() {
+        freqs = vec![lo, hi];
+    }
+    let densities = freqs
+        .into_iter()
+        .map(|f| {
+            let sources: Vec<f64> = profile
+                .sources
+                .iter()
+                .map(|s| source_psd(s, profile, f).sqrt())
+                .collect();
+            DensityRow {
+                frequency_hz: f,
+                total: total_psd(profile, f).sqrt(),
+                sources,
+            }
+        })
+        .collect();
+    let white: f64 = profile.sources.iter().map(|s| white_psd(s, profile)).sum();
+    let four_kt = 4.0 * BOLTZMANN * DEFAULT_TEMPERATURE_K;
+    let floor_resistance_ohm = match profile.unit {
+        Unit::Volt => resistance_for_density(white.sqrt(), DEFAULT_TEMPERATURE_K),
+        Unit::Ampere => four_kt / white,
+    };
+    Budget {
+        name: profile.name.clone(),
+        unit,
+        bands: band_budgets,
+        source_names: profile.sources.iter().map(|s| s.name.clone()).collect(),
+        densities,
+        white_floor: white.sqrt(),
+        floor_resistance_ohm,
+    }
+}
+
+/// Powers of ten in `[lo, hi]` (with a relative slack of 1e−9 at both ends).
+fn decade_points(lo: f64, hi: f64) -> Vec<f64> {
+    let first = (lo.log10() - 1e-9).ceil() as i32;
+    let last = (hi.log10() + 1e-9).floor() as i32;
+    (first..=last).map(|k| 10f64.powi(k)).collect()
+}
+
+fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
+    let unit = profile.unit.symbol();
+    let all: Vec<&Source> = profile.sources.iter().collect();
+    let total_numeric = numeric_variance(profile, &all, band, band.low_hz, f64::INFINITY);
+    let per: Vec<(f64, Option<f64>)> = profile
+        .sources
+        .iter()
+        .map(|s| {
+            (
+                source_variance_numeric(s, profile, band),
+                source_variance_closed(s, profile, band),
+            )
+        })
+        .collect();
+    let total_closed: Option<f64> = per.iter().map(|p| p.1).sum();
+    let total = total_closed.unwrap_or(total_numeric);
+    let sources: Vec<SourceShare> = profile
+        .sources
+        .iter()
+        .zip(&per)
+        .map(|(s, &(num, closed))| {
+            let var = closed.unwrap_or(num);
+            SourceShare {
+                name: s.name.clone(),
+                class: class_of(s),
+                rms: var.sqrt(),
+                share: if total > 0.0 { var / total } else { 0.0 },
+                rms_numeric: num.sqrt(),
+                rms_closed_form: closed.map(f64::sqrt),
+            }
+        })
+        .collect();
+    let class_var = |c: SourceClass| -> f64 {
+        sources
+            .iter()
+            .filter(|s| s.class == c)
+            .map(|s| s.rms * s.rms)
+            .sum()
+    };
+    let resistor_var = class_var(SourceClass::Resistor);
+    let amplifier_var = class_var(SourceClass::Amplifier);
+
+    let mut edges = vec![band.low_hz];
+    edges.extend(
+        decade_points(band.low_hz, band.high_hz)
+            .into_iter()
+            .filter(|&d| d > band.low_hz * (1.0 + 1e-9) && d < band.high_hz * (1.0 - 1e-9)),
+    );
+    edges.push(band.high_hz);
+    let mut per_decade: Vec<DecadeRms> = edges
+        .windows(2)
+        .map(|w| DecadeRms {
+            low_hz: w[0],
+            high_hz: Some(w[1]),
+            rms: numeric_variance(profile, &all, band, w[0], w[1]).sqrt(),
+        })
+        .collect();
+    if band.order > 0 {
+        per_decade.push(DecadeRms {
+            low_hz: band.high_hz,
+            high_hz: None,
+            rms: numeric_variance(profile, &all, band, band.high_hz, f64::INFINITY).sqrt(),
+        });
+    }
+
+    let q = |x: f64| format_quantity(x, unit);
+    let hz = |x: f64| format_quantity(x, "Hz");
+    let mut notes = Vec::new();
+    if let Some(top) = sources
+        .iter()
+        .filter(|s| s.share >= DOMINANT_SHARE)
+        .max_by(|a, b| a.share.total_cmp(&b.share))
+    {
+        notes.push(format!(
+            "{} holds {:.1} % of the power: the others barely matter here",
+            top.name,
+            100.0 * top.share
+        ));
+    }
+    if amplifier_var > 0.0 && resistor_var > amplifier_var {
+        notes.push(format!(
+            "resistor thermal noise ({} RMS) exceeds the amplifier's own voltage and current \
+             noise ({} RMS): lower the resistances before buying a quieter amplifier",
+            q(resistor_var.sqrt()),
+            q(amplifier_var.sqrt())
+        ));
+    }
+    let pb = &profile.band;
+    if band.low_hz < pb.low_hz * (1.0 - 1e-12) || band.high_hz > pb.high_hz * (1.0 + 1e-12) {
+        notes.push(format!(
+            "this band reaches beyond the profile's band ({} .. {}): generated noise does not \
+             carry the part outside it",
+            hz(pb.low_hz),
+            hz(pb.high_hz)
+        ));
+    }
+    let rms = total.sqrt();
+    BandBudget {
+        low_hz: band.low_hz,
+        high_hz: band.high_hz,
+        order: band.order,
+        enbw_ratio: butterworth_enbw_ratio(band.order),
+        noise_bandwidth_hz: band.noise_bandwidth_hz(),
+        rms,
+        rms_numeric: total_numeric.sqrt(),
+        rms_closed_form: total_closed.map(f64::sqrt),
+        p2p_6sigma: 6.0 * rms,
+        p2p_6_6sigma: 6.6 * rms,
+        sources,
+        per_decade,
+        resistor_rms: resistor_var.sqrt(),
+        amplifier_rms: amplifier_var.sqrt(),
+        notes,
+    }
+}
+
+/// Parse a band such as `0.1Hz..10Hz`, `"20 Hz .. 20 kHz"` or `1..100` (bare numbers in Hz),
+/// returning (low, high) in Hz. The error says what was expected.
+pub fn parse_band(text: &str) -> Result<(f64, f64), String> {
+    let Some((a, b)) = text.split_once("..") else {
+        return Err(format!(
+            "expected a band such as \"0.1Hz..10Hz\" (low..high), got \"{text}\""
+        ));
+    };
+    let f = |s: &str| crate::profile::parse_quantity(s, crate::profile::Dimension::Frequency, "V");
+    let (lo, hi) = (f(a)?, f(b)?);
+    if !(lo > 0.0 && hi > lo) {
+        return Err(format!(
+            "expected 0 < low < high, got {} .. {}",
+            format_quantity(lo, "Hz"),
+            format_quantity(hi, "Hz")
+        ));
+    }
+    Ok((lo, hi))
+}
+
+/// Write the budget as text for a terminal: per band a table of sources (RMS, share), the
+/// total (closed form and numeric), peak-to-peak, RMS per decade and notes; then the density
+/// of every source at each decade and the white floor's equivalent resistance.
+pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
+    let unit = budget.unit;
+    let density_unit = format!("{unit}/\u{221a}Hz");
+    let q = |x: f64| format_quantity(x, unit);
+    let hz = |x: f64| format_quantity(x, "Hz");
+    let width = budget
+        .source_names
+        .iter()
+        .map(|n| n.chars().count())
+        .max()
+        .unwrap_or(0)
+        .max(12);
+    writeln!(
+        out,
+        "noisewright budget: {} (RMS in {unit}, densities in {density_unit})",
+        budget.name.as_deref().unwrap_or("unnamed profile")
+    )?;
+    for b in &budget.bands {
+        writeln!(out)?;
+        let filter = if b.order == 0 {
+            "brick wall".to_string()
+        } else {
+            format!(
+                "Butterworth order {} at {}, ENBW {:.4} \u{d7} {}",
+                b.order,
+                hz(b.high_hz),
+                b.enbw_ratio,
+                hz(b.high_hz)
+            )
+        };
+        writeln!(
+            out,
+            "band {} .. {} ({filter}; noise bandwidth {})",
+            hz(b.low_hz),
+            hz(b.high_hz),
+            hz(b.noise_bandwidth_hz)
+        )?;
+        writeln!(out, "  {:<width$}  {:>12}  {:>7}", "source", "RMS", "share")?;
+        for s in &b.sources {
+            writeln!(
+                out,
+                "  {:<width$}  {:>12}  {:>6.2} %",
+                s.name,
+                q(s.rms),
+                100.0 * s.share
+            )?;
+        }
+        let closed = b.rms_closed_form.map_or("none".to_string(), q);
+        writeln!(
+            out,
+            "  {:<width$}  {:>12}  (closed form {closed}, numeric {})",
+            "total",
+            q(b.rms),
+            q(b.rms_numeric)
+        )?;
+        writeln!(
+            out,
+            "  peak-to-peak {} (6\u{3c3}), {} (6.6\u{3c3})",
+            q(b.p2p_6sigma),
+            q(b.p2p_6_6sigma)
+        )?;
+        let decades: Vec<String> = b
+            .per_decade
+            .iter()
+            .map(|d| match d.high_hz {
+                Some(h) => format!("{} .. {}: {}", hz(d.low_hz), hz(h), q(d.rms)),
+                None => format!("above {} (roll-off): {}", hz(d.low_hz), q(d.rms)),
+            })
+            .collect();
+        writeln!(out, "  per decade   {}", decades.join("; "))?;
+        for n in &b.notes {
+            writeln!(out, "  note: {n}")?;
+        }
+    }
+    writeln!(out)?;
+    write!(out, "density ({density_unit})")?;
+    let head_width = width + 2 - "density ()".len() - density_unit.chars().count();
+    write!(out, "{:w$}", "", w = head_width)?;
+    for r in &budget.densities {
+        write!(out, "  {:>16}", hz(r.frequency_hz))?;
+    }
+    writeln!(out)?;
+    let row = |out: &mut dyn Write, name: &str, values: &mut dyn Iterator<Item = f64>| {
+        write!(out, "  {name:<width$}")?;
+        for v in values {
+            write!(out, "  {:>16}", format_quantity(v, &density_unit))?;
+        }
+        writeln!(out)
+    };
+    for (i, name) in budget.source_names.iter().enumerate() {
+        row(
+            out,
+            name,
+            &mut budget.densities.iter().map(|r| r.sources[i]),
+        )?;
+    }
+    row(out, "total", &mut budget.densities.iter().map(|r| r.total))?;
+    writeln!(
+        out,
+        "white floor {}: the thermal noise of {} at 25 \u{b0}C",
+        format_quantity(budget.white_floor, &density_unit),
+        format_quantity(budget.floor_resistance_ohm, "\u{3a9}")
+    )?;
+    Ok(())
+}
+
+/// The budget as one JSON object: `{ "name", "unit", "bands": [ { "low_hz", "high_hz",
+/// "order", "enbw_ratio", "noise_bandwidth_hz", "rms", "rms_numeric", "rms_closed_form",
+/// "p2p_6sigma", "p2p_6_6sigma", "sources": [ { "name", "class", "rms", "share",
+/// "rms_numeric", "rms_closed_form" } ], "per_decade": [ { "low_hz", "high_hz", "rms" } ],
+/// "resistor_rms", "amplifier_rms", "notes" } ], "source_names", "densities": [ {
+/// "frequency_hz", "sources", "total" } ], "white_floor", "floor_resistance_ohm" }`. RMS values
+/// are in `unit`, densities in `unit`/√Hz, frequencies in Hz, shares 0..1.
+pub fn to_json(budget: &Budget) -> serde_json::Value {
+    serde_json::to_value(budget).expect("a budget holds only numbers and strings")
+}
+
+/// A log-log chart of every source's density and the total (unit/√Hz) from half the lowest
+/// band edge to twice the highest, 50 points per decade, with every band's edges marked.
+pub fn chart(profile: &Profile, budget: &Budget) -> crate::plot::DensityChart {
+    use crate::plot::{DensityChart, Marker, Series, log_grid};
+    let lo = budget
+        .bands
+        .iter()
+        .map(|b| b.low_hz)
+        .fold(f64::INFINITY, f64::min);
+    let hi = budget.bands.iter().map(|b| b.high_hz).fold(0.0, f64::max);
+    let grid = log_grid(lo / 2.0, hi * 2.0, 50);
+    let mut series: Vec<Series> = profile
+        .sources
+        .iter()
+        .map(|s| Series {
+            name: s.name.clone(),
+            points: grid
+                .iter()
+                .map(|&f| (f, source_psd(s, profile, f).sqrt()))
+                .collect(),
+            emphasis: false,
+        })
+        .collect();
+    series.push(Series {
+        name: "total".into(),
+        points: grid
+            .iter()
+            .map(|&f| (f, total_psd(profile, f).sqrt()))
+            .collect(),
+        emphasis: true,
+    });
+    let many = budget.bands.len() > 1;
+    let markers = budget
+        .bands
+        .iter()
+        .enumerate()
+        .flat_map(|(i, b)| {
+            let tag = if many {
+                format!(" {}", i + 1)
+            } else {
+                String::new()
+            };
+            [
+                Marker {
+                    frequency_hz: b.low_hz,
+                    label: format!("low{tag}"),
+                },
+                Marker {
+                    frequency_hz: b.high_hz,
+                    label: format!("high{tag}"),
+                },
+            ]
+        })
+        .collect();
+    DensityChart {
+        title: format!(
+            "{}: noise density by source",
+            budget.name.as_deref().unwrap_or("profile")
+        ),
+        density_unit: format!("{}/\u{221a}Hz", budget.unit),
+        series,
+        markers,
+    }
+}
