@@ -198,7 +198,8 @@ impl Stage {
         }
     }
 
-    /// Noise gain G_n = 1 + R_f/R (dimensionless), R = [`Self::ground_side_ohm`].
+    /// Noise gain G_n = 1 + R_f/R (dimensionless), R = R_g (non-inverting; ∞ without R_g) or
+    /// R_s + R_g (inverting).
     pub fn noise_gain(&self) -> f64 {
         1.0 + self.feedback_ohm / self.ground_side_ohm()
     }

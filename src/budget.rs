@@ -716,3 +716,303 @@ pub fn chart(profile: &Profile, budget: &Budget) -> crate::plot::DensityChart {
         markers,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::profile::parse_profile;
+
+    fn profile(body: &str) -> Profile {
+        parse_profile(
+            &format!(
+                "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n{body}"
+            ),
+            "t.toml",
+        )
+        .unwrap()
+    }
+
+    const WORKED: &str = "[[amplifier]]\nname = \"s\"\ntopology = \"non-inverting\"\n\
+        voltage_density = \"5 nV/rtHz\"\ncurrent_density = \"1 pA/rtHz\"\n\
+        source_resistance = \"1 kOhm\"\nfeedback_resistance = \"9 kOhm\"\n\
+        gain_resistance = \"1 kOhm\"\ntemperature = \"25 C\"\n";
+
+    fn rel(a: f64, b: f64) -> f64 {
+        ((a - b) / b).abs()
+    }
+
+    // REFERENCES §7 [V] worked stage (W. Kester, ADI MT-049, 2008, from memory): every part
+    // and the total at the output, and 7.622 nV/√Hz referred to the input, as the budget's
+    // density table and white floor show them (4 significant figures).
+    #[test]
+    fn worked_stage_through_the_budget() {
+        let p = profile(WORKED);
+        let b = budget(&p, &[]);
+        let row = &b.densities[0];
+        assert_eq!(row.frequency_hz, 10.0);
+        let want = [50.00, 10.00, 40.58, 9.00, 12.17, 36.52];
+        for (i, nv) in want.iter().enumerate() {
+            assert!(
+                (row.sources[i] * 1e9 - nv).abs() <= 0.005,
+                "{}: {}",
+                b.source_names[i],
+                row.sources[i]
+            );
+        }
+        assert!((row.total * 1e9 - 76.22).abs() <= 0.005);
+        assert!((b.white_floor * 1e9 - 76.22).abs() <= 0.005);
+        let rti = budget(&profile(&format!("{WORKED}refer = \"input\"\n")), &[]);
+        assert!((rti.densities[0].total * 1e9 - 7.622).abs() <= 0.0005);
+        // Resistor thermal power 40.58² + 12.17² + 36.52² exceeds the amplifier's
+        // 50² + 10² + 9²: the note says so (REFERENCES §7 numbers, exact arithmetic).
+        let band = &b.bands[0];
+        assert!(
+            band.notes
+                .iter()
+                .any(|n| n.contains("exceeds the amplifier"))
+        );
+        let r2 = 40.58f64.powi(2) + 12.17f64.powi(2) + 36.52f64.powi(2);
+        let a2 = 50f64.powi(2) + 10f64.powi(2) + 9f64.powi(2);
+        assert!(rel(band.resistor_rms / band.amplifier_rms, (r2 / a2).sqrt()) < 1e-3);
+        // Negative control: with no source resistance the amplifier dominates, no note.
+        let quiet = budget(
+            &profile(&WORKED.replace("source_resistance = \"1 kOhm\"\n", "")),
+            &[],
+        );
+        assert!(!quiet.bands[0].notes.iter().any(|n| n.contains("exceeds")));
+    }
+
+    // REFERENCES §5 [V] (Johnson 1928, Nyquist 1928; k from the SI Brochure 2019): 1 kΩ at
+    // 25 °C is 4.0578 nV/√Hz, and 60.73 Ω gives 1 nV/√Hz.
+    #[test]
+    fn johnson_nyquist_values_through_the_budget() {
+        let b = budget(&profile("[[resistor]]\nresistance = \"1 kOhm\"\n"), &[]);
+        assert!((b.densities[0].sources[0] * 1e9 - 4.0578).abs() <= 0.00005);
+        assert!((b.white_floor * 1e9 - 4.0578).abs() <= 0.00005);
+        assert!((b.floor_resistance_ohm - 1e3).abs() < 1e-9);
+        let f = budget(&profile("[[floor]]\ndensity = \"1 nV/rtHz\"\n"), &[]);
+        assert!((f.floor_resistance_ohm - 60.73).abs() <= 0.005);
+        // In an ampere profile the same resistor is √(4kT/R) = 4.058 pA/√Hz (§5 table).
+        let a = parse_profile(
+            "unit = \"A\"\nsample_rate = 100\n[band]\nlow = 1\nhigh = 10\n\
+             [[resistor]]\nresistance = \"1 kOhm\"\n",
+            "a",
+        )
+        .unwrap();
+        let ab = budget(&a, &[]);
+        assert!((ab.white_floor * 1e12 - 4.058).abs() <= 0.0005);
+        assert!(rel(ab.floor_resistance_ohm, 1e3) < 1e-12);
+    }
+
+    // Common practice (REFERENCES §8): uncorrelated sources add in power, √(3² + 5²) mV =
+    // 5.83 mV; each share is its power over the total (9/34, 25/34).
+    #[test]
+    fn root_sum_square_of_3_and_5_mv_is_5_83_mv() {
+        // 30 µV/√Hz and 50 µV/√Hz over a 10 kHz brick-wall band: 3 mV and 5 mV RMS.
+        let p =
+            profile("[[floor]]\ndensity = \"30 uV/rtHz\"\n[[floor]]\ndensity = \"50 uV/rtHz\"\n");
+        let band = BandSpec {
+            low_hz: 1.0,
+            high_hz: 10_001.0,
+            order: 0,
+        };
+        let b = &budget(&p, &[band]).bands[0];
+        assert!(rel(b.sources[0].rms, 3e-3) < 1e-12);
+        assert!(rel(b.sources[1].rms, 5e-3) < 1e-12);
+        assert!((b.rms * 1e3 - 5.83).abs() <= 0.005);
+        assert!(rel(b.rms, 34e-6f64.sqrt()) < 1e-12);
+        assert!(rel(b.sources[0].share, 9.0 / 34.0) < 1e-12);
+        assert!(rel(b.sources[1].share, 25.0 / 34.0) < 1e-12);
+        // 6σ and 6.6σ conventions (REFERENCES §8).
+        assert_eq!(b.p2p_6sigma, 6.0 * b.rms);
+        assert_eq!(b.p2p_6_6sigma, 6.6 * b.rms);
+    }
+
+    // REFERENCES §6 [V]: 10 nV/√Hz with a 10 Hz corner over 0.1–10 Hz is 74.80 nV RMS
+    // (67.86 nV of it 1/f, 31.46 nV white), ×6.6 = 493.7 nV and ×6 = 448.8 nV p-p; closed
+    // form e_w²[(f_H − f_L) + f_c ln(f_H/f_L)] (W. Kester, ADI MT-048, from memory).
+    #[test]
+    fn one_over_f_example_of_section_6_in_closed_form_and_numerically() {
+        let p = profile("[[floor]]\ndensity = \"10 nV/rtHz\"\ncorner = \"10 Hz\"\n");
+        let band = BandSpec {
+            low_hz: 0.1,
+            high_hz: 10.0,
+            order: 0,
+        };
+        let b = &budget(&p, &[band]).bands[0];
+        let closed = b.rms_closed_form.unwrap();
+        assert!((closed * 1e9 - 74.80).abs() <= 0.005);
+        assert!((b.p2p_6_6sigma * 1e9 - 493.7).abs() <= 0.05);
+        assert!((b.p2p_6sigma * 1e9 - 448.8).abs() <= 0.05);
+        assert!(rel(b.rms_numeric, closed) < 1e-9);
+        assert!(
+            b.notes
+                .iter()
+                .any(|n| n.contains("beyond the profile's band"))
+        );
+    }
+
+    // REFERENCES §6: "integrate the tool's own PSD model numerically and assert agreement
+    // with these closed forms to 1e-9 relative", for every shape that has one.
+    #[test]
+    fn closed_forms_agree_with_numeric_integration_to_1e_9() {
+        let body = "[[floor]]\ndensity = \"4 nV/rtHz\"\ncorner = \"100 Hz\"\n\
+            [[floor]]\ndensity = \"2 nV/rtHz\"\ncorner = \"30 Hz\"\nslope = 1.5\n\
+            [[floor]]\ndensity = \"3 nV/rtHz\"\n\
+            [[resistor]]\nresistance = \"2 kOhm\"\n\
+            [[amplifier]]\ntopology = \"inverting\"\nvoltage_density = \"3 nV/rtHz\"\n\
+            voltage_corner = \"20 Hz\"\ncurrent_density = \"2 pA/rtHz\"\n\
+            current_corner = \"200 Hz\"\nsource_resistance = 600\nfeedback_resistance = \"20 kOhm\"\n\
+            gain_resistance = \"1.4 kOhm\"\nbias_resistance = \"1 kOhm\"\ngbw = \"3 MHz\"\n";
+        let p = profile(body);
+        let mut checked = 0;
+        for (lo, hi) in [(0.1, 10.0), (10.0, 20e3), (1.0, 1e6), (1e3, 1e7)] {
+            for order in [0, 1, 2] {
+                let band = BandSpec {
+                    low_hz: lo,
+                    high_hz: hi,
+                    order,
+                };
+                let b = &budget(&p, &[band]).bands[0];
+                for s in &b.sources {
+                    if let Some(c) = s.rms_closed_form {
+                        assert!(
+                            rel(s.rms_numeric, c) < 1e-9,
+                            "{} in {lo}..{hi} order {order}: {} vs {c}",
+                            s.name,
+                            s.rms_numeric
+                        );
+                        checked += 1;
+                    }
+                }
+                let floor_15 = b.sources[1].rms_closed_form;
+                assert_eq!(floor_15.is_some(), order == 0, "slope 1.5, order {order}");
+                if order == 2 {
+                    assert!(b.rms_closed_form.is_none());
+                } else {
+                    assert_eq!(b.rms_closed_form.is_some(), order == 0);
+                }
+                // The total as one integral of the summed density equals the sum of the parts.
+                let sum: f64 = b.sources.iter().map(|s| s.rms_numeric.powi(2)).sum();
+                assert!(rel(b.rms_numeric.powi(2), sum) < 1e-9);
+                // Per-decade pieces add up to the total (exact math: the pieces tile the band).
+                let pieces: f64 = b.per_decade.iter().map(|d| d.rms * d.rms).sum();
+                assert!(
+                    rel(pieces, b.rms_numeric.powi(2)) < 1e-9,
+                    "{lo}..{hi} {order}"
+                );
+                let shares: f64 = b.sources.iter().map(|s| s.share).sum();
+                assert!((shares - 1.0).abs() < 1e-9);
+            }
+        }
+        // 4 bands × (order 0: 3 floors, the resistor, 7 stage parts; order 1: the same but
+        // the 1/f^1.5 floor).
+        assert_eq!(checked, 4 * (11 + 10), "closed forms checked");
+    }
+
+    // REFERENCES §7: a single-pole closed loop at f_cl = GBW/G_n gives white output noise the
+    // ENBW 1.57·f_cl; §6: the 1/f part sees f_cl itself, f_c[ln(f_p/f_L) + ½ ln(1+(f_L/f_p)²)].
+    #[test]
+    fn gbw_closes_the_band_with_one_pole() {
+        let p = profile(
+            "[[amplifier]]\ntopology = \"non-inverting\"\nvoltage_density = \"4 nV/rtHz\"\n\
+             voltage_corner = \"10 Hz\"\ncurrent_density = 0\nfeedback_resistance = \"9 kOhm\"\n\
+             gain_resistance = \"1 kOhm\"\ngbw = \"10 MHz\"\ntemperature = \"0.001 K\"\n",
+        );
+        let band = BandSpec {
+            low_hz: 1.0,
+            high_hz: 1e13,
+            order: 0,
+        };
+        let b = &budget(&p, &[band]).bands[0];
+        let e = &b.sources[0];
+        assert!(e.name.ends_with("voltage noise"));
+        let (d, fp, fc, fl) = (40e-9f64, 1e6f64, 10.0f64, 1.0f64);
+        // White from f_L: π/2·f_p − f_L to first order; the brick wall at 1e13 Hz cuts a
+        // further f_p²/1e13 = 0.1 Hz (relative 6e−8), the next term of atan f_L³/(3f_p²).
+        let want = d
+            * d
+            * (std::f64::consts::FRAC_PI_2 * fp - fl
+                + fc * ((fp / fl).ln() + 0.5 * (fl / fp).powi(2).ln_1p()));
+        assert!(
+            rel(e.rms.powi(2), want) < 1e-7,
+            "{} vs {want}",
+            e.rms.powi(2)
+        );
+        assert!(rel(e.rms_numeric, e.rms_closed_form.unwrap()) < 1e-9);
+    }
+
+    // REFERENCES §6 [V]: ENBW of an n-th order Butterworth relative to f_−3dB,
+    // (π/2n)/sin(π/2n) = 1.5708, 1.1107, 1.0472, 1.0262 for n = 1…4 (to 4 decimals).
+    #[allow(clippy::approx_constant)]
+    #[test]
+    fn butterworth_enbw_constants_and_noise_bandwidth() {
+        let p = profile("[[floor]]\ndensity = \"1 nV/rtHz\"\n");
+        for (n, want) in [(1, 1.5708), (2, 1.1107), (3, 1.0472), (4, 1.0262)] {
+            let band = BandSpec {
+                low_hz: 1e-3,
+                high_hz: 1e3,
+                order: n,
+            };
+            let b = &budget(&p, &[band]).bands[0];
+            assert!((b.enbw_ratio - want).abs() <= 0.00005, "n = {n}");
+            // Exact math: ∫_lo^∞ w = high·ratio − ∫_0^lo w, and ∫_0^lo w = lo(1 − O((lo/high)^2n)).
+            let bw = b.noise_bandwidth_hz;
+            assert!(rel(bw, 1e3 * b.enbw_ratio - 1e-3) < 1e-10, "n = {n}: {bw}");
+            // A white density integrates over exactly that bandwidth.
+            assert!(rel(b.rms_numeric.powi(2), 1e-18 * bw) < 1e-9, "n = {n}");
+        }
+    }
+
+    #[test]
+    fn a_dominant_source_gets_a_note_and_a_near_one_does_not() {
+        // Shares 0.9 and 0.1: power 9:1 → densities 3:1.
+        let at = |weak: &str| {
+            let p = profile(&format!(
+                "[[floor]]\nname = \"big\"\ndensity = \"3 nV/rtHz\"\n\
+                 [[floor]]\nname = \"small\"\ndensity = \"{weak}\"\n"
+            ));
+            budget(&p, &[]).bands[0].notes.clone()
+        };
+        let n = at("0.99 nV/rtHz");
+        assert!(n.iter().any(|n| n.starts_with("big holds 90.")), "{n:?}");
+        assert!(at("1.01 nV/rtHz").is_empty());
+    }
+
+    #[test]
+    fn bands_parse_with_units_and_reject_nonsense() {
+        assert_eq!(parse_band("0.1Hz..10Hz"), Ok((0.1, 10.0)));
+        assert_eq!(parse_band("20 Hz .. 20 kHz"), Ok((20.0, 20e3)));
+        assert_eq!(parse_band("1..100"), Ok((1.0, 100.0)));
+        assert!(parse_band("10Hz-20Hz").unwrap_err().contains("low..high"));
+        assert!(
+            parse_band("10Hz..1Hz")
+                .unwrap_err()
+                .contains("0 < low < high")
+        );
+        assert!(parse_band("0..1Hz").is_err());
+        assert!(
+            parse_band("1 kOhm..2 kOhm")
+                .unwrap_err()
+                .contains("frequency")
+        );
+    }
+
+    #[test]
+    fn decades_are_the_powers_of_ten_inside() {
+        assert_eq!(decade_points(0.1, 10.0), vec![0.1, 1.0, 10.0]);
+        assert_eq!(decade_points(20.0, 20e3), vec![100.0, 1e3, 1e4]);
+        assert!(decade_points(2.0, 5.0).is_empty());
+        // A band narrower than a decade shows its edges instead.
+        let b = budget(
+            &profile("[[floor]]\ndensity = 1e-9\n"),
+            &[BandSpec {
+                low_hz: 2.0,
+                high_hz: 5.0,
+                order: 0,
+            }],
+        );
+        let f: Vec<f64> = b.densities.iter().map(|r| r.frequency_hz).collect();
+        assert_eq!(f, [2.0, 5.0]);
+    }
+}
