@@ -596,23 +596,25 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
             q(b.p2p_6sigma),
             q(b.p2p_6_6sigma)
         )?;
-        let decades: Vec<String> = b
-            .per_decade
-            .iter()
-            .map(|d| match d.high_hz {
-                Some(h) => format!("{} .. {}: {}", hz(d.low_hz), hz(h), q(d.rms)),
-                None => format!("above {} (roll-off): {}", hz(d.low_hz), q(d.rms)),
-            })
-            .collect();
-        writeln!(out, "  per decade   {}", decades.join("; "))?;
+        writeln!(out, "  RMS per decade")?;
+        for d in &b.per_decade {
+            let span = match d.high_hz {
+                Some(h) => format!("{} .. {}", hz(d.low_hz), hz(h)),
+                None => format!("above {} (roll-off)", hz(d.low_hz)),
+            };
+            writeln!(out, "    {span:<28}  {:>12}", q(d.rms))?;
+        }
         for n in &b.notes {
             writeln!(out, "  note: {n}")?;
         }
     }
     writeln!(out)?;
-    write!(out, "density ({density_unit})")?;
-    let head_width = width + 2 - "density ()".len() - density_unit.chars().count();
-    write!(out, "{:w$}", "", w = head_width)?;
+    write!(
+        out,
+        "{:<w$}",
+        format!("density ({density_unit})"),
+        w = width + 2
+    )?;
     for r in &budget.densities {
         write!(out, "  {:>16}", hz(r.frequency_hz))?;
     }
@@ -632,9 +634,14 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
         )?;
     }
     row(out, "total", &mut budget.densities.iter().map(|r| r.total))?;
+    let law = if unit == "A" {
+        "thermal current noise \u{221a}(4kT/R)"
+    } else {
+        "thermal noise \u{221a}(4kTR)"
+    };
     writeln!(
         out,
-        "white floor {}: the thermal noise of {} at 25 \u{b0}C",
+        "white floor {}: the {law} of {} at 25 \u{b0}C",
         format_quantity(budget.white_floor, &density_unit),
         format_quantity(budget.floor_resistance_ohm, "\u{3a9}")
     )?;

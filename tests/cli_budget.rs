@@ -63,7 +63,7 @@ fn text_report_shows_every_part_the_total_and_the_notes() {
         "receiver: Rs thermal (600 \u{3a9})",
         "total",
         "peak-to-peak",
-        "per decade",
+        "RMS per decade",
         "above 40 kHz (roll-off)",
         "density (V/\u{221a}Hz)",
         "white floor",

@@ -18,6 +18,8 @@
 //! temperature = "25 C"         # optional, default 25 °C = 298.15 K
 //! [[table]]
 //! points = [[1.0, 30e-9], [10.0, "12 nV/rtHz"]]   # (Hz, unit/√Hz), ≥ 1 point
+//! [[amplifier]]                # an op-amp stage, expanded into named parts: see `amplifier`
+//! topology = "non-inverting"
 //! ```
 //!
 //! Bare numbers are SI base units (Hz, Ω, K, unit/√Hz); strings carry units
