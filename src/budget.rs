@@ -25,7 +25,7 @@ use serde::Serialize;
 
 use crate::density::{
     BOLTZMANN, butterworth_enbw_ratio, floor_band_variance, integrate_pieces,
-    resistance_for_density, source_psd,
+    resistance_for_density, source_kinks, source_psd,
 };
 use crate::profile::{DEFAULT_TEMPERATURE_K, Profile, Source, SourceKind, Unit, format_quantity};
 
@@ -133,22 +133,6 @@ pub fn total_psd(profile: &Profile, f: f64) -> f64 {
         .sum()
 }
 
-/// Frequencies (Hz) where the integrand of `source` has a kink or changes shape, within
-/// `[lo, hi]`.
-fn source_breaks(source: &Source, lo: f64, hi: f64, out: &mut Vec<f64>) {
-    match &source.kind {
-        SourceKind::Floor {
-            corner_hz: Some(c), ..
-        } => out.push(*c),
-        SourceKind::Table { points } => out.extend(points.iter().map(|p| p.0)),
-        SourceKind::AmplifierPart {
-            corner_hz, pole_hz, ..
-        } => out.extend(corner_hz.iter().chain(pole_hz)),
-        _ => {}
-    }
-    out.retain(|&b| b >= lo && b <= hi);
-}
-
 /// Sorted integration breaks for `sources` over `[lo, hi]` within `band`.
 fn breaks_for(sources: &[&Source], band: &BandSpec, lo: f64, hi: f64) -> Vec<f64> {
     let mut b = vec![lo, hi];
@@ -156,7 +140,7 @@ fn breaks_for(sources: &[&Source], band: &BandSpec, lo: f64, hi: f64) -> Vec<f64
         b.push(band.high_hz);
     }
     for s in sources {
-        source_breaks(s, lo, hi, &mut b);
+        b.extend(source_kinks(s).into_iter().filter(|&k| k >= lo && k <= hi));
     }
     b.sort_by(f64::total_cmp);
     b.dedup();
@@ -300,12 +284,15 @@ pub struct BandBudget {
     pub sources: Vec<SourceShare>,
     /// RMS per decade from `low_hz` (edges at powers of ten), with the roll-off tail last.
     pub per_decade: Vec<DecadeRms>,
+    /// Total RMS in the profile unit counting only frequencies up to the profile's fs/2: what
+    /// a file at the profile's sample rate can carry of this band (numeric).
+    pub rms_to_nyquist: f64,
     /// Total resistor thermal noise RMS in the band, profile unit.
     pub resistor_rms: f64,
     /// Total RMS of the amplifiers' own voltage and current noise, profile unit.
     pub amplifier_rms: f64,
     /// Findings in words: a source holding ≥ 90 % of the power, resistors noisier than the
-    /// amplifier, a band beyond the profile's.
+    /// amplifier, a band beyond the profile's, a band reaching past fs/2.
     pub notes: Vec<String>,
 }
 
@@ -492,6 +479,16 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
             hz(pb.high_hz)
         ));
     }
+    let nyquist = profile.sample_rate_hz / 2.0;
+    let to_nyquist = numeric_variance(profile, &all, band, band.low_hz, nyquist);
+    if to_nyquist < 0.99 * total {
+        notes.push(format!(
+            "{} of it lies below fs/2 = {} (all a file at {} can carry)",
+            q(to_nyquist.sqrt()),
+            hz(nyquist),
+            hz(profile.sample_rate_hz)
+        ));
+    }
     let rms = total.sqrt();
     BandBudget {
         low_hz: band.low_hz,
@@ -504,6 +501,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         rms_closed_form: total_closed.map(f64::sqrt),
         p2p_6sigma: 6.0 * rms,
         p2p_6_6sigma: 6.6 * rms,
+        rms_to_nyquist: to_nyquist.sqrt(),
         sources,
         per_decade,
         resistor_rms: resistor_var.sqrt(),
@@ -650,7 +648,7 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
 
 /// The budget as one JSON object: `{ "name", "unit", "bands": [ { "low_hz", "high_hz",
 /// "order", "enbw_ratio", "noise_bandwidth_hz", "rms", "rms_numeric", "rms_closed_form",
-/// "p2p_6sigma", "p2p_6_6sigma", "sources": [ { "name", "class", "rms", "share",
+/// "p2p_6sigma", "p2p_6_6sigma", "rms_to_nyquist", "sources": [ { "name", "class", "rms", "share",
 /// "rms_numeric", "rms_closed_form" } ], "per_decade": [ { "low_hz", "high_hz", "rms" } ],
 /// "resistor_rms", "amplifier_rms", "notes" } ], "source_names", "densities": [ {
 /// "frequency_hz", "sources", "total" } ], "white_floor", "floor_resistance_ohm" }`. RMS values
@@ -969,6 +967,30 @@ mod tests {
             // A white density integrates over exactly that bandwidth.
             assert!(rel(b.rms_numeric.powi(2), 1e-18 * bw) < 1e-9, "n = {n}");
         }
+    }
+
+    // Exact math: ∫_lo^top d²/(1+(f/h)²) df = d²·h·(atan(top/h) − atan(lo/h)).
+    #[test]
+    fn the_part_below_nyquist_is_reported_when_the_roll_off_reaches_past_it() {
+        let p = profile("[[floor]]\ndensity = \"1 nV/rtHz\"\n");
+        let band = BandSpec {
+            low_hz: 10.0,
+            high_hz: 20e3,
+            order: 1,
+        };
+        let b = &budget(&p, &[band]).bands[0];
+        let h = 20e3f64;
+        let want = 1e-18 * h * ((24e3 / h).atan() - (10.0 / h).atan());
+        assert!(rel(b.rms_to_nyquist.powi(2), want) < 1e-9);
+        assert!(
+            b.notes.iter().any(|n| n.contains("below fs/2 = 24 kHz")),
+            "{:?}",
+            b.notes
+        );
+        // A brick-wall band inside fs/2 loses nothing and gets no such note.
+        let inside = &budget(&p, &[BandSpec { order: 0, ..band }]).bands[0];
+        assert!(rel(inside.rms_to_nyquist, inside.rms) < 1e-12);
+        assert!(!inside.notes.iter().any(|n| n.contains("fs/2")));
     }
 
     #[test]

@@ -164,22 +164,28 @@ pub fn target_variance(profile: &Profile) -> f64 {
     let (lo, hi) = band_support(band, fs);
     let mut breaks = vec![lo, band.low_hz, band.high_hz, hi];
     for s in &profile.sources {
-        match &s.kind {
-            SourceKind::Floor {
-                corner_hz: Some(fc),
-                ..
-            } => breaks.push(*fc),
-            SourceKind::Table { points } => breaks.extend(points.iter().map(|p| p.0)),
-            SourceKind::AmplifierPart {
-                corner_hz, pole_hz, ..
-            } => breaks.extend(corner_hz.iter().chain(pole_hz)),
-            _ => {}
-        }
+        breaks.extend(source_kinks(s));
     }
     breaks.retain(|&b| b >= lo && b <= hi);
     breaks.sort_by(f64::total_cmp);
     breaks.dedup();
     integrate_pieces(&|f| target_psd(profile, f), &breaks)
+}
+
+/// Frequencies in Hz where a source's density bends or changes its law (corners, closed-loop
+/// poles, table points): good panel edges for [`integrate_pieces`].
+pub fn source_kinks(source: &Source) -> Vec<f64> {
+    match &source.kind {
+        SourceKind::Floor {
+            corner_hz: Some(fc),
+            ..
+        } => vec![*fc],
+        SourceKind::Table { points } => points.iter().map(|p| p.0).collect(),
+        SourceKind::AmplifierPart {
+            corner_hz, pole_hz, ..
+        } => corner_hz.iter().chain(pole_hz).copied().collect(),
+        _ => Vec::new(),
+    }
 }
 
 /// Thermal (Johnson–Nyquist) voltage density √(4kTR) in V/√Hz of `resistance_ohm` Ω at

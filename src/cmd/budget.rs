@@ -20,8 +20,8 @@ pub struct BudgetArgs {
     /// (or --order).
     #[arg(long = "band", value_name = "LOW..HIGH")]
     pub bands: Vec<String>,
-    /// Butterworth order of the bands given with --band (0 = brick wall). Default: the
-    /// profile's band.order.
+    /// Butterworth order at the upper edge of every budget band (0 = brick wall). Default:
+    /// the profile's band.order.
     #[arg(long, value_name = "N")]
     pub order: Option<u32>,
     /// Print one JSON object instead of text.
@@ -48,7 +48,7 @@ pub fn run(args: &BudgetArgs) -> Result<String> {
         Some(n) => n,
         None => profile.band.order,
     };
-    let bands = args
+    let mut bands = args
         .bands
         .iter()
         .map(|b| {
@@ -60,6 +60,12 @@ pub fn run(args: &BudgetArgs) -> Result<String> {
             })
         })
         .collect::<Result<Vec<_>>>()?;
+    if bands.is_empty() && args.order.is_some() {
+        bands.push(BandSpec {
+            order,
+            ..BandSpec::of_profile(&profile)
+        });
+    }
     let b = budget(&profile, &bands);
     if let Some(path) = &args.plot {
         let mut svg = Vec::new();
