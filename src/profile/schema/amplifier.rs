@@ -320,6 +320,18 @@ temperature = "25 C"
             })
             .collect();
         assert_eq!(thermal, [false, false, true, false, true, true]);
+        // The manifest's profile JSON carries each part with its resistor and units in keys.
+        let j = p.to_json();
+        let rs = &j["sources"][2];
+        assert_eq!(rs["kind"], "amplifier_part");
+        assert_eq!(rs["stage"], "pre");
+        assert_eq!(rs["refer"], "output");
+        assert_eq!(rs["part"]["type"], "thermal");
+        assert_eq!(rs["part"]["resistor"], "source");
+        assert_eq!(rs["part"]["resistance_ohm"], 1e3);
+        assert_eq!(rs["corner_hz"], serde_json::Value::Null);
+        // REFERENCES §7 [V]: G_n·√(4kT·1 kΩ) = 40.58 nV/√Hz at 25 °C.
+        assert!((rs["density_per_rthz"].as_f64().unwrap() * 1e9 - 40.58).abs() <= 0.005);
         // Per-input current noise overrides the shared value; refer = input divides by 10.
         let q = parse_profile(
             &STAGE.replace(
