@@ -26,6 +26,8 @@ pub const BRICK_WALL_TAPER_OCTAVES: f64 = 0.25;
 /// - floor: density²·(1 + (corner/f)^slope), or density² without a corner;
 /// - resistor: 4kTR in V²/Hz in a volt profile, 4kT/R in A²/Hz in an ampere profile
 ///   (Johnson–Nyquist, valid for hf ≪ kT);
+/// - amplifier part: density²·(1 + corner/f)/(1 + (f/pole)²) in V²/Hz (see
+///   [`crate::amplifier::part_psd`]);
 /// - table: the density interpolated linearly in log f–log density between points, held at
 ///   the first/last point's density outside them; the power is its square.
 ///
@@ -60,6 +62,12 @@ pub fn source_psd(source: &Source, profile: &Profile, f: f64) -> f64 {
             let d = table_density(points, f);
             d * d
         }
+        SourceKind::AmplifierPart {
+            density,
+            corner_hz,
+            pole_hz,
+            ..
+        } => crate::amplifier::part_psd(*density, *corner_hz, *pole_hz, f),
     }
 }
 
@@ -156,19 +164,28 @@ pub fn target_variance(profile: &Profile) -> f64 {
     let (lo, hi) = band_support(band, fs);
     let mut breaks = vec![lo, band.low_hz, band.high_hz, hi];
     for s in &profile.sources {
-        match &s.kind {
-            SourceKind::Floor {
-                corner_hz: Some(fc),
-                ..
-            } => breaks.push(*fc),
-            SourceKind::Table { points } => breaks.extend(points.iter().map(|p| p.0)),
-            _ => {}
-        }
+        breaks.extend(source_kinks(s));
     }
     breaks.retain(|&b| b >= lo && b <= hi);
     breaks.sort_by(f64::total_cmp);
     breaks.dedup();
     integrate_pieces(&|f| target_psd(profile, f), &breaks)
+}
+
+/// Frequencies in Hz where a source's density bends or changes its law (corners, closed-loop
+/// poles, table points): good panel edges for [`integrate_pieces`].
+pub fn source_kinks(source: &Source) -> Vec<f64> {
+    match &source.kind {
+        SourceKind::Floor {
+            corner_hz: Some(fc),
+            ..
+        } => vec![*fc],
+        SourceKind::Table { points } => points.iter().map(|p| p.0).collect(),
+        SourceKind::AmplifierPart {
+            corner_hz, pole_hz, ..
+        } => corner_hz.iter().chain(pole_hz).copied().collect(),
+        _ => Vec::new(),
+    }
 }
 
 /// Thermal (Johnson–Nyquist) voltage density √(4kTR) in V/√Hz of `resistance_ohm` Ω at

@@ -27,10 +27,13 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod amplifier;
 pub mod analysis;
+pub mod budget;
 pub mod cmd;
 pub mod density;
 pub mod error;
+pub mod plot;
 pub mod profile;
 pub mod sink;
 pub mod synth;

@@ -1,5 +1,6 @@
 //! One module per subcommand, and the command line that selects them.
 
+pub mod budget;
 pub mod generate;
 
 use std::sync::atomic::AtomicBool;
@@ -20,6 +21,8 @@ pub struct Cli {
 pub enum Command {
     /// Synthesise noise with a profile's density and write it with a manifest and a summary.
     Generate(generate::GenerateArgs),
+    /// Show what each source contributes in a band: RMS, share, peak-to-peak, densities.
+    Budget(budget::BudgetArgs),
 }
 
 /// Run the selected subcommand. Summaries go to standard output, or to standard error when
@@ -35,6 +38,10 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
                     print!("{summary}");
                 }
             }
+            Ok(())
+        }
+        Command::Budget(args) => {
+            print!("{}", budget::run(args)?);
             Ok(())
         }
     }

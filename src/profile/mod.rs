@@ -12,6 +12,8 @@ pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
 
 use serde::Serialize;
 
+use crate::amplifier::{Refer, StagePart};
+
 /// What one unit of output means.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub enum Unit {
@@ -82,6 +84,23 @@ pub enum SourceKind {
         /// (frequency in Hz, density in unit/√Hz), strictly increasing in frequency.
         points: Vec<(f64, f64)>,
     },
+    /// One part of an `[[amplifier]]` stage's noise (voltage noise, a current noise times a
+    /// resistance, or a resistor's thermal noise), already carried through its gain (see
+    /// [`crate::amplifier`]): S(f) = density²·(1 + corner/f)/(1 + (f/pole)²).
+    AmplifierPart {
+        /// The stage's name (the `name` key or `amplifier N`).
+        stage: String,
+        /// What the part is.
+        part: StagePart,
+        /// Whether `density` is at the stage output or referred to its input.
+        refer: Refer,
+        /// White density in V/√Hz.
+        density: f64,
+        /// 1/f corner in Hz, if any.
+        corner_hz: Option<f64>,
+        /// Closed-loop pole GBW/G_n in Hz, if a GBW was given.
+        pole_hz: Option<f64>,
+    },
 }
 
 /// A validated profile.
@@ -95,7 +114,8 @@ pub struct Profile {
     pub sample_rate_hz: f64,
     /// The synthesised band.
     pub band: Band,
-    /// The sources, in file order (floors, then resistors, then tables).
+    /// The sources, in file order (floors, then resistors, then tables, then the parts of
+    /// each amplifier stage).
     pub sources: Vec<Source>,
 }
 
@@ -149,6 +169,23 @@ impl Profile {
                         .iter()
                         .map(|&(f, d)| json!({ "frequency_hz": f, "density_per_rthz": d }))
                         .collect::<Vec<_>>(),
+                }),
+                SourceKind::AmplifierPart {
+                    stage,
+                    part,
+                    refer,
+                    density,
+                    corner_hz,
+                    pole_hz,
+                } => json!({
+                    "name": s.name,
+                    "kind": "amplifier_part",
+                    "stage": stage,
+                    "part": part,
+                    "refer": refer,
+                    "density_per_rthz": density,
+                    "corner_hz": corner_hz,
+                    "pole_hz": pole_hz,
                 }),
             })
             .collect();

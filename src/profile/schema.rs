@@ -18,6 +18,8 @@
 //! temperature = "25 C"         # optional, default 25 °C = 298.15 K
 //! [[table]]
 //! points = [[1.0, 30e-9], [10.0, "12 nV/rtHz"]]   # (Hz, unit/√Hz), ≥ 1 point
+//! [[amplifier]]                # an op-amp stage, expanded into named parts: see `amplifier`
+//! topology = "non-inverting"
 //! ```
 //!
 //! Bare numbers are SI base units (Hz, Ω, K, unit/√Hz); strings carry units
@@ -37,6 +39,8 @@ use super::quantity::expectation;
 use super::{Band, Dimension, Profile, Source, SourceKind, Unit, format_quantity, parse_quantity};
 use crate::error::{Error, Result};
 
+mod amplifier;
+
 /// Temperature of a resistor without a `temperature` key: 25 °C in kelvin.
 pub const DEFAULT_TEMPERATURE_K: f64 = 298.15;
 
@@ -51,6 +55,7 @@ const TOP_KEYS: &[&str] = &[
     "floor",
     "resistor",
     "table",
+    "amplifier",
 ];
 const BAND_KEYS: &[&str] = &["low", "high", "order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
@@ -70,6 +75,8 @@ struct RawProfile {
     resistor: Vec<Spanned<RawResistor>>,
     #[serde(default)]
     table: Vec<Spanned<RawTable>>,
+    #[serde(default)]
+    amplifier: Vec<Spanned<amplifier::RawAmplifier>>,
 }
 
 #[derive(Deserialize)]
@@ -207,10 +214,11 @@ fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
                     a(other.type_str())
                 ),
             )),
-            ("floor" | "resistor" | "table", value) => {
+            ("floor" | "resistor" | "table" | "amplifier", value) => {
                 let allowed = match name {
                     "floor" => FLOOR_KEYS,
                     "resistor" => RESISTOR_KEYS,
+                    "amplifier" => amplifier::KEYS,
                     _ => TABLE_KEYS,
                 };
                 match value {
@@ -631,11 +639,15 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
             kind: SourceKind::Table { points },
         });
     }
+    for (i, a) in raw.amplifier.iter().enumerate() {
+        sources.extend(amplifier::validate(cx, i, a, unit)?);
+    }
     if sources.is_empty() {
         return Err(cx.err(
             "sources",
             None,
-            "a profile needs at least one [[floor]], [[resistor]] or [[table]]",
+            "a profile needs at least one [[floor]], [[resistor]] or [[table]] (or an \
+             [[amplifier]])",
         ));
     }
 
