@@ -402,6 +402,7 @@ mod tests {
                     kind,
                 })
                 .collect(),
+            bursts: Vec::new(),
         }
     }
 

@@ -28,6 +28,7 @@
 #![deny(missing_docs)]
 
 pub mod analysis;
+pub mod burst;
 pub mod cmd;
 pub mod density;
 pub mod error;
