@@ -333,3 +333,180 @@ pub fn describe_levels(b: &Burst, unit: Unit) -> String {
         .collect::<Vec<_>>()
         .join(" / ")
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::parse_profile;
+    use super::*;
+    use crate::error::Error;
+
+    const BASE: &str = "sample_rate = \"10 kHz\"\n[band]\nlow = 1\nhigh = \"4 kHz\"\n";
+
+    fn parse(body: &str) -> crate::error::Result<crate::profile::Profile> {
+        parse_profile(&format!("{BASE}{body}"), "b.toml")
+    }
+
+    /// (key, line, message) of the error `body` gives (lines count from the file start; the
+    /// base takes 4).
+    fn fail(body: &str) -> (String, Option<usize>, String) {
+        match parse(body) {
+            Err(Error::Profile {
+                file,
+                line,
+                key,
+                message,
+            }) => {
+                assert_eq!(file, "b.toml");
+                (key, line, message)
+            }
+            other => panic!("expected a profile error for {body:?}, got {other:?}"),
+        }
+    }
+
+    #[test]
+    fn a_burst_only_profile_resolves_with_defaults() {
+        let p = parse("[[burst]]\nlevels = [\"0 uV\", \"3 uV\", \"7 uV\"]\ndwell = [\"20 ms\", \"5 ms\", 0.002]\n")
+            .unwrap();
+        assert!(p.sources.is_empty());
+        assert_eq!(p.bursts.len(), 1);
+        let b = &p.bursts[0];
+        assert_eq!(b.name, "burst 1");
+        assert_eq!(b.levels, [0.0, 3e-6, 7e-6]);
+        assert_eq!(b.dwell_s, [0.02, 0.005, 0.002]);
+        assert_eq!(b.next, Burst::default_next(3));
+        assert_eq!(b.next[0], [0.0, 0.5, 0.5]);
+        assert_eq!(b.sampling, BurstSampling::Instant);
+        let j = p.to_json();
+        assert_eq!(j["bursts"][0]["levels"][1], 3e-6);
+        assert_eq!(j["bursts"][0]["sampling"], "instant");
+        assert_eq!(j["bursts"][0]["next"][2][1], 0.5);
+    }
+
+    #[test]
+    fn bursts_and_gaussian_sources_mix_and_next_is_normalised() {
+        let p = parse(
+            "[[floor]]\ndensity = \"4 nV/rtHz\"\n\
+             [[burst]]\nname = \"input trap\"\nlevels = [\"-1 mV\", \"2 mV\", \"3 mV\"]\n\
+             dwell = [\"1 ms\", \"2 ms\", \"3 ms\"]\nnext = [[0, 0.7, 0.3], [1, 0, 0], [0.3333333, 0.6666667, 0]]\n\
+             sampling = \"mean\"\n[[burst]]\nlevels = [0, 1]\ndwell = [1, 2]\n",
+        )
+        .unwrap();
+        assert_eq!(p.sources.len(), 1);
+        assert_eq!(p.bursts.len(), 2);
+        assert_eq!(p.bursts[0].name, "input trap");
+        assert_eq!(p.bursts[1].name, "burst 2");
+        assert_eq!(p.bursts[0].sampling, BurstSampling::Mean);
+        assert_eq!(p.bursts[0].levels, [-1e-3, 2e-3, 3e-3]);
+        let row: f64 = p.bursts[0].next[2].iter().sum();
+        assert!((row - 1.0).abs() < 1e-15);
+    }
+
+    #[test]
+    fn bad_bursts_name_the_key_and_line() {
+        let cases: &[(&str, &str, usize, &str)] = &[
+            (
+                "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2]\n",
+                "burst[0].dwell",
+                7,
+                "3 levels but 2 dwell times",
+            ),
+            (
+                "[[burst]]\nlevels = [\"1 uV\"]\ndwell = [1]\n",
+                "burst[0].levels",
+                6,
+                "at least two levels",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1]\ndwell = [1, \"0 ms\"]\n",
+                "burst[0].dwell[1]",
+                7,
+                "> 0",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1]\ndwell = [1, \"-2 ms\"]\n",
+                "burst[0].dwell[1]",
+                7,
+                "> 0",
+            ),
+            (
+                "[[burst]]\nlevels = [0, \"1 uA\"]\ndwell = [1, 2]\n",
+                "burst[0].levels[1]",
+                6,
+                "unit is V",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2, 3]\nnext = [[0, 0.5, 0.4], [1, 0, 0], [1, 0, 0]]\n",
+                "burst[0].next[0]",
+                8,
+                "must sum to 1, got 0.9",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2, 3]\nnext = [\n  [0, 0.5, 0.5],\n  [0.5, 0.5, 0],\n  [1, 0, 0],\n]\n",
+                "burst[0].next[1]",
+                10,
+                "cannot jump to itself",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2, 3]\nnext = [[0, 1, 0], [1, 0, 0]]\n",
+                "burst[0].next",
+                8,
+                "3 levels but 2 rows",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2, 3]\nnext = [[0, 1], [1, 0, 0], [1, 0, 0]]\n",
+                "burst[0].next[0]",
+                8,
+                "expected 3 probabilities",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2, 3]\nnext = [[0, 1.5, -0.5], [1, 0, 0], [1, 0, 0]]\n",
+                "burst[0].next[0]",
+                8,
+                "probability from 0 to 1",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1, 2, 3]\ndwell = [1, 2, 3, 4]\n\
+                 next = [[0, 1, 0, 0], [1, 0, 0, 0], [0, 0, 0, 1], [0, 0, 1, 0]]\n",
+                "burst[0].next",
+                8,
+                "level 2 can never be reached from level 0",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1]\ndwell = [1, 2]\nsampling = \"average\"\n",
+                "burst[0].sampling",
+                8,
+                "\"instant\"",
+            ),
+            (
+                "[[burst]]\nlevels = [0, 1]\ndwell = [1, 2]\nnxt = 1\n",
+                "burst[0].nxt",
+                8,
+                "did you mean `next`",
+            ),
+            (
+                "[[burst]]\ndwell = [1, 2]\n",
+                "burst[0].levels",
+                5,
+                "missing",
+            ),
+            (
+                "[[burst]]\nlevels = [1, 2]\n",
+                "burst[0].dwell",
+                5,
+                "missing",
+            ),
+            ("[burst]\nlevels = [1, 2]\n", "burst", 5, "[[burst]]"),
+        ];
+        for &(body, key, line, needle) in cases {
+            let (k, l, msg) = fail(body);
+            assert_eq!((k.as_str(), l), (key, Some(line)), "{body}: {msg}");
+            assert!(msg.contains(needle), "{body}: {msg:?} lacks {needle:?}");
+        }
+        let e = parse("[[burst]]\nlevels = [0]\ndwell = [1]\n").unwrap_err();
+        assert!(
+            e.to_string().starts_with("b.toml:6: burst[0].levels: "),
+            "{e}"
+        );
+        assert_eq!(e.exit_code(), 2);
+    }
+}
