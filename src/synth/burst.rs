@@ -23,6 +23,8 @@ pub struct BurstTally {
     pub visits: Vec<u64>,
     /// Summed duration of the completed visits per level, in seconds.
     pub visit_time_s: Vec<f64>,
+    /// Jumps made from level i to level j: `jumps[i][j]`.
+    pub jumps: Vec<Vec<u64>>,
     /// Time spent in each level within the samples produced so far, in seconds (for instant
     /// sampling: the path up to the last sample instant plus one sample period).
     pub occupied_s: Vec<f64>,
@@ -84,6 +86,7 @@ impl BurstChain {
             tally: BurstTally {
                 visits: vec![0; k],
                 visit_time_s: vec![0.0; k],
+                jumps: vec![vec![0; k]; k],
                 occupied_s: vec![0.0; k],
             },
         }
@@ -114,6 +117,7 @@ impl BurstChain {
         self.tally.visits[i] += 1;
         self.tally.visit_time_s[i] += visit * self.sample_period_s;
         let j = pick(&self.cumulative[i], self.rng.random::<f64>());
+        self.tally.jumps[i][j] += 1;
         self.state = j;
         // The new visit began `left` samples from the next sample's start (≤ 0 for instant
         // sampling, within the interval for the mean).
