@@ -9,7 +9,7 @@
 mod common;
 
 use common::{check_bands_against, chi2_band};
-use noisewright::analysis::welch::{BandEstimate, Spectrum, Welch};
+use noisewright::analysis::welch::{BandEstimate, Spectrum, welch};
 use noisewright::burst::BurstModel;
 use noisewright::profile::{Burst, BurstSampling, Profile, parse_profile};
 use noisewright::synth::Generator;
@@ -150,19 +150,14 @@ fn occupancy_dwell_and_jumps_of_a_long_run_are_within_their_bounds() {
     }
 }
 
-/// A faster three-level chain with the same non-default `next` (corners ≈ 390 Hz and 800 Hz,
-/// the shortest mean dwell two samples): strong aliasing, and ~900 jumps per second.
-const FAST: &str = r#"
-    sample_rate = "10 kHz"
-    [band]
-    low = "1 Hz"
-    high = "4 kHz"
-    [[burst]]
-    name = "fast trap"
-    levels = ["0 uV", "3 uV", "7 uV"]
-    dwell = ["2 ms", "0.5 ms", "0.2 ms"]
-    next = [[0, 0.7, 0.3], [1, 0, 0], [0.5, 0.5, 0]]
-"#;
+/// A faster version of the same chain (dwell ÷ 10: corners ≈ 390 Hz and 800 Hz, the
+/// shortest mean dwell two samples): strong aliasing, and ~900 jumps per second.
+fn fast() -> String {
+    THREE_LEVEL.replace(
+        r#"dwell = ["20 ms", "5 ms", "2 ms"]"#,
+        r#"dwell = ["2 ms", "0.5 ms", "0.2 ms"]"#,
+    )
+}
 
 /// Welch segment length and count for the density checks: 8192 points (1.22 Hz bins),
 /// 400 segments (164 s).
@@ -173,17 +168,7 @@ const SEGMENTS: usize = 400;
 /// bin 3 (outside DC's Hann main lobe, REFERENCES §3) to below Nyquist.
 fn welch_bins(g: &mut Generator) -> (Spectrum, Vec<BandEstimate>) {
     let fs = g.design().sample_rate_hz();
-    let mut welch = Welch::new(SEG, SEG / 2, fs);
-    let total = SEG / 2 * (SEGMENTS + 1);
-    let mut buf = vec![0.0; 1 << 16];
-    let mut done = 0;
-    while done < total {
-        let n = buf.len().min(total - done);
-        g.fill(&mut buf[..n]);
-        welch.push(&buf[..n]);
-        done += n;
-    }
-    let spec = welch.finish();
+    let spec = welch(&run(g, SEG / 2 * (SEGMENTS + 1)), SEG, fs);
     assert_eq!(spec.segments, SEGMENTS);
     let bands: Vec<BandEstimate> = spec
         .bands(3, 1)
@@ -250,7 +235,7 @@ fn check(
 #[test]
 fn welch_density_of_bursts_matches_the_sampled_lorentzian_sum() {
     for (sampling, seed) in [("instant", 31u64), ("mean", 32)] {
-        let p = profile(&FAST.replace(
+        let p = profile(&fast().replace(
             "next = ",
             &format!("sampling = \"{sampling}\"\n    next = "),
         ));
@@ -370,7 +355,7 @@ fn bursts_plus_gaussian_noise_show_a_mode_at_every_level() {
 #[test]
 fn welch_density_of_bursts_plus_gaussian_matches_the_total_design() {
     const SEED: u64 = 42;
-    let p = profile(&FAST.replace(
+    let p = profile(&fast().replace(
         "[[burst]]",
         "[[floor]]\n    density = \"40 nV/rtHz\"\n    [[burst]]",
     ));

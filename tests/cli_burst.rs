@@ -22,6 +22,15 @@ fn run(args: &[&str], cwd: &Path) -> Output {
         .unwrap()
 }
 
+/// `noisewright generate PROFILE ARGS…` in `dir`, which must succeed.
+fn generate(dir: &Path, profile: &Path, args: &[&str]) -> Output {
+    let mut a = vec!["generate", profile.to_str().unwrap()];
+    a.extend_from_slice(args);
+    let o = run(&a, dir);
+    assert!(o.status.success(), "{args:?}: {}", text(&o.stderr));
+    o
+}
+
 fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
 }
@@ -51,20 +60,11 @@ fn write(dir: &Path, name: &str, body: &str) -> PathBuf {
 fn csv_with_source_columns_shows_the_truth_behind_every_sample() {
     let dir = scratch("columns");
     let p = write(&dir, "mixed.toml", MIXED);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "m.csv",
-            "--samples",
-            "40000",
-            "--columns",
-            "sources",
-        ],
+    generate(
         &dir,
+        &p,
+        &["-o", "m.csv", "--samples", "40000", "--columns", "sources"],
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let csv = std::fs::read_to_string(dir.join("m.csv")).unwrap();
     let mut lines = csv.lines();
     assert_eq!(
@@ -83,18 +83,7 @@ fn csv_with_source_columns_shows_the_truth_behind_every_sample() {
     }
     assert_eq!(rows, 40_000);
     // The same run without the columns writes the same totals.
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "t.csv",
-            "--samples",
-            "40000",
-        ],
-        &dir,
-    );
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    generate(&dir, &p, &["-o", "t.csv", "--samples", "40000"]);
     let totals: Vec<String> = std::fs::read_to_string(dir.join("t.csv"))
         .unwrap()
         .lines()
@@ -111,20 +100,11 @@ fn csv_with_source_columns_shows_the_truth_behind_every_sample() {
 fn manifest_and_summary_list_each_burst() {
     let dir = scratch("manifest");
     let p = write(&dir, "mixed.toml", MIXED);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "m.csv",
-            "--samples",
-            "20000",
-            "--columns",
-            "sources",
-        ],
+    let o = generate(
         &dir,
+        &p,
+        &["-o", "m.csv", "--samples", "20000", "--columns", "sources"],
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let m: serde_json::Value =
         serde_json::from_slice(&std::fs::read(dir.join("m.csv.json")).unwrap()).unwrap();
     let bursts = m["extra"]["bursts"].as_array().unwrap();
@@ -187,10 +167,9 @@ fn a_burst_only_profile_writes_exact_levels() {
         &["--samples", "30000"][..],
         &["--samples", "30000", "--seed", "9"],
     ] {
-        let mut a = vec!["generate", p.to_str().unwrap(), "-o", "b.f64"];
+        let mut a = vec!["-o", "b.f64"];
         a.extend_from_slice(args);
-        let o = run(&a, &dir);
-        assert!(o.status.success(), "{}", text(&o.stderr));
+        generate(&dir, &p, &a);
         let bytes = std::fs::read(dir.join("b.f64")).unwrap();
         let x: Vec<f64> = bytes
             .chunks_exact(8)
@@ -202,20 +181,11 @@ fn a_burst_only_profile_writes_exact_levels() {
     }
     // A WAV of a burst-only profile is scaled like any other (no quantisation note: there is
     // no Gaussian floor to compare it with).
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "b.wav",
-            "--samples",
-            "1000",
-            "--sample-format",
-            "i16",
-        ],
+    let o = generate(
         &dir,
+        &p,
+        &["-o", "b.wav", "--samples", "1000", "--sample-format", "i16"],
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(
         !text(&o.stdout).contains("quantisation"),
         "{}",

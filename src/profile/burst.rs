@@ -338,7 +338,6 @@ pub fn describe_levels(b: &Burst, unit: Unit) -> String {
 mod tests {
     use super::super::parse_profile;
     use super::*;
-    use crate::error::Error;
 
     const BASE: &str = "sample_rate = \"10 kHz\"\n[band]\nlow = 1\nhigh = \"4 kHz\"\n";
 
@@ -349,18 +348,7 @@ mod tests {
     /// (key, line, message) of the error `body` gives (lines count from the file start; the
     /// base takes 4).
     fn fail(body: &str) -> (String, Option<usize>, String) {
-        match parse(body) {
-            Err(Error::Profile {
-                file,
-                line,
-                key,
-                message,
-            }) => {
-                assert_eq!(file, "b.toml");
-                (key, line, message)
-            }
-            other => panic!("expected a profile error for {body:?}, got {other:?}"),
-        }
+        super::super::schema::tests::profile_error(&format!("{BASE}{body}"), "b.toml")
     }
 
     #[test]

@@ -672,7 +672,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
 }
 
 #[cfg(test)]
-mod tests {
+pub(super) mod tests {
     use super::*;
 
     const GOOD: &str = r#"name = "bench preamp"
@@ -700,17 +700,26 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
 
     /// (key, line, message) of the error `text` gives.
     fn fail(text: &str) -> (String, Option<usize>, String) {
-        match parse_profile(text, "t.toml") {
+        profile_error(text, "t.toml")
+    }
+
+    /// (key, line, message) of the profile error that `text`, read as `file`, gives; panics
+    /// if it parses or fails otherwise.
+    pub(in crate::profile) fn profile_error(
+        text: &str,
+        file: &str,
+    ) -> (String, Option<usize>, String) {
+        match parse_profile(text, file) {
             Err(Error::Profile {
-                file,
+                file: f,
                 line,
                 key,
                 message,
             }) => {
-                assert_eq!(file, "t.toml");
+                assert_eq!(f, file);
                 (key, line, message)
             }
-            other => panic!("expected a profile error, got {other:?}"),
+            other => panic!("expected a profile error for {text:?}, got {other:?}"),
         }
     }
 
