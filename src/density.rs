@@ -419,6 +419,7 @@ mod tests {
                     kind,
                 })
                 .collect(),
+            bursts: Vec::new(),
         }
     }
 

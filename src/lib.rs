@@ -30,6 +30,7 @@
 pub mod amplifier;
 pub mod analysis;
 pub mod budget;
+pub mod burst;
 pub mod cmd;
 pub mod density;
 pub mod error;

@@ -1,8 +1,10 @@
 //! `noisewright generate`: a profile becomes a noise file, a manifest and a summary.
 
+use std::cell::RefCell;
 use std::fs;
 use std::io::{self, BufWriter, IsTerminal};
 use std::path::{Path, PathBuf};
+use std::rc::Rc;
 use std::sync::atomic::{AtomicBool, Ordering};
 
 use crate::analysis::stats::RunningStats;
@@ -10,10 +12,10 @@ use crate::density;
 use crate::error::{Error, Result};
 use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{
-    Format, Manifest, SampleFormat, SinkSpec, check_wav_size, open_sink, rms_digital_from_dbfs,
-    write_manifest,
+    CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, check_wav_size, open_sink,
+    rms_digital_from_dbfs, write_manifest,
 };
-use crate::synth::{Shaper, design_profile, periodic_buffer, periodic_variance};
+use crate::synth::{Generator, periodic_buffer, periodic_variance};
 
 /// Samples produced and written per step.
 const CHUNK: usize = 1 << 16;
@@ -68,6 +70,10 @@ pub struct GenerateArgs {
     /// Print no summary.
     #[arg(short, long)]
     pub quiet: bool,
+    /// CSV columns: `total` (time and value) or `sources` (also one physical column per
+    /// source: the Gaussian sum and each burst).
+    #[arg(long, value_name = "WHICH", default_value = "total")]
+    pub columns: String,
 }
 
 /// Whatever produces the next samples (unit) into a slice.
@@ -209,9 +215,43 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         return Err(Error::option("--samples", "expected at least one sample"));
     }
 
+    let per_source = match args.columns.as_str() {
+        "total" => false,
+        "sources" => true,
+        other => {
+            return Err(Error::option(
+                "--columns",
+                format!(
+                    "expected total (time and value) or sources (also one column per source), \
+                     got {other:?}"
+                ),
+            ));
+        }
+    };
+    if per_source && format != Format::Csv {
+        return Err(Error::option(
+            "--columns",
+            format!(
+                "sources writes one column per source, which only CSV output can hold \
+                 (the output is {format}); write a .csv file or give --format csv"
+            ),
+        ));
+    }
+    if args.loop_buffer && !profile.bursts.is_empty() {
+        return Err(Error::option(
+            "--loop",
+            format!(
+                "{file} has burst sources, whose steps cannot be made to join a loop seamlessly; \
+                 generate a stream instead (without --loop)"
+            ),
+        ));
+    }
+
     // Engine and expected variance.
     let target_psd = |f: f64| density::target_psd(&profile, f);
     let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
+    let mut generator: Option<Rc<RefCell<Generator>>> = None;
+    let parts: Rc<RefCell<Vec<Vec<f64>>>> = Rc::default();
     let (mut engine, expected_variance): (Engine, f64) = if args.loop_buffer {
         let n = samples.unwrap_or(0) as usize;
         let buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
@@ -227,12 +267,43 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             var,
         )
     } else {
-        let design = design_profile(&profile)?;
-        let var = design.variance();
-        let mut shaper = Shaper::new(&design, args.seed);
-        (Box::new(move |out: &mut [f64]| shaper.fill(out)), var)
+        let g = Rc::new(RefCell::new(Generator::new(&profile, args.seed)?));
+        let var = g.borrow().variance();
+        generator = Some(g.clone());
+        if per_source {
+            let parts = parts.clone();
+            parts
+                .borrow_mut()
+                .resize(1 + profile.bursts.len(), Vec::new());
+            (
+                Box::new(move |out: &mut [f64]| {
+                    g.borrow_mut().fill_sources(out, &mut parts.borrow_mut())
+                }),
+                var,
+            )
+        } else {
+            (
+                Box::new(move |out: &mut [f64]| g.borrow_mut().fill(out)),
+                var,
+            )
+        }
     };
-    let expected_rms = expected_variance.sqrt();
+    // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
+    let expected_mean = generator.as_ref().map_or(0.0, |g| g.borrow().mean());
+    let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
+    let source_names: Vec<String> = std::iter::once("gaussian".to_string())
+        .chain(profile.bursts.iter().map(|b| b.name.clone()))
+        .collect();
+    let make_sink = |spec: &SinkSpec, w: Box<dyn io::Write>| -> Result<Box<dyn Sink>> {
+        if per_source {
+            Ok(Box::new(SourcesSink {
+                inner: Box::new(CsvSink::with_sources(spec, w, &source_names)?),
+                parts: parts.clone(),
+            }))
+        } else {
+            open_sink(spec, w)
+        }
+    };
 
     // Scale.
     let needs_scale = format == Format::Wav || sample_format.is_integer();
@@ -264,7 +335,12 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             level_dbfs: None,
         }
     };
-    if let (Some(fsc), true) = (scale.full_scale, sample_format.is_integer()) {
+    // Bursts alone have no density floor to compare quantisation noise with.
+    if let (Some(fsc), true, false) = (
+        scale.full_scale,
+        sample_format.is_integer(),
+        profile.sources.is_empty(),
+    ) {
         if let Some(note) = quantisation_note(&profile, fsc, sample_format) {
             notes.push(note);
         }
@@ -288,7 +364,10 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     match &target {
         Target::Stdout => {
             let stdout = io::stdout();
-            let mut sink = open_sink(&spec, BufWriter::with_capacity(1 << 20, stdout.lock()))?;
+            let mut sink = make_sink(
+                &spec,
+                Box::new(BufWriter::with_capacity(1 << 20, stdout.lock())),
+            )?;
             let result = pump(
                 &mut *engine,
                 &mut *sink,
@@ -310,7 +389,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             let pending = PendingFile::create(path)?;
             {
                 let writer = BufWriter::with_capacity(1 << 20, pending.file()?);
-                let mut sink = open_sink(&spec, writer)?;
+                let mut sink = make_sink(&spec, Box::new(writer))?;
                 pump(
                     &mut *engine,
                     &mut *sink,
@@ -341,6 +420,9 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             manifest.level_dbfs = scale.level_dbfs;
             manifest.looped = args.loop_buffer;
             manifest.notes = notes.clone();
+            if let Some(g) = &generator {
+                burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
+            }
             let manifest_path = manifest_path(path);
             let mp = PendingFile::create(&manifest_path)?;
             write_manifest(&manifest, BufWriter::new(mp.file()?))?;
@@ -350,7 +432,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     }
     progress.finish_and_clear();
 
-    let summary = summary_text(
+    let mut summary = summary_text(
         &profile,
         &target,
         args,
@@ -361,6 +443,9 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         report.clipped,
         &notes,
     );
+    if let Some(g) = &generator {
+        summary += &burst_summary(&g.borrow(), &profile, expected_variance, expected_mean);
+    }
     Ok(summary)
 }
 
@@ -562,11 +647,14 @@ fn summary_text(
         q(band_rms),
         q(expected_rms)
     );
-    s += &format!(
-        "  peak-to-peak    {} (6σ), {} (6.6σ) expected\n",
-        q(6.0 * expected_rms),
-        q(6.6 * expected_rms)
-    );
+    // With bursts the Gaussian convention does not hold; their summary gives the figure.
+    if profile.bursts.is_empty() {
+        s += &format!(
+            "  peak-to-peak    {} (6σ), {} (6.6σ) expected\n",
+            q(6.0 * expected_rms),
+            q(6.6 * expected_rms)
+        );
+    }
     s += &format!(
         "  measured        RMS {}, std {}, mean {}, peak-to-peak {}\n",
         q(stats.rms()),
@@ -588,6 +676,148 @@ fn summary_text(
     s += &format!("  seed            {}\n", args.seed);
     for n in notes {
         s += &format!("  note: {n}\n");
+    }
+    s
+}
+
+/// Hands the engine's per-source parts of each block to the CSV writer beside the totals
+/// (`--columns sources`): the engine fills `parts` with the block it has just produced.
+struct SourcesSink {
+    inner: Box<dyn Sink>,
+    parts: Rc<RefCell<Vec<Vec<f64>>>>,
+}
+
+impl Sink for SourcesSink {
+    fn write(&mut self, samples: &[f64]) -> Result<()> {
+        let parts = self.parts.borrow();
+        let slices: Vec<&[f64]> = parts.iter().map(|p| &p[..samples.len()]).collect();
+        self.inner.write_sources(samples, &slices)
+    }
+
+    fn finish(&mut self) -> Result<crate::sink::SinkReport> {
+        self.inner.finish()
+    }
+}
+
+/// The manifest's burst keys, under `extra`: `expected_std`, `expected_mean`,
+/// `expected_gaussian_rms` (unit), `bursts` (per burst: its occupancy, mean, variance, corner
+/// frequencies, and the occupancy this run measured) and, with `--columns sources`,
+/// `source_columns`.
+fn burst_manifest(
+    manifest: &mut Manifest,
+    g: &Generator,
+    profile: &Profile,
+    per_source: bool,
+    spec: &SinkSpec,
+) {
+    use serde_json::json;
+    let extra = &mut manifest.extra;
+    extra.insert("expected_std".into(), json!(g.variance().sqrt()));
+    extra.insert("expected_mean".into(), json!(g.mean()));
+    extra.insert(
+        "expected_gaussian_rms".into(),
+        json!(g.design().variance().sqrt()),
+    );
+    let bursts: Vec<serde_json::Value> = g
+        .bursts()
+        .iter()
+        .zip(g.chains())
+        .map(|(m, c)| {
+            let b = m.burst();
+            json!({
+                "name": b.name,
+                "sampling": b.sampling.name(),
+                "levels": b.levels,
+                "dwell_s": b.dwell_s,
+                "occupancy": m.occupancy(),
+                "mean": m.mean(),
+                "variance": m.variance(),
+                "std": m.variance().sqrt(),
+                "corner_hz": m.modes().iter().map(|x| x.corner_hz).collect::<Vec<_>>(),
+                "oscillation_hz": m.modes().iter().map(|x| x.oscillation_hz).collect::<Vec<_>>(),
+                "jump_rate_hz": m.jump_rate_hz(),
+                "measured_occupancy": c.tally().occupancy(),
+            })
+        })
+        .collect();
+    extra.insert("bursts".into(), json!(bursts));
+    if per_source {
+        let names: Vec<String> = std::iter::once("gaussian".to_string())
+            .chain(profile.bursts.iter().map(|b| b.name.clone()))
+            .collect();
+        extra.insert(
+            "source_columns".into(),
+            json!(crate::sink::source_column_names(&names, spec.unit)),
+        );
+    }
+}
+
+/// Summary lines for the bursts (empty without any): the expected std and mean behind the
+/// AC + DC RMS, and per burst its levels, occupancy (designed and measured), mean, std and
+/// corner frequencies.
+fn burst_summary(g: &Generator, profile: &Profile, variance: f64, mean: f64) -> String {
+    if g.bursts().is_empty() {
+        return String::new();
+    }
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let fractions = |p: &[f64]| {
+        p.iter()
+            .map(|x| format!("{x:.4}"))
+            .collect::<Vec<_>>()
+            .join(" / ")
+    };
+    let mut s = format!(
+        "  bursts          expected RMS above is AC+DC: std {}, mean {} (Gaussian part {} RMS)\n",
+        q(variance.sqrt()),
+        q(mean),
+        q(g.design().variance().sqrt())
+    );
+    let gauss_std = g.design().variance().sqrt();
+    let spans: f64 = g
+        .bursts()
+        .iter()
+        .map(|m| {
+            let l = &m.burst().levels;
+            l.iter().copied().fold(f64::MIN, f64::max) - l.iter().copied().fold(f64::MAX, f64::min)
+        })
+        .sum();
+    s += &format!(
+        "  peak-to-peak    {} (Gaussian 6σ + burst level spans), {} (6.6σ + spans) expected\n",
+        q(6.0 * gauss_std + spans),
+        q(6.6 * gauss_std + spans)
+    );
+    for (m, c) in g.bursts().iter().zip(g.chains()) {
+        let b = m.burst();
+        let corners: Vec<String> = m
+            .modes()
+            .iter()
+            .map(|x| {
+                if x.oscillation_hz > 0.0 {
+                    format!(
+                        "{} (oscillating at {})",
+                        format_quantity(x.corner_hz, "Hz"),
+                        format_quantity(x.oscillation_hz, "Hz")
+                    )
+                } else {
+                    format_quantity(x.corner_hz, "Hz")
+                }
+            })
+            .collect();
+        s += &format!(
+            "  burst           {} ({} sampling): levels {}\n",
+            b.name,
+            b.sampling.name(),
+            crate::profile::describe_levels(b, profile.unit)
+        );
+        s += &format!(
+            "                  occupancy {} (measured {}), mean {}, std {}, corner {}\n",
+            fractions(m.occupancy()),
+            fractions(&c.tally().occupancy()),
+            q(m.mean()),
+            q(m.variance().sqrt()),
+            corners.join(", ")
+        );
     }
     s
 }

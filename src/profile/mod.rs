@@ -4,9 +4,11 @@
 //! base units: hertz, seconds, kelvin, ohms, and the profile's [`Unit`] (volts or amperes) per
 //! √Hz for densities.
 
+mod burst;
 mod quantity;
 mod schema;
 
+pub use burst::{Burst, BurstSampling, NEXT_ROW_TOLERANCE, describe_levels};
 pub use quantity::{Dimension, format_quantity, parse_quantity};
 pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
 
@@ -114,9 +116,13 @@ pub struct Profile {
     pub sample_rate_hz: f64,
     /// The synthesised band.
     pub band: Band,
-    /// The sources, in file order (floors, then resistors, then tables, then the parts of
-    /// each amplifier stage).
+    /// The Gaussian sources, in file order (floors, then resistors, then tables, then the
+    /// parts of each amplifier stage); they add in power and the band shapes them. May be
+    /// empty when the profile has bursts.
     pub sources: Vec<Source>,
+    /// The burst sources, in file order: independent Markov chains over discrete levels,
+    /// DC-coupled and not shaped by the band. May be empty.
+    pub bursts: Vec<Burst>,
 }
 
 impl Profile {
@@ -134,7 +140,11 @@ impl Profile {
     ///     { "name": "resistor 1 (10 kΩ)", "kind": "resistor",
     ///       "resistance_ohm": 10000.0, "temperature_k": 298.15 },
     ///     { "name": "table 1", "kind": "table",
-    ///       "points": [ { "frequency_hz": 1.0, "density_per_rthz": 3e-8 } ] } ] }
+    ///       "points": [ { "frequency_hz": 1.0, "density_per_rthz": 3e-8 } ] } ],
+    ///   "bursts": [
+    ///     { "name": "burst 1", "levels": [0.0, 3e-6],   // in the unit
+    ///       "dwell_s": [0.02, 0.005], "next": [[0.0, 1.0], [1.0, 0.0]],
+    ///       "sampling": "instant" } ] }
     /// ```
     pub fn to_json(&self) -> serde_json::Value {
         use serde_json::json;
@@ -199,6 +209,13 @@ impl Profile {
                 "order": self.band.order,
             },
             "sources": sources,
+            "bursts": self.bursts.iter().map(|b| json!({
+                "name": b.name,
+                "levels": b.levels,
+                "dwell_s": b.dwell_s,
+                "next": b.next,
+                "sampling": b.sampling.name(),
+            })).collect::<Vec<_>>(),
         })
     }
 }

@@ -23,7 +23,8 @@
 //! ```
 //!
 //! Bare numbers are SI base units (Hz, Ω, K, unit/√Hz); strings carry units
-//! (see [`super::parse_quantity`]). A profile needs at least one source.
+//! (see [`super::parse_quantity`]). A profile needs at least one source: Gaussian sources
+//! (floor, resistor, table), `[[burst]]` sources (see [`super::Burst`]), or both.
 //!
 //! Errors are [`Error::Profile`] with the 1-based line of the offending key or value and a
 //! dotted key path such as `floor[0].density` or `table[1].points[2]`; array indices in key
@@ -35,6 +36,7 @@ use serde::Deserialize;
 use toml::de::{DeTable, DeValue};
 use toml::{Spanned, Value};
 
+use super::burst::{BURST_KEYS, RawBurst, validate_bursts};
 use super::quantity::expectation;
 use super::{Band, Dimension, Profile, Source, SourceKind, Unit, format_quantity, parse_quantity};
 use crate::error::{Error, Result};
@@ -56,6 +58,7 @@ const TOP_KEYS: &[&str] = &[
     "resistor",
     "table",
     "amplifier",
+    "burst",
 ];
 const BAND_KEYS: &[&str] = &["low", "high", "order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
@@ -77,6 +80,8 @@ struct RawProfile {
     table: Vec<Spanned<RawTable>>,
     #[serde(default)]
     amplifier: Vec<Spanned<amplifier::RawAmplifier>>,
+    #[serde(default)]
+    burst: Vec<Spanned<RawBurst>>,
 }
 
 #[derive(Deserialize)]
@@ -133,13 +138,18 @@ pub fn parse_profile(text: &str, file: &str) -> Result<Profile> {
 }
 
 /// The text being parsed and its file name, for building errors.
-struct Cx<'a> {
+pub(super) struct Cx<'a> {
     text: &'a str,
     file: &'a str,
 }
 
 impl Cx<'_> {
-    fn err(&self, key: &str, span: Option<Range<usize>>, message: impl Into<String>) -> Error {
+    pub(super) fn err(
+        &self,
+        key: &str,
+        span: Option<Range<usize>>,
+        message: impl Into<String>,
+    ) -> Error {
         Error::Profile {
             file: self.file.to_string(),
             line: span.map(|s| line_of(self.text, s.start)),
@@ -214,11 +224,12 @@ fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
                     a(other.type_str())
                 ),
             )),
-            ("floor" | "resistor" | "table" | "amplifier", value) => {
+            ("floor" | "resistor" | "table" | "amplifier" | "burst", value) => {
                 let allowed = match name {
                     "floor" => FLOOR_KEYS,
                     "resistor" => RESISTOR_KEYS,
                     "amplifier" => amplifier::KEYS,
+                    "burst" => BURST_KEYS,
                     _ => TABLE_KEYS,
                 };
                 match value {
@@ -323,7 +334,7 @@ fn edit_distance(a: &str, b: &str) -> usize {
 }
 
 /// A number or a string with a unit, resolved to SI base units and checked finite.
-fn quantity(
+pub(super) fn quantity(
     cx: &Cx<'_>,
     value: &Value,
     span: Range<usize>,
@@ -379,7 +390,13 @@ fn symbol(dim: Dimension, unit: Unit) -> String {
 }
 
 /// A required positive quantity.
-fn positive(cx: &Cx<'_>, v: &Spanned<Value>, key: &str, dim: Dimension, unit: Unit) -> Result<f64> {
+pub(super) fn positive(
+    cx: &Cx<'_>,
+    v: &Spanned<Value>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+) -> Result<f64> {
     let x = spanned_quantity(cx, v, key, dim, unit)?;
     if x > 0.0 {
         Ok(x)
@@ -396,7 +413,7 @@ fn positive(cx: &Cx<'_>, v: &Spanned<Value>, key: &str, dim: Dimension, unit: Un
 }
 
 /// A missing required key: the error points at the enclosing table.
-fn missing(cx: &Cx<'_>, key: &str, span: Option<Range<usize>>, example: &str) -> Error {
+pub(super) fn missing(cx: &Cx<'_>, key: &str, span: Option<Range<usize>>, example: &str) -> Error {
     cx.err(key, span, format!("missing; expected e.g. {example}"))
 }
 
@@ -642,12 +659,13 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
     for (i, a) in raw.amplifier.iter().enumerate() {
         sources.extend(amplifier::validate(cx, i, a, unit)?);
     }
-    if sources.is_empty() {
+    let bursts = validate_bursts(cx, &raw.burst, unit)?;
+    if sources.is_empty() && bursts.is_empty() {
         return Err(cx.err(
             "sources",
             None,
-            "a profile needs at least one [[floor]], [[resistor]] or [[table]] (or an \
-             [[amplifier]])",
+            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]] \
+             or [[burst]]",
         ));
     }
 
@@ -661,11 +679,12 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
             order,
         },
         sources,
+        bursts,
     })
 }
 
 #[cfg(test)]
-mod tests {
+pub(super) mod tests {
     use super::*;
 
     const GOOD: &str = r#"name = "bench preamp"
@@ -693,17 +712,26 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
 
     /// (key, line, message) of the error `text` gives.
     fn fail(text: &str) -> (String, Option<usize>, String) {
-        match parse_profile(text, "t.toml") {
+        profile_error(text, "t.toml")
+    }
+
+    /// (key, line, message) of the profile error that `text`, read as `file`, gives; panics
+    /// if it parses or fails otherwise.
+    pub(in crate::profile) fn profile_error(
+        text: &str,
+        file: &str,
+    ) -> (String, Option<usize>, String) {
+        match parse_profile(text, file) {
             Err(Error::Profile {
-                file,
+                file: f,
                 line,
                 key,
                 message,
             }) => {
-                assert_eq!(file, "t.toml");
+                assert_eq!(f, file);
                 (key, line, message)
             }
-            other => panic!("expected a profile error, got {other:?}"),
+            other => panic!("expected a profile error for {text:?}, got {other:?}"),
         }
     }
 
@@ -1006,7 +1034,12 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
         assert_eq!((k.as_str(), l), ("table[0].points", Some(20)));
         let (k, l, msg) = fail("sample_rate = 1000\n[band]\nlow = 1\nhigh = 10\n");
         assert_eq!((k.as_str(), l), ("sources", None));
-        assert!(msg.contains("at least one [[floor]], [[resistor]] or [[table]]"));
+        assert!(
+            msg.contains(
+                "at least one [[floor]], [[resistor]], [[table]], [[amplifier]] or [[burst]]"
+            ),
+            "{msg}"
+        );
     }
 
     #[test]

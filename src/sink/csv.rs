@@ -18,6 +18,11 @@ const CSV_CHUNK: usize = 2048;
 ///   * full scale, integer format → `code_i16` / `code_i24` / `code_i32`: the integer code
 ///     (digital ±1.0 ↔ ±(2^(b−1) − 1), see the module docs).
 ///
+/// * With [`CsvSink::with_sources`], one more column per source follows (e.g. `gaussian_V`,
+///   `input_trap_V`): the physical value of that source's part of the sample, in the unit,
+///   whatever the scale of the value column. Without a full scale, the value column is the
+///   f64 sum of these columns taken left to right.
+///
 /// Floats are printed with Rust's `{}` for f64 (or f32 for f32 values): the shortest decimal
 /// that parses back to the same value, never in exponent form. So every value, and every
 /// time, round-trips exactly through `str::parse`. [`SinkSpec::frames`] is not needed.
@@ -27,6 +32,8 @@ pub struct CsvSink<W: Write> {
     scaler: Scaler,
     sample_rate_hz: f64,
     header: Option<String>,
+    /// Number of per-source columns after the value column.
+    sources: usize,
 }
 
 impl<W: Write> CsvSink<W> {
@@ -45,7 +52,66 @@ impl<W: Write> CsvSink<W> {
             scaler: Scaler::new(spec),
             sample_rate_hz: spec.sample_rate_hz,
             header: Some(format!("time_s,{}\n", value_column(spec))),
+            sources: 0,
         })
+    }
+
+    /// A CSV writer with one physical column per source after the value column, named
+    /// `<name>_<unit>` from `names` (see [`source_column_names`]). Samples then go in with
+    /// [`Sink::write_sources`].
+    pub fn with_sources(spec: &SinkSpec, out: W, names: &[String]) -> Result<CsvSink<W>> {
+        let mut sink = CsvSink::new(spec, out)?;
+        let columns = source_column_names(names, spec.unit);
+        sink.header = Some(format!(
+            "time_s,{},{}\n",
+            value_column(spec),
+            columns.join(",")
+        ));
+        sink.sources = names.len();
+        Ok(sink)
+    }
+
+    fn write_rows(&mut self, samples: &[f64], sources: &[&[f64]]) -> Result<()> {
+        self.out.ensure_open()?;
+        if sources.len() != self.sources || sources.iter().any(|s| s.len() != samples.len()) {
+            return Err(Error::Unsupported(format!(
+                "this CSV writer has {} source columns, got {} blocks of samples",
+                self.sources,
+                sources.len()
+            )));
+        }
+        self.scaler.check_finite(samples)?;
+        for part in sources {
+            self.scaler.check_finite(part)?;
+        }
+        self.put_header();
+        let fs = self.sample_rate_hz;
+        let sf = self.scaler.sample_format;
+        let digital = self.scaler.gain.is_some();
+        for (c, chunk) in samples.chunks(CSV_CHUNK).enumerate() {
+            let mut n = self.scaler.report.samples;
+            let buf = &mut self.out.buf;
+            for (k, &x) in chunk.iter().enumerate() {
+                let t = n as f64 / fs;
+                // Writing into a Vec<u8> cannot fail.
+                let r = if sf.is_integer() {
+                    write!(buf, "{t},{}", self.scaler.code(x))
+                } else if sf == SampleFormat::F32 && digital {
+                    write!(buf, "{t},{}", self.scaler.f32_value(x))
+                } else {
+                    write!(buf, "{t},{}", self.scaler.digital(x))
+                };
+                r.expect("writing to a Vec");
+                for part in sources {
+                    write!(buf, ",{}", part[c * CSV_CHUNK + k]).expect("writing to a Vec");
+                }
+                buf.push(b'\n');
+                n += 1;
+            }
+            self.scaler.report.samples = n;
+            self.out.maybe_flush()?;
+        }
+        Ok(())
     }
 
     fn put_header(&mut self) {
@@ -53,6 +119,33 @@ impl<W: Write> CsvSink<W> {
             self.out.buf.extend_from_slice(h.as_bytes());
         }
     }
+}
+
+/// Column names for per-source columns: each name lower-cased, every run of characters other
+/// than ASCII letters and digits made one `_`, then `_<unit>`; a repeated name gets `_2`, `_3`,
+/// … So `["gaussian", "input trap"]` in volts gives `gaussian_V`, `input_trap_V`.
+pub fn source_column_names(names: &[String], unit: crate::profile::Unit) -> Vec<String> {
+    let mut out: Vec<String> = Vec::with_capacity(names.len());
+    for name in names {
+        let mut slug = String::new();
+        for c in name.chars() {
+            if c.is_ascii_alphanumeric() {
+                slug.push(c.to_ascii_lowercase());
+            } else if !slug.ends_with('_') {
+                slug.push('_');
+            }
+        }
+        let slug = slug.trim_matches('_');
+        let base = if slug.is_empty() { "source" } else { slug };
+        let mut column = format!("{base}_{}", unit.symbol());
+        let mut k = 2;
+        while out.contains(&column) {
+            column = format!("{base}_{k}_{}", unit.symbol());
+            k += 1;
+        }
+        out.push(column);
+    }
+    out
 }
 
 /// The value column's name for `spec` (see [`CsvSink`]).
@@ -66,32 +159,11 @@ fn value_column(spec: &SinkSpec) -> String {
 
 impl<W: Write> Sink for CsvSink<W> {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
-        self.out.ensure_open()?;
-        self.scaler.check_finite(samples)?;
-        self.put_header();
-        let fs = self.sample_rate_hz;
-        let sf = self.scaler.sample_format;
-        let digital = self.scaler.gain.is_some();
-        for chunk in samples.chunks(CSV_CHUNK) {
-            let mut n = self.scaler.report.samples;
-            let buf = &mut self.out.buf;
-            for &x in chunk {
-                let t = n as f64 / fs;
-                // Writing into a Vec<u8> cannot fail.
-                let r = if sf.is_integer() {
-                    writeln!(buf, "{t},{}", self.scaler.code(x))
-                } else if sf == SampleFormat::F32 && digital {
-                    writeln!(buf, "{t},{}", self.scaler.f32_value(x))
-                } else {
-                    writeln!(buf, "{t},{}", self.scaler.digital(x))
-                };
-                r.expect("writing to a Vec");
-                n += 1;
-            }
-            self.scaler.report.samples = n;
-            self.out.maybe_flush()?;
-        }
-        Ok(())
+        self.write_rows(samples, &[])
+    }
+
+    fn write_sources(&mut self, total: &[f64], sources: &[&[f64]]) -> Result<()> {
+        self.write_rows(total, sources)
     }
 
     fn finish(&mut self) -> Result<SinkReport> {
@@ -189,6 +261,45 @@ mod tests {
         let over = x.iter().filter(|v| v.abs() > 1.0).count() as u64;
         assert_eq!(r.clipped, over);
         assert!(r.clipped > 0, "seed {SEED}: no sample clipped");
+    }
+
+    #[test]
+    fn source_columns_hold_the_parts_beside_the_total() {
+        let g = gaussian(5_000, 3e-9, SEED);
+        let b: Vec<f64> = (0..5_000)
+            .map(|i| if i % 7 < 3 { 2e-6 } else { 0.0 })
+            .collect();
+        let total: Vec<f64> = g.iter().zip(&b).map(|(x, y)| x + y).collect();
+        let s = spec(Format::Csv, SampleFormat::F64, None, None);
+        let names = ["gaussian".to_string(), "Input trap #1".to_string()];
+        let mut bytes = Vec::new();
+        {
+            let mut sink = CsvSink::with_sources(&s, &mut bytes, &names).unwrap();
+            // Uneven blocks, across the formatting chunk.
+            for (lo, hi) in [(0, 1), (1, 2500), (2500, 5000)] {
+                sink.write_sources(&total[lo..hi], &[&g[lo..hi], &b[lo..hi]])
+                    .unwrap();
+            }
+            assert!(sink.write(&total[..1]).is_err(), "the parts are required");
+            sink.finish().unwrap();
+        }
+        let ls = lines(&bytes);
+        assert_eq!(ls[0], "time_s,value_V,gaussian_V,input_trap_1_V");
+        for (n, l) in ls[1..].iter().enumerate() {
+            let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+            assert_eq!(v[1].to_bits(), total[n].to_bits());
+            assert_eq!(v[2].to_bits(), g[n].to_bits());
+            assert_eq!(v[3].to_bits(), b[n].to_bits());
+            assert_eq!((v[2] + v[3]).to_bits(), v[1].to_bits(), "line {n}");
+        }
+        // Other writers have no source columns.
+        let raw = spec(Format::Raw, SampleFormat::F32, None, None);
+        let mut sink = super::super::open_sink(&raw, Vec::new()).unwrap();
+        assert!(sink.write_sources(&total, &[&g, &b]).is_err());
+        assert_eq!(
+            source_column_names(&["a b".into(), "a-b".into(), "".into()], Unit::Ampere),
+            ["a_b_A", "a_b_2_A", "source_A"]
+        );
     }
 
     #[test]

@@ -33,7 +33,7 @@ mod manifest;
 mod raw;
 mod wav;
 
-pub use csv::CsvSink;
+pub use csv::{CsvSink, source_column_names};
 pub use manifest::{
     DBFS_CONVENTION, Manifest, dbfs_from_rms_digital, rms_digital_from_dbfs, write_manifest,
 };
@@ -301,6 +301,15 @@ pub trait Sink {
     fn write(&mut self, samples: &[f64]) -> Result<()>;
     /// Writes what is buffered (and any trailing pad), flushes the writer and reports.
     fn finish(&mut self) -> Result<SinkReport>;
+    /// Writes a block of physical totals with the parts they are made of beside them, one
+    /// slice per source, each as long as `total` (only a CSV writer made with
+    /// [`CsvSink::with_sources`] has such columns; every other writer refuses).
+    fn write_sources(&mut self, total: &[f64], sources: &[&[f64]]) -> Result<()> {
+        let _ = (total, sources);
+        Err(Error::Unsupported(
+            "per-source columns need CSV output (--columns sources with a .csv file)".into(),
+        ))
+    }
 }
 
 /// Builds the sink for `spec` over `out`. Validates the spec first ([`SinkSpec::validate`]);

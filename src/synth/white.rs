@@ -15,6 +15,8 @@ pub enum Domain {
     Shaper = 0,
     /// The periodic (loop) buffer's random spectrum.
     Periodic = 1,
+    /// Burst sources: one stream per burst (the stream id's chunk field is the burst's index).
+    Burst = 2,
 }
 
 /// A seeded family of independent standard-normal streams.

@@ -1,0 +1,259 @@
+//! CLI tests of burst sources in `noisewright generate`: per-source CSV columns, the manifest's
+//! burst keys, the summary, and bad burst input (exit 2, file, line and key, no output).
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!(
+        "noisewright-cli-burst-{}-{name}",
+        std::process::id()
+    ));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+fn run(args: &[&str], cwd: &Path) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_noisewright"))
+        .args(args)
+        .current_dir(cwd)
+        .output()
+        .unwrap()
+}
+
+/// `noisewright generate PROFILE ARGS…` in `dir`, which must succeed.
+fn generate(dir: &Path, profile: &Path, args: &[&str]) -> Output {
+    let mut a = vec!["generate", profile.to_str().unwrap()];
+    a.extend_from_slice(args);
+    let o = run(&a, dir);
+    assert!(o.status.success(), "{args:?}: {}", text(&o.stderr));
+    o
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+const HEAD: &str =
+    "name = \"cli bursts\"\nsample_rate = \"10 kHz\"\n[band]\nlow = \"1 Hz\"\nhigh = \"4 kHz\"\n";
+
+const MIXED: &str = r#"[[floor]]
+density = "20 nV/rtHz"
+[[burst]]
+name = "input trap"
+levels = ["0 uV", "3 uV", "7 uV"]
+dwell = ["20 ms", "5 ms", "2 ms"]
+next = [[0, 0.7, 0.3], [1, 0, 0], [0.5, 0.5, 0]]
+[[burst]]
+levels = ["-1 uV", "1 uV"]
+dwell = ["10 ms", "30 ms"]
+"#;
+
+fn write(dir: &Path, name: &str, body: &str) -> PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, format!("{HEAD}{body}")).unwrap();
+    p
+}
+
+#[test]
+fn csv_with_source_columns_shows_the_truth_behind_every_sample() {
+    let dir = scratch("columns");
+    let p = write(&dir, "mixed.toml", MIXED);
+    generate(
+        &dir,
+        &p,
+        &["-o", "m.csv", "--samples", "40000", "--columns", "sources"],
+    );
+    let csv = std::fs::read_to_string(dir.join("m.csv")).unwrap();
+    let mut lines = csv.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "time_s,value_V,gaussian_V,input_trap_V,burst_2_V"
+    );
+    let mut rows = 0;
+    for l in lines {
+        let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+        assert_eq!(v.len(), 5);
+        // Physical output: the total is the f64 sum of the parts, left to right.
+        assert_eq!((v[2] + v[3] + v[4]).to_bits(), v[1].to_bits(), "row {rows}");
+        assert!([0.0, 3e-6, 7e-6].contains(&v[3]), "row {rows}: {}", v[3]);
+        assert!([-1e-6, 1e-6].contains(&v[4]), "row {rows}: {}", v[4]);
+        rows += 1;
+    }
+    assert_eq!(rows, 40_000);
+    // The same run without the columns writes the same totals.
+    generate(&dir, &p, &["-o", "t.csv", "--samples", "40000"]);
+    let totals: Vec<String> = std::fs::read_to_string(dir.join("t.csv"))
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    assert_eq!(totals[0], "time_s,value_V");
+    for (a, b) in csv.lines().zip(&totals).skip(1) {
+        let prefix: Vec<&str> = a.split(',').take(2).collect();
+        assert_eq!(prefix.join(","), *b);
+    }
+}
+
+#[test]
+fn manifest_and_summary_list_each_burst() {
+    let dir = scratch("manifest");
+    let p = write(&dir, "mixed.toml", MIXED);
+    let o = generate(
+        &dir,
+        &p,
+        &["-o", "m.csv", "--samples", "20000", "--columns", "sources"],
+    );
+    let m: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(dir.join("m.csv.json")).unwrap()).unwrap();
+    let bursts = m["extra"]["bursts"].as_array().unwrap();
+    assert_eq!(bursts.len(), 2);
+    assert_eq!(bursts[0]["name"], "input trap");
+    assert_eq!(bursts[1]["name"], "burst 2");
+    // Two levels, τ = 10 ms and 30 ms, ±1 µV: occupancy 0.25 / 0.75, variance
+    // Δ²·p(1−p) = (2 µV)²·0.1875 (REFERENCES §4 check values scaled by Δ = 2 µV).
+    let occ = bursts[1]["occupancy"].as_array().unwrap();
+    assert!((occ[0].as_f64().unwrap() - 0.25).abs() < 1e-12);
+    assert!((occ[1].as_f64().unwrap() - 0.75).abs() < 1e-12);
+    let var = bursts[1]["variance"].as_f64().unwrap();
+    assert!((var / (4e-12 * 0.1875) - 1.0).abs() < 1e-12, "{var:e}");
+    let mean = bursts[1]["mean"].as_f64().unwrap();
+    assert!((mean - 0.5e-6).abs() < 1e-18, "{mean:e}");
+    let corner = bursts[1]["corner_hz"][0].as_f64().unwrap();
+    assert!((corner - 21.22).abs() < 0.005, "{corner}");
+    for b in bursts {
+        let o = b["occupancy"].as_array().unwrap();
+        let s: f64 = o.iter().map(|x| x.as_f64().unwrap()).sum();
+        assert!((s - 1.0).abs() < 1e-12);
+        assert_eq!(b["measured_occupancy"].as_array().unwrap().len(), o.len());
+        assert_eq!(b["sampling"], "instant");
+    }
+    assert_eq!(
+        m["extra"]["source_columns"],
+        serde_json::json!(["gaussian_V", "input_trap_V", "burst_2_V"])
+    );
+    // Expected RMS is AC + DC: √(std² + mean²), with the mean the bursts' DC levels.
+    let std = m["extra"]["expected_std"].as_f64().unwrap();
+    let dc = m["extra"]["expected_mean"].as_f64().unwrap();
+    let rms = m["expected_rms"].as_f64().unwrap();
+    assert!((rms - (std * std + dc * dc).sqrt()).abs() <= 1e-12 * rms);
+    assert!(dc > 0.5e-6, "{dc:e}");
+    assert_eq!(m["profile"]["bursts"][0]["levels"][2], 7e-6);
+    let summary = text(&o.stdout);
+    for needle in [
+        "burst           input trap (instant sampling): levels 0 V / 3 µV / 7 µV",
+        "burst           burst 2",
+        "occupancy 0.2500 / 0.7500",
+        "corner 21.2207 Hz",
+        "AC+DC",
+    ] {
+        assert!(
+            summary.contains(needle),
+            "{needle:?} missing from\n{summary}"
+        );
+    }
+}
+
+#[test]
+fn a_burst_only_profile_writes_exact_levels() {
+    let dir = scratch("only");
+    let p = write(
+        &dir,
+        "only.toml",
+        "[[burst]]\nlevels = [\"-2 mV\", \"5 mV\"]\ndwell = [\"3 ms\", \"1 ms\"]\n",
+    );
+    for args in [
+        &["--samples", "30000"][..],
+        &["--samples", "30000", "--seed", "9"],
+    ] {
+        let mut a = vec!["-o", "b.f64"];
+        a.extend_from_slice(args);
+        generate(&dir, &p, &a);
+        let bytes = std::fs::read(dir.join("b.f64")).unwrap();
+        let x: Vec<f64> = bytes
+            .chunks_exact(8)
+            .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
+            .collect();
+        assert_eq!(x.len(), 30_000);
+        assert!(x.iter().all(|v| *v == -2e-3 || *v == 5e-3));
+        assert!(x.contains(&-2e-3) && x.contains(&5e-3));
+    }
+    // A WAV of a burst-only profile is scaled like any other (no quantisation note: there is
+    // no Gaussian floor to compare it with).
+    let o = generate(
+        &dir,
+        &p,
+        &["-o", "b.wav", "--samples", "1000", "--sample-format", "i16"],
+    );
+    assert!(
+        !text(&o.stdout).contains("quantisation"),
+        "{}",
+        text(&o.stdout)
+    );
+}
+
+#[test]
+fn bad_bursts_and_options_exit_2_naming_file_line_and_key() {
+    let dir = scratch("bad");
+    let cases: &[(&str, &str, &[&str])] = &[
+        (
+            "lengths",
+            "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2]\n",
+            &[
+                "lengths.toml:8: burst[0].dwell",
+                "3 levels but 2 dwell times",
+            ],
+        ),
+        (
+            "one-level",
+            "[[burst]]\nlevels = [\"1 uV\"]\ndwell = [1]\n",
+            &["one-level.toml:7: burst[0].levels", "at least two levels"],
+        ),
+        (
+            "zero-dwell",
+            "[[burst]]\nlevels = [0, 1]\ndwell = [\"0 s\", 1]\n",
+            &["zero-dwell.toml:8: burst[0].dwell[0]", "> 0"],
+        ),
+        (
+            "row-sum",
+            "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 1, 1]\nnext = [[0, 0.5, 0.6], [1, 0, 0], [1, 0, 0]]\n",
+            &["row-sum.toml:9: burst[0].next[0]", "sum to 1"],
+        ),
+        (
+            "self-jump",
+            "[[burst]]\nlevels = [0, 1]\ndwell = [1, 1]\nnext = [[0, 1], [0.5, 0.5]]\n",
+            &[
+                "self-jump.toml:9: burst[0].next[1]",
+                "cannot jump to itself",
+            ],
+        ),
+    ];
+    for (name, body, needles) in cases {
+        let p = write(&dir, &format!("{name}.toml"), body);
+        let o = run(&["generate", p.to_str().unwrap(), "-o", "x.csv"], &dir);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{name}: {err}");
+        for n in *needles {
+            assert!(err.contains(n), "{name}: {n:?} missing from {err:?}");
+        }
+        assert!(!dir.join("x.csv").exists(), "{name}: left an output");
+    }
+    let p = write(&dir, "mixed.toml", MIXED);
+    for (args, needle) in [
+        (&["-o", "x.wav", "--columns", "sources"][..], "--columns"),
+        (&["-o", "x.csv", "--columns", "all"][..], "--columns"),
+        (
+            &["-o", "x.csv", "--loop", "--samples", "1000"][..],
+            "--loop",
+        ),
+    ] {
+        let mut a = vec!["generate", p.to_str().unwrap()];
+        a.extend_from_slice(args);
+        let o = run(&a, &dir);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains(needle), "{args:?}: {err}");
+        assert!(!dir.join("x.wav").exists() && !dir.join("x.csv").exists());
+    }
+}
