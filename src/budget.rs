@@ -23,6 +23,7 @@ use std::io::{self, Write};
 
 use serde::Serialize;
 
+use crate::burst::BurstModel;
 use crate::density::{
     BOLTZMANN, butterworth_enbw_ratio, floor_band_variance, integrate_pieces,
     resistance_for_density, source_kinks, source_psd,
@@ -98,6 +99,8 @@ pub enum SourceClass {
     Resistor,
     /// A floor or a table.
     Other,
+    /// A burst (random telegraph) source: its continuous Lorentzian density, AC part only.
+    Burst,
 }
 
 /// The class of `source`.
@@ -344,17 +347,19 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
     if freqs.is_empty() {
         freqs = vec![lo, hi];
     }
+    let bursts = burst_models(profile);
     let densities = freqs
         .into_iter()
         .map(|f| {
-            let sources: Vec<f64> = profile
+            let mut sources: Vec<f64> = profile
                 .sources
                 .iter()
                 .map(|s| source_psd(s, profile, f).sqrt())
                 .collect();
+            sources.extend(bursts.iter().map(|m| m.continuous_density(f).sqrt()));
             DensityRow {
                 frequency_hz: f,
-                total: total_psd(profile, f).sqrt(),
+                total: total_with_bursts(profile, &bursts, f).sqrt(),
                 sources,
             }
         })
@@ -369,7 +374,12 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
         name: profile.name.clone(),
         unit,
         bands: band_budgets,
-        source_names: profile.sources.iter().map(|s| s.name.clone()).collect(),
+        source_names: profile
+            .sources
+            .iter()
+            .map(|s| s.name.clone())
+            .chain(bursts.iter().map(|m| m.burst().name.clone()))
+            .collect(),
         densities,
         white_floor: white.sqrt(),
         floor_resistance_ohm,
@@ -383,10 +393,54 @@ fn decade_points(lo: f64, hi: f64) -> Vec<f64> {
     (first..=last).map(|k| 10f64.powi(k)).collect()
 }
 
+/// The Gaussian sources' summed density plus the bursts' AC densities, unit²/Hz at `f` Hz.
+fn total_with_bursts(profile: &Profile, bursts: &[BurstModel], f: f64) -> f64 {
+    total_psd(profile, f) + bursts.iter().map(|m| m.continuous_density(f)).sum::<f64>()
+}
+
+/// The burst sources' chain models (continuous densities); bursts that cannot be modelled
+/// at the profile's rate were already refused when the profile was read.
+fn burst_models(profile: &Profile) -> Vec<BurstModel> {
+    profile
+        .bursts
+        .iter()
+        .filter_map(|b| BurstModel::new(b, profile.sample_rate_hz).ok())
+        .collect()
+}
+
+/// Variance in unit² of a burst's AC part (its continuous sum of Lorentzians, REFERENCES §4)
+/// through `band` over `[lo, hi]` Hz, by numeric integration split at its corners.
+fn burst_variance(model: &BurstModel, band: &BandSpec, lo: f64, hi: f64) -> f64 {
+    let lo = lo.max(band.low_hz);
+    let hi = hi.min(band.upper_limit_hz());
+    if hi <= lo || hi.is_nan() || lo.is_nan() {
+        return 0.0;
+    }
+    let mut breaks = vec![lo, hi];
+    breaks.extend(
+        model
+            .corners_hz()
+            .into_iter()
+            .chain([band.high_hz])
+            .filter(|&c| c > lo && c < hi),
+    );
+    breaks.sort_by(f64::total_cmp);
+    breaks.dedup();
+    integrate_pieces(&|f| band.weight(f) * model.continuous_density(f), &breaks)
+}
+
 fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
     let unit = profile.unit.symbol();
     let all: Vec<&Source> = profile.sources.iter().collect();
-    let total_numeric = numeric_variance(profile, &all, band, band.low_hz, f64::INFINITY);
+    let bursts = burst_models(profile);
+    let bursts_between =
+        |lo: f64, hi: f64| -> f64 { bursts.iter().map(|m| burst_variance(m, band, lo, hi)).sum() };
+    let burst_vars: Vec<f64> = bursts
+        .iter()
+        .map(|m| burst_variance(m, band, band.low_hz, f64::INFINITY))
+        .collect();
+    let total_numeric = numeric_variance(profile, &all, band, band.low_hz, f64::INFINITY)
+        + burst_vars.iter().sum::<f64>();
     let per: Vec<(f64, Option<f64>)> = profile
         .sources
         .iter()
@@ -397,9 +451,16 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
             )
         })
         .collect();
-    let total_closed: Option<f64> = per.iter().map(|p| p.1).sum();
+    // Bursts have no closed form through the band's filter here: with any burst the total
+    // is numeric only.
+    let total_closed: Option<f64> = if bursts.is_empty() {
+        per.iter().map(|p| p.1).sum()
+    } else {
+        None
+    };
     let total = total_closed.unwrap_or(total_numeric);
-    let sources: Vec<SourceShare> = profile
+    let share = |var: f64| if total > 0.0 { var / total } else { 0.0 };
+    let mut sources: Vec<SourceShare> = profile
         .sources
         .iter()
         .zip(&per)
@@ -409,12 +470,20 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
                 name: s.name.clone(),
                 class: class_of(s),
                 rms: var.sqrt(),
-                share: if total > 0.0 { var / total } else { 0.0 },
+                share: share(var),
                 rms_numeric: num.sqrt(),
                 rms_closed_form: closed.map(f64::sqrt),
             }
         })
         .collect();
+    sources.extend(bursts.iter().zip(&burst_vars).map(|(m, &var)| SourceShare {
+        name: m.burst().name.clone(),
+        class: SourceClass::Burst,
+        rms: var.sqrt(),
+        share: share(var),
+        rms_numeric: var.sqrt(),
+        rms_closed_form: None,
+    }));
     let class_var = |c: SourceClass| -> f64 {
         sources
             .iter()
@@ -437,14 +506,17 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         .map(|w| DecadeRms {
             low_hz: w[0],
             high_hz: Some(w[1]),
-            rms: numeric_variance(profile, &all, band, w[0], w[1]).sqrt(),
+            rms: (numeric_variance(profile, &all, band, w[0], w[1]) + bursts_between(w[0], w[1]))
+                .sqrt(),
         })
         .collect();
     if band.order > 0 {
         per_decade.push(DecadeRms {
             low_hz: band.high_hz,
             high_hz: None,
-            rms: numeric_variance(profile, &all, band, band.high_hz, f64::INFINITY).sqrt(),
+            rms: (numeric_variance(profile, &all, band, band.high_hz, f64::INFINITY)
+                + bursts_between(band.high_hz, f64::INFINITY))
+            .sqrt(),
         });
     }
 
@@ -480,7 +552,16 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         ));
     }
     let nyquist = profile.sample_rate_hz / 2.0;
-    let to_nyquist = numeric_variance(profile, &all, band, band.low_hz, nyquist);
+    let to_nyquist = numeric_variance(profile, &all, band, band.low_hz, nyquist)
+        + bursts_between(band.low_hz, nyquist);
+    for m in &bursts {
+        notes.push(format!(
+            "{} is DC-coupled: its mean of {} is not in these RMS figures, which count only \
+             what the band passes of its steps",
+            m.burst().name,
+            q(m.mean())
+        ));
+    }
     if to_nyquist < 0.99 * total {
         notes.push(format!(
             "{} of it lies below fs/2 = {} (all a file at {} can carry)",
@@ -680,11 +761,22 @@ pub fn chart(profile: &Profile, budget: &Budget) -> crate::plot::DensityChart {
             emphasis: false,
         })
         .collect();
+    let bursts = burst_models(profile);
+    series.extend(bursts.iter().map(|m| {
+        Series {
+            name: m.burst().name.clone(),
+            points: grid
+                .iter()
+                .map(|&f| (f, m.continuous_density(f).sqrt()))
+                .collect(),
+            emphasis: false,
+        }
+    }));
     series.push(Series {
         name: "total".into(),
         points: grid
             .iter()
-            .map(|&f| (f, total_psd(profile, f).sqrt()))
+            .map(|&f| (f, total_with_bursts(profile, &bursts, f).sqrt()))
             .collect(),
         emphasis: true,
     });
@@ -725,6 +817,7 @@ pub fn chart(profile: &Profile, budget: &Budget) -> crate::plot::DensityChart {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::f64::consts::PI;
     use crate::profile::parse_profile;
 
     fn profile(body: &str) -> Profile {
@@ -1043,5 +1136,29 @@ mod tests {
         );
         let f: Vec<f64> = b.densities.iter().map(|r| r.frequency_hz).collect();
         assert_eq!(f, [2.0, 5.0]);
+    }
+
+    #[test]
+    fn a_burst_enters_the_budget_by_its_lorentzian() {
+        // REFERENCES §4 [V] two-level check: τ_up = 10 ms, τ_dn = 30 ms, Δ = 1 V → variance
+        // 0.1875 V², λ = 1/τ_up + 1/τ_dn. Its density 4cλ/(λ² + (2πf)²) integrates in closed
+        // form over a brick-wall band: (2c/π)[atan(2πf_H/λ) − atan(2πf_L/λ)] (exact calculus).
+        let p = profile(
+            "[[floor]]\ndensity = \"1 nV/rtHz\"\n[[burst]]\nname = \"trap\"\n\
+             levels = [0.0, 1.0]\ndwell = [\"30 ms\", \"10 ms\"]\n",
+        );
+        let b = budget(&p, &[]);
+        let band = &b.bands[0];
+        let trap = band.sources.iter().find(|s| s.name == "trap").unwrap();
+        assert_eq!(trap.class, SourceClass::Burst);
+        let lam: f64 = 1.0 / 0.01 + 1.0 / 0.03;
+        let want = (2.0 * 0.1875 / PI)
+            * ((2.0 * PI * 20_000.0 / lam).atan() - (2.0 * PI * 10.0 / lam).atan());
+        assert!(rel(trap.rms * trap.rms, want) < 1e-9, "{} vs {want}", trap.rms.powi(2));
+        let floor = 1e-18 * (20_000.0 - 10.0);
+        assert!(rel(band.rms * band.rms, want + floor) < 1e-9);
+        assert!(band.rms_closed_form.is_none());
+        assert!(band.notes.iter().any(|n| n.contains("DC-coupled")), "{:?}", band.notes);
+        assert_eq!(b.source_names.len(), 2);
     }
 }
