@@ -31,8 +31,10 @@ pub mod analysis;
 pub mod cmd;
 pub mod density;
 pub mod error;
+pub mod figure;
 pub mod profile;
 pub mod sink;
+pub mod source;
 pub mod synth;
 
 pub use error::{Error, Result};

@@ -1,5 +1,6 @@
 //! One module per subcommand, and the command line that selects them.
 
+pub mod analyze;
 pub mod generate;
 
 use std::sync::atomic::AtomicBool;
@@ -20,6 +21,9 @@ pub struct Cli {
 pub enum Command {
     /// Synthesise noise with a profile's density and write it with a manifest and a summary.
     Generate(generate::GenerateArgs),
+    /// Measure a capture (WAV, CSV, raw): density, statistics, burst levels; judge it against
+    /// a profile (exit 1 when it fails), fit a profile to it, draw pictures.
+    Analyze(analyze::AnalyzeArgs),
 }
 
 /// Run the selected subcommand. Summaries go to standard output, or to standard error when
@@ -36,6 +40,14 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
                 }
             }
             Ok(())
+        }
+        Command::Analyze(args) => {
+            let outcome = analyze::run(args, interrupted)?;
+            print!("{}", outcome.output);
+            match outcome.failure {
+                Some(e) => Err(e),
+                None => Ok(()),
+            }
         }
     }
 }
