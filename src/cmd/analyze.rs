@@ -14,7 +14,7 @@ use crate::analysis::fit::{FitOptions, fit_floor};
 use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
 use crate::error::{Error, Result};
 use crate::figure;
-use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
+use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{Format, SampleFormat};
 use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
 use crate::synth::design_profile;
@@ -272,11 +272,17 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     let info = open_source(open_file(&args.file)?, &options)?
         .info()
         .clone();
+    // A --full-scale value was parsed in the unit of the profile or manifest (volts when
+    // neither says), so that is the unit of the scaled values.
+    let full_scale_unit = full_scale.map(|_| match unit_hint {
+        "A" => Unit::Ampere,
+        _ => Unit::Volt,
+    });
     let scale = Scale::resolve(
         info.values,
         manifest.as_ref(),
         full_scale,
-        profile.as_ref().map(|p| p.unit),
+        profile.as_ref().map(|p| p.unit).or(full_scale_unit),
     )?;
     let fs = info.sample_rate_hz;
     let mut notes = info.notes.clone();
