@@ -5,10 +5,10 @@
 mod common;
 
 use std::ffi::OsString;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Output};
-use std::sync::atomic::{AtomicUsize, Ordering};
 
+use common::Scratch;
 use noisewright::profile::parse_profile;
 use noisewright::synth::Generator;
 use rand::{RngExt, SeedableRng};
@@ -49,38 +49,8 @@ corner = "300 Hz"
 slope = 1.4
 "#;
 
-struct Scratch {
-    dir: PathBuf,
-}
-
-impl Scratch {
-    fn new(tag: &str) -> Scratch {
-        static COUNTER: AtomicUsize = AtomicUsize::new(0);
-        let id = COUNTER.fetch_add(1, Ordering::Relaxed);
-        let dir = std::env::temp_dir().join(format!(
-            "noisewright-analyze-{}-{tag}-{id}",
-            std::process::id()
-        ));
-        let _ = std::fs::remove_dir_all(&dir);
-        std::fs::create_dir_all(&dir).unwrap();
-        Scratch { dir }
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.join(name)
-    }
-
-    fn file(&self, name: &str, body: &str) -> PathBuf {
-        let p = self.path(name);
-        std::fs::write(&p, body).unwrap();
-        p
-    }
-}
-
-impl Drop for Scratch {
-    fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.dir);
-    }
+fn scratch(tag: &str) -> Scratch {
+    Scratch::new("analyze", tag)
 }
 
 fn nw(args: &[&std::ffi::OsStr]) -> Output {
@@ -162,7 +132,7 @@ fn engine_noise(profile: &str, n: usize, seed: u64) -> Vec<f64> {
 /// (REFERENCES §8, common practice) holds with a DC offset of 3σ.
 #[test]
 fn density_and_statistics_equal_scipy_and_numpy() {
-    let s = Scratch::new("ref");
+    let s = scratch("ref");
     let mut x = engine_noise(FLICKER, 1 << 18, SEED);
     let dc = 3.0 * 1.5e-6;
     x.iter_mut().for_each(|v| *v += dc);
@@ -239,7 +209,7 @@ fn density_and_statistics_equal_scipy_and_numpy() {
 /// 1 dB tolerance and the high bands' χ² intervals near ±0.1 dB, −2 dB is outside them.
 #[test]
 fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
-    let s = Scratch::new("verdict");
+    let s = scratch("verdict");
     for (name, body) in [("white", WHITE), ("flicker", FLICKER)] {
         let prof = s.file(&format!("{name}.toml"), body);
         let higher = body.replace(
@@ -296,7 +266,7 @@ fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
 /// `generate` accepts the written profile.
 #[test]
 fn fit_recovers_floor_corner_and_slope_and_generate_accepts_it() {
-    let s = Scratch::new("fit");
+    let s = scratch("fit");
     let prof = s.file("flicker.toml", FLICKER);
     let rec = s.path("rec.f32");
     generate(&prof, &rec, &["--samples", "4194304", "--format", "raw"]);
@@ -374,7 +344,7 @@ fn markov_chain(n: usize, fs: f64, levels: &[f64], tau_s: &[f64], seed: u64) -> 
 /// writes them as a `[[burst]]` source. Negative controls: white and 1/f noise have none.
 #[test]
 fn burst_levels_and_dwell_times_are_recovered() {
-    let s = Scratch::new("burst");
+    let s = scratch("burst");
     let fs = 48_000.0;
     let n = 1 << 22;
     let cases: [(&[f64], &[f64]); 2] = [
@@ -475,7 +445,7 @@ fn check_stats(what: &str, j: &serde_json::Value, want: (f64, f64, usize)) {
 /// columns (checked against the bytes and text decoded here), all scaled by the manifest.
 #[test]
 fn every_generated_format_reads_back() {
-    let s = Scratch::new("formats");
+    let s = scratch("formats");
     let prof = s.file("white.toml", WHITE);
     let n = 20_000usize;
     let ns = n.to_string();
@@ -599,7 +569,7 @@ fn every_generated_format_reads_back() {
 /// read back bit for bit (mean and RMS of the values exactly as computed here).
 #[test]
 fn hand_written_64_bit_float_wav_reads_back() {
-    let s = Scratch::new("f64wav");
+    let s = scratch("f64wav");
     let x: Vec<f64> = (0..5000)
         .map(|i| 0.3 * ((i as f64) * 0.37).sin() + 0.01)
         .collect();
@@ -663,7 +633,7 @@ fn hand_written_64_bit_float_wav_reads_back() {
 /// Malformed or truncated input: exit 2, a message naming the file and what is wrong.
 #[test]
 fn malformed_and_truncated_files_are_refused_with_exit_2() {
-    let s = Scratch::new("bad");
+    let s = scratch("bad");
     let prof = s.file("white.toml", WHITE);
     let wav = s.path("ok.wav");
     generate(&prof, &wav, &["--samples", "10000"]);
@@ -721,7 +691,7 @@ fn malformed_and_truncated_files_are_refused_with_exit_2() {
 /// the tables and no scripts or external files (readable offline).
 #[test]
 fn plot_and_report_are_self_contained() {
-    let s = Scratch::new("pictures");
+    let s = scratch("pictures");
     let prof = s.file("flicker.toml", FLICKER);
     let wav = s.path("f.wav");
     generate(&prof, &wav, &["--duration", "5s"]);

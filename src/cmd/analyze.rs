@@ -6,6 +6,7 @@ use std::io::{BufReader, Read};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 
+use super::generate::manifest_path;
 use crate::analysis::capture::{
     BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
 };
@@ -84,12 +85,6 @@ fn format_of(path: &Path) -> Format {
         Some("csv") => Format::Csv,
         _ => Format::Raw,
     }
-}
-
-fn manifest_path(path: &Path) -> PathBuf {
-    let mut s = path.as_os_str().to_owned();
-    s.push(".json");
-    PathBuf::from(s)
 }
 
 fn open_file(path: &Path) -> Result<fs::File> {
