@@ -14,7 +14,11 @@
 //!    * adjacent means are at least [`SEPARATION`] (6) times the larger of their standard
 //!      deviations apart — a Gaussian stays within ±3σ of its mean 99.73 % of the time
 //!      (REFERENCES §8), so the levels' spreads do not overlap;
-//!    * after classification every level has at least [`MIN_DWELLS`] complete dwells.
+//!    * after classification every level has at least [`MIN_DWELLS`] complete dwells, whose
+//!      mean is at least [`MIN_DWELL_POINTS`] points (slower than the trace's resolution);
+//!    * with a known quantisation step q (integer files), adjacent levels are at least
+//!      [`MIN_QUANTA`]·q apart, so the codes of a coarsely quantised signal are not taken for
+//!      levels.
 //! 3. Classification with hysteresis: the state moves to level j only when a point comes
 //!    within a quarter of the spacing of level j, so noise must travel 3/4 of the spacing
 //!    (≥ 4.5σ) to fake a switch. Levels are the means of the points of each state, without the
@@ -34,6 +38,10 @@ pub const MAX_POINTS: usize = 1 << 20;
 pub const SEPARATION: f64 = 6.0;
 /// Complete dwells needed in every level.
 pub const MIN_DWELLS: usize = 10;
+/// Smallest mean dwell, in points of the classified trace.
+pub const MIN_DWELL_POINTS: f64 = 4.0;
+/// Smallest spacing of adjacent levels, in quantisation steps.
+pub const MIN_QUANTA: f64 = 8.0;
 /// Smallest share of points per level.
 const MIN_WEIGHT: f64 = 0.01;
 /// Histogram bins for the mixture fit.
@@ -118,8 +126,9 @@ impl LevelTrace {
         self.m
     }
 
-    /// The levels, when clearly present (see the module docs); `None` otherwise.
-    pub fn detect(&self) -> Option<Levels> {
+    /// The levels, when clearly present (see the module docs); `None` otherwise. `quantum` is
+    /// the capture's quantisation step in its unit (one LSB of an integer file), if any.
+    pub fn detect(&self, quantum: Option<f64>) -> Option<Levels> {
         let mut s = 1;
         while self.points.len() / s >= 512 {
             let y: Vec<f64> = self
@@ -128,7 +137,8 @@ impl LevelTrace {
                 .map(|c| c.iter().sum::<f64>() / s as f64)
                 .collect();
             for k in [3, 2] {
-                if let Some(l) = try_levels(&y, k, (self.m * s) as f64 / self.sample_rate_hz) {
+                let dt = (self.m * s) as f64 / self.sample_rate_hz;
+                if let Some(l) = try_levels(&y, k, dt, quantum.unwrap_or(0.0)) {
                     return Some(l);
                 }
             }
@@ -239,13 +249,14 @@ fn fit_mixture(y: &[f64], k: usize) -> Option<Vec<Component>> {
 }
 
 /// Levels from `y` (points `dt` seconds apart) with `k` components, if clearly present.
-fn try_levels(y: &[f64], k: usize, dt: f64) -> Option<Levels> {
+fn try_levels(y: &[f64], k: usize, dt: f64, quantum: f64) -> Option<Levels> {
     let comps = fit_mixture(y, k)?;
     if comps.iter().any(|c| c.w < MIN_WEIGHT) {
         return None;
     }
     for p in comps.windows(2) {
-        if p[1].mu - p[0].mu < SEPARATION * p[0].sd.max(p[1].sd) {
+        let gap = p[1].mu - p[0].mu;
+        if gap < SEPARATION * p[0].sd.max(p[1].sd) || gap < MIN_QUANTA * quantum {
             return None;
         }
     }
@@ -306,6 +317,9 @@ fn try_levels(y: &[f64], k: usize, dt: f64) -> Option<Levels> {
     if dwells.iter().any(|&d| d < MIN_DWELLS) || inner.contains(&0) {
         return None;
     }
+    if (0..k).any(|j| (dwell_sum[j] as f64) < MIN_DWELL_POINTS * dwells[j] as f64) {
+        return None;
+    }
     let n = y.len() as f64;
     let levels: Vec<f64> = (0..k).map(|j| sum[j] / inner[j] as f64).collect();
     Some(Levels {
@@ -342,7 +356,10 @@ mod tests {
             })
             .collect();
         t.push(&x);
-        let l = t.detect().expect("two clear levels");
+        let l = t.detect(None).expect("two clear levels");
+        // The same wave is 2 codes apart in units of 0.5: below 8 quanta, not levels.
+        assert!(t.detect(Some(0.5)).is_none());
+        assert!(t.detect(Some(0.2)).is_some());
         assert_eq!(l.levels.len(), 2);
         assert!((l.levels[0] + 1.0).abs() < 1e-3 && (l.levels[1] - 1.0).abs() < 1e-3);
         for d in &l.dwell_s {
@@ -356,7 +373,45 @@ mod tests {
         let mut t = LevelTrace::new(1000.0);
         let x: Vec<f64> = (0..100_000).map(|i| i as f64).collect();
         t.push(&x);
-        assert!(t.detect().is_none());
+        assert!(t.detect(None).is_none());
+    }
+
+    /// Coarsely quantised noise: a slow walk between two adjacent codes (a drift captured at
+    /// 1 LSB) and white noise of 0.5 LSB. Their codes are discrete but are not burst levels:
+    /// the walk's codes are 1 quantum apart, the white noise's dwells are about one point.
+    #[test]
+    fn quantised_noise_has_no_levels() {
+        let mut walk = LevelTrace::new(1000.0);
+        let mut white = LevelTrace::new(1000.0);
+        let mut state: u64 = 12345;
+        let mut next = || {
+            // Knuth's MMIX linear congruential generator (common practice), top bits.
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut level = 0.0f64;
+        let mut w = Vec::new();
+        let mut x = Vec::new();
+        for _ in 0..200_000 {
+            if next() < 0.01 {
+                level += if next() < 0.5 { -1.0 } else { 1.0 };
+                level = level.clamp(0.0, 1.0);
+            }
+            w.push(level);
+            x.push(((next() - 0.5) * 2.0).round());
+        }
+        walk.push(&w);
+        white.push(&x);
+        assert!(walk.detect(Some(1.0)).is_none());
+        // Negative control: without the quantum the two codes do pass as levels.
+        assert!(walk.detect(None).is_some_and(|l| l.levels.len() == 2));
+        assert!(white.detect(Some(1.0)).is_none());
+        assert!(
+            white.detect(None).is_none(),
+            "single-point dwells are not levels"
+        );
     }
 
     #[test]

@@ -392,7 +392,18 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         }
         _ => None,
     };
-    let levels = first.levels.detect();
+    // One LSB of an integer file, in the capture's unit: codes of a coarsely quantised signal
+    // are not burst levels.
+    let quantum = match (info.sample_format, scale.full_scale) {
+        (Some(sf), Some(fsc)) if sf.is_integer() => {
+            Some(fsc / f64::from(sf.full_scale_code().expect("integer")))
+        }
+        (Some(sf), None) if sf.is_integer() => {
+            Some(1.0 / f64::from(sf.full_scale_code().expect("integer")))
+        }
+        _ => None,
+    };
+    let levels = first.levels.detect(quantum);
     let decades = rms_per_decade(&spectrum);
     let report = CaptureReport {
         file: serde_json::json!({
