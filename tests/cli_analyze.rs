@@ -314,6 +314,34 @@ fn fit_recovers_floor_corner_and_slope_and_generate_accepts_it() {
     let again = s.path("again.wav");
     generate(&fit_path, &again, &["--samples", "48000"]);
     assert!(again.is_file());
+
+    // White noise, no --profile: the band comes from the manifest, the 1/f rise is not
+    // significant, so the fit is a white floor within z·SE of 10 nV/√Hz.
+    let white = s.file("white.toml", WHITE);
+    let rec = s.path("white.f32");
+    generate(&white, &rec, &["--samples", "2097152", "--format", "raw"]);
+    let fit_path = s.path("white-fit.toml");
+    let (code, j, err) = analyze(&rec, &["--fit", fit_path.to_str().unwrap()]);
+    assert_eq!(code, 0, "{err}");
+    let f = &j["fit"];
+    let ctx = format!("fit {f} (seed {SEED})");
+    assert!(f["corner_hz"].is_null(), "white noise has no corner: {ctx}");
+    let (d, d_se) = (num(f, "floor_density"), num(f, "floor_rel_se"));
+    assert!(
+        d_se < 0.01 && (d / 10e-9).ln().abs() <= Z_1E6 * d_se,
+        "{ctx}"
+    );
+    assert!(
+        f["range_hz"][0].as_f64().unwrap() >= 10.0,
+        "inside the band: {ctx}"
+    );
+    let toml = std::fs::read_to_string(&fit_path).unwrap();
+    assert!(!toml.contains("corner"), "{toml}");
+    generate(
+        &fit_path,
+        &s.path("white-again.wav"),
+        &["--samples", "48000"],
+    );
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -69,7 +69,8 @@ pub struct AnalyzeArgs {
     #[arg(long)]
     pub json: bool,
     /// Fit floor density, corner and slope (and burst levels when clearly present) and write
-    /// a profile that `generate` accepts.
+    /// a profile that `generate` accepts. The fit covers the band of --profile, else the band
+    /// in the file's manifest, else bin 3 to fs/4.
     #[arg(long, value_name = "OUT.toml")]
     pub fit: Option<PathBuf>,
 }
@@ -430,12 +431,12 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
 
     let mut json = report.to_json();
     if let Some(path) = &args.fit {
-        let fit = fit_floor(
-            &report,
-            &FitOptions {
-                band: profile.as_ref().map(|p| p.band),
-            },
-        )?;
+        // The band of --profile, else the band recorded in the manifest of a generated file.
+        let band = profile
+            .as_ref()
+            .map(|p| p.band)
+            .or(manifest.as_ref().and_then(|m| m.band));
+        let fit = fit_floor(&report, &FitOptions { band })?;
         let toml = fit.to_profile_toml(&report, &name);
         fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
         json["fit"] = fit.to_json();

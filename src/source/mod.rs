@@ -28,7 +28,7 @@ pub use wav::WavSource;
 use std::io::Read;
 
 use crate::error::{Error, Result};
-use crate::profile::Unit;
+use crate::profile::{Band, Unit};
 use crate::sink::{Format, SampleFormat};
 
 /// What the values a reader yields mean.
@@ -115,6 +115,9 @@ pub struct SideManifest {
     /// True when the manifest has a `full_scale` key (even `null`): it then says whether the
     /// values are digital (a number) or physical (`null`).
     pub states_scale: bool,
+    /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
+    /// `high_hz`, `order`), when the manifest records one.
+    pub band: Option<Band>,
 }
 
 impl SideManifest {
@@ -155,6 +158,16 @@ impl SideManifest {
             m.sample_format = Some(f.ok_or_else(|| {
                 Error::input(name, "sample_format: expected f32, f64, i16, i24 or i32")
             })?);
+        }
+        let b = &v["profile"]["band"];
+        if let (Some(lo), Some(hi)) = (b["low_hz"].as_f64(), b["high_hz"].as_f64()) {
+            if lo > 0.0 && hi > lo {
+                m.band = Some(Band {
+                    low_hz: lo,
+                    high_hz: hi,
+                    order: b["order"].as_u64().unwrap_or(0) as u32,
+                });
+            }
         }
         Ok(m)
     }
@@ -344,6 +357,20 @@ mod tests {
         assert_eq!(m.sample_rate_hz, Some(1000.0));
         assert_eq!(m.sample_format, Some(SampleFormat::I24));
         assert!(m.states_scale);
+        assert_eq!(m.band, None);
+        let m = SideManifest::parse(
+            r#"{"profile": {"band": {"low_hz": 2.0, "high_hz": 300.0, "order": 4}}}"#,
+            "m.json",
+        )
+        .unwrap();
+        assert_eq!(
+            m.band,
+            Some(Band {
+                low_hz: 2.0,
+                high_hz: 300.0,
+                order: 4
+            })
+        );
         let m = SideManifest::parse(r#"{"full_scale": null}"#, "m.json").unwrap();
         assert!(m.states_scale && m.full_scale.is_none());
         let e = SideManifest::parse(r#"{"full_scale": -1}"#, "m.json").unwrap_err();
