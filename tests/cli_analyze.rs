@@ -160,6 +160,9 @@ fn density_and_statistics_equal_scipy_and_numpy() {
         );
     }
     assert_eq!(num(&j, "peak_to_peak"), num(&r, "max") - num(&r, "min"));
+    let counts = j["histogram"]["counts"].as_array().unwrap();
+    let total: u64 = counts.iter().map(|c| c.as_u64().unwrap()).sum();
+    assert_eq!(total, 1 << 18, "every sample is in the histogram");
     let (rms, sd, mean) = (num(&j, "rms"), num(&j, "std"), num(&j, "mean"));
     assert!(mean > 2.0 * sd, "the record carries a DC offset");
     assert!(

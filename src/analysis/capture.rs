@@ -267,6 +267,11 @@ impl CaptureReport {
             },
             "rms_per_decade": self.decades.iter().map(|d| json!({
                 "f_lo_hz": d.f_lo_hz, "f_hi_hz": d.f_hi_hz, "rms": d.rms })).collect::<Vec<_>>(),
+            "histogram": {
+                "lo": self.moments.histogram().lo,
+                "hi": self.moments.histogram().hi,
+                "counts": self.moments.histogram().counts,
+            },
             "notes": self.notes,
         });
         if let Some(c) = &self.comparison {
