@@ -817,8 +817,8 @@ pub fn chart(profile: &Profile, budget: &Budget) -> crate::plot::DensityChart {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use std::f64::consts::PI;
     use crate::profile::parse_profile;
+    use std::f64::consts::PI;
 
     fn profile(body: &str) -> Profile {
         parse_profile(
@@ -1154,11 +1154,19 @@ mod tests {
         let lam: f64 = 1.0 / 0.01 + 1.0 / 0.03;
         let want = (2.0 * 0.1875 / PI)
             * ((2.0 * PI * 20_000.0 / lam).atan() - (2.0 * PI * 10.0 / lam).atan());
-        assert!(rel(trap.rms * trap.rms, want) < 1e-9, "{} vs {want}", trap.rms.powi(2));
+        assert!(
+            rel(trap.rms * trap.rms, want) < 1e-9,
+            "{} vs {want}",
+            trap.rms.powi(2)
+        );
         let floor = 1e-18 * (20_000.0 - 10.0);
         assert!(rel(band.rms * band.rms, want + floor) < 1e-9);
         assert!(band.rms_closed_form.is_none());
-        assert!(band.notes.iter().any(|n| n.contains("DC-coupled")), "{:?}", band.notes);
+        assert!(
+            band.notes.iter().any(|n| n.contains("DC-coupled")),
+            "{:?}",
+            band.notes
+        );
         assert_eq!(b.source_names.len(), 2);
     }
 }

@@ -63,6 +63,19 @@ pub enum Error {
     /// The requested output cannot be produced in the chosen format (e.g. a WAV past 4 GiB).
     #[error("{0}")]
     Unsupported(String),
+    /// An input file (a capture to analyse) is malformed, truncated or cannot be interpreted.
+    #[error("{file}: {message}")]
+    Input {
+        /// The file's name as the user gave it (or `<input>`).
+        file: String,
+        /// What is wrong and what was expected, e.g. "the data chunk announces 4000 bytes but
+        /// the file ends after 1200".
+        message: String,
+    },
+    /// A measurement ran and does not meet what was asked of it (e.g. a capture outside its
+    /// profile's limits).
+    #[error("{0}")]
+    Mismatch(String),
 }
 
 fn line_suffix(line: Option<usize>) -> String {
@@ -74,11 +87,15 @@ fn line_suffix(line: Option<usize>) -> String {
 
 impl Error {
     /// Process exit code for this error: 2 for bad input (profile, option, unsupported
-    /// request), 1 for a job that ran and failed (I/O, clipping).
+    /// request, malformed input file), 1 for a job that ran and failed (I/O, clipping, a
+    /// measurement outside its limits).
     pub fn exit_code(&self) -> i32 {
         match self {
-            Error::Profile { .. } | Error::Option { .. } | Error::Unsupported(_) => 2,
-            Error::Io { .. } | Error::Clipped { .. } => 1,
+            Error::Profile { .. }
+            | Error::Option { .. }
+            | Error::Unsupported(_)
+            | Error::Input { .. } => 2,
+            Error::Io { .. } | Error::Clipped { .. } | Error::Mismatch(_) => 1,
             Error::Interrupted => 130,
         }
     }
@@ -87,6 +104,14 @@ impl Error {
     pub fn option(option: impl Into<String>, message: impl fmt::Display) -> Error {
         Error::Option {
             option: option.into(),
+            message: message.to_string(),
+        }
+    }
+
+    /// Shorthand for an [`Error::Input`].
+    pub fn input(file: impl Into<String>, message: impl fmt::Display) -> Error {
+        Error::Input {
+            file: file.into(),
             message: message.to_string(),
         }
     }

@@ -4,7 +4,9 @@
 //! one-sided target density S(f) in unit²/Hz (unit = V or A); [`synth`] designs and runs the
 //! engine that synthesises noise with that density (and computes the density it actually
 //! makes); [`sink`] scales, quantises and writes the samples with a manifest; [`analysis`]
-//! measures samples. [`cmd`] holds the subcommands the binary calls.
+//! measures samples. [`source`] reads captures (WAV, CSV, raw) back as physical samples, and
+//! [`figure`] draws an analysis as SVG and HTML. [`cmd`] holds the subcommands the binary
+//! calls.
 //!
 //! ```
 //! use noisewright::profile::parse_profile;
@@ -34,9 +36,11 @@ pub mod burst;
 pub mod cmd;
 pub mod density;
 pub mod error;
+pub mod figure;
 pub mod plot;
 pub mod profile;
 pub mod sink;
+pub mod source;
 pub mod synth;
 
 pub use error::{Error, Result};

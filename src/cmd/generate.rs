@@ -503,7 +503,8 @@ fn round_up(x: f64) -> f64 {
     (x / p).ceil() * p
 }
 
-fn manifest_path(path: &Path) -> PathBuf {
+/// The manifest beside an output file: the file's name with `.json` appended.
+pub(crate) fn manifest_path(path: &Path) -> PathBuf {
     let mut s = path.as_os_str().to_owned();
     s.push(".json");
     PathBuf::from(s)

@@ -1,5 +1,6 @@
 //! One module per subcommand, and the command line that selects them.
 
+pub mod analyze;
 pub mod budget;
 pub mod generate;
 
@@ -23,6 +24,9 @@ pub enum Command {
     Generate(generate::GenerateArgs),
     /// Show what each source contributes in a band: RMS, share, peak-to-peak, densities.
     Budget(budget::BudgetArgs),
+    /// Measure a capture (WAV, CSV, raw): density, statistics, burst levels; judge it against
+    /// a profile (exit 1 when it fails), fit a profile to it, draw pictures.
+    Analyze(analyze::AnalyzeArgs),
 }
 
 /// Run the selected subcommand. Summaries go to standard output, or to standard error when
@@ -43,6 +47,14 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
         Command::Budget(args) => {
             print!("{}", budget::run(args)?);
             Ok(())
+        }
+        Command::Analyze(args) => {
+            let outcome = analyze::run(args, interrupted)?;
+            print!("{}", outcome.output);
+            match outcome.failure {
+                Some(e) => Err(e),
+                None => Ok(()),
+            }
         }
     }
 }

@@ -196,3 +196,43 @@ pub fn python_script(script: &str, args: &[std::ffi::OsString], context: &str) -
     );
     Some(String::from_utf8_lossy(&out.stdout).into_owned())
 }
+
+/// A fresh folder under the system's temporary folder, unique per process, tag and call,
+/// removed with its contents when dropped.
+pub struct Scratch {
+    /// The folder.
+    pub dir: std::path::PathBuf,
+}
+
+impl Scratch {
+    /// Creates (empties) the folder `noisewright-<prefix>-<pid>-<tag>-<n>`.
+    pub fn new(prefix: &str, tag: &str) -> Scratch {
+        static COUNTER: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+        let id = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        let dir = std::env::temp_dir().join(format!(
+            "noisewright-{prefix}-{}-{tag}-{id}",
+            std::process::id()
+        ));
+        let _ = std::fs::remove_dir_all(&dir);
+        std::fs::create_dir_all(&dir).unwrap();
+        Scratch { dir }
+    }
+
+    /// A path inside the folder.
+    pub fn path(&self, name: &str) -> std::path::PathBuf {
+        self.dir.join(name)
+    }
+
+    /// Writes `body` to `name` inside the folder and returns its path.
+    pub fn file(&self, name: &str, body: &str) -> std::path::PathBuf {
+        let p = self.path(name);
+        std::fs::write(&p, body).unwrap();
+        p
+    }
+}
+
+impl Drop for Scratch {
+    fn drop(&mut self) {
+        let _ = std::fs::remove_dir_all(&self.dir);
+    }
+}

@@ -1,0 +1,655 @@
+//! `noisewright analyze`: measure a capture — density, statistics, burst levels — and judge
+//! it against a profile; optionally fit a profile to it and draw pictures.
+
+use std::fs;
+use std::io::{BufReader, Read};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+
+use super::generate::manifest_path;
+use crate::analysis::capture::{
+    BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
+};
+use crate::analysis::compare::{Comparison, compare, expected_band_psd};
+use crate::analysis::fit::{FitOptions, fit_floor};
+use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
+use crate::error::{Error, Result};
+use crate::figure;
+use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
+use crate::sink::{Format, SampleFormat};
+use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
+use crate::synth::design_profile;
+
+/// Samples read per block.
+const BLOCK: usize = 1 << 16;
+/// Samples of the trace kept for the picture.
+const TRACE_SAMPLES: usize = 4096;
+/// Histogram bins between the record's min and max.
+const HIST_BINS: usize = 201;
+/// Total false-failure probability of the band verdicts, split over the bands (Bonferroni).
+pub const FALSE_ALARM: f64 = 1e-3;
+/// Default engineering tolerance, dB.
+pub const DEFAULT_TOLERANCE_DB: f64 = 1.0;
+
+/// Options of `noisewright analyze`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct AnalyzeArgs {
+    /// The capture: WAV, CSV, or raw (by extension: .wav, .csv, anything else is raw). A
+    /// manifest FILE.json beside it supplies the scale, unit, rate and sample format.
+    pub file: PathBuf,
+    /// Judge the capture against this profile (TOML): exit 0 when it passes, 1 when not.
+    #[arg(long, value_name = "P")]
+    pub profile: Option<PathBuf>,
+    /// Physical value of digital 1.0, e.g. `2V` (overrides the manifest).
+    #[arg(long = "full-scale", value_name = "Q")]
+    pub full_scale: Option<String>,
+    /// Sample rate, e.g. `48kHz` (raw files and CSV without a time column need it unless a
+    /// manifest gives it; otherwise it overrides the file's).
+    #[arg(long, value_name = "R")]
+    pub rate: Option<String>,
+    /// Sample format of a raw file: f32, f64, i16, i24, i32 (default: the extension or the
+    /// manifest).
+    #[arg(long = "sample-format", value_name = "F")]
+    pub sample_format: Option<String>,
+    /// Bin width of the density estimate, e.g. `0.1Hz` (sets the Welch segment length fs/R).
+    /// Default: chosen from the record length (see README).
+    #[arg(long, value_name = "HZ")]
+    pub resolution: Option<String>,
+    /// Engineering tolerance added on both sides of each band's statistical interval, e.g.
+    /// `1dB` (default 1 dB).
+    #[arg(long, value_name = "DB")]
+    pub tolerance: Option<String>,
+    /// Write an SVG picture of the density (measured with its 95 % band, designed, sources).
+    #[arg(long, value_name = "OUT.svg")]
+    pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report with all pictures and tables.
+    #[arg(long, value_name = "OUT.html")]
+    pub report: Option<PathBuf>,
+    /// Print one JSON object with every number instead of the text summary.
+    #[arg(long)]
+    pub json: bool,
+    /// Fit floor density, corner and slope (and burst levels when clearly present) and write
+    /// a profile that `generate` accepts. The fit covers the band of --profile, else the band
+    /// in the file's manifest, else bin 3 to fs/4.
+    #[arg(long, value_name = "OUT.toml")]
+    pub fit: Option<PathBuf>,
+}
+
+/// The container of a capture, from its extension: `.wav`, `.csv`, anything else raw.
+fn format_of(path: &Path) -> Format {
+    match path
+        .extension()
+        .map(|e| e.to_string_lossy().to_ascii_lowercase())
+        .as_deref()
+    {
+        Some("wav") => Format::Wav,
+        Some("csv") => Format::Csv,
+        _ => Format::Raw,
+    }
+}
+
+fn open_file(path: &Path) -> Result<fs::File> {
+    fs::File::open(path)
+        .map_err(|e| Error::input(path.display().to_string(), format!("cannot open: {e}")))
+}
+
+/// Parses a tolerance such as `1dB`, `0.5 dB` or `2` (dB), ≥ 0.
+fn parse_db(text: &str) -> Result<f64> {
+    let t = text.trim();
+    let n = t
+        .strip_suffix("dB")
+        .or_else(|| t.strip_suffix("db"))
+        .unwrap_or(t)
+        .trim();
+    match n.parse::<f64>() {
+        Ok(v) if v.is_finite() && v >= 0.0 => Ok(v),
+        _ => Err(Error::option(
+            "--tolerance",
+            format!("expected a non-negative level such as 1dB, got {text:?}"),
+        )),
+    }
+}
+
+/// One pass over the capture: every physical sample goes to `each`.
+fn pass(
+    path: &Path,
+    options: &SourceOptions,
+    scale: &Scale,
+    interrupted: &AtomicBool,
+    each: &mut dyn FnMut(&[f64]),
+) -> Result<StreamInfo> {
+    let file = open_file(path)?;
+    let mut src = open_source(file, options)?;
+    let mut block = Vec::with_capacity(BLOCK);
+    let mut done: u64 = 0;
+    loop {
+        if interrupted.load(Ordering::Relaxed) {
+            return Err(Error::Interrupted);
+        }
+        let n = src.read_block(&mut block, BLOCK)?;
+        if n == 0 {
+            break;
+        }
+        if let Some(i) = block.iter().position(|v| !v.is_finite()) {
+            return Err(Error::input(
+                &options.name,
+                format!(
+                    "sample {} is {}; only finite samples can be analysed",
+                    done + i as u64,
+                    block[i]
+                ),
+            ));
+        }
+        if scale.gain != 1.0 {
+            block.iter_mut().for_each(|v| *v *= scale.gain);
+        }
+        each(&block);
+        done += n as u64;
+    }
+    Ok(src.info().clone())
+}
+
+/// Samples in a capture, known or estimated before reading it: the header's count, the size
+/// of a raw file, or the lines of a CSV file.
+fn sample_count(path: &Path, info: &StreamInfo) -> Result<u64> {
+    if let Some(n) = info.frames {
+        return Ok(n);
+    }
+    match info.format {
+        Format::Raw => {
+            let len = fs::metadata(path)
+                .map_err(|e| Error::io(format!("reading {}", path.display()), e))?
+                .len();
+            Ok(len / info.sample_format.map_or(1, |s| s.bytes()) as u64)
+        }
+        _ => {
+            // Count newlines (an upper bound: headers, comments and blank lines count too).
+            let mut r = BufReader::with_capacity(1 << 16, open_file(path)?);
+            let mut buf = vec![0u8; 1 << 16];
+            let mut lines = 0u64;
+            loop {
+                let n = r
+                    .read(&mut buf)
+                    .map_err(|e| Error::io(format!("reading {}", path.display()), e))?;
+                if n == 0 {
+                    break;
+                }
+                lines += buf[..n].iter().filter(|&&b| b == b'\n').count() as u64;
+            }
+            Ok(lines.saturating_sub(1).max(1))
+        }
+    }
+}
+
+/// What `run` hands back to the command line: text for standard output and whether the
+/// capture passed (None without a profile).
+pub struct AnalyzeOutcome {
+    /// The summary text or the JSON object.
+    pub output: String,
+    /// The verdict's failure, when a profile was given and the capture failed it.
+    pub failure: Option<Error>,
+}
+
+/// Run `analyze`.
+pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcome> {
+    let name = args.file.display().to_string();
+    let format = format_of(&args.file);
+    let mpath = manifest_path(&args.file);
+    let manifest = if mpath.is_file() {
+        let text = fs::read_to_string(&mpath)
+            .map_err(|e| Error::io(format!("reading {}", mpath.display()), e))?;
+        Some(SideManifest::parse(&text, &mpath.display().to_string())?)
+    } else {
+        None
+    };
+    let mut profile = match &args.profile {
+        Some(p) => {
+            let f = p.display().to_string();
+            let text = fs::read_to_string(p)
+                .map_err(|e| Error::option("--profile", format!("cannot read {f}: {e}")))?;
+            Some(parse_profile(&text, &f)?)
+        }
+        None => None,
+    };
+    let unit_hint = profile
+        .as_ref()
+        .map(|p| p.unit.symbol())
+        .or(manifest.as_ref().and_then(|m| m.unit).map(|u| u.symbol()))
+        .unwrap_or("V");
+    let sample_format = match &args.sample_format {
+        Some(s) => Some(s.parse::<SampleFormat>()?),
+        None => args
+            .file
+            .extension()
+            .and_then(|e| SampleFormat::from_extension(&e.to_string_lossy()))
+            .or(manifest.as_ref().and_then(|m| m.sample_format)),
+    };
+    let rate = match &args.rate {
+        Some(r) => Some(
+            parse_quantity(r, Dimension::Frequency, unit_hint)
+                .map_err(|m| Error::option("--rate", m))?,
+        ),
+        None => None,
+    };
+    let full_scale = match &args.full_scale {
+        Some(q) => {
+            let v = parse_quantity(q, Dimension::Amplitude, unit_hint)
+                .map_err(|m| Error::option("--full-scale", m))?;
+            if !(v.is_finite() && v > 0.0) {
+                return Err(Error::option(
+                    "--full-scale",
+                    "expected a positive value such as 2V",
+                ));
+            }
+            Some(v)
+        }
+        None => None,
+    };
+    let resolution = match &args.resolution {
+        Some(r) => Some(
+            parse_quantity(r, Dimension::Frequency, unit_hint)
+                .map_err(|m| Error::option("--resolution", m))?,
+        ),
+        None => None,
+    };
+    let tolerance_db = match &args.tolerance {
+        Some(t) => parse_db(t)?,
+        None => DEFAULT_TOLERANCE_DB,
+    };
+    let options = SourceOptions {
+        format,
+        sample_format,
+        rate_hz: rate,
+        fallback_rate_hz: manifest.as_ref().and_then(|m| m.sample_rate_hz),
+        name: name.clone(),
+    };
+
+    // The header alone, to settle the scale, rate and segment length before the passes.
+    let info = open_source(open_file(&args.file)?, &options)?
+        .info()
+        .clone();
+    // A --full-scale value was parsed in the unit of the profile or manifest (volts when
+    // neither says), so that is the unit of the scaled values.
+    let full_scale_unit = full_scale.map(|_| match unit_hint {
+        "A" => Unit::Ampere,
+        _ => Unit::Volt,
+    });
+    let scale = Scale::resolve(
+        info.values,
+        manifest.as_ref(),
+        full_scale,
+        profile.as_ref().map(|p| p.unit).or(full_scale_unit),
+    )?;
+    let fs = info.sample_rate_hz;
+    let mut notes = info.notes.clone();
+    let design = match profile.as_mut() {
+        None => None,
+        Some(p) => {
+            if !scale.is_physical() {
+                return Err(Error::option(
+                    "--full-scale",
+                    format!(
+                        "{name} holds digital values and no manifest gives their scale: say \
+                         which physical value digital 1.0 is, e.g. --full-scale 2V"
+                    ),
+                ));
+            }
+            if fs != p.sample_rate_hz {
+                if p.band.high_hz > fs / 2.0 {
+                    return Err(Error::option(
+                        "--profile",
+                        format!(
+                            "the profile's band reaches {}, above half the capture's rate {}",
+                            format_quantity(p.band.high_hz, "Hz"),
+                            format_quantity(fs, "Hz")
+                        ),
+                    ));
+                }
+                notes.push(format!(
+                    "the profile is designed at the capture's rate {} instead of its own {}",
+                    format_quantity(fs, "Hz"),
+                    format_quantity(p.sample_rate_hz, "Hz")
+                ));
+                p.sample_rate_hz = fs;
+            }
+            Some(design_profile(p)?)
+        }
+    };
+    let n_hint = sample_count(&args.file, &info)?;
+    let seg_len = segment_length(
+        fs,
+        n_hint,
+        resolution,
+        profile.as_ref().map(|p| p.band.low_hz),
+    )?;
+
+    let mut first = FirstPass::new(fs, seg_len, TRACE_SAMPLES);
+    pass(&args.file, &options, &scale, interrupted, &mut |x| {
+        first.push(x)
+    })?;
+    let st = first.stats;
+    if st.count() < 16 {
+        return Err(Error::input(
+            &name,
+            format!("{} samples: too few to analyse", st.count()),
+        ));
+    }
+    let mut moments = CentralMoments::new(st.mean(), st.std(), st.min(), st.max(), HIST_BINS);
+    pass(&args.file, &options, &scale, interrupted, &mut |x| {
+        moments.push(x)
+    })?;
+
+    let spectrum = first.welch.finish();
+    if spectrum.segments == 0 {
+        return Err(Error::Unsupported(format!(
+            "{name} has {} samples, fewer than one {seg_len}-sample segment; ask for a coarser \
+             --resolution",
+            st.count()
+        )));
+    }
+    let bands = if spectrum.psd.len() > FIRST_BIN {
+        spectrum.log_bands(FIRST_BIN, BANDS_PER_DECADE)
+    } else {
+        Vec::new()
+    };
+
+    // The quantisation floor of integer formats, added to the designed density (uniform
+    // error model, Q/√(6·fs) per √Hz with Q one LSB; REFERENCES §9, IEEE Std 1241).
+    let q_psd = match (info.sample_format, scale.full_scale) {
+        (Some(sf), Some(fsc)) if sf.is_integer() => {
+            let lsb = fsc / f64::from(sf.full_scale_code().expect("integer"));
+            lsb * lsb / (6.0 * fs)
+        }
+        _ => 0.0,
+    };
+    let comparison: Option<Comparison> = match (&profile, &design) {
+        (Some(p), Some(d)) => {
+            let inside: Vec<_> = bands
+                .iter()
+                .filter(|b| b.f_lo_hz >= p.band.low_hz && b.f_hi_hz <= p.band.high_hz)
+                .cloned()
+                .collect();
+            let c = compare(
+                &inside,
+                &|b| expected_band_psd(&|f| d.density(f) + q_psd, &spectrum, b.bins.clone()),
+                FALSE_ALARM,
+                tolerance_db,
+            );
+            if c.bands.is_empty() {
+                notes.push(
+                    "no band of the estimate lies inside the profile's band: use a finer \
+                     --resolution or a longer capture"
+                        .to_string(),
+                );
+            }
+            if q_psd > 0.0 {
+                notes.push(format!(
+                    "the designed density includes the {}-bit quantisation floor {}",
+                    info.sample_format.map_or(0, |s| 8 * s.bytes()),
+                    format_quantity(q_psd.sqrt(), &format!("{}/√Hz", scale.symbol()))
+                ));
+            }
+            Some(c)
+        }
+        _ => None,
+    };
+    // One LSB of an integer file, in the capture's unit: codes of a coarsely quantised signal
+    // are not burst levels.
+    let quantum = match (info.sample_format, scale.full_scale) {
+        (Some(sf), Some(fsc)) if sf.is_integer() => {
+            Some(fsc / f64::from(sf.full_scale_code().expect("integer")))
+        }
+        (Some(sf), None) if sf.is_integer() => {
+            Some(1.0 / f64::from(sf.full_scale_code().expect("integer")))
+        }
+        _ => None,
+    };
+    let levels = first.levels.detect(quantum);
+    let decades = rms_per_decade(&spectrum);
+    let report = CaptureReport {
+        file: serde_json::json!({
+            "name": name,
+            "format": info.format.name(),
+            "sample_format": info.sample_format.map(|s| s.name()),
+            "channels": info.channels,
+            "full_scale": scale.full_scale,
+            "scale_origin": scale.origin,
+            "manifest": manifest.is_some(),
+        }),
+        unit: scale.symbol().to_string(),
+        sample_rate_hz: fs,
+        stats: st,
+        moments,
+        spectrum,
+        bands,
+        decades,
+        trace: first.trace,
+        comparison,
+        levels,
+        notes,
+    };
+
+    let mut json = report.to_json();
+    if let Some(path) = &args.fit {
+        // The band of --profile, else the band recorded in the manifest of a generated file.
+        let band = profile
+            .as_ref()
+            .map(|p| p.band)
+            .or(manifest.as_ref().and_then(|m| m.band));
+        let fit = fit_floor(&report, &FitOptions { band })?;
+        let toml = fit.to_profile_toml(&report, &name);
+        fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+        json["fit"] = fit.to_json();
+        json["fit"]["profile_file"] = serde_json::json!(path.display().to_string());
+    }
+    let density_svg = (args.plot.is_some() || args.report.is_some())
+        .then(|| figure::density_svg(&report, profile.as_ref(), design.as_ref()));
+    if let (Some(path), Some(svg)) = (&args.plot, &density_svg) {
+        fs::write(path, svg).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+    }
+    if let Some(path) = &args.report {
+        let html = figure::report_html(
+            &report,
+            &json,
+            density_svg.as_deref().unwrap_or(""),
+            profile.as_ref(),
+        );
+        fs::write(path, html).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+    }
+    let output = if args.json {
+        let mut s = serde_json::to_string_pretty(&json).expect("JSON values serialise");
+        s.push('\n');
+        s
+    } else {
+        summary_text(&report, &json, profile.as_ref())
+    };
+    let failure = report.comparison.as_ref().and_then(|c| {
+        if c.pass {
+            return None;
+        }
+        let pname = args
+            .profile
+            .as_ref()
+            .map_or(String::new(), |p| p.display().to_string());
+        Some(Error::Mismatch(match c.worst() {
+            Some(w) => format!(
+                "{name} does not match {pname}: {} of {} bands outside their limits; worst \
+                 {:.4}..{:.4} Hz at {:+.2} dB (limits {:+.2} / {:+.2} dB)",
+                c.failed(),
+                c.bands.len(),
+                w.band.f_lo_hz,
+                w.band.f_hi_hz,
+                w.ratio_db,
+                w.limit_db.0,
+                w.limit_db.1
+            ),
+            None => format!("{name} could not be checked against {pname}: no band inside its band"),
+        }))
+    });
+    Ok(AnalyzeOutcome { output, failure })
+}
+
+fn summary_text(r: &CaptureReport, json: &serde_json::Value, profile: Option<&Profile>) -> String {
+    let u = r.unit.as_str();
+    let q = |v: f64| format_quantity(v, u);
+    let st = &r.stats;
+    let sp = &r.spectrum;
+    let mut s = String::new();
+    let f = &r.file;
+    s += &format!(
+        "noisewright {}: analyze {} ({} {}, {} samples at {}, {})\n",
+        env!("CARGO_PKG_VERSION"),
+        f["name"].as_str().unwrap_or(""),
+        f["format"].as_str().unwrap_or(""),
+        f["sample_format"].as_str().unwrap_or("text"),
+        st.count(),
+        format_quantity(r.sample_rate_hz, "Hz"),
+        format_quantity(st.count() as f64 / r.sample_rate_hz, "s"),
+    );
+    match f["full_scale"].as_f64() {
+        Some(fsc) => {
+            s += &format!(
+                "  scale           digital 1.0 = {} (from {})\n",
+                q(fsc),
+                f["scale_origin"].as_str().unwrap_or("")
+            )
+        }
+        None if u == "FS" => {
+            s += "  scale           digital values (no full scale known: give --full-scale)\n"
+        }
+        None => s += &format!("  scale           physical values ({u})\n"),
+    }
+    s += &format!("  mean            {}\n", q(st.mean()));
+    s += &format!(
+        "  RMS             {} (AC + DC), std {} (AC)\n",
+        q(st.rms()),
+        q(st.std())
+    );
+    s += &format!(
+        "  peak-to-peak    {} measured, {} (6σ), {} (6.6σ)\n",
+        q(st.peak_to_peak()),
+        q(6.0 * st.std()),
+        q(6.6 * st.std())
+    );
+    s += &format!(
+        "  shape           crest factor {:.3}, skewness {:.4}, excess kurtosis {:.4}\n",
+        r.crest_factor(),
+        r.moments.skewness(),
+        r.moments.excess_kurtosis()
+    );
+    let within = r.moments.within();
+    let parts: Vec<String> = SIGMA_LEVELS
+        .iter()
+        .zip(within)
+        .map(|(k, w)| {
+            format!(
+                "±{k}σ {:.3} % ({:.3} %)",
+                100.0 * w,
+                100.0 * gaussian_within(*k)
+            )
+        })
+        .collect();
+    s += &format!(
+        "  within          {} (Gaussian in brackets)\n",
+        parts.join(", ")
+    );
+    s += &format!(
+        "  density         Welch, Hann, 50 % overlap: {} segments of {} samples, {} bins, ν = {:.1} per bin\n",
+        sp.segments,
+        sp.seg_len,
+        format_quantity(sp.bin_width_hz(), "Hz"),
+        sp.dof(sp.psd.len() / 2)
+    );
+    let du = format!("{u}/√Hz");
+    let checks = r.comparison.as_ref();
+    s += "    band                        density          95 % interval";
+    if checks.is_some() {
+        s += "                 designed         ratio     limits          verdict";
+    }
+    s += "\n";
+    for b in &r.bands {
+        let (lo, hi) = CaptureReport::band_ci95(b);
+        s += &format!(
+            "    {:>11} .. {:<11}  {:<15}  {:<14} .. {:<14}",
+            format_quantity(b.f_lo_hz, "Hz"),
+            format_quantity(b.f_hi_hz, "Hz"),
+            format_quantity(b.psd_mean.sqrt(), &du),
+            format_quantity(lo.sqrt(), &du),
+            format_quantity(hi.sqrt(), &du)
+        );
+        if let Some(c) = checks.and_then(|c| c.bands.iter().find(|c| c.band.bins == b.bins)) {
+            s += &format!(
+                "  {:<15}  {:+6.2} dB  {:+.2}/{:+.2} dB  {}",
+                format_quantity(c.expected_psd.sqrt(), &du),
+                c.ratio_db,
+                c.limit_db.0,
+                c.limit_db.1,
+                if c.pass { "ok" } else { "FAIL" }
+            );
+        }
+        s = s.trim_end().to_string();
+        s += "\n";
+    }
+    let dec: Vec<String> = r
+        .decades
+        .iter()
+        .map(|d| {
+            format!(
+                "{}–{}: {}",
+                format_quantity(d.f_lo_hz, "Hz"),
+                format_quantity(d.f_hi_hz, "Hz"),
+                q(d.rms)
+            )
+        })
+        .collect();
+    s += &format!("  RMS per decade  {}\n", dec.join("; "));
+    match &r.levels {
+        None => s += "  burst levels    none clearly present\n",
+        Some(l) => {
+            let parts: Vec<String> = (0..l.levels.len())
+                .map(|i| {
+                    format!(
+                        "{} ({:.1} % of the time, mean dwell {})",
+                        q(l.levels[i]),
+                        100.0 * l.occupancy[i],
+                        format_quantity(l.dwell_s[i], "s")
+                    )
+                })
+                .collect();
+            s += &format!(
+                "  burst levels    {} levels: {}; resolution {}\n",
+                l.levels.len(),
+                parts.join(", "),
+                format_quantity(l.resolution_s, "s")
+            );
+        }
+    }
+    if let Some(fit) = json.get("fit") {
+        s += &format!(
+            "  fit             floor {}, corner {}, slope {:.3} -> {}\n",
+            format_quantity(fit["floor_density"].as_f64().unwrap_or(f64::NAN), &du),
+            fit["corner_hz"]
+                .as_f64()
+                .map_or("none".to_string(), |c| format_quantity(c, "Hz")),
+            fit["slope"].as_f64().unwrap_or(f64::NAN),
+            fit["profile_file"].as_str().unwrap_or("")
+        );
+    }
+    for n in &r.notes {
+        s += &format!("  note: {n}\n");
+    }
+    if let (Some(c), Some(p)) = (checks, profile) {
+        s += &format!(
+            "  verdict         {}: {} of {} bands in {}..{} within their limits (χ² interval at a total false-alarm probability of {}, plus {} dB tolerance) against {}\n",
+            if c.pass { "PASS" } else { "FAIL" },
+            c.bands.len() - c.failed(),
+            c.bands.len(),
+            format_quantity(p.band.low_hz, "Hz"),
+            format_quantity(p.band.high_hz, "Hz"),
+            c.false_alarm,
+            c.tolerance_db,
+            p.name.as_deref().unwrap_or("the profile")
+        );
+    }
+    s
+}

@@ -1,0 +1,395 @@
+//! CSV text: a header line naming the columns, then one sample per line.
+//!
+//! * **Time column** (optional): the first column whose name starts with `time` or is `t`
+//!   (any case). Its unit follows from a suffix `_s`, `_ms`, `_us` or `(s)`, `(ms)`, `(us)`
+//!   (default seconds). The sample rate is `(k − 1)/(t_{k−1} − t_0)` over the first 4096
+//!   rows; every later step must be within half a sample period of `1/rate`, else the file
+//!   is refused (the samples must be evenly spaced for a density estimate).
+//! * **Value column**: the first column that is not the time column. Its name says what it
+//!   holds, as `generate` writes it: `value_V` / `value_A` physical volts or amperes,
+//!   `value_fs` digital values, `code_i16` / `code_i24` / `code_i32` integer codes (read as
+//!   digital, code/(2^(b−1)−1)); any other name is [`Values::Unknown`].
+//! * Fields are separated by commas; spaces around fields are ignored; blank lines and lines
+//!   starting with `#` are skipped.
+
+use std::io::{BufRead, BufReader, Read};
+
+use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate};
+use crate::error::{Error, Result};
+use crate::profile::Unit;
+use crate::sink::{Format, SampleFormat};
+
+/// Rows used to estimate the rate from the time column.
+const RATE_ROWS: usize = 4096;
+
+/// Streaming CSV reader; see the module docs.
+#[derive(Debug)]
+pub struct CsvSource<R: Read> {
+    input: BufReader<R>,
+    info: StreamInfo,
+    name: String,
+    line_no: usize,
+    line: String,
+    time_col: Option<usize>,
+    time_scale: f64,
+    value_col: usize,
+    /// 2^(b−1)−1 for code columns (values are divided by it), 1 otherwise.
+    value_div: f64,
+    /// Values read ahead while estimating the rate, not yet handed out.
+    pending: Vec<f64>,
+    /// Last time seen (s) and the sample period (s) the steps are checked against.
+    last_time: Option<f64>,
+    period_s: f64,
+    first_time: f64,
+    rows: u64,
+    /// The rate used came from the time column (so later steps are checked).
+    check_steps: bool,
+}
+
+/// What a column name says: (time scale in seconds per unit) for time columns.
+fn time_scale(name: &str) -> Option<f64> {
+    let n = name.trim().to_ascii_lowercase();
+    if !(n.starts_with("time") || n == "t" || n.starts_with("t_") || n.starts_with("t (")) {
+        return None;
+    }
+    Some(if n.ends_with("_ms") || n.ends_with("(ms)") {
+        1e-3
+    } else if n.ends_with("_us") || n.ends_with("(us)") || n.ends_with("(µs)") {
+        1e-6
+    } else {
+        1.0
+    })
+}
+
+/// What a value column's name says it holds, and the divisor to digital for code columns.
+fn value_meaning(name: &str) -> (Values, f64) {
+    let n = name.trim();
+    match n {
+        "value_V" => (Values::Physical(Unit::Volt), 1.0),
+        "value_A" => (Values::Physical(Unit::Ampere), 1.0),
+        "value_fs" => (Values::Digital, 1.0),
+        _ => match n
+            .strip_prefix("code_")
+            .and_then(|s| s.parse::<SampleFormat>().ok())
+        {
+            Some(sf) if sf.is_integer() => (
+                Values::Digital,
+                f64::from(sf.full_scale_code().expect("integer format")),
+            ),
+            _ => (Values::Unknown, 1.0),
+        },
+    }
+}
+
+impl<R: Read> CsvSource<R> {
+    /// Reads the header and, when the rate comes from the time column, the first rows.
+    pub fn new(input: R, options: &SourceOptions) -> Result<CsvSource<R>> {
+        let name = options.name.clone();
+        let mut src = CsvSource {
+            input: BufReader::with_capacity(1 << 16, input),
+            info: StreamInfo {
+                format: Format::Csv,
+                sample_format: None,
+                sample_rate_hz: 0.0,
+                frames: None,
+                channels: 1,
+                values: Values::Unknown,
+                notes: Vec::new(),
+            },
+            name,
+            line_no: 0,
+            line: String::new(),
+            time_col: None,
+            time_scale: 1.0,
+            value_col: 0,
+            value_div: 1.0,
+            pending: Vec::new(),
+            last_time: None,
+            period_s: 0.0,
+            first_time: 0.0,
+            rows: 0,
+            check_steps: false,
+        };
+        if !src.next_line()? {
+            return Err(Error::input(
+                &src.name,
+                "empty: expected a header line naming the columns, e.g. time_s,value_V",
+            ));
+        }
+        let header: Vec<String> = src.line.split(',').map(|s| s.trim().to_string()).collect();
+        if header.iter().all(|h| h.parse::<f64>().is_ok()) {
+            return Err(Error::input(
+                &src.name,
+                format!(
+                    "line {}: expected a header line naming the columns (e.g. time_s,value_V), \
+                     found numbers",
+                    src.line_no
+                ),
+            ));
+        }
+        src.time_col = header.iter().position(|h| time_scale(h).is_some());
+        if let Some(c) = src.time_col {
+            src.time_scale = time_scale(&header[c]).expect("found");
+        }
+        src.value_col = (0..header.len())
+            .find(|&c| Some(c) != src.time_col)
+            .ok_or_else(|| {
+                Error::input(
+                    &src.name,
+                    format!(
+                        "line {}: only a time column ({}); expected a value column too",
+                        src.line_no, header[0]
+                    ),
+                )
+            })?;
+        let (values, div) = value_meaning(&header[src.value_col]);
+        src.info.values = values;
+        src.value_div = div;
+
+        let rate = match (options.rate_hz, src.time_col) {
+            (Some(r), _) => Some(check_rate(r, "--rate", &src.name)?),
+            (None, None) => Some(
+                options
+                    .fallback_rate_hz
+                    .ok_or_else(|| {
+                        Error::option(
+                            "--rate",
+                            format!(
+                                "{} has no time column: give its sample rate, e.g. --rate 48kHz",
+                                src.name
+                            ),
+                        )
+                    })
+                    .and_then(|r| check_rate(r, "the manifest", &src.name))?,
+            ),
+            (None, Some(_)) => None,
+        };
+        // Read ahead to estimate the rate (and to compare it with --rate).
+        let mut times = Vec::new();
+        if src.time_col.is_some() {
+            while src.pending.len() < RATE_ROWS {
+                match src.row()? {
+                    Some((t, v)) => {
+                        times.push(t.expect("time column"));
+                        src.pending.push(v);
+                    }
+                    None => break,
+                }
+            }
+        }
+        let from_times = if times.len() >= 2 {
+            let span = times[times.len() - 1] - times[0];
+            if span.is_nan() || span <= 0.0 {
+                return Err(Error::input(
+                    &src.name,
+                    "the time column does not increase: cannot tell the sample rate",
+                ));
+            }
+            Some((times.len() - 1) as f64 / span)
+        } else {
+            None
+        };
+        let rate = match (rate, from_times) {
+            (Some(r), Some(t)) => {
+                if ((r - t) / r).abs() > 1e-6 {
+                    src.info.notes.push(format!(
+                        "sample rate {r} Hz from --rate replaces the time column's {t} Hz"
+                    ));
+                }
+                r
+            }
+            (Some(r), None) => r,
+            (None, Some(t)) => {
+                src.check_steps = true;
+                t
+            }
+            (None, None) => {
+                return Err(Error::option(
+                    "--rate",
+                    format!(
+                        "{} has fewer than two rows: its time column cannot give a sample rate; \
+                         give --rate",
+                        src.name
+                    ),
+                ));
+            }
+        };
+        src.info.sample_rate_hz = rate;
+        src.period_s = 1.0 / rate;
+        if src.check_steps {
+            for w in times.windows(2) {
+                src.check_step(w[0], w[1])?;
+            }
+        }
+        src.first_time = times.first().copied().unwrap_or(0.0);
+        src.last_time = times.last().copied();
+        Ok(src)
+    }
+
+    /// The next non-blank, non-comment line into `self.line`; false at the end.
+    fn next_line(&mut self) -> Result<bool> {
+        loop {
+            self.line.clear();
+            let n = self
+                .input
+                .read_line(&mut self.line)
+                .map_err(|e| Error::io(format!("reading {}", self.name), e))?;
+            if n == 0 {
+                return Ok(false);
+            }
+            self.line_no += 1;
+            let t = self.line.trim();
+            if !t.is_empty() && !t.starts_with('#') {
+                return Ok(true);
+            }
+        }
+    }
+
+    /// The next row's (time in s, value).
+    fn row(&mut self) -> Result<Option<(Option<f64>, f64)>> {
+        if !self.next_line()? {
+            return Ok(None);
+        }
+        let mut time = None;
+        let mut value = None;
+        for (c, field) in self.line.trim_end().split(',').enumerate() {
+            if Some(c) == self.time_col {
+                time = Some(self.number(field, "time")? * self.time_scale);
+            } else if c == self.value_col {
+                value = Some(self.number(field, "value")? / self.value_div);
+            }
+        }
+        let missing = if value.is_none() {
+            Some("value")
+        } else if self.time_col.is_some() && time.is_none() {
+            Some("time")
+        } else {
+            None
+        };
+        if let Some(what) = missing {
+            return Err(Error::input(
+                &self.name,
+                format!("line {}: the {what} field is missing", self.line_no),
+            ));
+        }
+        self.rows += 1;
+        Ok(Some((time, value.expect("checked"))))
+    }
+
+    fn number(&self, field: &str, what: &str) -> Result<f64> {
+        let f = field.trim();
+        match f.parse::<f64>() {
+            Ok(v) if v.is_finite() => Ok(v),
+            _ => Err(Error::input(
+                &self.name,
+                format!(
+                    "line {}: the {what} field {f:?} is not a finite number",
+                    self.line_no
+                ),
+            )),
+        }
+    }
+
+    fn check_step(&self, a: f64, b: f64) -> Result<()> {
+        let step = b - a;
+        if (step - self.period_s).abs() > 0.5 * self.period_s {
+            return Err(Error::input(
+                &self.name,
+                format!(
+                    "near line {}: the time column steps by {step} s where the rate of the first \
+                     rows gives {} s; the samples must be evenly spaced (gaps or resets cannot \
+                     be analysed)",
+                    self.line_no, self.period_s
+                ),
+            ));
+        }
+        Ok(())
+    }
+}
+
+impl<R: Read> SampleSource for CsvSource<R> {
+    fn info(&self) -> &StreamInfo {
+        &self.info
+    }
+
+    fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize> {
+        out.clear();
+        let max = max.max(1);
+        if !self.pending.is_empty() {
+            let take = max.min(self.pending.len());
+            out.extend(self.pending.drain(..take));
+            return Ok(take);
+        }
+        while out.len() < max {
+            match self.row()? {
+                None => break,
+                Some((t, v)) => {
+                    if let (Some(t), true) = (t, self.check_steps) {
+                        if let Some(prev) = self.last_time {
+                            self.check_step(prev, t)?;
+                        }
+                        self.last_time = Some(t);
+                    }
+                    out.push(v);
+                }
+            }
+        }
+        Ok(out.len())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn read(text: &str, rate: Option<f64>) -> Result<(StreamInfo, Vec<f64>)> {
+        let o = SourceOptions {
+            format: Format::Csv,
+            sample_format: None,
+            rate_hz: rate,
+            fallback_rate_hz: None,
+            name: "c.csv".into(),
+        };
+        let mut s = CsvSource::new(text.as_bytes(), &o)?;
+        let mut all = Vec::new();
+        let mut b = Vec::new();
+        while s.read_block(&mut b, 3)? > 0 {
+            all.extend_from_slice(&b);
+        }
+        Ok((s.info().clone(), all))
+    }
+
+    #[test]
+    fn time_column_gives_the_rate_and_names_give_the_meaning() {
+        let (i, v) = read(
+            "time_s,value_V\n0,1\n0.001,2\n# note\n\n0.002,3\n0.003,4\n",
+            None,
+        )
+        .unwrap();
+        assert!((i.sample_rate_hz - 1000.0).abs() < 1e-9);
+        assert_eq!(i.values, Values::Physical(Unit::Volt));
+        assert_eq!(v, [1.0, 2.0, 3.0, 4.0]);
+        let (i, v) = read("code_i16\n32767\n-32767\n", Some(8.0)).unwrap();
+        assert_eq!(i.values, Values::Digital);
+        assert_eq!(v, [1.0, -1.0]);
+        let (i, _) = read("volts, time (ms)\n1, 0\n2, 0.5\n", None).unwrap();
+        assert!((i.sample_rate_hz - 2000.0).abs() < 1e-9);
+        assert_eq!(i.values, Values::Unknown);
+    }
+
+    #[test]
+    fn bad_csv_is_named_with_its_line() {
+        let e = read("time_s,value_V\n0,1\n0.001,x\n", None).unwrap_err();
+        assert!(e.to_string().contains("line 3"), "{e}");
+        let e = read("1,2\n3,4\n", None).unwrap_err();
+        assert!(e.to_string().contains("header"), "{e}");
+        let e = read("value_V\n1\n2\n", None).unwrap_err();
+        assert!(e.to_string().contains("--rate"), "{e}");
+        let e = read("time_s,value_V\n0,1\n0.001,1\n0.002,1\n0.01,1\n", None).unwrap_err();
+        assert!(e.to_string().contains("evenly spaced"), "{e}");
+        let e = read("", None).unwrap_err();
+        assert!(e.to_string().contains("empty"), "{e}");
+        let e = read("time_s,value_V\n0,1\n0.001\n", None).unwrap_err();
+        assert!(e.to_string().contains("missing"), "{e}");
+    }
+}

@@ -1,0 +1,436 @@
+//! Readers of captured samples: WAV, CSV and raw files on any [`std::io::Read`], streamed in
+//! blocks with bounded memory.
+//!
+//! A reader yields **stored values** as `f64`, with one rule for every format:
+//!
+//! * integer codes become digital values `code / (2^(b−1) − 1)`, the inverse of the writers'
+//!   rule in [`crate::sink`] (so ±32767 ↔ ±1.0 for 16 bits; the code −2^(b−1), which
+//!   noisewright never writes, reads as slightly below −1.0);
+//! * floats are returned as stored.
+//!
+//! [`StreamInfo::values`] says what the values mean: [`Values::Digital`] (relative to digital
+//! full scale 1.0: WAV, integer raw, CSV `value_fs`/`code_*` columns), [`Values::Physical`]
+//! (a unit is known: CSV `value_V`/`value_A` columns) or [`Values::Unknown`] (float raw, CSV
+//! columns with other names). [`Scale`] turns them into physical values with a full scale from
+//! the command line or from a manifest ([`SideManifest`], the JSON `generate` writes beside its
+//! output).
+//!
+//! Malformed or truncated input is an [`Error::Input`] naming the file and what is wrong.
+
+mod csv;
+mod raw;
+mod wav;
+
+pub use csv::CsvSource;
+pub use raw::RawSource;
+pub use wav::WavSource;
+
+use std::io::Read;
+
+use crate::error::{Error, Result};
+use crate::profile::{Band, Unit};
+use crate::sink::{Format, SampleFormat};
+
+/// What the values a reader yields mean.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Values {
+    /// Digital values: 1.0 is digital full scale.
+    Digital,
+    /// Physical values in a known unit.
+    Physical(Unit),
+    /// Not stated by the file: digital with a full scale, physical otherwise.
+    Unknown,
+}
+
+/// Facts about a stream, known once its header (if any) has been read.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StreamInfo {
+    /// The container.
+    pub format: Format,
+    /// How the samples are stored; `None` for CSV text.
+    pub sample_format: Option<SampleFormat>,
+    /// Sample rate in samples per second (Hz).
+    pub sample_rate_hz: f64,
+    /// Samples (per channel) the header announces; `None` when unknown (raw, CSV, streamed WAV).
+    pub frames: Option<u64>,
+    /// Channels stored; only the first is read.
+    pub channels: u16,
+    /// What the values mean.
+    pub values: Values,
+    /// Remarks for the user (a streaming WAV size placeholder, extra channels, ...).
+    pub notes: Vec<String>,
+}
+
+/// A stream of samples from a capture.
+pub trait SampleSource {
+    /// What the header said.
+    fn info(&self) -> &StreamInfo;
+    /// Replaces the contents of `out` with up to `max` next values (see the module docs for
+    /// their scale) and returns how many; 0 at the end of the stream.
+    fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize>;
+}
+
+/// How to open a capture.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SourceOptions {
+    /// The container.
+    pub format: Format,
+    /// Sample format of a raw file (required for raw; ignored by WAV and CSV).
+    pub sample_format: Option<SampleFormat>,
+    /// Sample rate in Hz from the user: for raw it is required (unless `fallback_rate_hz` is
+    /// given); for CSV it replaces the time column's rate; for WAV the header's (with a note).
+    pub rate_hz: Option<f64>,
+    /// Sample rate in Hz used only when neither `rate_hz` nor the file gives one (e.g. from a
+    /// manifest beside the file).
+    pub fallback_rate_hz: Option<f64>,
+    /// The file's name for messages.
+    pub name: String,
+}
+
+/// Opens a stream of samples over `input`, reading the header now.
+pub fn open_source<'a, R: Read + 'a>(
+    input: R,
+    options: &SourceOptions,
+) -> Result<Box<dyn SampleSource + 'a>> {
+    Ok(match options.format {
+        Format::Wav => Box::new(WavSource::new(input, options)?),
+        Format::Csv => Box::new(CsvSource::new(input, options)?),
+        Format::Raw => Box::new(RawSource::new(input, options)?),
+    })
+}
+
+/// The facts a manifest beside a capture (`FILE.json`, as `generate` writes) supplies. Every
+/// field is optional: a manifest written by hand may carry only some of them.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct SideManifest {
+    /// Physical value of digital 1.0 in `unit`; `None` when the file holds physical values or
+    /// the key is absent or `null`.
+    pub full_scale: Option<f64>,
+    /// Physical unit of the samples.
+    pub unit: Option<Unit>,
+    /// Sample rate in Hz.
+    pub sample_rate_hz: Option<f64>,
+    /// Stored sample format.
+    pub sample_format: Option<SampleFormat>,
+    /// True when the manifest has a `full_scale` key (even `null`): it then says whether the
+    /// values are digital (a number) or physical (`null`).
+    pub states_scale: bool,
+    /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
+    /// `high_hz`, `order`), when the manifest records one.
+    pub band: Option<Band>,
+}
+
+impl SideManifest {
+    /// Parses the manifest's JSON text. `name` is the manifest's file name for messages.
+    /// Unknown keys are ignored; a known key with a value of the wrong kind is an error.
+    pub fn parse(text: &str, name: &str) -> Result<SideManifest> {
+        let v: serde_json::Value = serde_json::from_str(text)
+            .map_err(|e| Error::input(name, format!("not valid JSON: {e}")))?;
+        let obj = v
+            .as_object()
+            .ok_or_else(|| Error::input(name, "expected a JSON object"))?;
+        let mut m = SideManifest::default();
+        if let Some(fs) = obj.get("full_scale") {
+            m.states_scale = true;
+            if !fs.is_null() {
+                let x = fs.as_f64().filter(|x| x.is_finite() && *x > 0.0);
+                m.full_scale = Some(x.ok_or_else(|| {
+                    Error::input(name, "full_scale: expected a positive number or null")
+                })?);
+            }
+        }
+        if let Some(u) = obj.get("unit").filter(|u| !u.is_null()) {
+            m.unit = Some(match u.as_str() {
+                Some("V") => Unit::Volt,
+                Some("A") => Unit::Ampere,
+                _ => return Err(Error::input(name, "unit: expected \"V\" or \"A\"")),
+            });
+        }
+        if let Some(r) = obj.get("sample_rate_hz").filter(|r| !r.is_null()) {
+            let x = r.as_f64().filter(|x| x.is_finite() && *x > 0.0);
+            m.sample_rate_hz =
+                Some(x.ok_or_else(|| {
+                    Error::input(name, "sample_rate_hz: expected a positive number")
+                })?);
+        }
+        if let Some(s) = obj.get("sample_format").filter(|s| !s.is_null()) {
+            let f = s.as_str().and_then(|s| s.parse::<SampleFormat>().ok());
+            m.sample_format = Some(f.ok_or_else(|| {
+                Error::input(name, "sample_format: expected f32, f64, i16, i24 or i32")
+            })?);
+        }
+        let b = &v["profile"]["band"];
+        if let (Some(lo), Some(hi)) = (b["low_hz"].as_f64(), b["high_hz"].as_f64()) {
+            if lo > 0.0 && hi > lo {
+                m.band = Some(Band {
+                    low_hz: lo,
+                    high_hz: hi,
+                    order: b["order"].as_u64().unwrap_or(0) as u32,
+                });
+            }
+        }
+        Ok(m)
+    }
+}
+
+/// How stored values become physical ones: `physical = value · gain`, in `unit`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Scale {
+    /// Physical value of one stored unit: the full scale for digital values, 1 for physical.
+    pub gain: f64,
+    /// The physical unit; `None` when the values stay digital (reported as "FS", digital
+    /// full-scale units) or their unit is not known.
+    pub unit: Option<Unit>,
+    /// The full scale that was applied (physical value of digital 1.0), if any.
+    pub full_scale: Option<f64>,
+    /// Where the scale came from, for the report: "--full-scale", "manifest", "file", "none".
+    pub origin: &'static str,
+}
+
+impl Scale {
+    /// Decides the scale from what the file says (`values`), the manifest beside it, a
+    /// `--full-scale` value and the unit a profile expects.
+    ///
+    /// * `--full-scale` wins: the values are taken as digital and multiplied by it.
+    /// * Otherwise a manifest's `full_scale` number applies to digital or unknown values; its
+    ///   `null` marks unknown values as physical.
+    /// * Physical values keep gain 1; their unit comes from the file, the manifest or the
+    ///   profile, in that order. Units that disagree are an error.
+    /// * Digital values with no full scale stay digital (unit `None`).
+    pub fn resolve(
+        values: Values,
+        manifest: Option<&SideManifest>,
+        full_scale: Option<f64>,
+        profile_unit: Option<Unit>,
+    ) -> Result<Scale> {
+        let manifest_unit = manifest.and_then(|m| m.unit);
+        let file_unit = match values {
+            Values::Physical(u) => Some(u),
+            _ => None,
+        };
+        let mut unit = None;
+        for u in [file_unit, manifest_unit, profile_unit]
+            .into_iter()
+            .flatten()
+        {
+            match unit {
+                None => unit = Some(u),
+                Some(prev) if prev != u => {
+                    return Err(Error::option(
+                        "--profile",
+                        format!(
+                            "the capture is in {} but the profile or manifest is in {}: they \
+                             must describe the same quantity",
+                            prev.symbol(),
+                            u.symbol()
+                        ),
+                    ));
+                }
+                Some(_) => {}
+            }
+        }
+        if let Some(fs) = full_scale {
+            return Ok(Scale {
+                gain: fs,
+                unit,
+                full_scale: Some(fs),
+                origin: "--full-scale",
+            });
+        }
+        let manifest_fs = manifest.and_then(|m| m.full_scale);
+        let manifest_says_physical =
+            manifest.is_some_and(|m| m.states_scale && m.full_scale.is_none());
+        match values {
+            Values::Digital | Values::Unknown if manifest_fs.is_some() => {
+                let fs = manifest_fs.expect("checked");
+                Ok(Scale {
+                    gain: fs,
+                    unit,
+                    full_scale: Some(fs),
+                    origin: "manifest",
+                })
+            }
+            Values::Physical(_) => Ok(Scale {
+                gain: 1.0,
+                unit,
+                full_scale: None,
+                origin: "file",
+            }),
+            Values::Unknown if manifest_says_physical || unit.is_some() => Ok(Scale {
+                gain: 1.0,
+                unit,
+                full_scale: None,
+                origin: if manifest_says_physical {
+                    "manifest"
+                } else {
+                    "none"
+                },
+            }),
+            Values::Digital | Values::Unknown => Ok(Scale {
+                gain: 1.0,
+                unit: None,
+                full_scale: None,
+                origin: "none",
+            }),
+        }
+    }
+
+    /// True when the scaled values are physical (a full scale was applied, or the values were
+    /// physical already with a known unit).
+    pub fn is_physical(&self) -> bool {
+        self.unit.is_some()
+    }
+
+    /// The unit's symbol for display: `V`, `A`, `FS` for digital values, or `units` for
+    /// scaled values of an unknown unit.
+    pub fn symbol(&self) -> &'static str {
+        match self.unit {
+            Some(u) => u.symbol(),
+            None if self.full_scale.is_some() => "units",
+            None => "FS",
+        }
+    }
+}
+
+/// Reads exactly `buf.len()` bytes or up to the end of the stream; returns the count read.
+/// Interrupted reads are retried.
+pub(crate) fn read_full<R: Read>(r: &mut R, buf: &mut [u8], name: &str) -> Result<usize> {
+    let mut done = 0;
+    while done < buf.len() {
+        match r.read(&mut buf[done..]) {
+            Ok(0) => break,
+            Ok(n) => done += n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(Error::io(format!("reading {name}"), e)),
+        }
+    }
+    Ok(done)
+}
+
+/// Decodes little-endian stored samples of `sf` from `bytes` (a whole number of samples,
+/// `stride` bytes apart, the first channel at offset 0) into values per the module rule.
+pub(crate) fn decode_le(bytes: &[u8], sf: SampleFormat, stride: usize, out: &mut Vec<f64>) {
+    // Division (correctly rounded) rather than a reciprocal, so code/max is exact to the ulp.
+    let code_max = sf.full_scale_code().map_or(1.0, f64::from);
+    for s in bytes.chunks_exact(stride) {
+        let v = match sf {
+            SampleFormat::F32 => f64::from(f32::from_le_bytes([s[0], s[1], s[2], s[3]])),
+            SampleFormat::F64 => {
+                f64::from_le_bytes([s[0], s[1], s[2], s[3], s[4], s[5], s[6], s[7]])
+            }
+            SampleFormat::I16 => f64::from(i16::from_le_bytes([s[0], s[1]])) / code_max,
+            SampleFormat::I24 => {
+                // Sign-extend the 3-byte value through the top byte of an i32.
+                f64::from(i32::from_le_bytes([0, s[0], s[1], s[2]]) >> 8) / code_max
+            }
+            SampleFormat::I32 => f64::from(i32::from_le_bytes([s[0], s[1], s[2], s[3]])) / code_max,
+        };
+        out.push(v);
+    }
+}
+
+/// A sample rate given by the user or a file, checked to be finite and positive (Hz).
+pub(crate) fn check_rate(rate: f64, what: &str, name: &str) -> Result<f64> {
+    if rate.is_finite() && rate > 0.0 {
+        Ok(rate)
+    } else {
+        Err(Error::input(
+            name,
+            format!("{what}: sample rate {rate} Hz must be positive"),
+        ))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn manifest_fields_parse_and_bad_ones_are_named() {
+        let m = SideManifest::parse(
+            r#"{"full_scale": 2e-6, "unit": "A", "sample_rate_hz": 1000, "sample_format": "i24", "x": 1}"#,
+            "m.json",
+        )
+        .unwrap();
+        assert_eq!(m.full_scale, Some(2e-6));
+        assert_eq!(m.unit, Some(Unit::Ampere));
+        assert_eq!(m.sample_rate_hz, Some(1000.0));
+        assert_eq!(m.sample_format, Some(SampleFormat::I24));
+        assert!(m.states_scale);
+        assert_eq!(m.band, None);
+        let m = SideManifest::parse(
+            r#"{"profile": {"band": {"low_hz": 2.0, "high_hz": 300.0, "order": 4}}}"#,
+            "m.json",
+        )
+        .unwrap();
+        assert_eq!(
+            m.band,
+            Some(Band {
+                low_hz: 2.0,
+                high_hz: 300.0,
+                order: 4
+            })
+        );
+        let m = SideManifest::parse(r#"{"full_scale": null}"#, "m.json").unwrap();
+        assert!(m.states_scale && m.full_scale.is_none());
+        let e = SideManifest::parse(r#"{"full_scale": -1}"#, "m.json").unwrap_err();
+        assert!(e.to_string().contains("m.json: full_scale"), "{e}");
+        assert_eq!(e.exit_code(), 2);
+        assert!(SideManifest::parse("[1]", "m").is_err());
+        assert!(SideManifest::parse("{", "m").is_err());
+    }
+
+    #[test]
+    fn scale_follows_the_documented_order() {
+        let digital_manifest = SideManifest {
+            full_scale: Some(3.0),
+            unit: Some(Unit::Volt),
+            states_scale: true,
+            ..Default::default()
+        };
+        let s = Scale::resolve(Values::Digital, Some(&digital_manifest), None, None).unwrap();
+        assert_eq!(
+            (s.gain, s.unit, s.origin),
+            (3.0, Some(Unit::Volt), "manifest")
+        );
+        let s = Scale::resolve(Values::Digital, Some(&digital_manifest), Some(5.0), None).unwrap();
+        assert_eq!((s.gain, s.origin), (5.0, "--full-scale"));
+        let s = Scale::resolve(Values::Digital, None, None, None).unwrap();
+        assert_eq!((s.gain, s.unit, s.symbol()), (1.0, None, "FS"));
+        let physical_manifest = SideManifest {
+            states_scale: true,
+            unit: Some(Unit::Ampere),
+            ..Default::default()
+        };
+        let s = Scale::resolve(Values::Unknown, Some(&physical_manifest), None, None).unwrap();
+        assert_eq!((s.gain, s.unit), (1.0, Some(Unit::Ampere)));
+        let e = Scale::resolve(
+            Values::Physical(Unit::Volt),
+            Some(&physical_manifest),
+            None,
+            None,
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("in V but"), "{e}");
+    }
+
+    #[test]
+    fn codes_decode_to_the_writers_digital_values() {
+        let mut out = Vec::new();
+        let bytes: Vec<u8> = [32767i16, -32767, 0, 16384]
+            .iter()
+            .flat_map(|c| c.to_le_bytes())
+            .collect();
+        decode_le(&bytes, SampleFormat::I16, 2, &mut out);
+        assert_eq!(out, [1.0, -1.0, 0.0, 16384.0 / 32767.0]);
+        out.clear();
+        // −2097152 = 0xE00000 and 8388607 = 0x7FFFFF, 3 bytes little-endian.
+        decode_le(
+            &[0x00, 0x00, 0xE0, 0xFF, 0xFF, 0x7F],
+            SampleFormat::I24,
+            3,
+            &mut out,
+        );
+        assert_eq!(out, [-2097152.0 / 8388607.0, 1.0]);
+    }
+}

@@ -1,0 +1,134 @@
+//! Headerless little-endian samples: f32, f64, i16, i24 (3 bytes packed), i32, one channel.
+//! The sample format and the rate come from the options (the command line or a manifest).
+
+use std::io::Read;
+
+use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate, decode_le, read_full};
+use crate::error::{Error, Result};
+use crate::sink::{Format, SampleFormat};
+
+/// Bytes read per block (a multiple of 2, 3, 4 and 8).
+const READ_BYTES: usize = 3 << 15;
+
+/// Streaming raw reader. Integer codes read as digital values; floats as stored, their
+/// meaning [`Values::Unknown`] (a manifest or `--full-scale` decides).
+#[derive(Debug)]
+pub struct RawSource<R: Read> {
+    input: R,
+    info: StreamInfo,
+    name: String,
+    sample_format: SampleFormat,
+    buf: Vec<u8>,
+}
+
+impl<R: Read> RawSource<R> {
+    /// Needs `options.sample_format` and `options.rate_hz`.
+    pub fn new(input: R, options: &SourceOptions) -> Result<RawSource<R>> {
+        let name = options.name.clone();
+        let sample_format = options.sample_format.ok_or_else(|| {
+            Error::option(
+                "--sample-format",
+                format!(
+                    "{name} is a raw file: say how its samples are stored (f32, f64, i16, i24 \
+                     or i32), or keep its manifest beside it"
+                ),
+            )
+        })?;
+        let rate = options.rate_hz.or(options.fallback_rate_hz).ok_or_else(|| {
+            Error::option(
+                "--rate",
+                format!(
+                    "{name} is a raw file: give its sample rate, e.g. --rate 48kHz, or keep its \
+                     manifest beside it"
+                ),
+            )
+        })?;
+        let info = StreamInfo {
+            format: Format::Raw,
+            sample_format: Some(sample_format),
+            sample_rate_hz: check_rate(rate, "--rate", &name)?,
+            frames: None,
+            channels: 1,
+            values: if sample_format.is_integer() {
+                Values::Digital
+            } else {
+                Values::Unknown
+            },
+            notes: Vec::new(),
+        };
+        Ok(RawSource {
+            input,
+            info,
+            name,
+            sample_format,
+            buf: vec![0u8; READ_BYTES],
+        })
+    }
+}
+
+impl<R: Read> SampleSource for RawSource<R> {
+    fn info(&self) -> &StreamInfo {
+        &self.info
+    }
+
+    fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize> {
+        out.clear();
+        let b = self.sample_format.bytes();
+        let want = (max.max(1) * b).min(self.buf.len() / b * b);
+        let got = read_full(&mut self.input, &mut self.buf[..want], &self.name)?;
+        if got % b != 0 {
+            return Err(Error::input(
+                &self.name,
+                format!(
+                    "truncated: the file ends inside a {b}-byte {} sample (its length is not a \
+                     whole number of samples; is --sample-format right?)",
+                    self.sample_format
+                ),
+            ));
+        }
+        decode_le(&self.buf[..got], self.sample_format, b, out);
+        Ok(out.len())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn partial_sample_is_an_error_and_options_are_required() {
+        let o = SourceOptions {
+            format: Format::Raw,
+            sample_format: Some(SampleFormat::I24),
+            rate_hz: Some(10.0),
+            fallback_rate_hz: None,
+            name: "x.i24".into(),
+        };
+        let bytes = [0u8; 3 * 5 + 2];
+        let mut s = RawSource::new(&bytes[..], &o).unwrap();
+        let e = s.read_block(&mut Vec::new(), 100).unwrap_err();
+        assert!(e.to_string().contains("x.i24: truncated"), "{e}");
+        let mut s = RawSource::new(&bytes[..15], &o).unwrap();
+        let mut v = Vec::new();
+        assert_eq!(s.read_block(&mut v, 100).unwrap(), 5);
+        assert_eq!(s.read_block(&mut v, 100).unwrap(), 0);
+        let e = RawSource::new(
+            &bytes[..],
+            &SourceOptions {
+                rate_hz: None,
+                ..o.clone()
+            },
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("--rate"), "{e}");
+        let e = RawSource::new(
+            &bytes[..],
+            &SourceOptions {
+                sample_format: None,
+                ..o
+            },
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("--sample-format"), "{e}");
+    }
+}
