@@ -15,7 +15,7 @@ use statrs::function::erf::erf;
 use crate::analysis::capture::CaptureReport;
 use crate::density::{band_gain, source_psd};
 use crate::profile::{Profile, format_quantity};
-use crate::synth::Design;
+use crate::synth::Generator;
 
 /// Picture size in pixels.
 const SIZE: (u32, u32) = (900, 540);
@@ -47,11 +47,12 @@ fn tick(v: f64, unit: &str) -> String {
 }
 
 /// The density picture. `profile` and `design` (the profile's engine at the capture's rate)
-/// add the designed density and each source's own density (band shaping applied).
+/// add the designed density (Gaussian design plus bursts) and each source's own density
+/// (band shaping applied).
 pub fn density_svg(
     r: &CaptureReport,
     profile: Option<&Profile>,
-    design: Option<&Design>,
+    design: Option<&Generator>,
 ) -> String {
     let du = format!("{}/√Hz", r.unit);
     let bands: Vec<_> = r.bands.iter().filter(|b| b.psd_mean > 0.0).collect();
@@ -165,6 +166,20 @@ pub fn density_svg(
                 chart
                     .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
                     .label(s.name.clone())
+                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
+            }
+            // Bursts: their sampled density (AC part; the mean is a line at DC).
+            let n = p.sources.len();
+            for (i, b) in design.map_or(&[][..], |d| d.bursts()).iter().enumerate() {
+                let c = palette[(n + i) % palette.len()];
+                let pts: Vec<(f64, f64)> = grid
+                    .iter()
+                    .map(|&f| (f, b.density(f).sqrt()))
+                    .filter(|q| q.1 > ylo)
+                    .collect();
+                chart
+                    .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
+                    .label(b.burst().name.clone())
                     .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
             }
         }

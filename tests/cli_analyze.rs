@@ -267,6 +267,31 @@ fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
     }
 }
 
+/// A profile with a burst: the capture of its generated file passes against the whole
+/// design (Gaussian part plus the burst's sampled Lorentzian density, REFERENCES §4) and fails
+/// against the same profile without the burst (negative control).
+#[test]
+fn a_burst_profile_is_judged_against_its_whole_design() {
+    let s = scratch("burst-verdict");
+    let body = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/profiles/popcorn-opamp.toml"
+    ))
+    .unwrap();
+    let prof = s.file("popcorn.toml", &body);
+    let cut = body.find("[[burst]]").expect("the scenario has a burst");
+    let gaussian_only = s.file("gaussian.toml", &body[..cut]);
+    let wav = s.path("popcorn.wav");
+    generate(&prof, &wav, &["--duration", "30s"]);
+    let (code, j, err) = analyze(&wav, &["--profile", prof.to_str().unwrap()]);
+    assert_eq!(code, 0, "{err} {} (seed {SEED})", j["comparison"]);
+    let (code, _, _) = analyze(&wav, &["--profile", gaussian_only.to_str().unwrap()]);
+    assert_eq!(
+        code, 1,
+        "leaving the burst out of the design must fail (seed {SEED})"
+    );
+}
+
 // ---------------------------------------------------------------------------------------------
 // The fit.
 

@@ -18,7 +18,7 @@ use crate::figure;
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{Format, SampleFormat};
 use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
-use crate::synth::design_profile;
+use crate::synth::Generator;
 
 /// Samples read per block.
 const BLOCK: usize = 1 << 16;
@@ -312,7 +312,9 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
                 ));
                 p.sample_rate_hz = fs;
             }
-            Some(design_profile(p)?)
+            // The whole designed density: the Gaussian design plus every burst's sampled
+            // density (the seed is irrelevant: only the design is used).
+            Some(Generator::new(p, 0)?)
         }
     };
     let n_hint = sample_count(&args.file, &info)?;
