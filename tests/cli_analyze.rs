@@ -292,6 +292,35 @@ fn a_burst_profile_is_judged_against_its_whole_design() {
     );
 }
 
+/// A white floor under clear burst steps: once the detected chain's own density (REFERENCES
+/// §4) is taken out, the fit finds the floor within z·SE (z = 4.89, 1e−6 two-sided,
+/// REFERENCES §11) and no 1/f rise — without that step the burst's Lorentzian reads as a
+/// corner near 1 kHz.
+#[test]
+fn the_fit_sees_the_floor_under_detected_bursts() {
+    let s = scratch("fit-burst");
+    let prof = s.file(
+        "bb.toml",
+        "sample_rate = \"10 kHz\"\n[band]\nlow = 1\nhigh = 4000\n[[floor]]\n\
+         density = \"10 nV/rtHz\"\n[[burst]]\nlevels = [\"0 uV\", \"5 uV\"]\n\
+         dwell = [\"20 ms\", \"8 ms\"]\n",
+    );
+    let wav = s.path("bb.wav");
+    generate(&prof, &wav, &["--duration", "60s"]);
+    let fit = s.path("fit.toml");
+    let (_, j, err) = analyze(&wav, &["--fit", fit.to_str().unwrap()]);
+    let f = &j["fit"];
+    assert!(f["burst"].is_object(), "levels not detected: {err} {f}");
+    let d = num(f, "floor_density");
+    let se = num(f, "floor_rel_se");
+    assert!(se < 0.02, "floor SE {se}");
+    assert!(
+        (d / 10e-9).ln().abs() < 4.89 * se,
+        "floor {d} ± {se} (seed {SEED})"
+    );
+    assert!(f["corner_hz"].is_null(), "spurious rise: {f} (seed {SEED})");
+}
+
 // ---------------------------------------------------------------------------------------------
 // The fit.
 

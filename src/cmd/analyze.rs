@@ -13,8 +13,10 @@ use crate::analysis::capture::{
 use crate::analysis::compare::{Comparison, compare, expected_band_psd};
 use crate::analysis::fit::{FitOptions, fit_floor};
 use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
+use crate::burst::BurstModel;
 use crate::error::{Error, Result};
 use crate::figure;
+use crate::profile::{Burst, BurstSampling};
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{Format, SampleFormat};
 use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
@@ -438,7 +440,34 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             .as_ref()
             .map(|p| p.band)
             .or(manifest.as_ref().and_then(|m| m.band));
-        let fit = fit_floor(&report, &FitOptions { band })?;
+        // Detected bursts add their own (Lorentzian) density: take the model of the detected
+        // chain out of the measurement first, so the floor fit sees the Gaussian part only.
+        let without_bursts = report.levels.as_ref().map(|lv| {
+            let mut r = report.clone();
+            let burst = Burst {
+                name: "detected".into(),
+                levels: lv.levels.clone(),
+                dwell_s: lv.dwell_s.clone(),
+                next: Burst::default_next(lv.levels.len()),
+                sampling: BurstSampling::Instant,
+            };
+            if let Ok(model) = BurstModel::new(&burst, fs) {
+                r.bands.retain_mut(|b| {
+                    let burst_psd =
+                        expected_band_psd(&|f| model.density(f), &r.spectrum, b.bins.clone());
+                    let rest = b.psd_mean - burst_psd;
+                    // Bands the burst dominates say little about the floor: leave them out.
+                    let keep = rest > 0.5 * b.psd_mean;
+                    b.psd_mean = rest;
+                    keep
+                });
+            }
+            r
+        });
+        let fit = fit_floor(
+            without_bursts.as_ref().unwrap_or(&report),
+            &FitOptions { band },
+        )?;
         let toml = fit.to_profile_toml(&report, &name);
         fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
         json["fit"] = fit.to_json();
