@@ -464,10 +464,12 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             }
             r
         });
-        let fit = fit_floor(
-            without_bursts.as_ref().unwrap_or(&report),
-            &FitOptions { band },
-        )?;
+        let options = FitOptions { band };
+        // When the bursts dominate nearly every band, too few remain: fit them all then.
+        let fit = match &without_bursts {
+            Some(r) => fit_floor(r, &options).or_else(|_| fit_floor(&report, &options)),
+            None => fit_floor(&report, &options),
+        }?;
         let toml = fit.to_profile_toml(&report, &name);
         fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
         json["fit"] = fit.to_json();
