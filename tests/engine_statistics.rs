@@ -8,10 +8,11 @@
 mod common;
 
 use common::{check_bands_against, chi2_band, db};
-use noisewright::analysis::welch::{Spectrum, Welch};
+use noisewright::analysis::compare::expected_band_psd;
+use noisewright::analysis::welch::Welch;
 use noisewright::density;
 use noisewright::profile::{Profile, parse_profile};
-use noisewright::synth::{Design, Generator, HOP, RATIO, Shaper, design_profile, periodic_buffer};
+use noisewright::synth::{Generator, HOP, RATIO, Shaper, design_profile, periodic_buffer};
 
 fn profile(text: &str) -> Profile {
     parse_profile(text, "<test>").unwrap()
@@ -19,80 +20,6 @@ fn profile(text: &str) -> Profile {
 
 /// z for a two-sided normal tail probability of 1e−7 (|z| > 5.327 has p = 1e−7).
 const Z_1E7: f64 = 5.327;
-
-/// Hann spectral kernel |W(x)|² at offsets `x` bins (continuous), for Welch expectations.
-struct HannKernel {
-    offsets: Vec<f64>,
-    weights: Vec<f64>,
-}
-
-impl HannKernel {
-    /// Kernel sampled every 1/8 bin over ±16 bins, normalised to unit sum. Computed from a
-    /// 1024-point periodic Hann window; the shape in bins barely depends on the length.
-    fn new() -> HannKernel {
-        let l = 1024usize;
-        let w: Vec<f64> = (0..l)
-            .map(|n| 0.5 - 0.5 * (2.0 * std::f64::consts::PI * n as f64 / l as f64).cos())
-            .collect();
-        let mut offsets = Vec::new();
-        let mut weights = Vec::new();
-        for i in -128i32..=128 {
-            let x = i as f64 / 8.0;
-            let (mut re, mut im) = (0.0, 0.0);
-            for (n, wn) in w.iter().enumerate() {
-                let ph = -2.0 * std::f64::consts::PI * x * n as f64 / l as f64;
-                re += wn * ph.cos();
-                im += wn * ph.sin();
-            }
-            offsets.push(x);
-            weights.push(re * re + im * im);
-        }
-        let s: f64 = weights.iter().sum();
-        weights.iter_mut().for_each(|v| *v /= s);
-        HannKernel { offsets, weights }
-    }
-
-    /// Expected Welch value at bin `k` of bin width `df` for a one-sided density `d`.
-    fn expect(&self, d: &dyn Fn(f64) -> f64, k: usize, df: f64) -> f64 {
-        self.offsets
-            .iter()
-            .zip(&self.weights)
-            .map(|(x, w)| w * d(((k as f64 + x) * df).abs()))
-            .sum()
-    }
-}
-
-/// Expected mean of Welch bins `bins` for the designed density: the Hann-kernel expectation
-/// bin by bin where the density curves within a few bins (low k), otherwise the density at
-/// 256 evenly spaced points across the band (the band is many ripple periods wide there).
-fn expected_band_mean(
-    design: &Design,
-    kernel: &HannKernel,
-    spec: &Spectrum,
-    bins: std::ops::Range<usize>,
-) -> f64 {
-    let df = spec.bin_width_hz();
-    let d = |f: f64| design.density(f);
-    if bins.start < 64 || bins.len() <= 64 {
-        let n = bins.len() as f64;
-        bins.map(|k| {
-            if k < 64 {
-                kernel.expect(&d, k, df)
-            } else {
-                d(k as f64 * df)
-            }
-        })
-        .sum::<f64>()
-            / n
-    } else {
-        let (a, b) = (bins.start as f64, (bins.end - 1) as f64);
-        let m = 256;
-        (0..m)
-            .map(|i| d((a + (b - a) * (i as f64 + 0.5) / m as f64) * df))
-            .sum::<f64>()
-            / m as f64
-    }
-}
 
 /// Welch density of 1/f noise over six decades (0.036 Hz … 50 kHz, 6.1 decades) against the
 /// designed density within χ² bands at a total false-failure probability of 1e−6
@@ -136,15 +63,13 @@ fn welch_density_of_one_over_f_noise_matches_design_over_six_decades() {
         "only {:.2} decades",
         (highest / lowest).log10()
     );
-    let kernel = HannKernel::new();
     let design = g.design();
+    // Expected Welch band means, Hann-kernel smoothing included at low bins.
     let by_bins: Vec<(std::ops::Range<usize>, f64)> = bands
         .iter()
         .map(|b| {
-            (
-                b.bins.clone(),
-                expected_band_mean(design, &kernel, &spec, b.bins.clone()),
-            )
+            let e = expected_band_psd(&|f| design.density(f), &spec, b.bins.clone());
+            (b.bins.clone(), e)
         })
         .collect();
     let expected = |lo: f64, _hi: f64| {
