@@ -397,15 +397,39 @@ pub(super) fn positive(
     dim: Dimension,
     unit: Unit,
 ) -> Result<f64> {
+    bounded_below(cx, v, key, dim, unit, false)
+}
+
+/// A quantity that may be 0 but not negative.
+pub(super) fn non_negative(
+    cx: &Cx<'_>,
+    v: &Spanned<Value>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+) -> Result<f64> {
+    bounded_below(cx, v, key, dim, unit, true)
+}
+
+/// A quantity above 0 (or at least 0 when `zero_ok`), with an error naming the key.
+fn bounded_below(
+    cx: &Cx<'_>,
+    v: &Spanned<Value>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+    zero_ok: bool,
+) -> Result<f64> {
     let x = spanned_quantity(cx, v, key, dim, unit)?;
-    if x > 0.0 {
+    if x > 0.0 || (zero_ok && x == 0.0) {
         Ok(x)
     } else {
         Err(cx.err(
             key,
             Some(v.span()),
             format!(
-                "must be > 0, got {}",
+                "must be {} 0, got {}",
+                if zero_ok { ">=" } else { ">" },
                 format_quantity(x, &symbol(dim, unit))
             ),
         ))

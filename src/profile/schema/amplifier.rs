@@ -65,23 +65,6 @@ pub(super) struct RawAmplifier {
     refer: Option<Spanned<String>>,
 }
 
-/// A quantity that may be 0 but not negative.
-fn non_negative(cx: &Cx<'_>, v: &Spanned<Value>, key: &str, dim: Dimension) -> Result<f64> {
-    let x = spanned_quantity(cx, v, key, dim, Unit::Volt)?;
-    if x >= 0.0 {
-        Ok(x)
-    } else {
-        Err(cx.err(
-            key,
-            Some(v.span()),
-            format!(
-                "must be >= 0, got {}",
-                format_quantity(x, &symbol(dim, Unit::Volt))
-            ),
-        ))
-    }
-}
-
 /// Validate amplifier `i` of the file and expand it into its named parts.
 pub(super) fn validate(
     cx: &Cx<'_>,
@@ -181,7 +164,13 @@ pub(super) fn validate(
     let current_corner_hz = opt_pos(&a.current_corner, "current_corner", Dimension::Frequency)?;
     let source_ohm = match &a.source_resistance {
         None => 0.0,
-        Some(v) => non_negative(cx, v, &key("source_resistance"), Dimension::Resistance)?,
+        Some(v) => non_negative(
+            cx,
+            v,
+            &key("source_resistance"),
+            Dimension::Resistance,
+            Unit::Volt,
+        )?,
     };
     let rf = a.feedback_resistance.as_ref().ok_or_else(|| {
         missing(
@@ -192,9 +181,13 @@ pub(super) fn validate(
         )
     })?;
     let feedback_ohm = match topology {
-        Topology::NonInverting => {
-            non_negative(cx, rf, &key("feedback_resistance"), Dimension::Resistance)?
-        }
+        Topology::NonInverting => non_negative(
+            cx,
+            rf,
+            &key("feedback_resistance"),
+            Dimension::Resistance,
+            Unit::Volt,
+        )?,
         Topology::Inverting => positive(
             cx,
             rf,
@@ -214,9 +207,13 @@ pub(super) fn validate(
     }
     let bias_ohm = match (&a.bias_resistance, topology) {
         (None, _) => 0.0,
-        (Some(v), Topology::Inverting) => {
-            non_negative(cx, v, &key("bias_resistance"), Dimension::Resistance)?
-        }
+        (Some(v), Topology::Inverting) => non_negative(
+            cx,
+            v,
+            &key("bias_resistance"),
+            Dimension::Resistance,
+            Unit::Volt,
+        )?,
         (Some(v), Topology::NonInverting) => {
             return Err(cx.err(
                 &key("bias_resistance"),
