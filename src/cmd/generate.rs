@@ -355,6 +355,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         sample_rate_hz: fs,
         full_scale: scale.full_scale,
         frames: samples,
+        channels: 1,
         unit: profile.unit,
     };
 

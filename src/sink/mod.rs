@@ -223,9 +223,12 @@ pub struct SinkSpec {
     /// The physical value (in `unit`) mapped to digital 1.0, e.g. 1.0 for ±1 V. `None` writes
     /// physical values; allowed only for float raw and CSV output.
     pub full_scale: Option<f64>,
-    /// Total number of samples (mono: frames) when known in advance. WAV requires it: its
-    /// header is written first and states the data size.
+    /// Total number of frames (one sample per channel) when known in advance. WAV requires
+    /// it: its header is written first and states the data size.
     pub frames: Option<u64>,
+    /// Channels per frame (1 = mono). [`Sink::write`] takes frames interleaved: channel 0 of
+    /// frame 0, channel 1 of frame 0, …, so its slice length is a multiple of this.
+    pub channels: u16,
     /// The physical unit of the samples handed to [`Sink::write`].
     pub unit: Unit,
 }
@@ -272,6 +275,15 @@ impl SinkSpec {
                     ));
                 }
             }
+        }
+        if self.channels == 0 {
+            return Err(Error::option("channels", "expected at least 1 channel"));
+        }
+        if self.channels > 1 {
+            return Err(Error::Unsupported(format!(
+                "{} channels: multi-channel output is not written yet",
+                self.channels
+            )));
         }
         if self.format == Format::Wav {
             wav::validate(self)?;
@@ -518,6 +530,7 @@ pub(crate) mod test_util {
             sample_rate_hz: 48_000.0,
             full_scale,
             frames,
+            channels: 1,
             unit: Unit::Volt,
         }
     }

@@ -316,6 +316,7 @@ mod tests {
             sample_rate_hz: 44_100.0,
             full_scale: Some(1.0),
             frames: Some(x.len() as u64),
+            channels: 1,
             unit: Unit::Volt,
         };
         let mut b = Vec::new();
