@@ -15,6 +15,7 @@ use crate::sink::{
     CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, check_wav_size, open_sink,
     rms_digital_from_dbfs, write_manifest,
 };
+use crate::synth::tone;
 use crate::synth::{Generator, periodic_buffer, periodic_variance};
 
 /// Samples produced and written per step.
@@ -127,6 +128,18 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     }
     let fs = profile.sample_rate_hz;
+    if let Some(t) = profile.tones.iter().find(|t| t.frequency_hz >= fs / 2.0) {
+        return Err(Error::option(
+            "--rate",
+            format!(
+                "{} at {} in {file} would be at or above half of {}: choose a rate above {}",
+                t.name,
+                format_quantity(t.frequency_hz, "Hz"),
+                format_quantity(fs, "Hz"),
+                format_quantity(2.0 * t.frequency_hz, "Hz")
+            ),
+        ));
+    }
 
     let target = match args.output.as_deref() {
         Some("-") => Target::Stdout,
@@ -247,6 +260,26 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         ));
     }
 
+    if let (true, Some(n)) = (args.loop_buffer, samples) {
+        for t in &profile.tones {
+            if let Err(near) = tone::loop_cycles(t.frequency_hz, fs, n) {
+                return Err(Error::option(
+                    "--loop",
+                    format!(
+                        "{} at {} in {file} does not complete a whole number of cycles in the \
+                         {n}-sample loop ({:.6} cycles), so the loop would not join seamlessly; \
+                         the nearest frequency that loops is {near} Hz, {} cycles (or change \
+                         the length)",
+                        t.name,
+                        format_quantity(t.frequency_hz, "Hz"),
+                        t.frequency_hz * n as f64 / fs,
+                        (near * n as f64 / fs).round()
+                    ),
+                ));
+            }
+        }
+    }
+
     // Engine and expected variance.
     let target_psd = |f: f64| density::target_psd(&profile, f);
     let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
@@ -254,8 +287,11 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let parts: Rc<RefCell<Vec<Vec<f64>>>> = Rc::default();
     let (mut engine, expected_variance): (Engine, f64) = if args.loop_buffer {
         let n = samples.unwrap_or(0) as usize;
-        let buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
-        let var = periodic_variance(&target_psd, fs, n);
+        let mut buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
+        // Tones (whole cycles, checked above) and the offset, from sample index 0.
+        tone::add_deterministic(&profile.tones, profile.offset, fs, 0, &mut buffer);
+        let var = periodic_variance(&target_psd, fs, n)
+            + profile.tones.iter().map(|t| t.power()).sum::<f64>();
         let mut pos = 0;
         (
             Box::new(move |out: &mut [f64]| {
@@ -274,7 +310,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             let parts = parts.clone();
             parts
                 .borrow_mut()
-                .resize(1 + profile.bursts.len(), Vec::new());
+                .resize(g.borrow().part_count(), Vec::new());
             (
                 Box::new(move |out: &mut [f64]| {
                     g.borrow_mut().fill_sources(out, &mut parts.borrow_mut())
@@ -289,11 +325,11 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     };
     // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
-    let expected_mean = generator.as_ref().map_or(0.0, |g| g.borrow().mean());
+    let expected_mean = generator
+        .as_ref()
+        .map_or(profile.offset, |g| g.borrow().mean());
     let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
-    let source_names: Vec<String> = std::iter::once("gaussian".to_string())
-        .chain(profile.bursts.iter().map(|b| b.name.clone()))
-        .collect();
+    let source_names = source_names(&profile);
     let make_sink = |spec: &SinkSpec, w: Box<dyn io::Write>| -> Result<Box<dyn Sink>> {
         if per_source {
             Ok(Box::new(SourcesSink {
@@ -424,6 +460,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             if let Some(g) = &generator {
                 burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
             }
+            tone_manifest(&mut manifest, &profile)?;
             let manifest_path = manifest_path(path);
             let mp = PendingFile::create(&manifest_path)?;
             write_manifest(&manifest, BufWriter::new(mp.file()?))?;
@@ -447,6 +484,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     if let Some(g) = &generator {
         summary += &burst_summary(&g.borrow(), &profile, expected_variance, expected_mean);
     }
+    summary += &tone_summary(&profile)?;
     Ok(summary)
 }
 
@@ -649,12 +687,16 @@ fn summary_text(
         q(band_rms),
         q(expected_rms)
     );
-    // With bursts the Gaussian convention does not hold; their summary gives the figure.
-    if profile.bursts.is_empty() {
+    // With bursts or tones the Gaussian convention does not hold; their summary gives the
+    // figure. An offset moves the samples, not their spread: p-p is 6σ of the AC part.
+    if profile.bursts.is_empty() && profile.tones.is_empty() {
+        let sigma = (expected_rms * expected_rms - profile.offset * profile.offset)
+            .max(0.0)
+            .sqrt();
         s += &format!(
             "  peak-to-peak    {} (6σ), {} (6.6σ) expected\n",
-            q(6.0 * expected_rms),
-            q(6.6 * expected_rms)
+            q(6.0 * sigma),
+            q(6.6 * sigma)
         );
     }
     s += &format!(
@@ -744,14 +786,118 @@ fn burst_manifest(
         .collect();
     extra.insert("bursts".into(), json!(bursts));
     if per_source {
-        let names: Vec<String> = std::iter::once("gaussian".to_string())
-            .chain(profile.bursts.iter().map(|b| b.name.clone()))
-            .collect();
+        let names = source_names(profile);
         extra.insert(
             "source_columns".into(),
             json!(crate::sink::source_column_names(&names, spec.unit)),
         );
     }
+}
+
+/// The names of the `--columns sources` columns: the Gaussian sum, each burst, each tone, and
+/// `offset` when the profile's offset is not 0 (the order of [`Generator::fill_sources`]).
+fn source_names(profile: &Profile) -> Vec<String> {
+    std::iter::once("gaussian".to_string())
+        .chain(profile.bursts.iter().map(|b| b.name.clone()))
+        .chain(profile.tones.iter().map(|t| t.name.clone()))
+        .chain((profile.offset != 0.0).then(|| "offset".to_string()))
+        .collect()
+}
+
+/// Each tone's expected SNR (dB) and ENOB (bits) against the profile's in-band noise (the
+/// Gaussian design plus bursts integrated over the band, [`Generator::tone_snr`]), and the
+/// in-band noise RMS (unit).
+fn tone_figures(profile: &Profile) -> Result<(Vec<(f64, f64)>, f64)> {
+    let g = Generator::new(profile, 0)?;
+    let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
+    Ok((g.tone_snr(lo, hi, 0.0), g.band_noise_power(lo, hi).sqrt()))
+}
+
+/// The manifest's deterministic keys, under `extra` (only when the profile has tones or an
+/// offset): `offset` (unit), `noise_band_rms` (unit) and `tones` (per tone: `name`,
+/// `frequency_hz`, `peak`, `rms` (unit), `phase_deg`, `snr_db`, `enob_bits`).
+fn tone_manifest(manifest: &mut Manifest, profile: &Profile) -> Result<()> {
+    use serde_json::json;
+    if profile.tones.is_empty() && profile.offset == 0.0 {
+        return Ok(());
+    }
+    let (snr, noise_rms) = tone_figures(profile)?;
+    let extra = &mut manifest.extra;
+    extra.insert("offset".into(), json!(profile.offset));
+    extra.insert("noise_band_rms".into(), json!(noise_rms));
+    let tones: Vec<serde_json::Value> = profile
+        .tones
+        .iter()
+        .zip(&snr)
+        .map(|(t, (snr_db, enob))| {
+            json!({
+                "name": t.name,
+                "frequency_hz": t.frequency_hz,
+                "peak": t.peak,
+                "rms": t.rms(),
+                "phase_deg": t.phase_rad.to_degrees(),
+                "snr_db": snr_db,
+                "enob_bits": enob,
+            })
+        })
+        .collect();
+    extra.insert("tones".into(), json!(tones));
+    Ok(())
+}
+
+/// Summary lines for the tones and offset (empty without either): per tone its frequency,
+/// peak and RMS amplitude, SNR against the in-band noise and ENOB (SINAD = SNR: no
+/// distortion is modelled), and the peak-to-peak with the tones (noise 6σ + Σ 2A).
+fn tone_summary(profile: &Profile) -> Result<String> {
+    if profile.tones.is_empty() && profile.offset == 0.0 {
+        return Ok(String::new());
+    }
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let (snr, noise_rms) = tone_figures(profile)?;
+    let mut s = String::new();
+    if profile.offset != 0.0 {
+        s += &format!(
+            "  offset          {} added to every sample (in the mean and RMS above)\n",
+            q(profile.offset)
+        );
+    }
+    for (t, (snr_db, enob)) in profile.tones.iter().zip(&snr) {
+        s += &format!(
+            "  tone            {}: {}, {} peak ({} RMS), phase {:.3} deg\n",
+            t.name,
+            format_quantity(t.frequency_hz, "Hz"),
+            q(t.peak),
+            q(t.rms()),
+            t.phase_rad.to_degrees()
+        );
+        s += &format!(
+            "                  SNR {snr_db:.2} dB against {} noise in the band, ENOB {enob:.2} bits \
+             (IEEE 1241, SINAD = SNR: no distortion modelled)\n",
+            q(noise_rms)
+        );
+    }
+    if !profile.tones.is_empty() {
+        let g = Generator::new(profile, 0)?;
+        let spans: f64 = g
+            .bursts()
+            .iter()
+            .map(|m| {
+                let l = &m.burst().levels;
+                l.iter().copied().fold(f64::MIN, f64::max)
+                    - l.iter().copied().fold(f64::MAX, f64::min)
+            })
+            .sum();
+        let sigma = g.design().variance().sqrt();
+        let tones: f64 = profile.tones.iter().map(|t| 2.0 * t.peak).sum();
+        s += &format!(
+            "  peak-to-peak    {} (Gaussian 6σ + burst spans + Σ 2·peak of the tones), {} \
+             (6.6σ + …) expected at most\n",
+            q(6.0 * sigma + spans + tones),
+            q(6.6 * sigma + spans + tones)
+        );
+    }
+    Ok(s)
 }
 
 /// Summary lines for the bursts (empty without any): the expected std and mean behind the
