@@ -101,8 +101,9 @@ impl ToneFit {
             for r in 0..m {
                 if r != c {
                     let k = a[r][c] / a[c][c];
-                    for j in c..=m {
-                        a[r][j] -= k * a[c][j];
+                    let pivot = a[c].clone();
+                    for (x, p) in a[r][c..].iter_mut().zip(&pivot[c..]) {
+                        *x -= k * p;
                     }
                 }
             }

@@ -206,3 +206,122 @@ pub(super) fn validate_offset(cx: &Cx<'_>, v: Option<&Spanned<Value>>, unit: Uni
         ),
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::parse_profile;
+    use super::super::schema::tests::profile_error;
+    use super::*;
+
+    const BASE: &str = "sample_rate = \"48 kHz\"\n[band]\nlow = 1\nhigh = \"20 kHz\"\n\
+                        [[floor]]\ndensity = \"10 nV/rtHz\"\n";
+
+    fn with(extra: &str) -> String {
+        format!("{BASE}{extra}")
+    }
+
+    #[test]
+    fn tones_and_offset_resolve_with_their_conventions() {
+        let p = parse_profile(
+            &with(
+                "offset = \"-1.65 V\"\n[[tone]]\nfrequency = \"1 kHz\"\npeak = \"2 mV\"\n\
+                 [[tone]]\nname = \"pilot\"\nfrequency = 50\nrms = \"1 mV\"\nphase = \"90 deg\"\n\
+                 [[tone]]\nfrequency = 10\npeak = 1\nphase = 45\n[[tone]]\nfrequency = 10\n\
+                 peak = 1\nphase = \"1.5 rad\"\n",
+            )
+            .replacen("offset = \"-1.65 V\"\n", "", 1)
+            .replacen("sample_rate", "offset = \"-1.65 V\"\nsample_rate", 1),
+            "t.toml",
+        )
+        .unwrap();
+        assert_eq!(p.offset, -1.65);
+        let t = &p.tones;
+        assert_eq!(t[0].name, "tone 1");
+        assert_eq!(
+            (t[0].frequency_hz, t[0].peak, t[0].phase_rad),
+            (1000.0, 2e-3, 0.0)
+        );
+        assert_eq!(t[0].convention, AmplitudeConvention::Peak);
+        assert_eq!(t[1].name, "pilot");
+        assert!((t[1].peak - 1e-3 * std::f64::consts::SQRT_2).abs() < 1e-18);
+        assert!((t[1].rms() - 1e-3).abs() < 1e-18);
+        assert_eq!(t[1].convention, AmplitudeConvention::Rms);
+        assert!((t[1].phase_rad - PI / 2.0).abs() < 1e-15);
+        assert!((t[2].phase_rad - PI / 4.0).abs() < 1e-15);
+        assert_eq!(t[3].phase_rad, 1.5);
+        let j = p.to_json();
+        assert_eq!(j["offset"], -1.65);
+        assert_eq!(j["tones"][1]["given_as"], "rms");
+        assert_eq!(j["tones"][1]["phase_deg"], 90.0);
+        assert_eq!(parse_profile(BASE, "t").unwrap().offset, 0.0);
+    }
+
+    /// Every bad tone key is refused naming the file (checked by the helper), the key and
+    /// what is expected.
+    #[test]
+    fn bad_tone_keys_name_the_key() {
+        let cases: &[(&str, &str, &str)] = &[
+            ("[[tone]]\npeak = 1\n", "tone[0].frequency", "missing"),
+            ("[[tone]]\nfrequency = 10\n", "tone[0].peak", "rms"),
+            (
+                "[[tone]]\nfrequency = 10\npeak = 1\nrms = 1\n",
+                "tone[0].rms",
+                "exactly one",
+            ),
+            (
+                "[[tone]]\nfrequency = \"24 kHz\"\npeak = 1\n",
+                "tone[0].frequency",
+                "Nyquist",
+            ),
+            (
+                "[[tone]]\nfrequency = \"30 kHz\"\npeak = 1\n",
+                "tone[0].frequency",
+                "24 kHz",
+            ),
+            (
+                "[[tone]]\nfrequency = 0\npeak = 1\n",
+                "tone[0].frequency",
+                "> 0",
+            ),
+            (
+                "[[tone]]\nfrequency = 10\npeak = \"-1 mV\"\n",
+                "tone[0].peak",
+                "> 0",
+            ),
+            (
+                "[[tone]]\nfrequency = 10\npeak = \"1 Hz\"\n",
+                "tone[0].peak",
+                "",
+            ),
+            (
+                "[[tone]]\nfrequency = 10\npeak = 1\nphase = \"90\"\n",
+                "tone[0].phase",
+                "deg",
+            ),
+            (
+                "[[tone]]\nfrequency = 10\npeak = 1\nphase = true\n",
+                "tone[0].phase",
+                "deg",
+            ),
+            (
+                "[[tone]]\nfrequency = 10\npeak = 1\nfreq = 1\n",
+                "tone[0].freq",
+                "frequency",
+            ),
+            (
+                "[tone]\nfrequency = 10\npeak = 1\n",
+                "tone",
+                "double brackets",
+            ),
+        ];
+        for (extra, key, words) in cases {
+            let (k, line, m) = profile_error(&with(extra), "bench.toml");
+            assert_eq!(&k, key, "{extra}: {m}");
+            assert!(line.is_some(), "{extra}");
+            assert!(m.contains(words), "{extra}: {m}");
+        }
+        let (k, _, m) = profile_error(&format!("offset = \"3 Hz\"\n{BASE}"), "bench.toml");
+        assert_eq!(k, "offset");
+        assert!(m.contains("amplitude"), "{m}");
+    }
+}
