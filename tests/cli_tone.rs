@@ -252,3 +252,27 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
     );
     assert_eq!(o.status.code(), Some(1), "{}", text(&o.stdout));
 }
+
+/// budget: each tone's SNR against the band's noise; a white floor e over a brick-wall band
+/// carries e²·(f_H − f_L) (REFERENCES §6), so 1 mV peak against 1 µV/√Hz over 1 Hz..5 kHz is
+/// 10·log10(0.5e−6 / 4.999e−9) dB.
+#[test]
+fn budget_lists_each_tone_with_its_snr_and_enob() {
+    let s = Scratch::new("cli-tone", "budget");
+    let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
+    let o = run(&["budget", p.to_str().unwrap(), "--json"], &s.dir);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let j: serde_json::Value = serde_json::from_str(&text(&o.stdout)).unwrap();
+    let t = &j["bands"][0]["tones"][0];
+    let want = 10.0 * (0.5e-6f64 / (1e-12 * 4999.0)).log10();
+    let snr = t["snr_db"].as_f64().unwrap();
+    assert!((snr - want).abs() < 1e-6, "{snr} vs {want}");
+    assert!((t["enob_bits"].as_f64().unwrap() - (want - 1.76) / 6.02).abs() < 1e-6);
+    assert_eq!(t["in_band"], true);
+    let o = run(&["budget", p.to_str().unwrap()], &s.dir);
+    assert!(
+        text(&o.stdout).contains("tone pilot at 1 kHz"),
+        "{}",
+        text(&o.stdout)
+    );
+}
