@@ -2,7 +2,6 @@
 //! do not complete whole cycles, per-source CSV columns, bad tone input (exit 2, file and key,
 //! no output), and `analyze` judging a tone-bearing capture fairly.
 
-#[allow(dead_code)]
 mod common;
 
 use std::path::Path;

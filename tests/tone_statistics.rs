@@ -2,7 +2,6 @@
 //! library's pull API: fitted amplitude and phase, SNR, the offset as the mean, and starts at
 //! a later sample index.
 
-#[allow(dead_code)]
 mod common;
 
 use noisewright::analysis::tones::ToneFit;
