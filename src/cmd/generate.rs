@@ -330,6 +330,11 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         .map_or(profile.offset, |g| g.borrow().mean());
     let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
     let source_names = source_names(&profile);
+    // The tones' figures need the designed noise density (also in --loop mode, which has no
+    // streaming generator): one design, only when there are tones or an offset.
+    let figures = (!profile.tones.is_empty() || profile.offset != 0.0)
+        .then(|| Generator::new(&profile, 0))
+        .transpose()?;
     let make_sink = |spec: &SinkSpec, w: Box<dyn io::Write>| -> Result<Box<dyn Sink>> {
         if per_source {
             Ok(Box::new(SourcesSink {
@@ -460,7 +465,9 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             if let Some(g) = &generator {
                 burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
             }
-            tone_manifest(&mut manifest, &profile)?;
+            if let Some(fg) = &figures {
+                tone_manifest(&mut manifest, &profile, fg);
+            }
             let manifest_path = manifest_path(path);
             let mp = PendingFile::create(&manifest_path)?;
             write_manifest(&manifest, BufWriter::new(mp.file()?))?;
@@ -484,7 +491,9 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     if let Some(g) = &generator {
         summary += &burst_summary(&g.borrow(), &profile, expected_variance, expected_mean);
     }
-    summary += &tone_summary(&profile)?;
+    if let Some(fg) = &figures {
+        summary += &tone_summary(&profile, fg);
+    }
     Ok(summary)
 }
 
@@ -807,21 +816,17 @@ fn source_names(profile: &Profile) -> Vec<String> {
 /// Each tone's expected SNR (dB) and ENOB (bits) against the profile's in-band noise (the
 /// Gaussian design plus bursts integrated over the band, [`Generator::tone_snr`]), and the
 /// in-band noise RMS (unit).
-fn tone_figures(profile: &Profile) -> Result<(Vec<(f64, f64)>, f64)> {
-    let g = Generator::new(profile, 0)?;
+fn tone_figures(profile: &Profile, g: &Generator) -> (Vec<(f64, f64)>, f64) {
     let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
-    Ok((g.tone_snr(lo, hi, 0.0), g.band_noise_power(lo, hi).sqrt()))
+    (g.tone_snr(lo, hi, 0.0), g.band_noise_power(lo, hi).sqrt())
 }
 
 /// The manifest's deterministic keys, under `extra` (only when the profile has tones or an
 /// offset): `offset` (unit), `noise_band_rms` (unit) and `tones` (per tone: `name`,
 /// `frequency_hz`, `peak`, `rms` (unit), `phase_deg`, `snr_db`, `enob_bits`).
-fn tone_manifest(manifest: &mut Manifest, profile: &Profile) -> Result<()> {
+fn tone_manifest(manifest: &mut Manifest, profile: &Profile, g: &Generator) {
     use serde_json::json;
-    if profile.tones.is_empty() && profile.offset == 0.0 {
-        return Ok(());
-    }
-    let (snr, noise_rms) = tone_figures(profile)?;
+    let (snr, noise_rms) = tone_figures(profile, g);
     let extra = &mut manifest.extra;
     extra.insert("offset".into(), json!(profile.offset));
     extra.insert("noise_band_rms".into(), json!(noise_rms));
@@ -842,19 +847,15 @@ fn tone_manifest(manifest: &mut Manifest, profile: &Profile) -> Result<()> {
         })
         .collect();
     extra.insert("tones".into(), json!(tones));
-    Ok(())
 }
 
 /// Summary lines for the tones and offset (empty without either): per tone its frequency,
 /// peak and RMS amplitude, SNR against the in-band noise and ENOB (SINAD = SNR: no
 /// distortion is modelled), and the peak-to-peak with the tones (noise 6σ + Σ 2A).
-fn tone_summary(profile: &Profile) -> Result<String> {
-    if profile.tones.is_empty() && profile.offset == 0.0 {
-        return Ok(String::new());
-    }
+fn tone_summary(profile: &Profile, g: &Generator) -> String {
     let u = profile.unit.symbol();
     let q = |v: f64| format_quantity(v, u);
-    let (snr, noise_rms) = tone_figures(profile)?;
+    let (snr, noise_rms) = tone_figures(profile, g);
     let mut s = String::new();
     if profile.offset != 0.0 {
         s += &format!(
@@ -878,7 +879,6 @@ fn tone_summary(profile: &Profile) -> Result<String> {
         );
     }
     if !profile.tones.is_empty() {
-        let g = Generator::new(profile, 0)?;
         let spans: f64 = g
             .bursts()
             .iter()
@@ -897,7 +897,7 @@ fn tone_summary(profile: &Profile) -> Result<String> {
             q(6.6 * sigma + spans + tones)
         );
     }
-    Ok(s)
+    s
 }
 
 /// Summary lines for the bursts (empty without any): the expected std and mean behind the
