@@ -29,6 +29,7 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod adc;
 pub mod amplifier;
 pub mod analysis;
 pub mod budget;

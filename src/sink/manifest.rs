@@ -5,7 +5,7 @@ use std::io::Write;
 
 use serde::Serialize;
 
-use super::{Format, SampleFormat, SinkReport, SinkSpec};
+use super::{Format, SinkReport, SinkSpec};
 use crate::analysis::stats::RunningStats;
 use crate::error::{Error, Result};
 use crate::profile::Unit;
@@ -47,11 +47,13 @@ pub struct Manifest {
     pub duration_s: f64,
     /// Output container.
     pub format: Format,
-    /// Stored sample format.
-    pub sample_format: SampleFormat,
+    /// Stored sample format: a [`SampleFormat`](super::SampleFormat) name (`f32`, `i16`, …) or, for ADC codes, the
+    /// code container (`u8`, `u16`, `u32`, `i8`, `i16`, `i32`; see `extra.adc`).
+    pub sample_format: String,
     /// Physical unit of the samples.
     pub unit: Unit,
-    /// Physical value (in `unit`) of digital 1.0; `None` when physical values were written.
+    /// Physical value (in `unit`) of digital 1.0; `None` when physical values or ADC codes
+    /// (`extra.adc`) were written.
     pub full_scale: Option<f64>,
     /// Requested RMS level in dBFS, if the level was set that way; see `dbfs_convention`.
     pub level_dbfs: Option<f64>,
@@ -95,7 +97,10 @@ impl Manifest {
             samples: report.samples,
             duration_s: report.samples as f64 / spec.sample_rate_hz,
             format: spec.format,
-            sample_format: spec.sample_format,
+            sample_format: match &spec.adc {
+                Some(adc) => adc.container().name().to_string(),
+                None => spec.sample_format.name().to_string(),
+            },
             unit: spec.unit,
             full_scale: spec.full_scale,
             level_dbfs: None,
@@ -123,6 +128,7 @@ pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
 
 #[cfg(test)]
 mod tests {
+    use super::super::SampleFormat;
     use super::super::test_util::*;
     use super::*;
 

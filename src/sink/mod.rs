@@ -19,6 +19,10 @@
 //!   `full_scale / (2^(b−1) − 1)`, which differs from the `FSR/2^b` of IEEE Std 1241 (REFERENCES
 //!   §9) by the factor `2^b/(2^b − 2)` (3·10⁻⁵ for 16 bits). Common practice; chosen so
 //!   clipping is exactly `|d| > 1.0` for every format.
+//! * ADC codes: with [`SinkSpec::adc`] every writer stores the codes of that ideal converter
+//!   instead ([`crate::adc`]: offset binary or two's complement over a physical range, in the
+//!   smallest u8/u16/u32 or i8/i16/i32 container); `full_scale` is then `None` and
+//!   `sample_format` is not used. Clipping is a sample outside the range, counted the same way.
 //! * Non-finite samples (NaN, ±∞) are refused with an error before any of the block is
 //!   encoded.
 //!
@@ -46,6 +50,7 @@ use std::str::FromStr;
 
 use serde::Serialize;
 
+use crate::adc::{Adc, Container, Quantiser};
 use crate::error::{Error, Result};
 use crate::profile::Unit;
 
@@ -68,13 +73,16 @@ pub enum Format {
 
 impl Format {
     /// The format for a file extension (with or without the dot, any case): `wav`; `csv`;
-    /// `raw`, `bin`, `f32`, `f64`, `i16`, `i24`, `i32` → [`Format::Raw`]. `None` otherwise.
+    /// `raw`, `bin`, `f32`, `f64`, `i16`, `i24`, `i32` and the ADC code containers `u8`,
+    /// `u16`, `u32`, `i8` → [`Format::Raw`]. `None` otherwise.
     pub fn from_extension(ext: &str) -> Option<Format> {
         let e = ext.strip_prefix('.').unwrap_or(ext).to_ascii_lowercase();
         match e.as_str() {
             "wav" => Some(Format::Wav),
             "csv" => Some(Format::Csv),
-            "raw" | "bin" | "f32" | "f64" | "i16" | "i24" | "i32" => Some(Format::Raw),
+            "raw" | "bin" | "f32" | "f64" | "i16" | "i24" | "i32" | "u8" | "u16" | "u32" | "i8" => {
+                Some(Format::Raw)
+            }
             _ => None,
         }
     }
@@ -231,6 +239,9 @@ pub struct SinkSpec {
     pub channels: u16,
     /// The physical unit of the samples handed to [`Sink::write`].
     pub unit: Unit,
+    /// Store the integer codes of this ideal converter instead of scaled samples (see
+    /// [`crate::adc`]); needs `full_scale: None`, ignores `sample_format`, not for WAV.
+    pub adc: Option<Adc>,
 }
 
 impl SinkSpec {
@@ -247,7 +258,27 @@ impl SinkSpec {
                 ),
             ));
         }
+        if self.adc.is_some() {
+            if let Some(fs) = self.full_scale {
+                return Err(Error::option(
+                    "--full-scale",
+                    format!(
+                        "ADC codes (--bits) are scaled by their --range; a full scale ({fs} {}) \
+                         cannot apply as well",
+                        self.unit.symbol()
+                    ),
+                ));
+            }
+            if self.format == Format::Wav {
+                return Err(Error::option(
+                    "--bits",
+                    "WAV cannot carry ADC codes as they are (WAV PCM is left-justified, signed \
+                     audio at full scale); write CSV (.csv) or raw (.raw, .bin, .u16, .i16, …)",
+                ));
+            }
+        }
         match self.full_scale {
+            _ if self.adc.is_some() => {}
             Some(fs) if !(fs.is_finite() && fs > 0.0) => {
                 return Err(Error::option(
                     "--full-scale",
@@ -338,6 +369,8 @@ pub fn open_sink<'a, W: Write + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn S
 #[derive(Debug, Clone)]
 struct Scaler {
     sample_format: SampleFormat,
+    /// The ADC's quantiser and container, when codes are written (then `gain` is `None`).
+    adc: Option<(Quantiser, Container)>,
     /// `1 / full_scale`, or `None` for physical output.
     gain: Option<f64>,
     /// `2^(b−1) − 1` as f64 for integer formats, 1.0 for floats.
@@ -349,6 +382,7 @@ impl Scaler {
     fn new(spec: &SinkSpec) -> Scaler {
         Scaler {
             sample_format: spec.sample_format,
+            adc: spec.adc.as_ref().map(|a| (a.quantiser(), a.container())),
             gain: spec.full_scale.map(|fs| 1.0 / fs),
             code_max: spec.sample_format.full_scale_code().map_or(1.0, f64::from),
             report: SinkReport::default(),
@@ -405,6 +439,21 @@ impl Scaler {
         (self.digital(x) * self.code_max).round() as i32
     }
 
+    /// The ADC code for physical `x` (only with an ADC); counts the peak and clipping.
+    #[inline]
+    fn adc_code(&mut self, x: f64) -> i64 {
+        let a = x.abs();
+        if a > self.report.peak_abs {
+            self.report.peak_abs = a;
+        }
+        let (q, _) = self.adc.as_mut().expect("an ADC spec");
+        let (code, clipped) = q.code(x);
+        if clipped {
+            self.report.clipped += 1;
+        }
+        code
+    }
+
     /// f32 value for physical `x`; beyond the f32 range (only possible without a full scale)
     /// it is clipped to ±f32::MAX and counted.
     #[inline]
@@ -420,6 +469,15 @@ impl Scaler {
 
     /// Appends the little-endian encoding of `samples` to `buf`.
     fn encode_le(&mut self, samples: &[f64], buf: &mut Vec<u8>) {
+        if let Some((_, container)) = self.adc {
+            buf.reserve(samples.len() * container.bytes());
+            for &x in samples {
+                let code = self.adc_code(x);
+                container.put_le(code, buf);
+            }
+            self.report.samples += samples.len() as u64;
+            return;
+        }
         buf.reserve(samples.len() * self.sample_format.bytes());
         match self.sample_format {
             SampleFormat::F32 => {
@@ -532,6 +590,7 @@ pub(crate) mod test_util {
             frames,
             channels: 1,
             unit: Unit::Volt,
+            adc: None,
         }
     }
 
@@ -578,7 +637,9 @@ mod tests {
         assert_eq!(Format::from_extension("wav"), Some(Format::Wav));
         assert_eq!(Format::from_extension(".WAV"), Some(Format::Wav));
         assert_eq!(Format::from_extension("csv"), Some(Format::Csv));
-        for e in ["raw", "f32", "f64", "i16", "i24", "i32", "bin", ".I24"] {
+        for e in [
+            "raw", "f32", "f64", "i16", "i24", "i32", "bin", ".I24", "u8", "u16", "u32", "i8",
+        ] {
             assert_eq!(Format::from_extension(e), Some(Format::Raw), "{e}");
         }
         assert_eq!(Format::from_extension("flac"), None);

@@ -318,6 +318,7 @@ mod tests {
             frames: Some(x.len() as u64),
             channels: 1,
             unit: Unit::Volt,
+            adc: None,
         };
         let mut b = Vec::new();
         {
