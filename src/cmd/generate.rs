@@ -663,9 +663,9 @@ fn adc_summary(a: &Adc, profile: &Profile) -> String {
         q(a.lsb())
     );
     s += &format!(
-        "  codes           code c = {} + (c − {cmin})·LSB: {cmin} = {}, {zero_code} = {} (centre), \
+        "  codes           code c stands for {} + c·LSB: {cmin} = {}, {zero_code} = {} (centre), \
          {cmax} = {}\n",
-        q(a.lo()),
+        q(a.level(0)),
         q(a.level(cmin)),
         q(a.level(zero_code)),
         q(a.level(cmax))
@@ -678,7 +678,7 @@ fn adc_summary(a: &Adc, profile: &Profile) -> String {
     s += &match a.dither() {
         Dither::None => "  dither          none\n".to_string(),
         Dither::Tpdf => format!(
-            "  dither          TPDF ±1 LSB: added noise {} RMS (Q/2), {} in all\n",
+            "  dither          TPDF ±1 LSB: total added noise {} RMS (Q/2), {} (Q/√(2·fs))\n",
             q(a.added_noise_variance().sqrt()),
             d(a.added_noise_psd(fs).sqrt())
         ),

@@ -800,6 +800,84 @@ mod tests {
         }
     }
 
+    /// ADC codes reach raw and CSV through the one Scaler: both hold exactly the codes of the
+    /// library's quantiser (dither included, blocks split unevenly), in the container the ADC
+    /// names, with samples outside the range counted as clipped.
+    #[test]
+    fn adc_codes_reach_every_writer_alike() {
+        use crate::adc::{Adc, Coding, Dither};
+        let x = gaussian(40_000, 0.6, SEED);
+        for (bits, coding, bytes) in [
+            (12, Coding::Twos, 2),
+            (12, Coding::Offset, 2),
+            (8, Coding::Offset, 1),
+            (20, Coding::Twos, 4),
+        ] {
+            let adc = Adc::new(bits, -1.65, 1.65, Some(coding), Dither::Tpdf)
+                .unwrap()
+                .with_seed(SEED);
+            let mut q = adc.quantiser();
+            let want: Vec<i64> = x.iter().map(|&v| q.code(v).0).collect();
+            let outside = x.iter().filter(|v| v.abs() > 1.65).count() as u64;
+            assert!(outside > 0, "seed {SEED}: nothing outside the range");
+            let mut s = spec(Format::Raw, SampleFormat::F32, None, None);
+            s.adc = Some(adc.clone());
+            let (b, r) = render(&s, &x).unwrap();
+            assert_eq!(b.len(), x.len() * bytes, "{bits} {coding}");
+            assert_eq!((r.samples, r.clipped), (x.len() as u64, outside));
+            let got: Vec<i64> = b
+                .chunks_exact(bytes)
+                .map(|c| {
+                    let mut w = [0u8; 8];
+                    w[..bytes].copy_from_slice(c);
+                    let u = i64::from_le_bytes(w);
+                    let sign = 1i64 << (8 * bytes - 1);
+                    if coding == Coding::Twos && u & sign != 0 {
+                        u - 2 * sign
+                    } else {
+                        u
+                    }
+                })
+                .collect();
+            assert_eq!(got, want, "raw {bits} {coding}");
+            s.format = Format::Csv;
+            let (b, r) = render(&s, &x).unwrap();
+            assert_eq!(r.clipped, outside);
+            let text = String::from_utf8(b).unwrap();
+            let mut lines = text.lines();
+            assert_eq!(
+                lines.next(),
+                Some(format!("time_s,code_{coding}_{bits}bit").as_str())
+            );
+            let csv: Vec<i64> = lines
+                .map(|l| l.split_once(',').unwrap().1.parse().unwrap())
+                .collect();
+            assert_eq!(csv, want, "csv {bits} {coding}");
+        }
+    }
+
+    #[test]
+    fn adc_specs_refuse_a_full_scale_and_wav() {
+        use crate::adc::{Adc, Dither};
+        let adc = Adc::new(12, 0.0, 3.3, None, Dither::None).unwrap();
+        let mut s = spec(Format::Raw, SampleFormat::I16, Some(1.0), None);
+        s.adc = Some(adc.clone());
+        assert!(
+            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--full-scale")
+        );
+        let mut s = spec(Format::Wav, SampleFormat::I16, None, Some(10));
+        s.adc = Some(adc);
+        let e = s.validate().unwrap_err();
+        assert!(
+            matches!(e, Error::Option { ref option, .. } if option == "--bits"),
+            "{e}"
+        );
+        assert!(e.to_string().contains("CSV"), "{e}");
+        // Integer sample formats need no full scale with an ADC.
+        s.format = Format::Raw;
+        assert!(s.validate().is_ok());
+    }
+
     #[test]
     fn writing_after_finish_is_an_error() {
         let mut sink = open_sink(
