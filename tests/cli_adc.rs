@@ -382,3 +382,28 @@ fn bad_adc_settings_exit_2_with_the_option_and_no_output() {
     assert!(e.contains("option --range:") && e.contains("in A"), "{e}");
     assert!(!s.path("y.csv").exists());
 }
+
+/// The floor note uses the noise the converter adds: 4 bits over ±1.65 V add Q/√(6·fs) =
+/// 384 µV/√Hz undithered (14.3 dB below the 2 mV/√Hz floor: no note) and Q/√(2·fs) =
+/// 665 µV/√Hz with TPDF dither (9.6 dB: a note), REFERENCES §9.
+#[test]
+fn the_floor_note_counts_the_dither() {
+    let s = Scratch::new("adc", "note");
+    let args = ["--bits", "4", "--range", "-1.65V..1.65V"];
+    let plain = generate(&s, "p.csv", &args);
+    assert!(plain.status.success(), "{}", text(&plain.stderr));
+    assert!(
+        !text(&plain.stdout).contains("note:"),
+        "{}",
+        text(&plain.stdout)
+    );
+    let d = generate(&s, "d.csv", &[&args[..], &["--dither", "tpdf"]].concat());
+    assert!(d.status.success(), "{}", text(&d.stderr));
+    let m = manifest(&s.path("d.csv"));
+    let note = m["notes"][0].as_str().unwrap_or_default();
+    assert!(
+        note.contains("4-bit ADC's added noise (TPDF dither included)") && note.contains("9.6 dB"),
+        "{}",
+        m["notes"]
+    );
+}

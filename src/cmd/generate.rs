@@ -398,7 +398,12 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     // undithered ADC codes, Q/√(2·fs) with TPDF dither (REFERENCES §9).
     let floor = match (&adc, scale.full_scale) {
         (Some(a), _) => Some((
-            format!("{}-bit ADC", a.bits()),
+            match a.dither() {
+                Dither::None => format!("{}-bit ADC's quantisation noise", a.bits()),
+                Dither::Tpdf => {
+                    format!("{}-bit ADC's added noise (TPDF dither included)", a.bits())
+                }
+            },
             a.added_noise_psd(fs).sqrt(),
             "more bits or a narrower --range",
         )),
@@ -406,7 +411,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             let bits = (sample_format.bytes() * 8) as i32;
             let lsb = 2.0 * fsc / 2f64.powi(bits);
             Some((
-                format!("{bits}-bit"),
+                format!("{bits}-bit quantisation noise"),
                 lsb / (6.0 * fs).sqrt(),
                 "more bits or a smaller full scale",
             ))
@@ -688,7 +693,8 @@ fn adc_summary(a: &Adc, profile: &Profile) -> String {
 
 /// A note when the stored codes' quantisation noise density (REFERENCES §9: IEEE Std 1241
 /// uniform-error model, Q/√(6·fs); with TPDF dither Q/√(2·fs)) comes within 10 dB of the
-/// lowest target density in the band. `what` names the codes ("16-bit"), `advice` the fix.
+/// lowest target density in the band. `what` names the noise ("16-bit quantisation noise"),
+/// `advice` the fix.
 fn quantisation_note(
     profile: &Profile,
     what: &str,
@@ -704,7 +710,7 @@ fn quantisation_note(
     let unit = format!("{}/√Hz", profile.unit.symbol());
     (margin_db < 10.0).then(|| {
         format!(
-            "the {what} quantisation noise ({}) is only {:.1} dB below the lowest density in \
+            "the {what} ({}) is only {:.1} dB below the lowest density in \
              the band ({}): use {advice}",
             format_quantity(q_density, &unit),
             margin_db,
