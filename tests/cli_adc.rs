@@ -407,3 +407,55 @@ fn the_floor_note_counts_the_dither() {
         m["notes"]
     );
 }
+
+/// `analyze` does not map codes back to levels yet; it must say so rather than read codes as
+/// digital or physical values.
+#[test]
+fn analyze_refuses_code_files_instead_of_misreading_them() {
+    let s = Scratch::new("adc", "analyze");
+    let o = generate(&s, "a.i16", &["--bits", "12", "--range", "-1.65V..1.65V"]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = run(&["analyze", "a.i16"], &s.dir);
+    let e = text(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{e}");
+    assert!(e.contains("a.i16.json") && e.contains("ADC codes"), "{e}");
+}
+
+/// numpy as the independent reader and re-implementation (tests/python/adc_ref.py): it reads
+/// each code file in the dtype the manifest's container names, finds every code equal to the
+/// documented rule applied to the physical samples, and every in-range level within half an
+/// LSB of its sample; the error RMS of this busy input (σ ≈ 360 LSB at 12 bits) is Q/√12
+/// within the uniform error's 1e−6 bound (REFERENCES §9).
+#[test]
+fn numpy_reads_the_codes_and_agrees_with_the_documented_rule() {
+    let s = Scratch::new("adc", "numpy");
+    physical(&s);
+    for (out, extra) in [
+        ("t.i16", &["--bits", "12"][..]),
+        ("o.u16", &["--bits", "12", "--code", "offset"][..]),
+        ("b.u8", &["--bits", "8", "--code", "offset"][..]),
+        ("w.i32", &["--bits", "20"][..]),
+    ] {
+        let o = generate(&s, out, &[extra, &["--range", "-1.65V..1.65V"]].concat());
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        let mut m = s.path(out).into_os_string();
+        m.push(".json");
+        let args = [s.path(out).into_os_string(), m, s.path("phys.f64").into()];
+        let Some(r) = common::python_script("adc_ref.py", &args, &format!("seed {SEED}")) else {
+            return;
+        };
+        let r: serde_json::Value = serde_json::from_str(r.lines().next().unwrap()).unwrap();
+        assert_eq!(r["n"], N as u64, "{out}");
+        assert_eq!(r["equal"], N as u64, "{out}: {r}");
+        assert!(
+            r["max_abs_error_lsb"].as_f64().unwrap() <= 0.5 + 1e-6,
+            "{out}: {r}"
+        );
+        if out == "t.i16" {
+            // Uniform error: var of the mean square is (1/80 − 1/144)/n LSB⁴ (z = 4.89).
+            let ms = r["rms_error_lsb"].as_f64().unwrap().powi(2);
+            let sd = (1.0 / 180.0 / N as f64).sqrt();
+            assert!((ms - 1.0 / 12.0).abs() < 4.8916 * sd, "{out}: {r}");
+        }
+    }
+}
