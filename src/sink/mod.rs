@@ -38,7 +38,9 @@ pub use manifest::{
     DBFS_CONVENTION, Manifest, dbfs_from_rms_digital, rms_digital_from_dbfs, write_manifest,
 };
 pub use raw::RawSink;
-pub use wav::{WavSink, check_wav_size, wav_bytes, wav_max_frames};
+pub use wav::{
+    WavContainer, WavPlan, WavSink, check_wav_size, wav_bytes, wav_header, wav_max_frames, wav_plan,
+};
 
 use std::fmt;
 use std::io::{self, Write};
