@@ -121,6 +121,69 @@ pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
     out.flush().map_err(|e| Error::io(ctx, e))
 }
 
+/// What the manifest says about the container beyond `format`, as keys for its `extra` map
+/// and notes for its `notes` (both empty for CSV and raw):
+///
+/// * WAV: `container` — `"RIFF"`, or `"RF64"` past 4 GiB (EBU Tech 3306).
+/// * npy: `npy_dtype` (e.g. `"<f4"`) and `npy_shape` (`[frames]` or `[frames, channels]`);
+///   for i24 a note that the codes are stored as `'<i4'`.
+/// * C: `c_name` (the array), `c_type` (its element type) and `c_macros` (the macro names).
+///
+/// Errors only where the spec itself cannot be written (see [`SinkSpec::validate`]).
+pub fn container_facts(
+    spec: &SinkSpec,
+) -> Result<(serde_json::Map<String, serde_json::Value>, Vec<String>)> {
+    use serde_json::json;
+    let mut keys = serde_json::Map::new();
+    let mut notes = Vec::new();
+    let frames = spec.frames.unwrap_or(0);
+    match spec.format {
+        Format::Wav => {
+            let plan = super::wav_plan(frames, spec.channels, spec.sample_format)?;
+            keys.insert("container".into(), json!(plan.container.name()));
+            if plan.container == super::WavContainer::Rf64 {
+                notes.push(
+                    "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers without \
+                     RF64 support cannot open it"
+                        .to_string(),
+                );
+            }
+        }
+        Format::Npy => {
+            keys.insert(
+                "npy_dtype".into(),
+                json!(super::npy_descr(spec.sample_format)),
+            );
+            keys.insert(
+                "npy_shape".into(),
+                json!(super::npy_shape(frames, spec.channels)),
+            );
+            if spec.sample_format == SampleFormat::I24 {
+                notes.push(
+                    "i24 codes are stored as '<i4' (int32) in the .npy file, with the values \
+                     of 24-bit codes (-8388607..8388607)"
+                        .to_string(),
+                );
+            }
+        }
+        Format::C => {
+            let name = spec.name.clone().unwrap_or_else(|| "noise".to_string());
+            let upper = name.to_ascii_uppercase();
+            keys.insert("c_type".into(), json!(super::c_type(spec.sample_format)));
+            keys.insert(
+                "c_macros".into(),
+                json!(
+                    ["LENGTH", "CHANNELS", "SAMPLE_RATE_HZ", "FULL_SCALE"]
+                        .map(|m| format!("{upper}_{m}"))
+                ),
+            );
+            keys.insert("c_name".into(), json!(name));
+        }
+        Format::Csv | Format::Raw => {}
+    }
+    Ok((keys, notes))
+}
+
 #[cfg(test)]
 mod tests {
     use super::super::test_util::*;

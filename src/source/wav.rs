@@ -352,6 +352,8 @@ mod tests {
             frames: Some(x.len() as u64),
             channels: 1,
             unit: Unit::Volt,
+            name: None,
+            provenance: Vec::new(),
         };
         let mut b = Vec::new();
         {
