@@ -194,8 +194,8 @@ mod tests {
     use super::*;
 
     /// Golden bytes from the `numpy.lib.format` description: magic, version 1.0, u16 header
-    /// length, the dict (58 bytes) padded with spaces to end in '\n' at byte 128 (10 + 118:
-    /// 64 is too short for 10 + 58 + 1).
+    /// length, the dict (57 bytes) padded with spaces to end in '\n' at byte 128 (10 + 118:
+    /// 64 is too short for 10 + 57 + 1).
     #[test]
     fn a_mono_f32_file_has_the_documented_preamble() {
         let s = spec(Format::Npy, SampleFormat::F32, Some(2.0), Some(2));
@@ -205,7 +205,7 @@ mod tests {
         want.extend_from_slice(b"\x93NUMPY\x01\x00");
         want.extend_from_slice(&118u16.to_le_bytes());
         want.extend_from_slice(dict);
-        assert_eq!(dict.len(), 58);
+        assert_eq!(dict.len(), 57);
         want.resize(127, b' ');
         want.push(b'\n');
         want.extend_from_slice(&0.5f32.to_le_bytes());
@@ -257,7 +257,7 @@ mod tests {
         s.channels = 2;
         let (b, _) = render(&s, &[1.0, -1.0, 0.5, 0.0]).unwrap();
         assert_eq!(b.len(), 128 + 16);
-        assert!(std::str::from_utf8(&b[..128]).unwrap().contains("(2, 2)"));
+        assert!(std::str::from_utf8(&b[10..128]).unwrap().contains("(2, 2)"));
         let v: Vec<i32> = b[128..]
             .chunks_exact(4)
             .map(|c| i32::from_le_bytes(c.try_into().unwrap()))
