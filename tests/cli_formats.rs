@@ -392,3 +392,56 @@ fn bad_array_requests_are_refused_with_exit_2_and_no_output() {
         assert!(left.is_empty(), "{extra:?}: left {left:?}");
     }
 }
+
+/// `analyze` reads an RF64 file: our RIFF output rewritten by hand into the EBU Tech 3306
+/// layout (ds64 chunk first, 0xFFFFFFFF size markers) gives the same statistics and
+/// density as the RIFF file itself.
+#[test]
+fn analyze_reads_rf64_like_the_same_riff_file() {
+    let dir = Scratch::new("formats", "rf64");
+    let riff = generate(&dir, "r.wav", &["--sample-format", "i16"]);
+    let b = std::fs::read(&riff).unwrap();
+    assert_eq!(&b[..4], b"RIFF");
+    // i16 RIFF: 12-byte RIFF header, fmt chunk (8 + 16), data chunk header at 36.
+    assert_eq!(&b[36..40], b"data");
+    let data_len = u32::from_le_bytes(b[40..44].try_into().unwrap()) as u64;
+    let mut r = Vec::new();
+    r.extend_from_slice(b"RF64");
+    r.extend_from_slice(&u32::MAX.to_le_bytes());
+    r.extend_from_slice(b"WAVE");
+    r.extend_from_slice(b"ds64");
+    r.extend_from_slice(&28u32.to_le_bytes());
+    r.extend_from_slice(&(b.len() as u64 + 36 - 8).to_le_bytes()); // riffSize
+    r.extend_from_slice(&data_len.to_le_bytes()); // dataSize
+    r.extend_from_slice(&SAMPLES.to_le_bytes()); // sampleCount
+    r.extend_from_slice(&0u32.to_le_bytes()); // table length
+    r.extend_from_slice(&b[12..40]); // fmt chunk and "data"
+    r.extend_from_slice(&u32::MAX.to_le_bytes());
+    r.extend_from_slice(&b[44..]);
+    let rf64 = dir.path("r64.wav");
+    std::fs::write(&rf64, &r).unwrap();
+    std::fs::copy(dir.path("r.wav.json"), dir.path("r64.wav.json")).unwrap();
+    let json = |p: &Path| -> serde_json::Value {
+        let o = nw(&["analyze", p.to_str().unwrap(), "--json"], &dir.dir);
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        serde_json::from_slice(&o.stdout).unwrap()
+    };
+    let (a, b) = (json(&riff), json(&rf64));
+    assert_eq!(b["samples"], SAMPLES);
+    for key in ["samples", "mean", "rms", "std", "min", "max", "density"] {
+        assert_eq!(a[key], b[key], "{key}");
+    }
+}
+
+/// `analyze` refuses the array formats by name instead of reading a header as samples.
+#[test]
+fn analyze_refuses_npy_and_c_headers_by_name() {
+    let dir = Scratch::new("formats", "anpy");
+    for out in ["a.npy", "a.h"] {
+        let p = generate(&dir, out, &[]);
+        let o = nw(&["analyze", p.to_str().unwrap()], &dir.dir);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{out}: {err}");
+        assert!(err.contains("not read by analyze"), "{out}: {err}");
+    }
+}
