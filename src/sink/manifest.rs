@@ -295,4 +295,29 @@ mod tests {
             assert!((got - p).abs() <= tol, "{l} dBFS: {got:e} vs {p:e}");
         }
     }
+
+    /// The manifest names the container; the switch to RF64 is the WAV writer's (one frame
+    /// past the plain RIFF limit), so nothing needs writing to see it.
+    #[test]
+    fn container_facts_follow_the_format() {
+        let max = super::super::wav_max_frames(SampleFormat::I16).unwrap();
+        for (frames, want) in [(max, "RIFF"), (max + 1, "RF64")] {
+            let s = spec(Format::Wav, SampleFormat::I16, Some(1.0), Some(frames));
+            let (keys, notes) = container_facts(&s).unwrap();
+            assert_eq!(keys["container"], want);
+            assert_eq!(notes.len(), usize::from(want == "RF64"));
+        }
+        let s = spec(Format::Npy, SampleFormat::I24, Some(1.0), Some(9));
+        let (keys, notes) = container_facts(&s).unwrap();
+        assert_eq!(keys["npy_dtype"], "<i4");
+        assert_eq!(keys["npy_shape"], serde_json::json!([9]));
+        assert!(notes[0].contains("'<i4'"));
+        let mut s = spec(Format::C, SampleFormat::I16, Some(1.0), Some(9));
+        s.name = Some("trace".into());
+        let (keys, _) = container_facts(&s).unwrap();
+        assert_eq!(keys["c_type"], "int16_t");
+        assert_eq!(keys["c_macros"][0], "TRACE_LENGTH");
+        let s = spec(Format::Raw, SampleFormat::I16, Some(1.0), None);
+        assert!(container_facts(&s).unwrap().0.is_empty());
+    }
 }
