@@ -249,25 +249,16 @@ impl<W: Write> CHeaderSink<W> {
 
     /// Appends one value as C source text.
     fn push(&mut self, x: f64) {
-        use std::fmt::Write as _;
+        // Writing into a Vec<u8> cannot fail.
         let buf = &mut self.out.buf;
         buf.extend_from_slice(if self.column == 0 { b"    " } else { b" " });
-        let mut text = String::new();
-        match self.scaler.sample_format {
-            SampleFormat::F32 => {
-                let v = self.scaler.f32_value(x);
-                let _ = write!(text, "{v:.8e}f,");
-            }
-            SampleFormat::F64 => {
-                let v = self.scaler.digital(x);
-                let _ = write!(text, "{},", c_double(v));
-            }
+        let _ = match self.scaler.sample_format {
+            SampleFormat::F32 => write!(buf, "{:.8e}f,", self.scaler.f32_value(x)),
+            SampleFormat::F64 => write!(buf, "{},", c_double(self.scaler.digital(x))),
             SampleFormat::I16 | SampleFormat::I24 | SampleFormat::I32 => {
-                let _ = write!(text, "{},", self.scaler.code(x));
+                write!(buf, "{},", self.scaler.code(x))
             }
-        }
-        let buf = &mut self.out.buf;
-        buf.extend_from_slice(text.as_bytes());
+        };
         self.column += 1;
         if self.column == PER_LINE {
             buf.push(b'\n');
@@ -484,5 +475,15 @@ mod tests {
         let s = spec(Format::C, SampleFormat::F32, Some(1.0), Some(0));
         let e = super::super::open_sink(&s, Vec::new()).err().unwrap();
         assert!(e.to_string().contains("at least one"), "{e}");
+    }
+
+    /// Two channels: the macros say so and the frames are interleaved rows.
+    #[test]
+    fn two_channels_are_declared_and_interleaved() {
+        let mut s = spec(Format::C, SampleFormat::I16, Some(1.0), Some(2));
+        s.channels = 2;
+        let h = String::from_utf8(render(&s, &[1.0, -1.0, 0.0, 0.5]).unwrap().0).unwrap();
+        assert!(h.contains("#define NOISE_LENGTH 2 /* frames */\n#define NOISE_CHANNELS 2\n"));
+        assert!(h.contains("    32767, -32767, 0, 16384,\n};"), "{h}");
     }
 }
