@@ -1,8 +1,9 @@
 //! RIFF/WAVE reader on any `Read` (no `Seek`): PCM 16/24/32-bit and IEEE float 32/64-bit,
 //! with plain (`fmt ` tags 1 and 3) or WAVE_FORMAT_EXTENSIBLE (tag 0xFFFE, PCM or float
 //! SubFormat GUID) headers (Microsoft RIFF/WAVE 1.0 and Rev. 3; WAVEFORMATEXTENSIBLE;
-//! REFERENCES §10), in a RIFF or an RF64 container (EBU Tech 3306: the `ds64` chunk's
-//! 64-bit data size replaces the `data` chunk's 0xFFFFFFFF).
+//! REFERENCES §10), in a RIFF or an RF64 container (EBU Tech 3306, also under ITU-R
+//! BS.2088's id BW64: the `ds64` chunk's 64-bit data size replaces the `data` chunk's
+//! 0xFFFFFFFF).
 //!
 //! Chunks before `data` that are not `fmt ` (`fact`, `LIST`, `JUNK`, ...) are skipped, with
 //! their pad byte. A `data` size of 0xFFFFFFFF or 0 (placeholders of writers that stream) is
@@ -63,7 +64,8 @@ impl<R: Read> WavSource<R> {
                 "not a WAV file: {got} bytes, shorter than the 12-byte RIFF header"
             )));
         }
-        let rf64 = &head[0..4] == b"RF64";
+        // ITU-R BS.2088's BW64 uses RF64's layout under its own id (REFERENCES §10).
+        let rf64 = &head[0..4] == b"RF64" || &head[0..4] == b"BW64";
         if !(&head[0..4] == b"RIFF" || rf64) || &head[8..12] != b"WAVE" {
             return Err(bad(format!(
                 "not a WAV file: it starts with {:?}, not \"RIFF....WAVE\" or \"RF64....WAVE\"",
@@ -171,7 +173,10 @@ impl<R: Read> WavSource<R> {
                     }
                     check_rate(sample_rate_hz, "the header", &name)?;
                     if rf64 {
-                        notes.push("RF64 container (EBU Tech 3306)".to_string());
+                        notes.push(format!(
+                            "{} container (64-bit sizes, EBU Tech 3306)",
+                            String::from_utf8_lossy(&head[0..4])
+                        ));
                     }
                     let info = StreamInfo {
                         format: Format::Wav,
@@ -475,6 +480,10 @@ mod tests {
         );
         let want: Vec<f64> = codes.iter().map(|&c| f64::from(c) / 32_767.0).collect();
         assert_eq!(y, want);
+        // BW64 is the same layout under another id.
+        let mut c = b.clone();
+        c[0..4].copy_from_slice(b"BW64");
+        assert_eq!(read_all(&c).unwrap().1, want);
         // Without ds64 first it is refused with the reason.
         let mut c = b.clone();
         c[12..16].copy_from_slice(b"JUNK");
