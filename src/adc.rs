@@ -208,6 +208,31 @@ impl Container {
         matches!(self, Container::I8 | Container::I16 | Container::I32)
     }
 
+    /// numpy's dtype string for the container (`'|u1'`, `'<u2'`, `'<u4'`, `'|i1'`, `'<i2'`,
+    /// `'<i4'`), as a `.npy` header's `descr`.
+    pub fn npy_descr(self) -> &'static str {
+        match self {
+            Container::U8 => "|u1",
+            Container::U16 => "<u2",
+            Container::U32 => "<u4",
+            Container::I8 => "|i1",
+            Container::I16 => "<i2",
+            Container::I32 => "<i4",
+        }
+    }
+
+    /// The `<stdint.h>` type of the container (`uint8_t` … `int32_t`).
+    pub fn c_type(self) -> &'static str {
+        match self {
+            Container::U8 => "uint8_t",
+            Container::U16 => "uint16_t",
+            Container::U32 => "uint32_t",
+            Container::I8 => "int8_t",
+            Container::I16 => "int16_t",
+            Container::I32 => "int32_t",
+        }
+    }
+
     /// The container named by a file extension (with or without the dot, any case).
     pub fn from_extension(ext: &str) -> Option<Container> {
         let e = ext.strip_prefix('.').unwrap_or(ext).to_ascii_lowercase();

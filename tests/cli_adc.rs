@@ -459,3 +459,51 @@ fn numpy_reads_the_codes_and_agrees_with_the_documented_rule() {
         }
     }
 }
+
+/// The array writers get the same codes through the shared Scaler: the .npy data after its
+/// header are the raw file's bytes, its `descr` is the container's dtype, and the C array
+/// holds the same numbers with the container's `<stdint.h>` type and the level macros.
+#[test]
+fn npy_and_c_arrays_hold_the_raw_codes() {
+    let s = Scratch::new("adc", "arrays");
+    for (bits, coding, raw, descr, ctype) in [
+        ("12", "twos", "a.i16", "'<i2'", "int16_t"),
+        ("8", "offset", "a.u8", "'|u1'", "uint8_t"),
+    ] {
+        let args = ["--bits", bits, "--code", coding, "--range", "-1.65V..1.65V"];
+        for out in [raw, "a.npy", "a.h"] {
+            let name: &[&str] = if out == "a.h" {
+                &["--name", "codes"]
+            } else {
+                &[]
+            };
+            let o = generate(&s, out, &[&args[..], name].concat());
+            assert!(o.status.success(), "{out}: {}", text(&o.stderr));
+        }
+        let raw_bytes = std::fs::read(s.path(raw)).unwrap();
+        let npy = std::fs::read(s.path("a.npy")).unwrap();
+        let header_len = usize::from(u16::from_le_bytes([npy[8], npy[9]]));
+        let header = String::from_utf8_lossy(&npy[10..10 + header_len]).into_owned();
+        assert!(header.contains(&format!("'descr': {descr}")), "{header}");
+        assert_eq!(&npy[10 + header_len..], &raw_bytes[..], "{bits} {coding}");
+        let h = std::fs::read_to_string(s.path("a.h")).unwrap();
+        assert!(h.contains(&format!("static const {ctype} codes[")), "{h}");
+        assert!(h.contains("#define CODES_LSB ") && h.contains("CODES_CODE_ZERO_LEVEL"));
+        let body = &h[h.find('{').unwrap() + 1..h.find("};").unwrap()];
+        let values: Vec<i64> = body
+            .split(',')
+            .map(str::trim)
+            .filter(|v| !v.is_empty())
+            .map(|v| v.parse().unwrap())
+            .collect();
+        let want: Vec<i64> = if coding == "twos" {
+            raw_bytes
+                .chunks_exact(2)
+                .map(|c| i64::from(i16::from_le_bytes([c[0], c[1]])))
+                .collect()
+        } else {
+            raw_bytes.iter().map(|&b| i64::from(b)).collect()
+        };
+        assert_eq!(values, want, "{bits} {coding}");
+    }
+}

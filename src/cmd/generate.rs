@@ -51,9 +51,13 @@ pub struct GenerateArgs {
     /// Write one periodic buffer whose end joins its start (for generators that repeat a buffer).
     #[arg(long = "loop")]
     pub loop_buffer: bool,
-    /// Output format: wav, csv or raw. Default: from the extension of OUT.
+    /// Output format: wav, csv, raw, npy or c (a C header). Default: from the extension of OUT.
     #[arg(long, value_name = "FORMAT")]
     pub format: Option<String>,
+    /// Name of the C array (--format c), a C identifier; its macros are NAME_LENGTH etc.
+    /// Default: the output file's stem, made a valid identifier.
+    #[arg(long, value_name = "NAME")]
+    pub name: Option<String>,
     /// Sample format: f32, f64 (raw/CSV only), i16, i24 or i32. Default: the extension of a
     /// raw file (.i16, .i24, .i32, .f64), else f32.
     #[arg(long = "sample-format", value_name = "F")]
@@ -172,7 +176,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                         "--output",
                         format!(
                             "cannot tell the format of {} from its extension: use .wav, .csv, \
-                         .raw/.f32/.i16/.bin, or give --format",
+                         .raw/.f32/.i16/.bin, .npy, .h, or give --format",
                             p.display()
                         ),
                     )
@@ -225,6 +229,39 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 .unwrap_or(SampleFormat::F32),
             _ => SampleFormat::F32,
         },
+    };
+
+    if matches!(format, Format::Npy | Format::C) {
+        if let Target::Stdout = target {
+            return Err(Error::option(
+                "--output",
+                format!(
+                    "{format} output is written to a file (standard output carries streams, and \
+                     its header needs the sample count); give -o FILE.{}",
+                    if format == Format::Npy { "npy" } else { "h" }
+                ),
+            ));
+        }
+    }
+    let array_name = match (&args.name, format, &target) {
+        (Some(n), Format::C, _) => {
+            crate::sink::validate_array_name(n)?;
+            Some(n.clone())
+        }
+        (Some(_), _, _) => {
+            return Err(Error::option(
+                "--name",
+                format!(
+                    "names the array of a C header, but the output is {format}; write a .h \
+                     file or give --format c"
+                ),
+            ));
+        }
+        (None, Format::C, Target::File(p)) => Some(crate::sink::default_array_name(
+            &p.file_stem()
+                .map_or(String::new(), |s| s.to_string_lossy().into_owned()),
+        )),
+        (None, _, _) => None,
     };
 
     // Length.
@@ -437,9 +474,19 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         channels: 1,
         unit: profile.unit,
         adc: adc.clone(),
+        name: array_name,
+        provenance: vec![
+            format!(
+                "profile: {} ({file})",
+                profile.name.as_deref().unwrap_or("(unnamed profile)")
+            ),
+            format!("seed: {}", args.seed),
+        ],
     };
     // Refuse what the format cannot hold before any file or folder is made.
     spec.validate()?;
+    let (container_keys, container_notes) = crate::sink::container_facts(&spec)?;
+    notes.extend(container_notes);
 
     let mut stats = RunningStats::new();
     let progress = progress_bar(samples);
@@ -520,6 +567,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             manifest.level_dbfs = scale.level_dbfs;
             manifest.looped = args.loop_buffer;
             manifest.notes = notes.clone();
+            manifest.extra.extend(container_keys);
             if let Some(a) = &adc {
                 manifest.extra.insert("adc".into(), a.to_json(fs));
             }

@@ -1,4 +1,5 @@
-//! Writers behind one [`Sink`] trait: WAV, CSV, raw; the manifest.
+//! Writers behind one [`Sink`] trait: WAV (RF64 past 4 GiB), CSV, raw, numpy `.npy`, C
+//! header arrays; the manifest.
 //!
 //! Engines hand a sink blocks of **physical** samples (the profile's [`Unit`], volts or
 //! amperes). The sink scales them to digital units, clips, quantises and encodes them; the
@@ -32,17 +33,24 @@
 //!
 //! [`Unit`]: crate::profile::Unit
 
+mod c_header;
 mod csv;
 mod manifest;
+mod npy;
 mod raw;
 mod wav;
 
+pub use c_header::{CHeaderSink, c_spec_type, c_type, default_array_name, validate_array_name};
 pub use csv::{CsvSink, source_column_names};
 pub use manifest::{
-    DBFS_CONVENTION, Manifest, dbfs_from_rms_digital, rms_digital_from_dbfs, write_manifest,
+    DBFS_CONVENTION, Manifest, container_facts, dbfs_from_rms_digital, rms_digital_from_dbfs,
+    write_manifest,
 };
+pub use npy::{NpySink, npy_descr, npy_header, npy_shape, npy_spec_descr};
 pub use raw::RawSink;
-pub use wav::{WavSink, check_wav_size, wav_bytes, wav_max_frames};
+pub use wav::{
+    WavContainer, WavPlan, WavSink, check_wav_size, wav_bytes, wav_header, wav_max_frames, wav_plan,
+};
 
 use std::fmt;
 use std::io::{self, Write};
@@ -69,12 +77,16 @@ pub enum Format {
     Csv,
     /// Headerless little-endian samples.
     Raw,
+    /// numpy's `.npy` array file (NEP 1 / `numpy.lib.format`): a header, then the samples.
+    Npy,
+    /// A C header (`.h`) holding a `static const` array and macros for its length and scale.
+    C,
 }
 
 impl Format {
     /// The format for a file extension (with or without the dot, any case): `wav`; `csv`;
     /// `raw`, `bin`, `f32`, `f64`, `i16`, `i24`, `i32` and the ADC code containers `u8`,
-    /// `u16`, `u32`, `i8` → [`Format::Raw`]. `None` otherwise.
+    /// `u16`, `u32`, `i8` → [`Format::Raw`]; `npy`; `h` → [`Format::C`]. `None` otherwise.
     pub fn from_extension(ext: &str) -> Option<Format> {
         let e = ext.strip_prefix('.').unwrap_or(ext).to_ascii_lowercase();
         match e.as_str() {
@@ -83,17 +95,37 @@ impl Format {
             "raw" | "bin" | "f32" | "f64" | "i16" | "i24" | "i32" | "u8" | "u16" | "u32" | "i8" => {
                 Some(Format::Raw)
             }
+            "npy" => Some(Format::Npy),
+            "h" => Some(Format::C),
             _ => None,
         }
     }
 
-    /// The format's name as accepted by [`FromStr`]: `"wav"`, `"csv"` or `"raw"`.
+    /// Every format, in a fixed order.
+    pub const ALL: [Format; 5] = [
+        Format::Wav,
+        Format::Csv,
+        Format::Raw,
+        Format::Npy,
+        Format::C,
+    ];
+
+    /// The format's name as accepted by [`FromStr`]: `"wav"`, `"csv"`, `"raw"`, `"npy"` or
+    /// `"c"`.
     pub fn name(self) -> &'static str {
         match self {
             Format::Wav => "wav",
             Format::Csv => "csv",
             Format::Raw => "raw",
+            Format::Npy => "npy",
+            Format::C => "c",
         }
+    }
+
+    /// True for the formats whose header states the sample count, so it must be known
+    /// before the first sample ([`SinkSpec::frames`]).
+    pub fn needs_frames(self) -> bool {
+        matches!(self, Format::Wav | Format::Npy | Format::C)
     }
 }
 
@@ -106,17 +138,18 @@ impl fmt::Display for Format {
 impl FromStr for Format {
     type Err = Error;
 
-    /// Parses `wav`, `csv` or `raw` (any case).
+    /// Parses `wav`, `csv`, `raw`, `npy` or `c` (any case).
     fn from_str(s: &str) -> Result<Format> {
-        match s.to_ascii_lowercase().as_str() {
-            "wav" => Ok(Format::Wav),
-            "csv" => Ok(Format::Csv),
-            "raw" => Ok(Format::Raw),
-            _ => Err(Error::option(
-                "--format",
-                format!("unknown format \"{s}\"; expected wav, csv or raw"),
-            )),
-        }
+        let l = s.to_ascii_lowercase();
+        Format::ALL
+            .into_iter()
+            .find(|f| f.name() == l)
+            .ok_or_else(|| {
+                Error::option(
+                    "--format",
+                    format!("unknown format \"{s}\"; expected wav, csv, raw, npy or c"),
+                )
+            })
     }
 }
 
@@ -242,6 +275,12 @@ pub struct SinkSpec {
     /// Store the integer codes of this ideal converter instead of scaled samples (see
     /// [`crate::adc`]); needs `full_scale: None`, ignores `sample_format`, not for WAV.
     pub adc: Option<Adc>,
+    /// The identifier of the data, for formats that name it (the C array; its macros are the
+    /// name in capitals). `None`: [`default_array_name`] of nothing, `noise`.
+    pub name: Option<String>,
+    /// Where the data came from (profile, seed, version), one line each, for formats that
+    /// can carry comments (the C header writes them in its leading comment).
+    pub provenance: Vec<String>,
 }
 
 impl SinkSpec {
@@ -273,7 +312,8 @@ impl SinkSpec {
                 return Err(Error::option(
                     "--bits",
                     "WAV cannot carry ADC codes as they are (WAV PCM is left-justified, signed \
-                     audio at full scale); write CSV (.csv) or raw (.raw, .bin, .u16, .i16, …)",
+                     audio at full scale); write CSV (.csv), raw (.raw, .bin, .u16, .i16, …), .npy \
+                     or a C header (.h)",
                 ));
             }
         }
@@ -310,14 +350,28 @@ impl SinkSpec {
         if self.channels == 0 {
             return Err(Error::option("channels", "expected at least 1 channel"));
         }
-        if self.channels > 1 {
+        if self.channels > 1 && !matches!(self.format, Format::Npy | Format::C) {
             return Err(Error::Unsupported(format!(
-                "{} channels: multi-channel output is not written yet",
-                self.channels
+                "{} channels: multi-channel {} output is not written yet",
+                self.channels, self.format
             )));
         }
-        if self.format == Format::Wav {
-            wav::validate(self)?;
+        match self.format {
+            Format::Wav => wav::validate(self)?,
+            Format::Npy | Format::C => {
+                if self.frames.is_none() {
+                    return Err(Error::Unsupported(format!(
+                        "{} output states its length in its header, so the sample count must \
+                         be known before the first sample; give a duration (not inf) or \
+                         --samples",
+                        self.format
+                    )));
+                }
+                if self.format == Format::C {
+                    validate_array_name(self.name.as_deref().unwrap_or("noise"))?;
+                }
+            }
+            Format::Csv | Format::Raw => {}
         }
         Ok(())
     }
@@ -362,6 +416,8 @@ pub fn open_sink<'a, W: Write + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn S
         Format::Wav => Box::new(WavSink::new(spec, out)?),
         Format::Csv => Box::new(CsvSink::new(spec, out)?),
         Format::Raw => Box::new(RawSink::new(spec, out)?),
+        Format::Npy => Box::new(NpySink::new(spec, out)?),
+        Format::C => Box::new(CHeaderSink::new(spec, out)?),
     })
 }
 
@@ -591,6 +647,8 @@ pub(crate) mod test_util {
             channels: 1,
             unit: Unit::Volt,
             adc: None,
+            name: None,
+            provenance: Vec::new(),
         }
     }
 

@@ -96,6 +96,16 @@ pub fn open_source<'a, R: Read + 'a>(
         Format::Wav => Box::new(WavSource::new(input, options)?),
         Format::Csv => Box::new(CsvSource::new(input, options)?),
         Format::Raw => Box::new(RawSource::new(input, options)?),
+        Format::Npy | Format::C => {
+            return Err(Error::input(
+                &options.name,
+                format!(
+                    "{} files are not read by analyze; analyse the raw or WAV output of the \
+                     same run instead",
+                    options.format
+                ),
+            ));
+        }
     })
 }
 
