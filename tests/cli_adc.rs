@@ -507,3 +507,124 @@ fn npy_and_c_arrays_hold_the_raw_codes() {
         assert_eq!(values, want, "{bits} {coding}");
     }
 }
+
+/// The C header of ADC codes compiles without warnings (C99, -Wall -Wextra -pedantic
+/// -Werror), also with the extreme codes of 32-bit containers (clipped input reaches them),
+/// and a program reading it sees the raw file's codes and `_BITS`, `_LSB` (bit for bit the
+/// manifest's) and `_CODE_ZERO_LEVEL`.
+#[test]
+fn adc_c_header_compiles_and_holds_the_codes() {
+    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".to_string());
+    if !Command::new(&cc)
+        .arg("--version")
+        .output()
+        .is_ok_and(|o| o.status.success())
+    {
+        println!("skipped: no C compiler (cc or $CC) was found to compile the header");
+        return;
+    }
+    let s = Scratch::new("adc", "cc");
+    for (i, (bits, coding, raw, ctype)) in [
+        ("32", "twos", "r.i32", "int32_t"),
+        ("32", "offset", "r.u32", "uint32_t"),
+        ("6", "offset", "r.u8", "uint8_t"),
+        ("8", "twos", "r.i8", "int8_t"),
+    ]
+    .into_iter()
+    .enumerate()
+    {
+        let args = [
+            "--bits",
+            bits,
+            "--code",
+            coding,
+            "--range",
+            "-0.3V..0.3V",
+            "--allow-clipping",
+        ];
+        let name = format!("adc_{i}");
+        let h = format!("h{i}.h");
+        let o = generate(&s, &h, &[&args[..], &["--name", &name]].concat());
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        let o = generate(&s, raw, &args);
+        assert!(o.status.success(), "{}", text(&o.stderr));
+        let up = name.to_ascii_uppercase();
+        let src = s.file(
+            &format!("p{i}.c"),
+            &format!(
+                r#"#include <inttypes.h>
+#include <stdio.h>
+#include <string.h>
+#include "{h}"
+
+int main(void) {{
+    double lsb = {up}_LSB, zero = {up}_CODE_ZERO_LEVEL;
+    uint64_t b;
+    memcpy(&b, &lsb, 8);
+    printf("%d %016" PRIx64 " %.17g\n", (int){up}_BITS, b, zero);
+    for (size_t i = 0; i < {up}_LENGTH * {up}_CHANNELS; i++) {{
+        printf("%lld\n", (long long){name}[i]);
+    }}
+    return 0;
+}}
+"#
+            ),
+        );
+        let exe = s.path(&format!("p{i}"));
+        let o = Command::new(&cc)
+            .args(["-std=c99", "-Wall", "-Wextra", "-pedantic", "-Werror", "-o"])
+            .arg(&exe)
+            .arg(&src)
+            .current_dir(&s.dir)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{bits} {coding}: {}", text(&o.stderr));
+        let out = text(&Command::new(&exe).output().unwrap().stdout);
+        let mut lines = out.lines();
+        let head: Vec<&str> = lines.next().unwrap().split(' ').collect();
+        let a = &manifest(&s.path(&h))["extra"]["adc"];
+        assert_eq!(head[0], bits);
+        let lsb = a["lsb"].as_f64().unwrap();
+        assert_eq!(
+            head[1],
+            format!("{:016x}", lsb.to_bits()),
+            "{bits} {coding}"
+        );
+        let zero: f64 = head[2].parse().unwrap();
+        let want_zero = if coding == "twos" { 0.0 } else { -0.3 };
+        assert!((zero - want_zero).abs() < 1e-15, "{zero}");
+        let got: Vec<i64> = lines.map(|l| l.parse().unwrap()).collect();
+        let bytes = std::fs::read(s.path(raw)).unwrap();
+        let width = bytes.len() / N;
+        let want: Vec<i64> = bytes
+            .chunks_exact(width)
+            .map(|c| {
+                let mut w = [0u8; 8];
+                w[..width].copy_from_slice(c);
+                let u = i64::from_le_bytes(w);
+                let sign = 1i64 << (8 * width - 1);
+                if coding == "twos" && u & sign != 0 {
+                    u - 2 * sign
+                } else {
+                    u
+                }
+            })
+            .collect();
+        assert_eq!(got, want, "{bits} {coding}");
+        assert!(
+            reaches_both_ends(&got, a),
+            "{bits} {coding}: end codes not reached"
+        );
+        assert!(
+            std::fs::read_to_string(s.path(&h))
+                .unwrap()
+                .contains(&format!("static const {ctype} {name}["))
+        );
+    }
+}
+
+/// True when both end codes of the manifest's converter occur in `codes`.
+fn reaches_both_ends(codes: &[i64], adc: &serde_json::Value) -> bool {
+    let (lo, hi) = (adc["code_min"].as_i64(), adc["code_max"].as_i64());
+    codes.iter().any(|&c| Some(c) == lo) && codes.iter().any(|&c| Some(c) == hi)
+}

@@ -328,8 +328,13 @@ fn preamble(spec: &SinkSpec, frames: u64) -> String {
         None => scale_note,
     };
     s += &format!(" * scale: {}\n", comment_safe(&scale_note));
-    s += " * Before sending these values to a DAC or amplifier, check the full scale against\n";
-    s += " * the device's range; at high levels noise can damage hearing and speakers.\n */\n";
+    if spec.adc.is_some() {
+        s += " * Before feeding these codes to a DAC, firmware or a rig, check the range against\n";
+        s += " * the converter's reference and input limits and what follows it.\n */\n";
+    } else {
+        s += " * Before sending these values to a DAC or amplifier, check the full scale against\n";
+        s += " * the device's range; at high levels noise can damage hearing and speakers.\n */\n";
+    }
     s += &format!("#ifndef {upper}_H\n#define {upper}_H\n\n#include <stdint.h>\n\n");
     s += &format!("#define {upper}_LENGTH {frames} /* frames */\n");
     s += &format!("#define {upper}_CHANNELS {}\n", spec.channels);
