@@ -275,3 +275,40 @@ fn budget_lists_each_tone_with_its_snr_and_enob() {
         text(&o.stdout)
     );
 }
+
+/// With ADC codes the manifest adds each tone's SNR with the converter's quantisation noise in
+/// the band: Q²/12 spread evenly over 0…fs/2 (REFERENCES §9, uniform error model), Q = 3.3 V /
+/// 2^12 here, so the in-band part is Q²/12·(f_H − f_L)/(fs/2).
+#[test]
+fn adc_codes_add_the_quantisation_noise_to_the_snr() {
+    let s = Scratch::new("cli-tone", "adc");
+    let body = format!("{HEAD}{TONES}").replace("offset = \"0.5 mV\"", "offset = \"1.65 V\"");
+    let p = s.file("t.toml", &body);
+    let o = run(
+        &[
+            "generate",
+            p.to_str().unwrap(),
+            "-o",
+            "a.csv",
+            "--samples",
+            "1000",
+            "--bits",
+            "12",
+            "--range",
+            "0V..3.3V",
+        ],
+        &s.dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let m: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(s.path("a.csv.json")).unwrap()).unwrap();
+    let x = &m["extra"];
+    let noise = x["noise_band_rms"].as_f64().unwrap().powi(2);
+    let q = 3.3 / 4096.0;
+    let quant = q * q / 12.0 * (5000.0 - 1.0) / 5000.0;
+    let want = 10.0 * (0.5e-6 / (noise + quant)).log10();
+    let got = x["tones"][0]["snr_with_adc_db"].as_f64().unwrap();
+    assert!((got - want).abs() < 1e-9, "{got} vs {want}");
+    let e = x["tones"][0]["enob_with_adc_bits"].as_f64().unwrap();
+    assert!((e - (want - 1.76) / 6.02).abs() < 1e-9);
+}
