@@ -2,9 +2,14 @@
 # Side-by-side benchmark: `noisewright generate` against a vectorised numpy script
 # (benches/numpy_reference.py) on the same job — white floor 4 nV/√Hz with a 100 Hz corner,
 # 48 kHz, f32 WAV at -20 dBFS — at 2^22, 2^24 and 2^26 samples, plus the floor (the same number
-# of N(0,1) samples drawn and written as raw f32, examples/floor.rs). Prints a Markdown table.
+# of N(0,1) samples drawn and written as raw f32, examples/floor.rs). Prints Markdown tables:
+# the comparison with ratios, then single- and two-thread rows (`--threads 1` / `--threads 2`,
+# the speed-up), one memory row at BIG samples streamed to /dev/null, and `analyze`'s density
+# of a 2^24-sample file beside scipy.signal.welch (benches/analyze.sh does the full version).
 #
-# Usage: benches/versus_numpy.sh     Environment: REPS [3], SIZES ["4194304 16777216 67108864"]
+# Usage: benches/versus_numpy.sh
+# Environment: REPS [3], SIZES ["4194304 16777216 67108864"], THREADS_N [16777216],
+#              BIG [1073741824 = 2^30; 0 skips], ANALYZE [1; 0 skips], ANALYZE_N [16777216]
 #
 # Method: for each size the three programs run REPS times, alternating (noisewright, numpy,
 # floor, noisewright, ...), each under GNU time (`%M` peak RSS); wall time from bash's
@@ -15,6 +20,9 @@ export LC_ALL=C
 [[ ${BASH_VERSINFO[0]} -ge 5 ]] || { echo "versus_numpy.sh: needs bash 5" >&2; exit 2; }
 REPS=${REPS:-3}
 SIZES=${SIZES:-"4194304 16777216 67108864"}
+THREADS_N=${THREADS_N:-16777216}
+BIG=${BIG:-1073741824}
+ANALYZE=${ANALYZE:-1}
 cd "$(dirname "$0")/.."
 GNU_TIME=/usr/bin/time
 echo "building (release) ..." >&2
@@ -50,7 +58,24 @@ run() {
 }
 median() { sort -n | awk '{v[NR]=$1} END{print v[int((NR+1)/2)]}'; }
 
-echo "| samples | program | wall s | M samples/s | peak RSS MiB | wall ÷ noisewright wall |"
+# row LABEL N FILE [REF_FILE] → one table line from the medians in $WORK/FILE
+row() {
+    local wall kib ref=""
+    wall=$(cut -d' ' -f1 "$WORK/$3" | median)
+    kib=$(cut -d' ' -f2 "$WORK/$3" | median)
+    [[ -n ${4:-} ]] && ref=$(cut -d' ' -f1 "$WORK/$4" | median)
+    awk -v n="$2" -v w="$wall" -v k="$kib" -v l="$1" -v r="$ref" 'BEGIN{
+        x = r == "" ? "–" : sprintf("%.2f", r / w)
+        printf "| %d | %s | %.3f | %.1f | %.1f | %s |\n", n, l, w, n/w/1e6, k/1024, x }'
+}
+
+echo "Machine: $(nproc) vCPU, $(lscpu | sed -n 's/^Model name: *//p'), load average at start:" \
+    "$(cut -d' ' -f1-3 /proc/loadavg)"
+echo
+echo "Medians of $REPS runs, alternating. Last column: throughput ÷ the reference's (numpy"
+echo "script for the first table, one thread for the second)."
+echo
+echo "| samples | program | wall s | M samples/s | peak RSS MiB | speed ÷ numpy |"
 echo "|---:|---|---:|---:|---:|---:|"
 for n in $SIZES; do
     for _ in $(seq "$REPS"); do
@@ -59,12 +84,64 @@ for n in $SIZES; do
         run "np.$n" python3 benches/numpy_reference.py "$n" "$WORK/out.wav"
         run "fl.$n" "$FLOOR" "$n" "$WORK/out.raw"
     done
-    nw=$(cut -d' ' -f1 "$WORK/nw.$n" | median)
-    for prog in nw np fl; do
-        wall=$(cut -d' ' -f1 "$WORK/$prog.$n" | median)
-        kib=$(cut -d' ' -f2 "$WORK/$prog.$n" | median)
-        label=$([[ $prog == nw ]] && echo "noisewright (f32 WAV)" || { [[ $prog == np ]] && echo "numpy script (f32 WAV)" || echo "floor: N(0,1) drawn + raw f32 written"; })
-        awk -v n="$n" -v w="$wall" -v k="$kib" -v l="$label" -v r="$nw" 'BEGIN{
-            printf "| %d | %s | %.3f | %.1f | %.1f | %.2f |\n", n, l, w, n/w/1e6, k/1024, w/r }'
-    done
+    row "noisewright (f32 WAV, all cores)" "$n" "nw.$n" "np.$n"
+    row "numpy script (f32 WAV)" "$n" "np.$n" "np.$n"
+    row "floor: N(0,1) drawn + raw f32 written, one core" "$n" "fl.$n" "np.$n"
+    awk -v a="$(cut -d' ' -f1 "$WORK/nw.$n" | median)" -v b="$(cut -d' ' -f1 "$WORK/fl.$n" | median)" \
+        'BEGIN{ printf "| | noisewright ÷ floor (throughput) | | %.2f | | |\n", b / a }'
 done
+
+n=$THREADS_N
+for _ in $(seq "$REPS"); do
+    echo "threads, n=$n ..." >&2
+    run "t1" "$BIN" generate "$WORK/job.toml" -o "$WORK/out.wav" --samples "$n" --quiet --threads 1
+    run "t2" "$BIN" generate "$WORK/job.toml" -o "$WORK/out.wav" --samples "$n" --quiet --threads 2
+    run "tf" "$FLOOR" "$n" "$WORK/out.raw"
+done
+echo
+echo "| samples | program | wall s | M samples/s | peak RSS MiB | speed ÷ one thread |"
+echo "|---:|---|---:|---:|---:|---:|"
+row "noisewright --threads 1 (f32 WAV)" "$n" t1 t1
+row "noisewright --threads 2 (f32 WAV)" "$n" t2 t1
+row "floor, one core" "$n" tf t1
+awk -v a="$(cut -d' ' -f1 "$WORK/t1" | median)" -v b="$(cut -d' ' -f1 "$WORK/tf" | median)" \
+    'BEGIN{ printf "| | one thread ÷ floor (throughput) | | %.2f | | |\n", b / a }'
+
+if [[ $BIG -gt 0 ]]; then
+    echo "memory, n=$BIG ..." >&2
+    t0=$EPOCHREALTIME
+    $GNU_TIME -f '%M' -o "$WORK/mem" bash -c "\"$BIN\" generate \"$WORK/job.toml\" -o - --samples $BIG --quiet > /dev/null" ||
+        exit 1
+    t1=$EPOCHREALTIME
+    echo
+    echo "| samples | program | wall s | M samples/s | peak RSS MiB |"
+    echo "|---:|---|---:|---:|---:|"
+    awk -v n="$BIG" -v a="$t0" -v b="$t1" -v k="$(tail -n1 "$WORK/mem")" 'BEGIN{
+        printf "| %d | noisewright -o - > /dev/null (one run) | %.1f | %.1f | %.1f |\n", n, b-a, n/(b-a)/1e6, k/1024 }'
+fi
+
+if [[ $ANALYZE -gt 0 ]]; then
+    n=${ANALYZE_N:-16777216}
+    echo "analyze, n=$n ..." >&2
+    "$BIN" generate "$WORK/job.toml" -o "$WORK/rec.f64" --format raw --sample-format f64 --samples $n --quiet
+    cat >"$WORK/welch.py" <<'PY'
+import sys
+import numpy as np
+from scipy import signal
+x = np.fromfile(sys.argv[1], dtype="<f8")
+f, p = signal.welch(x, fs=48000.0, window="hann", nperseg=65536, noverlap=32768,
+                    detrend=False, scaling="density")
+print(p[100])
+PY
+    for _ in $(seq "$REPS"); do
+        run "an" "$BIN" analyze "$WORK/rec.f64" --rate 48kHz --resolution 0.732421875Hz --json
+        run "sp" python3 "$WORK/welch.py" "$WORK/rec.f64"
+    done
+    echo
+    echo "Density of a $n-sample raw f64 file (Hann, L = 65536, 50 % overlap):"
+    echo
+    echo "| samples | program | wall s | M samples/s | peak RSS MiB | speed ÷ scipy |"
+    echo "|---:|---|---:|---:|---:|---:|"
+    row "noisewright analyze --json" "$n" an sp
+    row "scipy.signal.welch" "$n" sp sp
+fi

@@ -80,6 +80,10 @@ pub struct GenerateArgs {
     /// source: the Gaussian sum and each burst).
     #[arg(long, value_name = "WHICH", default_value = "total")]
     pub columns: String,
+    /// Worker threads of the engine. Default: all cores (or `RAYON_NUM_THREADS`). The output is
+    /// the same for any number.
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
     /// ADC codes: quantise to N-bit integer codes (1 to 32) over --range like an ideal
     /// converter, mid-tread; CSV or raw output (raw in the smallest u8/u16/u32 or i8/i16/i32).
     #[arg(long, value_name = "N")]
@@ -115,6 +119,22 @@ struct Scale {
 /// `interrupted` is polled between chunks: when it becomes true the run stops, and no file is
 /// left under the target name.
 pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
+    match args.threads {
+        None => run_here(args, interrupted),
+        Some(0) => Err(Error::option(
+            "--threads",
+            "expected a whole number of threads of at least 1, got 0",
+        )),
+        Some(n) => rayon::ThreadPoolBuilder::new()
+            .num_threads(n)
+            .build()
+            .map_err(|e| Error::option("--threads", format!("cannot start {n} threads: {e}")))?
+            .install(|| run_here(args, interrupted)),
+    }
+}
+
+/// [`run`] on the current rayon pool.
+fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let file = args.profile.display().to_string();
     let text = fs::read_to_string(&args.profile)
         .map_err(|e| Error::option("PROFILE", format!("cannot read {file}: {e}")))?;
