@@ -297,6 +297,27 @@ pub struct BandBudget {
     /// Findings in words: a source holding ≥ 90 % of the power, resistors noisier than the
     /// amplifier, a band beyond the profile's, a band reaching past fs/2.
     pub notes: Vec<String>,
+    /// The profile's tones against this band's noise, in profile order.
+    pub tones: Vec<ToneBudget>,
+}
+
+/// One tone of the profile against a band's noise.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ToneBudget {
+    /// The tone's name.
+    pub name: String,
+    /// Frequency in Hz.
+    pub frequency_hz: f64,
+    /// Peak amplitude A in the profile unit.
+    pub peak: f64,
+    /// RMS amplitude A/√2 in the profile unit.
+    pub rms: f64,
+    /// True when the tone's frequency lies inside the band.
+    pub in_band: bool,
+    /// SNR in dB: A²/2 over the band's noise power (`rms`²).
+    pub snr_db: f64,
+    /// ENOB in bits, (SNR − 1.76)/6.02 (IEEE Std 1241, SINAD = SNR: no distortion modelled).
+    pub enob_bits: f64,
 }
 
 /// Each source's density at one frequency.
@@ -571,6 +592,22 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         ));
     }
     let rms = total.sqrt();
+    let tones = profile
+        .tones
+        .iter()
+        .map(|t| {
+            let snr_db = crate::synth::tone::snr_db(t.power(), total, 0.0);
+            ToneBudget {
+                name: t.name.clone(),
+                frequency_hz: t.frequency_hz,
+                peak: t.peak,
+                rms: t.rms(),
+                in_band: t.frequency_hz >= band.low_hz && t.frequency_hz <= band.high_hz,
+                snr_db,
+                enob_bits: crate::synth::tone::enob(snr_db),
+            }
+        })
+        .collect();
     BandBudget {
         low_hz: band.low_hz,
         high_hz: band.high_hz,
@@ -588,6 +625,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         resistor_rms: resistor_var.sqrt(),
         amplifier_rms: amplifier_var.sqrt(),
         notes,
+        tones,
     }
 }
 
@@ -683,6 +721,20 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
             };
             writeln!(out, "    {span:<28}  {:>12}", q(d.rms))?;
         }
+        for t in &b.tones {
+            writeln!(
+                out,
+                "  tone {} at {}{}: {} peak ({} RMS), SNR {:.2} dB against this band's noise, \
+                 ENOB {:.2} bits (IEEE 1241, SINAD = SNR)",
+                t.name,
+                hz(t.frequency_hz),
+                if t.in_band { "" } else { " (outside the band)" },
+                q(t.peak),
+                q(t.rms),
+                t.snr_db,
+                t.enob_bits
+            )?;
+        }
         for n in &b.notes {
             writeln!(out, "  note: {n}")?;
         }
@@ -731,7 +783,8 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
 /// "order", "enbw_ratio", "noise_bandwidth_hz", "rms", "rms_numeric", "rms_closed_form",
 /// "p2p_6sigma", "p2p_6_6sigma", "rms_to_nyquist", "sources": [ { "name", "class", "rms", "share",
 /// "rms_numeric", "rms_closed_form" } ], "per_decade": [ { "low_hz", "high_hz", "rms" } ],
-/// "resistor_rms", "amplifier_rms", "notes" } ], "source_names", "densities": [ {
+/// "resistor_rms", "amplifier_rms", "notes", "tones": [ { "name", "frequency_hz", "peak",
+/// "rms", "in_band", "snr_db", "enob_bits" } ] } ], "source_names", "densities": [ {
 /// "frequency_hz", "sources", "total" } ], "white_floor", "floor_resistance_ohm" }`. RMS values
 /// are in `unit`, densities in `unit`/√Hz, frequencies in Hz, shares 0..1.
 pub fn to_json(budget: &Budget) -> serde_json::Value {

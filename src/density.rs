@@ -420,6 +420,8 @@ mod tests {
                 })
                 .collect(),
             bursts: Vec::new(),
+            tones: Vec::new(),
+            offset: 0.0,
         }
     }
 

@@ -7,4 +7,5 @@ pub mod fit;
 pub mod levels;
 pub mod moments;
 pub mod stats;
+pub mod tones;
 pub mod welch;

@@ -422,7 +422,8 @@ impl Spectrum {
         2.0 * mean * mean / var
     }
 
-    fn band(&self, bins: Range<usize>) -> BandEstimate {
+    /// The band estimate over `bins` (mean density, edges, ν).
+    pub fn band(&self, bins: Range<usize>) -> BandEstimate {
         let df = self.bin_width_hz();
         let f_lo_hz = ((bins.start as f64 - 0.5) * df).max(0.0);
         let f_hi_hz = ((bins.end as f64 - 0.5) * df).min(0.5 * self.sample_rate_hz);

@@ -13,6 +13,7 @@ use crate::analysis::capture::{
 use crate::analysis::compare::{Comparison, compare, expected_band_psd};
 use crate::analysis::fit::{FitOptions, fit_floor};
 use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
+use crate::analysis::tones::{ToneFit, leakage_bins, split_around};
 use crate::burst::BurstModel;
 use crate::error::{Error, Result};
 use crate::figure;
@@ -21,6 +22,7 @@ use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, p
 use crate::sink::{Format, SampleFormat};
 use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
 use crate::synth::Generator;
+use crate::synth::tone::enob;
 
 /// Samples read per block.
 const BLOCK: usize = 1 << 16;
@@ -28,6 +30,9 @@ const BLOCK: usize = 1 << 16;
 const TRACE_SAMPLES: usize = 4096;
 /// Histogram bins between the record's min and max.
 const HIST_BINS: usize = 201;
+/// A tone's leakage is left out of the bins where it exceeds this fraction of the designed
+/// noise density (biasing a kept bin by < 0.005 dB).
+const TONE_LEAKAGE: f64 = 1e-3;
 /// Total false-failure probability of the band verdicts, split over the bands (Bonferroni).
 pub const FALSE_ALARM: f64 = 1e-3;
 /// Default engineering tolerance, dB.
@@ -355,7 +360,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             st.count()
         )));
     }
-    let bands = if spectrum.psd.len() > FIRST_BIN {
+    let mut bands = if spectrum.psd.len() > FIRST_BIN {
         spectrum.log_bands(FIRST_BIN, BANDS_PER_DECADE)
     } else {
         Vec::new()
@@ -370,6 +375,71 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         }
         _ => 0.0,
     };
+    // Tones of the profile: leave the bins their leakage reaches out of every band (so the
+    // comparison and the floor fit see the noise only) and fit their amplitudes.
+    let mut tone_json = Vec::new();
+    if let (Some(p), Some(d)) = (&profile, &design) {
+        if !p.tones.is_empty() {
+            let noise = |f: f64| d.density(f) + q_psd;
+            let excluded: Vec<_> = p
+                .tones
+                .iter()
+                .map(|t| leakage_bins(t.frequency_hz, t.power(), &spectrum, &noise, TONE_LEAKAGE))
+                .collect();
+            bands = bands
+                .iter()
+                .flat_map(|b| split_around(b.bins.clone(), &excluded))
+                .map(|r| spectrum.band(r))
+                .collect();
+            let freqs: Vec<f64> = p.tones.iter().map(|t| t.frequency_hz).collect();
+            let mut fit = ToneFit::new(&freqs, fs);
+            pass(&args.file, &options, &scale, interrupted, &mut |x| {
+                fit.push(x)
+            })?;
+            let fitted = fit.finish().map(|(t, _)| t);
+            // Measured in-band noise: the Welch bins inside the band, each tone's excluded
+            // bins counted at the designed density instead.
+            let df = fs / spectrum.seg_len as f64;
+            let in_band = |k: usize| {
+                let f = k as f64 * df;
+                f >= p.band.low_hz && f <= p.band.high_hz
+            };
+            let noise_power: f64 = (1..spectrum.psd.len())
+                .filter(|&k| in_band(k))
+                .map(|k| {
+                    if excluded.iter().any(|e| e.contains(&k)) {
+                        noise(k as f64 * df) * df
+                    } else {
+                        spectrum.psd[k] * df
+                    }
+                })
+                .sum();
+            let expected = d.tone_snr(p.band.low_hz, p.band.high_hz, q_psd * fs / 2.0);
+            let sigma_a = (d.noise_variance() * 2.0 / st.count() as f64).sqrt();
+            for (i, t) in p.tones.iter().enumerate() {
+                let m = fitted.as_ref().map(|v| v[i]);
+                let measured_snr = m.map(|m| 10.0 * (0.5 * m.peak * m.peak / noise_power).log10());
+                tone_json.push(serde_json::json!({
+                    "name": t.name,
+                    "frequency_hz": t.frequency_hz,
+                    "expected_peak": t.peak,
+                    "measured_peak": m.map(|m| m.peak),
+                    "measured_rms": m.map(|m| m.peak / std::f64::consts::SQRT_2),
+                    "measured_phase_deg": m.map(|m| m.phase_rad.to_degrees()),
+                    "peak_std_white": sigma_a,
+                    "expected_snr_db": expected[i].0,
+                    "measured_snr_db": measured_snr,
+                    "measured_enob_bits": measured_snr.map(enob),
+                    "excluded_bins": [excluded[i].start, excluded[i].end],
+                }));
+            }
+            notes.push(format!(
+                "{} tone(s) fitted by least squares at their frequencies; the Welch bins their \
+                 leakage reaches are left out of the comparison and the fit",
+                p.tones.len()
+            ));
+        }
+    }
     let comparison: Option<Comparison> = match (&profile, &design) {
         (Some(p), Some(d)) => {
             let inside: Vec<_> = bands
@@ -438,6 +508,9 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     };
 
     let mut json = report.to_json();
+    if !tone_json.is_empty() {
+        json["tones"] = serde_json::json!(tone_json);
+    }
     if let Some(path) = &args.fit {
         // The band of --profile, else the band recorded in the manifest of a generated file.
         let band = profile
@@ -498,7 +571,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         s.push('\n');
         s
     } else {
-        summary_text(&report, &json, profile.as_ref())
+        summary_text(&report, &json, profile.as_ref()) + &tone_text(&json, &report.unit)
     };
     let failure = report.comparison.as_ref().and_then(|c| {
         if c.pass {
@@ -524,6 +597,33 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         }))
     });
     Ok(AnalyzeOutcome { output, failure })
+}
+
+/// Summary lines for the fitted tones of `json["tones"]` (empty without any).
+fn tone_text(json: &serde_json::Value, unit: &str) -> String {
+    let Some(tones) = json["tones"].as_array() else {
+        return String::new();
+    };
+    let mut s = String::new();
+    for t in tones {
+        let q = |k: &str| {
+            t[k].as_f64()
+                .map_or("-".into(), |v| format_quantity(v, unit))
+        };
+        let db = |k: &str| t[k].as_f64().map_or("-".into(), |v| format!("{v:.2} dB"));
+        s += &format!(
+            "  tone            {} at {}: measured {} peak (designed {}, ±{} 1σ for white \
+             noise), SNR {} (designed {})\n",
+            t["name"].as_str().unwrap_or(""),
+            format_quantity(t["frequency_hz"].as_f64().unwrap_or(0.0), "Hz"),
+            q("measured_peak"),
+            q("expected_peak"),
+            q("peak_std_white"),
+            db("measured_snr_db"),
+            db("expected_snr_db"),
+        );
+    }
+    s
 }
 
 fn summary_text(r: &CaptureReport, json: &serde_json::Value, profile: Option<&Profile>) -> String {

@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 use std::rc::Rc;
 use std::sync::atomic::{AtomicBool, Ordering};
 
+use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::analysis::stats::RunningStats;
 use crate::density;
 use crate::error::{Error, Result};
@@ -15,6 +16,7 @@ use crate::sink::{
     CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, check_wav_size, open_sink,
     rms_digital_from_dbfs, write_manifest,
 };
+use crate::synth::tone;
 use crate::synth::{Generator, periodic_buffer, periodic_variance};
 
 /// Samples produced and written per step.
@@ -78,6 +80,21 @@ pub struct GenerateArgs {
     /// source: the Gaussian sum and each burst).
     #[arg(long, value_name = "WHICH", default_value = "total")]
     pub columns: String,
+    /// ADC codes: quantise to N-bit integer codes (1 to 32) over --range like an ideal
+    /// converter, mid-tread; CSV or raw output (raw in the smallest u8/u16/u32 or i8/i16/i32).
+    #[arg(long, value_name = "N")]
+    pub bits: Option<u32>,
+    /// The ADC's input range in the profile's unit, e.g. `-1.65V..1.65V` or `0V..3.3V`
+    /// (needs --bits).
+    #[arg(long, value_name = "LO..HI", allow_hyphen_values = true)]
+    pub range: Option<String>,
+    /// ADC code numbering: `twos` (two's complement, signed; default when the range holds
+    /// both signs) or `offset` (offset binary, unsigned; default otherwise).
+    #[arg(long, value_name = "CODING")]
+    pub code: Option<String>,
+    /// Dither added before rounding: `tpdf` (triangular, ±1 LSB peak) or `none` (default).
+    #[arg(long, value_name = "KIND")]
+    pub dither: Option<String>,
 }
 
 /// Whatever produces the next samples (unit) into a slice.
@@ -131,6 +148,19 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     }
     let fs = profile.sample_rate_hz;
+    if let Some(t) = profile.tones.iter().find(|t| t.frequency_hz >= fs / 2.0) {
+        return Err(Error::option(
+            "--rate",
+            format!(
+                "{} at {} in {file} would be at or above half of {}: choose a rate above {}",
+                t.name,
+                format_quantity(t.frequency_hz, "Hz"),
+                format_quantity(fs, "Hz"),
+                format_quantity(2.0 * t.frequency_hz, "Hz")
+            ),
+        ));
+    }
+    let adc = adc_from_args(args, &profile)?;
 
     let target = match args.output.as_deref() {
         Some("-") => Target::Stdout,
@@ -140,7 +170,9 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 .profile
                 .file_stem()
                 .map_or("noise".into(), |s| s.to_string_lossy().into_owned());
-            Target::File(Path::new("out").join(format!("{stem}.wav")))
+            // ADC codes cannot go to WAV: default to a raw file named after their container.
+            let ext = adc.as_ref().map_or("wav", |a| a.container().name());
+            Target::File(Path::new("out").join(format!("{stem}.{ext}")))
         }
     };
     let format = match (&args.format, &target) {
@@ -164,6 +196,40 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 })?
         }
     };
+    let extension = match &target {
+        Target::File(p) => p.extension().map(|e| e.to_string_lossy().to_lowercase()),
+        Target::Stdout => None,
+    };
+    if let (Some(ext), Format::Raw) = (&extension, format) {
+        let named = Container::from_extension(ext);
+        let names_type = named.is_some() || SampleFormat::from_extension(ext).is_some();
+        match &adc {
+            Some(a) if names_type && named != Some(a.container()) => {
+                return Err(Error::option(
+                    "--output",
+                    format!(
+                        "the extension .{ext} names {ext} samples, but {}-bit {} codes are \
+                         stored as {} (the smallest integer that holds them): name the file \
+                         .{}, .raw or .bin",
+                        a.bits(),
+                        coding_words(a.coding()),
+                        a.container(),
+                        a.container()
+                    ),
+                ));
+            }
+            None if named.is_some() && SampleFormat::from_extension(ext).is_none() => {
+                return Err(Error::option(
+                    "--output",
+                    format!(
+                        "the extension .{ext} names unsigned or 8-bit ADC codes: give --bits and \
+                         --range, or use .raw, .f32, .f64, .i16, .i24 or .i32"
+                    ),
+                ));
+            }
+            _ => {}
+        }
+    }
     let sample_format = match &args.sample_format {
         Some(s) => s
             .parse::<SampleFormat>()
@@ -284,6 +350,26 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         ));
     }
 
+    if let (true, Some(n)) = (args.loop_buffer, samples) {
+        for t in &profile.tones {
+            if let Err(near) = tone::loop_cycles(t.frequency_hz, fs, n) {
+                return Err(Error::option(
+                    "--loop",
+                    format!(
+                        "{} at {} in {file} does not complete a whole number of cycles in the \
+                         {n}-sample loop ({:.6} cycles), so the loop would not join seamlessly; \
+                         the nearest frequency that loops is {near} Hz, {} cycles (or change \
+                         the length)",
+                        t.name,
+                        format_quantity(t.frequency_hz, "Hz"),
+                        t.frequency_hz * n as f64 / fs,
+                        (near * n as f64 / fs).round()
+                    ),
+                ));
+            }
+        }
+    }
+
     // Engine and expected variance.
     let target_psd = |f: f64| density::target_psd(&profile, f);
     let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
@@ -291,8 +377,11 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let parts: Rc<RefCell<Vec<Vec<f64>>>> = Rc::default();
     let (mut engine, expected_variance): (Engine, f64) = if args.loop_buffer {
         let n = samples.unwrap_or(0) as usize;
-        let buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
-        let var = periodic_variance(&target_psd, fs, n);
+        let mut buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
+        // Tones (whole cycles, checked above) and the offset, from sample index 0.
+        tone::add_deterministic(&profile.tones, profile.offset, fs, 0, &mut buffer);
+        let var = periodic_variance(&target_psd, fs, n)
+            + profile.tones.iter().map(|t| t.power()).sum::<f64>();
         let mut pos = 0;
         (
             Box::new(move |out: &mut [f64]| {
@@ -311,7 +400,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             let parts = parts.clone();
             parts
                 .borrow_mut()
-                .resize(1 + profile.bursts.len(), Vec::new());
+                .resize(g.borrow().part_count(), Vec::new());
             (
                 Box::new(move |out: &mut [f64]| {
                     g.borrow_mut().fill_sources(out, &mut parts.borrow_mut())
@@ -326,11 +415,16 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     };
     // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
-    let expected_mean = generator.as_ref().map_or(0.0, |g| g.borrow().mean());
+    let expected_mean = generator
+        .as_ref()
+        .map_or(profile.offset, |g| g.borrow().mean());
     let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
-    let source_names: Vec<String> = std::iter::once("gaussian".to_string())
-        .chain(profile.bursts.iter().map(|b| b.name.clone()))
-        .collect();
+    let source_names = source_names(&profile);
+    // The tones' figures need the designed noise density (also in --loop mode, which has no
+    // streaming generator): one design, only when there are tones or an offset.
+    let figures = (!profile.tones.is_empty() || profile.offset != 0.0)
+        .then(|| Generator::new(&profile, 0))
+        .transpose()?;
     let make_sink = |spec: &SinkSpec, w: Box<dyn io::Write>| -> Result<Box<dyn Sink>> {
         if per_source {
             Ok(Box::new(SourcesSink {
@@ -343,8 +437,14 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     };
 
     // Scale.
-    let needs_scale = format == Format::Wav || sample_format.is_integer();
-    let scale = if let Some(q) = &args.full_scale {
+    let needs_scale = (format == Format::Wav || sample_format.is_integer()) && adc.is_none();
+    let scale = if adc.is_some() {
+        // ADC codes are scaled by their range (adc_from_args refuses --full-scale/--level).
+        Scale {
+            full_scale: None,
+            level_dbfs: None,
+        }
+    } else if let Some(q) = &args.full_scale {
         let v = parse_quantity(q, Dimension::Amplitude, unit)
             .map_err(|m| Error::option("--full-scale", m))?;
         if !(v > 0.0 && v.is_finite()) {
@@ -372,13 +472,33 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             level_dbfs: None,
         }
     };
+    // The quantisation noise density of the stored codes: Q/√(6·fs) for integer formats and
+    // undithered ADC codes, Q/√(2·fs) with TPDF dither (REFERENCES §9).
+    let floor = match (&adc, scale.full_scale) {
+        (Some(a), _) => Some((
+            match a.dither() {
+                Dither::None => format!("{}-bit ADC's quantisation noise", a.bits()),
+                Dither::Tpdf => {
+                    format!("{}-bit ADC's added noise (TPDF dither included)", a.bits())
+                }
+            },
+            a.added_noise_psd(fs).sqrt(),
+            "more bits or a narrower --range",
+        )),
+        (None, Some(fsc)) if sample_format.is_integer() => {
+            let bits = (sample_format.bytes() * 8) as i32;
+            let lsb = 2.0 * fsc / 2f64.powi(bits);
+            Some((
+                format!("{bits}-bit quantisation noise"),
+                lsb / (6.0 * fs).sqrt(),
+                "more bits or a smaller full scale",
+            ))
+        }
+        _ => None,
+    };
     // Bursts alone have no density floor to compare quantisation noise with.
-    if let (Some(fsc), true, false) = (
-        scale.full_scale,
-        sample_format.is_integer(),
-        profile.sources.is_empty(),
-    ) {
-        if let Some(note) = quantisation_note(&profile, fsc, sample_format) {
+    if let (Some((what, density, advice)), false) = (floor, profile.sources.is_empty()) {
+        if let Some(note) = quantisation_note(&profile, &what, density, advice) {
             notes.push(note);
         }
     }
@@ -394,6 +514,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         frames: samples,
         channels: 1,
         unit: profile.unit,
+        adc: adc.clone(),
         name: array_name,
         provenance: vec![
             format!(
@@ -403,6 +524,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             format!("seed: {}", args.seed),
         ],
     };
+    // Refuse what the format cannot hold before any file or folder is made.
     spec.validate()?;
     let (container_keys, container_notes) = crate::sink::container_facts(&spec)?;
     notes.extend(container_notes);
@@ -449,6 +571,15 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 )?;
                 report = sink.finish()?;
             }
+            if let (Some(a), true) = (&adc, report.clipped > 0 && !args.allow_clipping) {
+                let (lo, hi) = a.suggest_range(stats.min(), stats.max());
+                return Err(Error::ClippedRange {
+                    count: report.clipped,
+                    total: report.samples,
+                    range: range_text(a.lo(), a.hi(), unit),
+                    suggested: range_text(lo, hi, unit),
+                });
+            }
             if report.clipped > 0 && !args.allow_clipping {
                 let fsc = scale.full_scale.unwrap_or(1.0);
                 return Err(Error::Clipped {
@@ -459,10 +590,18 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 });
             }
             if report.clipped > 0 {
-                notes.push(format!(
-                    "{} samples clipped at full scale (--allow-clipping)",
-                    report.clipped
-                ));
+                notes.push(match &adc {
+                    Some(a) => format!(
+                        "{} samples outside the ADC range {} clamped to the end codes \
+                         (--allow-clipping)",
+                        report.clipped,
+                        range_text(a.lo(), a.hi(), unit)
+                    ),
+                    None => format!(
+                        "{} samples clipped at full scale (--allow-clipping)",
+                        report.clipped
+                    ),
+                });
             }
             let mut manifest = Manifest::new(&spec, args.seed, &report, &stats, expected_rms);
             manifest.profile = profile.to_json();
@@ -470,8 +609,14 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             manifest.looped = args.loop_buffer;
             manifest.notes = notes.clone();
             manifest.extra.extend(container_keys);
+            if let Some(a) = &adc {
+                manifest.extra.insert("adc".into(), a.to_json(fs));
+            }
             if let Some(g) = &generator {
                 burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
+            }
+            if let Some(fg) = &figures {
+                tone_manifest(&mut manifest, &profile, fg, adc.as_ref());
             }
             let manifest_path = manifest_path(path);
             let mp = PendingFile::create(&manifest_path)?;
@@ -491,10 +636,14 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         expected_rms,
         &stats,
         report.clipped,
+        adc.as_ref(),
         &notes,
     );
     if let Some(g) = &generator {
         summary += &burst_summary(&g.borrow(), &profile, expected_variance, expected_mean);
+    }
+    if let Some(fg) = &figures {
+        summary += &tone_summary(&profile, fg, adc.as_ref());
     }
     Ok(summary)
 }
@@ -519,12 +668,134 @@ fn parse_dbfs(text: &str) -> Result<f64> {
     }
 }
 
-/// A note when an integer format's quantisation noise density Q/√(6·fs) (REFERENCES: IEEE Std
-/// 1241 uniform-error model) comes within 10 dB of the lowest target density in the band.
-fn quantisation_note(profile: &Profile, full_scale: f64, sf: SampleFormat) -> Option<String> {
-    let bits = (sf.bytes() * 8) as i32;
-    let lsb = 2.0 * full_scale / 2f64.powi(bits);
-    let q_density = lsb / (6.0 * profile.sample_rate_hz).sqrt();
+/// The ADC named by `--bits`, `--range`, `--code` and `--dither` (`None` without `--bits`),
+/// its dither seeded by `--seed`. Refuses the ADC options without `--bits`, `--bits` without
+/// `--range`, and `--full-scale`, `--level` or `--sample-format` beside `--bits`.
+fn adc_from_args(args: &GenerateArgs, profile: &Profile) -> Result<Option<Adc>> {
+    let unit = profile.unit.symbol();
+    let Some(bits) = args.bits else {
+        for (given, option) in [
+            (args.range.is_some(), "--range"),
+            (args.code.is_some(), "--code"),
+            (args.dither.is_some(), "--dither"),
+        ] {
+            if given {
+                return Err(Error::option(
+                    option,
+                    format!(
+                        "belongs to ADC codes and needs --bits N (the resolution, 1 to 32), \
+                         e.g. --bits 12 --range \"-1.65{unit}..1.65{unit}\""
+                    ),
+                ));
+            }
+        }
+        return Ok(None);
+    };
+    for (given, option) in [
+        (args.full_scale.is_some(), "--full-scale"),
+        (args.level.is_some(), "--level"),
+        (args.sample_format.is_some(), "--sample-format"),
+    ] {
+        if given {
+            return Err(Error::option(
+                option,
+                "cannot be combined with --bits: ADC codes are scaled by --range and stored in \
+                 the smallest integer that holds them (u8/u16/u32 for offset, i8/i16/i32 for \
+                 twos); drop it",
+            ));
+        }
+    }
+    let Some(range) = &args.range else {
+        return Err(Error::option(
+            "--bits",
+            format!(
+                "needs --range, the converter's input range in {unit}, e.g. --range \
+                 \"-1.65{unit}..1.65{unit}\" or --range \"0{unit}..3.3{unit}\""
+            ),
+        ));
+    };
+    let (lo, hi) = parse_range(range, unit).map_err(|m| Error::option("--range", m))?;
+    let coding = args.code.as_deref().map(str::parse::<Coding>).transpose()?;
+    let dither = match args.dither.as_deref() {
+        Some(d) => d.parse::<Dither>()?,
+        None => Dither::None,
+    };
+    Ok(Some(
+        Adc::new(bits, lo, hi, coding, dither)?.with_seed(args.seed),
+    ))
+}
+
+/// `lo..hi` with units, as `--range` accepts it.
+fn range_text(lo: f64, hi: f64, unit: &str) -> String {
+    format!(
+        "{}..{}",
+        format_quantity(lo, unit),
+        format_quantity(hi, unit)
+    )
+}
+
+/// "two's-complement" or "offset-binary".
+fn coding_words(c: Coding) -> &'static str {
+    match c {
+        Coding::Twos => "two's-complement",
+        Coding::Offset => "offset-binary",
+    }
+}
+
+/// The summary's ADC lines: the converter, what its end and centre codes stand for, and the
+/// noise it adds.
+fn adc_summary(a: &Adc, profile: &Profile) -> String {
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let d = |v: f64| format_quantity(v, &format!("{u}/\u{221a}Hz"));
+    let fs = profile.sample_rate_hz;
+    let (cmin, cmax) = a.code_range();
+    let zero_code = match a.coding() {
+        Coding::Twos => 0,
+        Coding::Offset => 1i64 << (a.bits() - 1),
+    };
+    let mut s = format!(
+        "  ADC             {}-bit {} codes ({}) over {}, LSB {}\n",
+        a.bits(),
+        coding_words(a.coding()),
+        a.container(),
+        range_text(a.lo(), a.hi(), u),
+        q(a.lsb())
+    );
+    s += &format!(
+        "  codes           code c stands for {} + c·LSB: {cmin} = {}, {zero_code} = {} (centre), \
+         {cmax} = {}\n",
+        q(a.level(0)),
+        q(a.level(cmin)),
+        q(a.level(zero_code)),
+        q(a.level(cmax))
+    );
+    s += &format!(
+        "  quantisation    {} RMS (Q/√12), {} (Q/√(6·fs)) without dither\n",
+        q(a.quantisation_noise_rms()),
+        d(a.quantisation_noise_density(fs))
+    );
+    s += &match a.dither() {
+        Dither::None => "  dither          none\n".to_string(),
+        Dither::Tpdf => format!(
+            "  dither          TPDF ±1 LSB: total added noise {} RMS (Q/2), {} (Q/√(2·fs))\n",
+            q(a.added_noise_variance().sqrt()),
+            d(a.added_noise_psd(fs).sqrt())
+        ),
+    };
+    s
+}
+
+/// A note when the stored codes' quantisation noise density (REFERENCES §9: IEEE Std 1241
+/// uniform-error model, Q/√(6·fs); with TPDF dither Q/√(2·fs)) comes within 10 dB of the
+/// lowest target density in the band. `what` names the noise ("16-bit quantisation noise"),
+/// `advice` the fix.
+fn quantisation_note(
+    profile: &Profile,
+    what: &str,
+    q_density: f64,
+    advice: &str,
+) -> Option<String> {
     let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
     let lowest = (0..=200)
         .map(|i| lo * (hi / lo).powf(i as f64 / 200.0))
@@ -534,9 +805,8 @@ fn quantisation_note(profile: &Profile, full_scale: f64, sf: SampleFormat) -> Op
     let unit = format!("{}/√Hz", profile.unit.symbol());
     (margin_db < 10.0).then(|| {
         format!(
-            "the {}-bit quantisation noise ({}) is only {:.1} dB below the lowest density in \
-             the band ({}): use more bits or a smaller full scale",
-            bits,
+            "the {what} ({}) is only {:.1} dB below the lowest density in \
+             the band ({}): use {advice}",
             format_quantity(q_density, &unit),
             margin_db,
             format_quantity(lowest, &unit)
@@ -666,6 +936,7 @@ fn summary_text(
     expected_rms: f64,
     stats: &RunningStats,
     clipped: u64,
+    adc: Option<&Adc>,
     notes: &[String],
 ) -> String {
     let u = profile.unit.symbol();
@@ -698,12 +969,16 @@ fn summary_text(
         q(band_rms),
         q(expected_rms)
     );
-    // With bursts the Gaussian convention does not hold; their summary gives the figure.
-    if profile.bursts.is_empty() {
+    // With bursts or tones the Gaussian convention does not hold; their summary gives the
+    // figure. An offset moves the samples, not their spread: p-p is 6σ of the AC part.
+    if profile.bursts.is_empty() && profile.tones.is_empty() {
+        let sigma = (expected_rms * expected_rms - profile.offset * profile.offset)
+            .max(0.0)
+            .sqrt();
         s += &format!(
             "  peak-to-peak    {} (6σ), {} (6.6σ) expected\n",
-            q(6.0 * expected_rms),
-            q(6.6 * expected_rms)
+            q(6.0 * sigma),
+            q(6.6 * sigma)
         );
     }
     s += &format!(
@@ -714,6 +989,7 @@ fn summary_text(
         q(stats.peak_to_peak())
     );
     match (scale.full_scale, scale.level_dbfs) {
+        _ if adc.is_some() => s += &adc_summary(adc.expect("checked"), profile),
         (Some(f), Some(l)) => {
             s += &format!(
                 "  scale           digital 1.0 = {} ({l} dBFS, AES17)\n",
@@ -793,14 +1069,139 @@ fn burst_manifest(
         .collect();
     extra.insert("bursts".into(), json!(bursts));
     if per_source {
-        let names: Vec<String> = std::iter::once("gaussian".to_string())
-            .chain(profile.bursts.iter().map(|b| b.name.clone()))
-            .collect();
+        let names = source_names(profile);
         extra.insert(
             "source_columns".into(),
             json!(crate::sink::source_column_names(&names, spec.unit)),
         );
     }
+}
+
+/// The names of the `--columns sources` columns: the Gaussian sum, each burst, each tone, and
+/// `offset` when the profile's offset is not 0 (the order of [`Generator::fill_sources`]).
+fn source_names(profile: &Profile) -> Vec<String> {
+    std::iter::once("gaussian".to_string())
+        .chain(profile.bursts.iter().map(|b| b.name.clone()))
+        .chain(profile.tones.iter().map(|t| t.name.clone()))
+        .chain((profile.offset != 0.0).then(|| "offset".to_string()))
+        .collect()
+}
+
+/// Each tone's expected SNR (dB) and ENOB (bits) against the profile's in-band noise (the
+/// Gaussian design plus bursts integrated over the band, [`Generator::tone_snr`]), and the
+/// in-band noise RMS (unit); with ADC codes also the same figures with the converter's added
+/// noise in the band (its white density [`Adc::added_noise_psd`] times the band width).
+struct ToneFigures {
+    noise: Vec<(f64, f64)>,
+    with_adc: Option<Vec<(f64, f64)>>,
+    noise_rms: f64,
+}
+
+fn tone_figures(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> ToneFigures {
+    let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
+    ToneFigures {
+        noise: g.tone_snr(lo, hi, 0.0),
+        with_adc: adc.map(|a| {
+            g.tone_snr(
+                lo,
+                hi,
+                a.added_noise_psd(profile.sample_rate_hz) * (hi - lo),
+            )
+        }),
+        noise_rms: g.band_noise_power(lo, hi).sqrt(),
+    }
+}
+
+/// The manifest's deterministic keys, under `extra` (only when the profile has tones or an
+/// offset): `offset` (unit), `noise_band_rms` (unit) and `tones` (per tone: `name`,
+/// `frequency_hz`, `peak`, `rms` (unit), `phase_deg`, `snr_db`, `enob_bits`, and with ADC
+/// codes `snr_with_adc_db`, `enob_with_adc_bits`, else null).
+fn tone_manifest(manifest: &mut Manifest, profile: &Profile, g: &Generator, adc: Option<&Adc>) {
+    use serde_json::json;
+    let f = tone_figures(profile, g, adc);
+    let (snr, noise_rms) = (&f.noise, f.noise_rms);
+    let extra = &mut manifest.extra;
+    extra.insert("offset".into(), json!(profile.offset));
+    extra.insert("noise_band_rms".into(), json!(noise_rms));
+    let tones: Vec<serde_json::Value> = profile
+        .tones
+        .iter()
+        .zip(snr)
+        .enumerate()
+        .map(|(i, (t, (snr_db, enob)))| {
+            let with = f.with_adc.as_ref().map(|w| w[i]);
+            json!({
+                "name": t.name,
+                "frequency_hz": t.frequency_hz,
+                "peak": t.peak,
+                "rms": t.rms(),
+                "phase_deg": t.phase_rad.to_degrees(),
+                "snr_db": snr_db,
+                "enob_bits": enob,
+                "snr_with_adc_db": with.map(|w| w.0),
+                "enob_with_adc_bits": with.map(|w| w.1),
+            })
+        })
+        .collect();
+    extra.insert("tones".into(), json!(tones));
+}
+
+/// Summary lines for the tones and offset (empty without either): per tone its frequency,
+/// peak and RMS amplitude, SNR against the in-band noise and ENOB (SINAD = SNR: no
+/// distortion is modelled), and the peak-to-peak with the tones (noise 6σ + Σ 2A).
+fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> String {
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let f = tone_figures(profile, g, adc);
+    let (snr, noise_rms) = (&f.noise, f.noise_rms);
+    let mut s = String::new();
+    if profile.offset != 0.0 {
+        s += &format!(
+            "  offset          {} added to every sample (in the mean and RMS above)\n",
+            q(profile.offset)
+        );
+    }
+    for (i, (t, (snr_db, enob))) in profile.tones.iter().zip(snr).enumerate() {
+        s += &format!(
+            "  tone            {}: {}, {} peak ({} RMS), phase {:.3} deg\n",
+            t.name,
+            format_quantity(t.frequency_hz, "Hz"),
+            q(t.peak),
+            q(t.rms()),
+            t.phase_rad.to_degrees()
+        );
+        s += &format!(
+            "                  SNR {snr_db:.2} dB against {} noise in the band, ENOB {enob:.2} bits \
+             (IEEE 1241, SINAD = SNR: no distortion modelled)\n",
+            q(noise_rms)
+        );
+        if let Some(w) = &f.with_adc {
+            s += &format!(
+                "                  with the converter's added noise: SNR {:.2} dB, ENOB {:.2} bits\n",
+                w[i].0, w[i].1
+            );
+        }
+    }
+    if !profile.tones.is_empty() {
+        let spans: f64 = g
+            .bursts()
+            .iter()
+            .map(|m| {
+                let l = &m.burst().levels;
+                l.iter().copied().fold(f64::MIN, f64::max)
+                    - l.iter().copied().fold(f64::MAX, f64::min)
+            })
+            .sum();
+        let sigma = g.design().variance().sqrt();
+        let tones: f64 = profile.tones.iter().map(|t| 2.0 * t.peak).sum();
+        s += &format!(
+            "  peak-to-peak    {} (Gaussian 6σ + burst spans + Σ 2·peak of the tones), {} \
+             (6.6σ + …) expected at most\n",
+            q(6.0 * sigma + spans + tones),
+            q(6.6 * sigma + spans + tones)
+        );
+    }
+    s
 }
 
 /// Summary lines for the bursts (empty without any): the expected std and mean behind the

@@ -7,10 +7,12 @@
 mod burst;
 mod quantity;
 mod schema;
+mod tone;
 
 pub use burst::{Burst, BurstSampling, NEXT_ROW_TOLERANCE, describe_levels};
 pub use quantity::{Dimension, format_quantity, parse_quantity};
 pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
+pub use tone::{AmplitudeConvention, Tone};
 
 use serde::Serialize;
 
@@ -123,6 +125,11 @@ pub struct Profile {
     /// The burst sources, in file order: independent Markov chains over discrete levels,
     /// DC-coupled and not shaped by the band. May be empty.
     pub bursts: Vec<Burst>,
+    /// The sine tones, in file order: deterministic, added after the noise, not shaped by
+    /// the band. May be empty.
+    pub tones: Vec<Tone>,
+    /// DC value in the unit added to every sample (the `offset` key; 0 without it).
+    pub offset: f64,
 }
 
 impl Profile {
@@ -144,7 +151,11 @@ impl Profile {
     ///   "bursts": [
     ///     { "name": "burst 1", "levels": [0.0, 3e-6],   // in the unit
     ///       "dwell_s": [0.02, 0.005], "next": [[0.0, 1.0], [1.0, 0.0]],
-    ///       "sampling": "instant" } ] }
+    ///       "sampling": "instant" } ],
+    ///   "tones": [
+    ///     { "name": "tone 1", "frequency_hz": 1000.0, "peak": 1e-3, "rms": 7.07e-4,
+    ///       "phase_deg": 90.0, "given_as": "peak" } ],
+    ///   "offset": 1.65 }                    // in the unit
     /// ```
     pub fn to_json(&self) -> serde_json::Value {
         use serde_json::json;
@@ -216,6 +227,15 @@ impl Profile {
                 "next": b.next,
                 "sampling": b.sampling.name(),
             })).collect::<Vec<_>>(),
+            "tones": self.tones.iter().map(|t| json!({
+                "name": t.name,
+                "frequency_hz": t.frequency_hz,
+                "peak": t.peak,
+                "rms": t.rms(),
+                "phase_deg": t.phase_rad.to_degrees(),
+                "given_as": t.convention,
+            })).collect::<Vec<_>>(),
+            "offset": self.offset,
         })
     }
 }

@@ -20,6 +20,10 @@
 //! points = [[1.0, 30e-9], [10.0, "12 nV/rtHz"]]   # (Hz, unit/√Hz), ≥ 1 point
 //! [[amplifier]]                # an op-amp stage, expanded into named parts: see `amplifier`
 //! topology = "non-inverting"
+//! offset = "1.65 V"            # optional DC value added to every sample (see [`super::Tone`])
+//! [[tone]]                     # a sine added to the noise: frequency, peak or rms, phase
+//! frequency = "1 kHz"
+//! peak = "1 mV"
 //! ```
 //!
 //! Bare numbers are SI base units (Hz, Ω, K, unit/√Hz); strings carry units
@@ -38,6 +42,7 @@ use toml::{Spanned, Value};
 
 use super::burst::{BURST_KEYS, RawBurst, validate_bursts};
 use super::quantity::expectation;
+use super::tone::{RawTone, TONE_KEYS, validate_offset, validate_tones};
 use super::{Band, Dimension, Profile, Source, SourceKind, Unit, format_quantity, parse_quantity};
 use crate::error::{Error, Result};
 
@@ -59,6 +64,8 @@ const TOP_KEYS: &[&str] = &[
     "table",
     "amplifier",
     "burst",
+    "tone",
+    "offset",
 ];
 const BAND_KEYS: &[&str] = &["low", "high", "order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
@@ -82,6 +89,9 @@ struct RawProfile {
     amplifier: Vec<Spanned<amplifier::RawAmplifier>>,
     #[serde(default)]
     burst: Vec<Spanned<RawBurst>>,
+    #[serde(default)]
+    tone: Vec<Spanned<RawTone>>,
+    offset: Option<Spanned<Value>>,
 }
 
 #[derive(Deserialize)]
@@ -224,12 +234,13 @@ fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
                     a(other.type_str())
                 ),
             )),
-            ("floor" | "resistor" | "table" | "amplifier" | "burst", value) => {
+            ("floor" | "resistor" | "table" | "amplifier" | "burst" | "tone", value) => {
                 let allowed = match name {
                     "floor" => FLOOR_KEYS,
                     "resistor" => RESISTOR_KEYS,
                     "amplifier" => amplifier::KEYS,
                     "burst" => BURST_KEYS,
+                    "tone" => TONE_KEYS,
                     _ => TABLE_KEYS,
                 };
                 match value {
@@ -684,6 +695,8 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         sources.extend(amplifier::validate(cx, i, a, unit)?);
     }
     let bursts = validate_bursts(cx, &raw.burst, unit)?;
+    let tones = validate_tones(cx, &raw.tone, unit, fs)?;
+    let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
     if sources.is_empty() && bursts.is_empty() {
         return Err(cx.err(
             "sources",
@@ -704,6 +717,8 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         },
         sources,
         bursts,
+        tones,
+        offset,
     })
 }
 

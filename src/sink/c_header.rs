@@ -102,6 +102,15 @@ pub fn c_type(sample_format: SampleFormat) -> &'static str {
     }
 }
 
+/// The C element type of the array `spec` describes: the ADC container's (`uint16_t`, …) for
+/// ADC codes, else [`c_type`] of the sample format.
+pub fn c_spec_type(spec: &SinkSpec) -> &'static str {
+    match &spec.adc {
+        Some(adc) => adc.container().c_type(),
+        None => c_type(spec.sample_format),
+    }
+}
+
 /// Checks that `name` can name the array: a C identifier (a letter or `_`, then letters,
 /// digits and `_`), not a keyword, not reserved (C11 §7.1.3: `__…` or `_` + capital), and
 /// not a name from `<stdint.h>` (`…_t`, `INT…`/`UINT…`). Errors name `--name`.
@@ -253,6 +262,7 @@ impl<W: Write> CHeaderSink<W> {
         let buf = &mut self.out.buf;
         buf.extend_from_slice(if self.column == 0 { b"    " } else { b" " });
         let _ = match self.scaler.sample_format {
+            _ if self.scaler.adc.is_some() => write!(buf, "{},", self.scaler.adc_code(x)),
             SampleFormat::F32 => write!(buf, "{:.8e}f,", self.scaler.f32_value(x)),
             SampleFormat::F64 => write!(buf, "{},", c_double(self.scaler.digital(x))),
             SampleFormat::I16 | SampleFormat::I24 | SampleFormat::I32 => {
@@ -282,11 +292,15 @@ fn preamble(spec: &SinkSpec, frames: u64) -> String {
     for line in spec.provenance.iter().flat_map(|l| l.lines()) {
         s += &format!(" * {}\n", comment_safe(line));
     }
+    let stored = match &spec.adc {
+        Some(a) => format!("{}-bit {} ADC codes", a.bits(), a.coding()),
+        None => sf.to_string(),
+    };
     s += &format!(
-        " * {frames} frames x {} channel(s) at {}, {sf} stored as {}\n",
+        " * {frames} frames x {} channel(s) at {}, {stored} stored as {}\n",
         spec.channels,
         format_quantity(spec.sample_rate_hz, "Hz"),
-        c_type(sf)
+        c_spec_type(spec)
     );
     let (full_scale, scale_note) = match (spec.full_scale, sf.full_scale_code()) {
         (Some(fs), Some(code)) => (
@@ -300,9 +314,27 @@ fn preamble(spec: &SinkSpec, frames: u64) -> String {
         (Some(fs), None) => (fs, format!("digital 1.0 = {}", format_quantity(fs, unit))),
         (None, _) => (1.0, format!("values are physical, in {unit}")),
     };
+    let scale_note = match &spec.adc {
+        Some(a) => format!(
+            "code c stands for {upper}_CODE_ZERO_LEVEL + c * {upper}_LSB ({} + c * {} over \
+             the range {} .. {}; codes {} .. {})",
+            format_quantity(a.level(0), unit),
+            format_quantity(a.lsb(), unit),
+            format_quantity(a.lo(), unit),
+            format_quantity(a.hi(), unit),
+            a.code_range().0,
+            a.code_range().1
+        ),
+        None => scale_note,
+    };
     s += &format!(" * scale: {}\n", comment_safe(&scale_note));
-    s += " * Before sending these values to a DAC or amplifier, check the full scale against\n";
-    s += " * the device's range; at high levels noise can damage hearing and speakers.\n */\n";
+    if spec.adc.is_some() {
+        s += " * Before feeding these codes to a DAC, firmware or a rig, check the range against\n";
+        s += " * the converter's reference and input limits and what follows it.\n */\n";
+    } else {
+        s += " * Before sending these values to a DAC or amplifier, check the full scale against\n";
+        s += " * the device's range; at high levels noise can damage hearing and speakers.\n */\n";
+    }
     s += &format!("#ifndef {upper}_H\n#define {upper}_H\n\n#include <stdint.h>\n\n");
     s += &format!("#define {upper}_LENGTH {frames} /* frames */\n");
     s += &format!("#define {upper}_CHANNELS {}\n", spec.channels);
@@ -318,13 +350,28 @@ fn preamble(spec: &SinkSpec, frames: u64) -> String {
         (Some(_), Some(code)) => format!("digital 1.0 (code {code})"),
         (Some(_), None) => "digital 1.0".to_string(),
     };
-    s += &format!(
-        "#define {upper}_FULL_SCALE {} /* {unit}: physical value of {what} */\n\n",
-        c_double(full_scale)
-    );
+    match &spec.adc {
+        Some(a) => {
+            s += &format!("#define {upper}_BITS {}\n", a.bits());
+            s += &format!(
+                "#define {upper}_LSB {} /* {unit}: one code step */\n",
+                c_double(a.lsb())
+            );
+            s += &format!(
+                "#define {upper}_CODE_ZERO_LEVEL {} /* {unit}: level of code 0 */\n\n",
+                c_double(a.level(0))
+            );
+        }
+        None => {
+            s += &format!(
+                "#define {upper}_FULL_SCALE {} /* {unit}: physical value of {what} */\n\n",
+                c_double(full_scale)
+            );
+        }
+    }
     s += &format!(
         "static const {} {name}[{upper}_LENGTH * {upper}_CHANNELS] = {{\n",
-        c_type(sf)
+        c_spec_type(spec)
     );
     s
 }

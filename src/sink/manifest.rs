@@ -47,11 +47,13 @@ pub struct Manifest {
     pub duration_s: f64,
     /// Output container.
     pub format: Format,
-    /// Stored sample format.
-    pub sample_format: SampleFormat,
+    /// Stored sample format: a [`SampleFormat`] name (`f32`, `i16`, …) or, for ADC codes, the
+    /// code container (`u8`, `u16`, `u32`, `i8`, `i16`, `i32`; see `extra.adc`).
+    pub sample_format: String,
     /// Physical unit of the samples.
     pub unit: Unit,
-    /// Physical value (in `unit`) of digital 1.0; `None` when physical values were written.
+    /// Physical value (in `unit`) of digital 1.0; `None` when physical values or ADC codes
+    /// (`extra.adc`) were written.
     pub full_scale: Option<f64>,
     /// Requested RMS level in dBFS, if the level was set that way; see `dbfs_convention`.
     pub level_dbfs: Option<f64>,
@@ -95,7 +97,10 @@ impl Manifest {
             samples: report.samples,
             duration_s: report.samples as f64 / spec.sample_rate_hz,
             format: spec.format,
-            sample_format: spec.sample_format,
+            sample_format: match &spec.adc {
+                Some(adc) => adc.container().name().to_string(),
+                None => spec.sample_format.name().to_string(),
+            },
             unit: spec.unit,
             full_scale: spec.full_scale,
             level_dbfs: None,
@@ -150,15 +155,12 @@ pub fn container_facts(
             }
         }
         Format::Npy => {
-            keys.insert(
-                "npy_dtype".into(),
-                json!(super::npy_descr(spec.sample_format)),
-            );
+            keys.insert("npy_dtype".into(), json!(super::npy_spec_descr(spec)));
             keys.insert(
                 "npy_shape".into(),
                 json!(super::npy_shape(frames, spec.channels)),
             );
-            if spec.sample_format == SampleFormat::I24 {
+            if spec.sample_format == SampleFormat::I24 && spec.adc.is_none() {
                 notes.push(
                     "i24 codes are stored as '<i4' (int32) in the .npy file, with the values \
                      of 24-bit codes (-8388607..8388607)"
@@ -169,14 +171,21 @@ pub fn container_facts(
         Format::C => {
             let name = spec.name.clone().unwrap_or_else(|| "noise".to_string());
             let upper = name.to_ascii_uppercase();
-            keys.insert("c_type".into(), json!(super::c_type(spec.sample_format)));
-            keys.insert(
-                "c_macros".into(),
-                json!(
-                    ["LENGTH", "CHANNELS", "SAMPLE_RATE_HZ", "FULL_SCALE"]
-                        .map(|m| format!("{upper}_{m}"))
-                ),
-            );
+            keys.insert("c_type".into(), json!(super::c_spec_type(spec)));
+            let macros: &[&str] = if spec.adc.is_some() {
+                &[
+                    "LENGTH",
+                    "CHANNELS",
+                    "SAMPLE_RATE_HZ",
+                    "BITS",
+                    "LSB",
+                    "CODE_ZERO_LEVEL",
+                ]
+            } else {
+                &["LENGTH", "CHANNELS", "SAMPLE_RATE_HZ", "FULL_SCALE"]
+            };
+            let macros: Vec<String> = macros.iter().map(|m| format!("{upper}_{m}")).collect();
+            keys.insert("c_macros".into(), json!(macros));
             keys.insert("c_name".into(), json!(name));
         }
         Format::Csv | Format::Raw => {}

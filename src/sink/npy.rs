@@ -38,6 +38,15 @@ pub fn npy_descr(sample_format: SampleFormat) -> &'static str {
     }
 }
 
+/// The `descr` of the array `spec` describes: the ADC container's (`'|u1'`, `'<u2'`, …) for
+/// ADC codes, else [`npy_descr`] of the sample format.
+pub fn npy_spec_descr(spec: &SinkSpec) -> &'static str {
+    match &spec.adc {
+        Some(adc) => adc.container().npy_descr(),
+        None => npy_descr(spec.sample_format),
+    }
+}
+
 /// Bytes per stored value in a `.npy` file: i24 takes 4 (see [`npy_descr`]).
 fn stored_bytes(sample_format: SampleFormat) -> usize {
     match sample_format {
@@ -124,7 +133,7 @@ impl<W: Write> NpySink<W> {
             })?;
         let mut out = Buffered::new(out, "writing npy");
         out.buf.extend_from_slice(&npy_header(
-            npy_descr(spec.sample_format),
+            npy_spec_descr(spec),
             &npy_shape(frames, spec.channels),
         ));
         Ok(NpySink {
@@ -158,7 +167,7 @@ impl<W: Write> Sink for NpySink<W> {
         }
         self.scaler.check_finite(samples)?;
         for chunk in samples.chunks(CHUNK_SAMPLES) {
-            if self.scaler.sample_format == SampleFormat::I24 {
+            if self.scaler.sample_format == SampleFormat::I24 && self.scaler.adc.is_none() {
                 // i24 codes widened to '<i4' (numpy has no 3-byte integer).
                 self.out
                     .buf

@@ -357,6 +357,7 @@ mod tests {
             frames: Some(x.len() as u64),
             channels: 1,
             unit: Unit::Volt,
+            adc: None,
             name: None,
             provenance: Vec::new(),
         };

@@ -4,12 +4,14 @@
 //!   any band.low down to about 1e-12 of the sample rate, exact designed density).
 //! - [`periodic_buffer`]: the loop buffer, one inverse FFT with random amplitudes and phases.
 //! - [`BurstChain`]: a burst source's Markov chain, simulated event by event.
+//! - [`tone`]: the deterministic parts (sine tones and the DC offset), from the sample index.
 //! - [`Generator`]: all of a profile's sources together, the pull API.
 
 mod burst;
 mod design;
 mod periodic;
 mod shaper;
+pub mod tone;
 mod white;
 
 pub use burst::{BurstChain, BurstTally};
@@ -21,7 +23,7 @@ pub use white::{Domain, WhiteStreams};
 use crate::burst::BurstModel;
 use crate::density::target_psd;
 use crate::error::Result;
-use crate::profile::Profile;
+use crate::profile::{Profile, Tone};
 
 /// The streaming engine for a profile: the Gaussian part (its [`Design`] and a seeded
 /// [`Shaper`]) plus one [`BurstChain`] per burst source.
@@ -29,13 +31,25 @@ use crate::profile::Profile;
 /// This is the pull API for test harnesses: [`Generator::fill`] writes the next samples (in
 /// the profile's unit) into any slice; [`Generator::density`] says what density they have
 /// ([`Generator::design`] for the Gaussian part alone, [`Generator::bursts`] for each burst).
-/// Each sample is the Gaussian sum plus every burst, added in that order in f64.
+/// Each sample is the Gaussian sum, plus every burst, plus every tone, plus the offset, added
+/// in that order in f64. Tones and offset depend only on the absolute sample index (see
+/// [`tone`]); [`Generator::set_deterministic_start`] moves that index.
+///
+/// Expected values come in two sets: the noise alone ([`Generator::noise_variance`],
+/// [`Generator::noise_mean`], [`Generator::noise_rms`]) and the total
+/// ([`Generator::variance`], [`Generator::mean`], [`Generator::expected_rms`]), where a tone of
+/// peak A adds its mean power A²/2 to the variance and the offset adds to the mean.
 pub struct Generator {
     design: Design,
     /// `None` when the profile has no Gaussian source (that part is exactly 0).
     shaper: Option<Shaper>,
     bursts: Vec<BurstModel>,
     chains: Vec<BurstChain>,
+    tones: Vec<Tone>,
+    offset: f64,
+    sample_rate_hz: f64,
+    /// Absolute index of the next sample, for the tones.
+    index: u64,
     scratch: Vec<f64>,
 }
 
@@ -60,8 +74,40 @@ impl Generator {
             shaper,
             bursts,
             chains,
+            tones: profile.tones.clone(),
+            offset: profile.offset,
+            sample_rate_hz: profile.sample_rate_hz,
+            index: 0,
             scratch: Vec::new(),
         })
+    }
+
+    /// Make the next sample's tones and offset those of absolute sample index `n0` (the
+    /// noise engines are not moved). A run that calls this with n0 and then fills gives,
+    /// for its tones and offset, exactly the values a run from 0 gives from n0 on.
+    pub fn set_deterministic_start(&mut self, n0: u64) {
+        self.index = n0;
+    }
+
+    /// Absolute sample index of the next sample's tones and offset.
+    pub fn deterministic_index(&self) -> u64 {
+        self.index
+    }
+
+    /// The tones, in profile order.
+    pub fn tones(&self) -> &[Tone] {
+        &self.tones
+    }
+
+    /// The DC offset in the unit.
+    pub fn offset(&self) -> f64 {
+        self.offset
+    }
+
+    /// Number of vectors [`Generator::fill_sources`] fills: the Gaussian sum, each burst,
+    /// each tone, and the offset when it is not 0.
+    pub fn part_count(&self) -> usize {
+        1 + self.chains.len() + self.tones.len() + usize::from(self.offset != 0.0)
     }
 
     /// Fill `out` with the next samples, in the profile's unit (V or A).
@@ -76,20 +122,30 @@ impl Generator {
             }
         }
         self.scratch = part;
+        tone::add_deterministic(
+            &self.tones,
+            self.offset,
+            self.sample_rate_hz,
+            self.index,
+            out,
+        );
+        self.index += out.len() as u64;
     }
 
     /// Fill `total` with the next samples and `parts` with what they are made of: `parts[0]`
-    /// the Gaussian sum, `parts[1 + i]` burst `i` (all in the profile's unit). `parts` must
-    /// hold `1 + bursts().len()` vectors; each is resized to `total.len()`. The samples are
-    /// the same as [`Generator::fill`] would give, and `total[n]` is the f64 sum of the parts
-    /// in order.
+    /// the Gaussian sum, `parts[1 + i]` burst `i`, then one per tone, then the offset when it
+    /// is not 0 (all in the profile's unit). `parts` must hold [`Generator::part_count`]
+    /// vectors; each is resized to `total.len()`. The samples are the same as
+    /// [`Generator::fill`] would give, and `total[n]` is the f64 sum of the parts in order.
     ///
     /// # Panics
     /// If `parts` has the wrong length.
     pub fn fill_sources(&mut self, total: &mut [f64], parts: &mut [Vec<f64>]) {
-        assert_eq!(parts.len(), 1 + self.chains.len(), "one part per source");
+        assert_eq!(parts.len(), self.part_count(), "one part per source");
         let n = total.len();
-        let (gauss, bursts) = parts.split_first_mut().expect("at least one part");
+        let (gauss, rest) = parts.split_first_mut().expect("at least one part");
+        let (bursts, rest) = rest.split_at_mut(self.chains.len());
+        let (tones, offset) = rest.split_at_mut(self.tones.len());
         gauss.resize(n, 0.0);
         self.fill_gaussian(gauss);
         total.copy_from_slice(gauss);
@@ -100,6 +156,28 @@ impl Generator {
                 *o += p;
             }
         }
+        for (t, part) in self.tones.iter().zip(tones) {
+            part.clear();
+            part.resize(n, 0.0);
+            tone::add_deterministic(
+                std::slice::from_ref(t),
+                0.0,
+                self.sample_rate_hz,
+                self.index,
+                part,
+            );
+            for (o, p) in total.iter_mut().zip(part.iter()) {
+                *o += p;
+            }
+        }
+        if let Some(part) = offset.first_mut() {
+            part.clear();
+            part.resize(n, self.offset);
+            for o in total.iter_mut() {
+                *o += self.offset;
+            }
+        }
+        self.index += n as u64;
     }
 
     fn fill_gaussian(&mut self, out: &mut [f64]) {
@@ -132,21 +210,72 @@ impl Generator {
         self.design.density(f) + self.bursts.iter().map(|b| b.density(f)).sum::<f64>()
     }
 
-    /// Expected variance of the samples in unit² (AC: the mean removed).
-    pub fn variance(&self) -> f64 {
+    /// Expected variance of the noise alone in unit² (AC: the mean removed): the Gaussian
+    /// design plus every burst.
+    pub fn noise_variance(&self) -> f64 {
         self.design.variance() + self.bursts.iter().map(|b| b.variance()).sum::<f64>()
     }
 
-    /// Expected mean of the samples in the unit: the bursts' DC levels (the Gaussian part has
-    /// none).
-    pub fn mean(&self) -> f64 {
+    /// Expected mean of the noise alone in the unit: the bursts' DC levels (the Gaussian part
+    /// has none).
+    pub fn noise_mean(&self) -> f64 {
         self.bursts.iter().map(|b| b.mean()).sum()
     }
 
-    /// Expected RMS of the samples (AC + DC) in the unit: √(variance + mean²).
+    /// Expected RMS of the noise alone (AC + DC) in the unit: √(noise variance + noise mean²).
+    pub fn noise_rms(&self) -> f64 {
+        let m = self.noise_mean();
+        (self.noise_variance() + m * m).sqrt()
+    }
+
+    /// Mean power of the tones in unit²: Σ A²/2 (their time average over a long run; tones of
+    /// different frequencies add in power).
+    pub fn tone_power(&self) -> f64 {
+        self.tones.iter().map(Tone::power).sum()
+    }
+
+    /// Expected variance of the samples in unit² (AC: the mean removed): the noise variance
+    /// plus the tones' power Σ A²/2.
+    pub fn variance(&self) -> f64 {
+        self.noise_variance() + self.tone_power()
+    }
+
+    /// Expected mean of the samples in the unit: the bursts' DC levels plus the offset.
+    pub fn mean(&self) -> f64 {
+        self.noise_mean() + self.offset
+    }
+
+    /// Expected RMS of the samples (AC + DC, tones included) in the unit: √(variance + mean²).
     pub fn expected_rms(&self) -> f64 {
         let m = self.mean();
         (self.variance() + m * m).sqrt()
+    }
+
+    /// Expected noise power in the profile band in unit²: the total designed density
+    /// ([`Generator::density`], Gaussian design plus bursts) integrated over band.low..band.high.
+    /// This is the noise a tone's SNR is quoted against.
+    pub fn band_noise_power(&self, band_low_hz: f64, band_high_hz: f64) -> f64 {
+        crate::density::integrate(&|f| self.density(f), band_low_hz, band_high_hz)
+    }
+
+    /// Per tone, its expected SNR in dB against the band's noise power
+    /// ([`Generator::band_noise_power`]) plus `extra_noise_power` (unit², e.g. quantisation
+    /// noise; 0 for none), and the matching ENOB in bits ([`tone::enob`] with SINAD = SNR:
+    /// no distortion is modelled).
+    pub fn tone_snr(
+        &self,
+        band_low_hz: f64,
+        band_high_hz: f64,
+        extra_noise_power: f64,
+    ) -> Vec<(f64, f64)> {
+        let noise = self.band_noise_power(band_low_hz, band_high_hz);
+        self.tones
+            .iter()
+            .map(|t| {
+                let snr = tone::snr_db(t.power(), noise, extra_noise_power);
+                (snr, tone::enob(snr))
+            })
+            .collect()
     }
 }
 
