@@ -74,7 +74,7 @@ impl<R: Read> SampleSource for RawSource<R> {
     fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize> {
         out.clear();
         let b = self.sample_format.bytes();
-        let want = (max.max(1) * b).min(self.buf.len() / b * b);
+        let want = max.max(1).saturating_mul(b).min(self.buf.len() / b * b);
         let got = read_full(&mut self.input, &mut self.buf[..want], &self.name)?;
         if got % b != 0 {
             return Err(Error::input(

@@ -117,7 +117,7 @@ impl<R: Read> WavSource<R> {
                 b"fmt " => {
                     if !(16..=1024).contains(&size) {
                         return Err(bad(format!(
-                            "the \"fmt \" chunk is {size} bytes; expected 16 to 40"
+                            "the \"fmt \" chunk is {size} bytes; expected 16 to 1024"
                         )));
                     }
                     let mut body = vec![0u8; size as usize + (size as usize & 1)];
