@@ -5,10 +5,14 @@
 //! √Hz for densities.
 
 mod burst;
+mod channels;
 mod quantity;
 mod schema;
 
 pub use burst::{Burst, BurstSampling, NEXT_ROW_TOLERANCE, describe_levels};
+pub use channels::{
+    MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
+};
 pub use quantity::{Dimension, format_quantity, parse_quantity};
 pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
 
@@ -123,6 +127,11 @@ pub struct Profile {
     /// The burst sources, in file order: independent Markov chains over discrete levels,
     /// DC-coupled and not shaped by the band. May be empty.
     pub bursts: Vec<Burst>,
+    /// Channels per frame, 1 ≤ N ≤ [`MAX_CHANNELS`] (the `channels` key, default 1).
+    pub channels: usize,
+    /// The N×N correlation matrix between channels (dimensionless; symmetric, unit diagonal,
+    /// positive semi-definite); the identity without a `correlation` key.
+    pub correlation: Vec<Vec<f64>>,
 }
 
 impl Profile {
@@ -216,6 +225,8 @@ impl Profile {
                 "next": b.next,
                 "sampling": b.sampling.name(),
             })).collect::<Vec<_>>(),
+            "channels": self.channels,
+            "correlation": self.correlation,
         })
     }
 }

@@ -59,6 +59,8 @@ const TOP_KEYS: &[&str] = &[
     "table",
     "amplifier",
     "burst",
+    "channels",
+    "correlation",
 ];
 const BAND_KEYS: &[&str] = &["low", "high", "order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
@@ -82,6 +84,8 @@ struct RawProfile {
     amplifier: Vec<Spanned<amplifier::RawAmplifier>>,
     #[serde(default)]
     burst: Vec<Spanned<RawBurst>>,
+    channels: Option<Spanned<Value>>,
+    correlation: Option<Spanned<Value>>,
 }
 
 #[derive(Deserialize)]
@@ -693,6 +697,9 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         ));
     }
 
+    let (channels, correlation) =
+        super::channels::validate_channels(cx, raw.channels.as_ref(), raw.correlation.as_ref())?;
+
     Ok(Profile {
         name: raw.name.as_ref().map(|n| n.get_ref().clone()),
         unit,
@@ -704,6 +711,8 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         },
         sources,
         bursts,
+        channels,
+        correlation,
     })
 }
 

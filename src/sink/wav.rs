@@ -8,11 +8,18 @@
 //! | i16 | PCM, tag 1, 16 bytes | – | 44 |
 //! | i24, i32 | EXTENSIBLE, tag 0xFFFE, 40 bytes (cbSize 22, valid bits = container bits, channel mask, PCM SubFormat GUID) | – | 68 |
 //! | f32 | IEEE float, tag 3, 18 bytes (cbSize 0) | `fact` (sample frames) | 58 |
+//! | f32, more than 2 channels | EXTENSIBLE, 40 bytes, IEEE float SubFormat GUID | `fact` | 80 |
 //!
-//! EXTENSIBLE is used for PCM wider than 16 bits, as the Microsoft multichannel document asks
-//! (REFERENCES §10). EXTENSIBLE PCM carries no `fact` chunk: its data is PCM (common practice).
-//! 64-bit float WAV is not offered (see [`wav_bytes`]). All files are mono; the header code
-//! takes a channel count so more channels only need a frame layout.
+//! EXTENSIBLE is used for PCM wider than 16 bits and for more than 2 channels, as Microsoft's
+//! WAVEFORMATEXTENSIBLE documentation and its "Multiple channel audio data and WAVE files"
+//! (2001) ask: WAVEFORMATEX cannot describe more than two channels or samples wider than 16
+//! bits unambiguously (REFERENCES §10). EXTENSIBLE PCM carries no `fact` chunk: its data is
+//! PCM (common practice). 64-bit float WAV is not offered (see [`wav_bytes`]).
+//!
+//! Frames are interleaved (channel 0, 1, …, N − 1 of frame 0, then frame 1), nBlockAlign =
+//! N × container bytes. The channel mask is SPEAKER_FRONT_CENTER for mono and 0 for more
+//! channels: 0 means no speaker positions, which is right for measurement channels that are
+//! not loudspeaker feeds (WAVEFORMATEXTENSIBLE documentation).
 
 use std::io::Write;
 
@@ -34,8 +41,19 @@ const MASK_FRONT_CENTER: u32 = 0x4;
 const GUID_PCM: [u8; 16] = [
     0x01, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xAA, 0x00, 0x38, 0x9B, 0x71,
 ];
-/// Channels written; WAV output is mono for now.
-const CHANNELS: u16 = 1;
+/// KSDATAFORMAT_SUBTYPE_IEEE_FLOAT, GUID 00000003-0000-0010-8000-00AA00389B71, stored like
+/// [`GUID_PCM`].
+const GUID_IEEE_FLOAT: [u8; 16] = [
+    0x03, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xAA, 0x00, 0x38, 0x9B, 0x71,
+];
+/// `dwChannelMask` for more than one channel: 0, no speaker positions.
+const MASK_NONE: u32 = 0;
+
+/// True when `fmt ` must be WAVEFORMATEXTENSIBLE: PCM wider than 16 bits or more than two
+/// channels (Microsoft WAVEFORMATEXTENSIBLE documentation; REFERENCES §10).
+fn extensible(sample_format: SampleFormat, channels: u16) -> bool {
+    channels > 2 || matches!(sample_format, SampleFormat::I24 | SampleFormat::I32)
+}
 
 /// The RIFF size and data size fields are u32 (REFERENCES §10): the largest RIFF size.
 const RIFF_SIZE_MAX: u64 = u32::MAX as u64;
@@ -47,7 +65,14 @@ struct Layout {
     header: u64,
 }
 
-fn layout(sample_format: SampleFormat) -> Result<Layout> {
+fn layout(sample_format: SampleFormat, channels: u16) -> Result<Layout> {
+    if sample_format == SampleFormat::F32 && extensible(sample_format, channels) {
+        // 12 + fmt (8+40) + fact (8+4) + data header (8)
+        return Ok(Layout { header: 80 });
+    }
+    if extensible(sample_format, channels) {
+        return Ok(Layout { header: 68 });
+    }
     let header = match sample_format {
         // "RIFF"+size+"WAVE" (12) + fmt (8+16) + data header (8)
         SampleFormat::I16 => 44,
@@ -70,30 +95,30 @@ fn f64_refused() -> Error {
 
 /// Data bytes and the pad byte that makes the data chunk even (RIFF: the pad is not counted
 /// in the chunk's size but is in the RIFF size).
-fn data_and_pad(frames: u64, sample_format: SampleFormat) -> (u64, u64) {
-    let data = frames.saturating_mul(u64::from(CHANNELS) * sample_format.bytes() as u64);
+fn data_and_pad(frames: u64, sample_format: SampleFormat, channels: u16) -> (u64, u64) {
+    let data = frames.saturating_mul(u64::from(channels) * sample_format.bytes() as u64);
     (data, data % 2)
 }
 
-/// Total size in bytes of a mono WAV holding `frames` samples in `sample_format`: header,
-/// data and pad byte. Saturates at `u64::MAX` for absurd counts. Errors for
-/// [`SampleFormat::F64`], which WAV output does not offer.
-pub fn wav_bytes(frames: u64, sample_format: SampleFormat) -> Result<u64> {
-    let l = layout(sample_format)?;
-    let (data, pad) = data_and_pad(frames, sample_format);
+/// Total size in bytes of a WAV holding `frames` frames of `channels` samples in
+/// `sample_format`: header, data and pad byte. Saturates at `u64::MAX` for absurd counts.
+/// Errors for [`SampleFormat::F64`], which WAV output does not offer.
+pub fn wav_bytes(frames: u64, sample_format: SampleFormat, channels: u16) -> Result<u64> {
+    let l = layout(sample_format, channels)?;
+    let (data, pad) = data_and_pad(frames, sample_format, channels);
     Ok(l.header.saturating_add(data).saturating_add(pad))
 }
 
-/// The most samples a mono WAV in `sample_format` can hold under the 4 GiB limit of the
-/// u32 RIFF size field. Errors for [`SampleFormat::F64`].
-pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
-    let l = layout(sample_format)?;
-    let bytes = u64::from(CHANNELS) * sample_format.bytes() as u64;
+/// The most frames a WAV of `channels` channels in `sample_format` can hold under the 4 GiB
+/// limit of the u32 RIFF size field. Errors for [`SampleFormat::F64`].
+pub fn wav_max_frames(sample_format: SampleFormat, channels: u16) -> Result<u64> {
+    let l = layout(sample_format, channels)?;
+    let bytes = u64::from(channels) * sample_format.bytes() as u64;
     // RIFF size = file size − 8; take the largest frame count, then step back if the pad
     // byte pushes it over.
     let room = RIFF_SIZE_MAX - (l.header - 8);
     let mut frames = room / bytes;
-    while wav_bytes(frames, sample_format)? - 8 > RIFF_SIZE_MAX {
+    while wav_bytes(frames, sample_format, channels)? - 8 > RIFF_SIZE_MAX {
         frames -= 1;
     }
     Ok(frames)
@@ -101,13 +126,13 @@ pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
 
 /// Refuses (with [`Error::Unsupported`]) a WAV whose RIFF or data size would exceed the u32
 /// fields of RIFF/WAVE, i.e. a file past 4 GiB. Nothing is written; call before opening.
-pub fn check_wav_size(frames: u64, sample_format: SampleFormat) -> Result<()> {
-    let total = wav_bytes(frames, sample_format)?;
+pub fn check_wav_size(frames: u64, sample_format: SampleFormat, channels: u16) -> Result<()> {
+    let total = wav_bytes(frames, sample_format, channels)?;
     // The RIFF size (total − 8) always exceeds the data size, so checking it covers both.
     if total - 8 <= RIFF_SIZE_MAX {
         return Ok(());
     }
-    let max = wav_max_frames(sample_format)?;
+    let max = wav_max_frames(sample_format, channels)?;
     Err(Error::Unsupported(format!(
         "a WAV of {frames} {sample_format} samples would be {total} bytes, but RIFF/WAV sizes \
          are 32-bit fields, which limits a WAV file to 4 GiB ({max} {sample_format} samples \
@@ -117,9 +142,9 @@ pub fn check_wav_size(frames: u64, sample_format: SampleFormat) -> Result<()> {
 
 /// WAV-specific checks of a spec (called from [`SinkSpec::validate`]).
 pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
-    layout(spec.sample_format)?;
+    layout(spec.sample_format, spec.channels)?;
     let rate = spec.sample_rate_hz;
-    let bytes_per_second = rate * f64::from(CHANNELS) * spec.sample_format.bytes() as f64;
+    let bytes_per_second = rate * f64::from(spec.channels) * spec.sample_format.bytes() as f64;
     if rate.fract() != 0.0 || bytes_per_second > f64::from(u32::MAX) {
         return Err(Error::Unsupported(format!(
             "WAV stores the sample rate and byte rate as 32-bit whole numbers; {rate} Hz cannot \
@@ -133,16 +158,16 @@ pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
                 .to_string(),
         ));
     };
-    check_wav_size(frames, spec.sample_format)
+    check_wav_size(frames, spec.sample_format, spec.channels)
 }
 
-/// The header bytes for a mono WAV of `frames` samples. The spec must have passed
-/// [`validate`], so every size fits its field.
-fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<u8> {
-    let (data, pad) = data_and_pad(frames, sample_format);
-    let total = layout(sample_format).expect("validated").header + data + pad;
+/// The header bytes for a WAV of `frames` frames of `channels` samples. The spec must have
+/// passed [`validate`], so every size fits its field.
+fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64, channels: u16) -> Vec<u8> {
+    let (data, pad) = data_and_pad(frames, sample_format, channels);
+    let total = layout(sample_format, channels).expect("validated").header + data + pad;
     let container_bytes = sample_format.bytes() as u16;
-    let block_align = CHANNELS * container_bytes;
+    let block_align = channels * container_bytes;
     let rate = sample_rate_hz as u32;
     let bits = 8 * container_bytes;
 
@@ -151,14 +176,15 @@ fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<
     h.extend_from_slice(&((total - 8) as u32).to_le_bytes());
     h.extend_from_slice(b"WAVE");
     let (tag, fmt_len): (u16, u32) = match sample_format {
+        _ if extensible(sample_format, channels) => (TAG_EXTENSIBLE, 40),
         SampleFormat::I16 => (TAG_PCM, 16),
-        SampleFormat::F32 => (TAG_IEEE_FLOAT, 18),
-        _ => (TAG_EXTENSIBLE, 40),
+        _ => (TAG_IEEE_FLOAT, 18),
     };
+    let float = sample_format == SampleFormat::F32;
     h.extend_from_slice(b"fmt ");
     h.extend_from_slice(&fmt_len.to_le_bytes());
     h.extend_from_slice(&tag.to_le_bytes()); // wFormatTag
-    h.extend_from_slice(&CHANNELS.to_le_bytes()); // nChannels
+    h.extend_from_slice(&channels.to_le_bytes()); // nChannels
     h.extend_from_slice(&rate.to_le_bytes()); // nSamplesPerSec
     h.extend_from_slice(&(rate * u32::from(block_align)).to_le_bytes()); // nAvgBytesPerSec
     h.extend_from_slice(&block_align.to_le_bytes()); // nBlockAlign
@@ -173,8 +199,18 @@ fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<
         TAG_EXTENSIBLE => {
             h.extend_from_slice(&22u16.to_le_bytes()); // cbSize
             h.extend_from_slice(&bits.to_le_bytes()); // wValidBitsPerSample
-            h.extend_from_slice(&MASK_FRONT_CENTER.to_le_bytes()); // dwChannelMask
-            h.extend_from_slice(&GUID_PCM); // SubFormat
+            let mask = if channels == 1 {
+                MASK_FRONT_CENTER
+            } else {
+                MASK_NONE
+            };
+            h.extend_from_slice(&mask.to_le_bytes()); // dwChannelMask
+            h.extend_from_slice(if float { &GUID_IEEE_FLOAT } else { &GUID_PCM }); // SubFormat
+            if float {
+                h.extend_from_slice(b"fact");
+                h.extend_from_slice(&4u32.to_le_bytes());
+                h.extend_from_slice(&(frames as u32).to_le_bytes()); // dwSampleLength
+            }
         }
         _ => {}
     }
@@ -184,7 +220,8 @@ fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<
     h
 }
 
-/// Mono WAV writer: i16 PCM, i24/i32 EXTENSIBLE PCM, f32 IEEE float (see the module docs).
+/// WAV writer: i16 PCM, i24/i32 EXTENSIBLE PCM, f32 IEEE float, interleaved frames of
+/// [`SinkSpec::channels`] samples (see the module docs).
 ///
 /// Needs a full scale and the sample count ([`SinkSpec::frames`]); writing more samples
 /// than announced, or finishing with fewer, is an error because the header would be wrong.
@@ -193,6 +230,7 @@ pub struct WavSink<W: Write> {
     out: Buffered<W>,
     scaler: Scaler,
     frames: u64,
+    channels: u16,
     pad: bool,
 }
 
@@ -209,14 +247,24 @@ impl<W: Write> WavSink<W> {
         }
         let frames = spec.frames.expect("validated");
         let mut out = Buffered::new(out, "writing WAV");
-        out.buf
-            .extend_from_slice(&header(frames, spec.sample_format, spec.sample_rate_hz));
+        out.buf.extend_from_slice(&header(
+            frames,
+            spec.sample_format,
+            spec.sample_rate_hz,
+            spec.channels,
+        ));
         Ok(WavSink {
             out,
             scaler: Scaler::new(spec),
             frames,
-            pad: data_and_pad(frames, spec.sample_format).1 == 1,
+            channels: spec.channels,
+            pad: data_and_pad(frames, spec.sample_format, spec.channels).1 == 1,
         })
+    }
+
+    /// Samples announced: frames × channels.
+    fn samples(&self) -> u64 {
+        self.frames * u64::from(self.channels)
     }
 
     fn count_error(&self, got: u64) -> Error {
@@ -227,7 +275,7 @@ impl<W: Write> WavSink<W> {
                 format!(
                     "the WAV header announced {} samples but {got} were given; \
                      the file would be inconsistent",
-                    self.frames
+                    self.samples()
                 ),
             ),
         )
@@ -239,7 +287,7 @@ impl<W: Write> Sink for WavSink<W> {
         self.out.ensure_open()?;
         let done = self.scaler.report.samples;
         let after = done + samples.len() as u64;
-        if after > self.frames {
+        if after > self.samples() {
             return Err(self.count_error(after));
         }
         self.scaler.check_finite(samples)?;
@@ -253,7 +301,7 @@ impl<W: Write> Sink for WavSink<W> {
     fn finish(&mut self) -> Result<SinkReport> {
         self.out.ensure_open()?;
         let done = self.scaler.report.samples;
-        if done != self.frames {
+        if done != self.samples() {
             self.out.finished = true;
             return Err(self.count_error(done));
         }
@@ -304,7 +352,7 @@ mod tests {
         want.extend_from_slice(&[0x00, 0x20]); // 8192 = 0x2000
         want.extend_from_slice(&[0x00, 0xC0]); // −16384 = 0xC000
         assert_eq!(b, want);
-        assert_eq!(b.len() as u64, wav_bytes(2, SampleFormat::I16).unwrap());
+        assert_eq!(b.len() as u64, wav_bytes(2, SampleFormat::I16, 1).unwrap());
         assert_eq!((r.samples, r.clipped, r.peak_abs), (2, 0, 1.0));
     }
 
@@ -337,7 +385,7 @@ mod tests {
         want.extend_from_slice(&[0x00, 0x00, 0x40]);
         want.extend_from_slice(&[0x00, 0x00, 0xE0]);
         assert_eq!(b, want);
-        assert_eq!(b.len() as u64, wav_bytes(2, SampleFormat::I24).unwrap());
+        assert_eq!(b.len() as u64, wav_bytes(2, SampleFormat::I24, 1).unwrap());
     }
 
     /// Golden bytes for IEEE float: tag 3, cbSize 0 and a `fact` chunk (Rev. 3 rule quoted in
@@ -396,7 +444,7 @@ mod tests {
             SampleFormat::F32,
         ] {
             let (b, rep) = wav(sf, full_scale, &x);
-            assert_eq!(b.len() as u64, wav_bytes(n as u64, sf).unwrap(), "{sf}");
+            assert_eq!(b.len() as u64, wav_bytes(n as u64, sf, 1).unwrap(), "{sf}");
             let mut rd = hound::WavReader::new(Cursor::new(&b)).expect("hound opens it");
             let s = rd.spec();
             assert_eq!((s.channels, s.sample_rate), (1, 48_000), "{sf}");
@@ -438,7 +486,7 @@ mod tests {
         assert!(matches!(e, Error::Unsupported(_)));
         let m = e.to_string();
         assert!(m.contains("readers") && m.contains("raw f64"), "{m}");
-        assert!(wav_bytes(1, SampleFormat::F64).is_err());
+        assert!(wav_bytes(1, SampleFormat::F64, 1).is_err());
     }
 
     #[test]
@@ -463,26 +511,26 @@ mod tests {
     #[test]
     fn the_4_gib_limit_is_computed_exactly() {
         // i16: 36 + 2f ≤ 4294967295 → f ≤ 2147483629
-        assert_eq!(wav_max_frames(SampleFormat::I16).unwrap(), 2_147_483_629);
+        assert_eq!(wav_max_frames(SampleFormat::I16, 1).unwrap(), 2_147_483_629);
         // f32: 50 + 4f → f ≤ 1073741811
-        assert_eq!(wav_max_frames(SampleFormat::F32).unwrap(), 1_073_741_811);
+        assert_eq!(wav_max_frames(SampleFormat::F32, 1).unwrap(), 1_073_741_811);
         // i32: 60 + 4f → f ≤ 1073741808
-        assert_eq!(wav_max_frames(SampleFormat::I32).unwrap(), 1_073_741_808);
+        assert_eq!(wav_max_frames(SampleFormat::I32, 1).unwrap(), 1_073_741_808);
         // i24: 60 + 3f + pad: f = 1431655745 gives 3f = 4294967235 (odd) + pad → one too many.
-        assert_eq!(wav_max_frames(SampleFormat::I24).unwrap(), 1_431_655_744);
+        assert_eq!(wav_max_frames(SampleFormat::I24, 1).unwrap(), 1_431_655_744);
         for sf in [
             SampleFormat::I16,
             SampleFormat::I24,
             SampleFormat::I32,
             SampleFormat::F32,
         ] {
-            let max = wav_max_frames(sf).unwrap();
-            assert!(check_wav_size(max, sf).is_ok(), "{sf}");
+            let max = wav_max_frames(sf, 1).unwrap();
+            assert!(check_wav_size(max, sf, 1).is_ok(), "{sf}");
             assert!(
-                wav_bytes(max, sf).unwrap() - 8 <= u64::from(u32::MAX),
+                wav_bytes(max, sf, 1).unwrap() - 8 <= u64::from(u32::MAX),
                 "{sf}"
             );
-            let e = check_wav_size(max + 1, sf).unwrap_err();
+            let e = check_wav_size(max + 1, sf, 1).unwrap_err();
             assert!(matches!(e, Error::Unsupported(_)));
             let m = e.to_string();
             assert!(
@@ -490,7 +538,7 @@ mod tests {
                 "{m}"
             );
         }
-        assert_eq!(wav_bytes(u64::MAX, SampleFormat::I32).unwrap(), u64::MAX);
+        assert_eq!(wav_bytes(u64::MAX, SampleFormat::I32, 1).unwrap(), u64::MAX);
     }
 
     /// 2^30 f32 samples (exactly 4 GiB of data) are refused at open, before any byte is

@@ -5,14 +5,17 @@
 //! - [`periodic_buffer`]: the loop buffer, one inverse FFT with random amplitudes and phases.
 //! - [`BurstChain`]: a burst source's Markov chain, simulated event by event.
 //! - [`Generator`]: all of a profile's sources together, the pull API.
+//! - [`ChannelGenerator`]: N correlated channels of a profile, interleaved frames.
 
 mod burst;
+mod channels;
 mod design;
 mod periodic;
 mod shaper;
 mod white;
 
 pub use burst::{BurstChain, BurstTally};
+pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
 pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, Shaper};
