@@ -167,8 +167,8 @@ pub fn check_matrix(m: &[Vec<f64>]) -> std::result::Result<(), (String, String)>
                 ),
             ));
         }
-        for j in 0..i {
-            if (m[i][j] - m[j][i]).abs() > tol {
+        for (j, other) in m.iter().enumerate().take(i) {
+            if (row[j] - other[i]).abs() > tol {
                 return Err((
                     format!("correlation[{i}][{j}]"),
                     format!(
