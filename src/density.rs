@@ -407,6 +407,8 @@ mod tests {
 
     fn profile(unit: Unit, band: Band, fs: f64, kinds: Vec<SourceKind>) -> Profile {
         Profile {
+            channels: 1,
+            correlation: vec![vec![1.0]],
             name: None,
             unit,
             sample_rate_hz: fs,

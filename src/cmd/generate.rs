@@ -13,11 +13,11 @@ use crate::density;
 use crate::error::{Error, Result};
 use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{
-    CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, check_wav_size, open_sink,
-    rms_digital_from_dbfs, write_manifest,
+    CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, open_sink, rms_digital_from_dbfs,
+    wav_plan, write_manifest,
 };
 use crate::synth::tone;
-use crate::synth::{Generator, periodic_buffer, periodic_variance};
+use crate::synth::{ChannelGenerator, Generator, periodic_buffer, periodic_variance};
 
 /// Samples produced and written per step.
 const CHUNK: usize = 1 << 16;
@@ -360,6 +360,25 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             ),
         ));
     }
+    let channels = profile.channels as u16;
+    if channels > 1 && per_source {
+        return Err(Error::option(
+            "--columns",
+            format!(
+                "sources writes one column per source of one channel, but {file} has \
+                 channels = {channels}; use --columns total"
+            ),
+        ));
+    }
+    if channels > 1 && args.loop_buffer {
+        return Err(Error::option(
+            "--loop",
+            format!(
+                "{file} has channels = {channels}; the loop buffer is made for one channel; \
+                 generate a stream instead (without --loop)"
+            ),
+        ));
+    }
     if args.loop_buffer && !profile.bursts.is_empty() {
         return Err(Error::option(
             "--loop",
@@ -394,6 +413,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let target_psd = |f: f64| density::target_psd(&profile, f);
     let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
     let mut generator: Option<Rc<RefCell<Generator>>> = None;
+    let mut multi: Option<Rc<RefCell<ChannelGenerator>>> = None;
     let parts: Rc<RefCell<Vec<Vec<f64>>>> = Rc::default();
     let (mut engine, expected_variance): (Engine, f64) = if args.loop_buffer {
         let n = samples.unwrap_or(0) as usize;
@@ -410,6 +430,14 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     pos += 1;
                 }
             }),
+            var,
+        )
+    } else if channels > 1 {
+        let m = Rc::new(RefCell::new(ChannelGenerator::new(&profile, args.seed)?));
+        let var = m.borrow().generator().variance();
+        multi = Some(m.clone());
+        (
+            Box::new(move |out: &mut [f64]| m.borrow_mut().fill_frames(out)),
             var,
         )
     } else {
@@ -435,9 +463,11 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     };
     // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
-    let expected_mean = generator
-        .as_ref()
-        .map_or(profile.offset, |g| g.borrow().mean());
+    let expected_mean = match (&generator, &multi) {
+        (Some(g), _) => g.borrow().mean(),
+        (_, Some(m)) => m.borrow().generator().mean(),
+        _ => profile.offset,
+    };
     let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
     let source_names = source_names(&profile);
     // The tones' figures need the designed noise density (also in --loop mode, which has no
@@ -524,7 +554,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     }
 
     if let (Format::Wav, Some(n)) = (format, samples) {
-        check_wav_size(n, sample_format)?;
+        wav_plan(n, channels, sample_format)?;
     }
     let spec = SinkSpec {
         format,
@@ -532,7 +562,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         sample_rate_hz: fs,
         full_scale: scale.full_scale,
         frames: samples,
-        channels: 1,
+        channels,
         unit: profile.unit,
         adc: adc.clone(),
         name: array_name,
@@ -550,6 +580,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     notes.extend(container_notes);
 
     let mut stats = RunningStats::new();
+    let mut channel_stats = vec![RunningStats::new(); usize::from(channels)];
     let progress = progress_bar(samples);
     let report;
     match &target {
@@ -564,6 +595,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 &mut *sink,
                 samples,
                 &mut stats,
+                &mut channel_stats,
                 interrupted,
                 &progress,
             )
@@ -586,6 +618,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     &mut *sink,
                     samples,
                     &mut stats,
+                    &mut channel_stats,
                     interrupted,
                     &progress,
                 )?;
@@ -638,6 +671,16 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             if let Some(fg) = &figures {
                 tone_manifest(&mut manifest, &profile, fg, adc.as_ref());
             }
+            if let Some(m) = &multi {
+                burst_manifest(
+                    &mut manifest,
+                    m.borrow().generator(),
+                    &profile,
+                    false,
+                    &spec,
+                );
+                channel_manifest(&mut manifest, &profile, expected_rms, &channel_stats);
+            }
             let manifest_path = manifest_path(path);
             let mp = PendingFile::create(&manifest_path)?;
             write_manifest(&manifest, BufWriter::new(mp.file()?))?;
@@ -664,6 +707,15 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     }
     if let Some(fg) = &figures {
         summary += &tone_summary(&profile, fg, adc.as_ref());
+    }
+    if let Some(m) = &multi {
+        summary += &burst_summary(
+            m.borrow().generator(),
+            &profile,
+            expected_variance,
+            expected_mean,
+        );
+        summary += &channel_summary(&profile, expected_rms, &channel_stats);
     }
     Ok(summary)
 }
@@ -850,15 +902,21 @@ pub(crate) fn manifest_path(path: &Path) -> PathBuf {
     PathBuf::from(s)
 }
 
+/// Runs the engine into the sink: `samples` frames (None: until interrupted) of
+/// `channel_stats.len()` interleaved channels; `stats` over every sample, `channel_stats`
+/// per channel (only kept for more than one channel).
 fn pump(
     engine: &mut dyn FnMut(&mut [f64]),
     sink: &mut dyn crate::sink::Sink,
     samples: Option<u64>,
     stats: &mut RunningStats,
+    channel_stats: &mut [RunningStats],
     interrupted: &AtomicBool,
     progress: &indicatif::ProgressBar,
 ) -> Result<()> {
-    let mut buf = vec![0.0; CHUNK];
+    let ch = channel_stats.len().max(1);
+    let mut buf = vec![0.0; CHUNK * ch];
+    let mut column = Vec::with_capacity(CHUNK);
     let mut done: u64 = 0;
     loop {
         let n = match samples {
@@ -869,9 +927,17 @@ fn pump(
         if interrupted.load(Ordering::Relaxed) {
             return Err(Error::Interrupted);
         }
-        engine(&mut buf[..n]);
-        stats.push(&buf[..n]);
-        sink.write(&buf[..n])?;
+        let block = &mut buf[..n * ch];
+        engine(block);
+        stats.push(block);
+        if ch > 1 {
+            for (k, s) in channel_stats.iter_mut().enumerate() {
+                column.clear();
+                column.extend(block.iter().skip(k).step_by(ch));
+                s.push(&column);
+            }
+        }
+        sink.write(block)?;
         done += n as u64;
         progress.set_position(done);
     }
@@ -976,7 +1042,7 @@ fn summary_text(
         format_quantity(profile.band.low_hz, "Hz"),
         format_quantity(profile.band.high_hz, "Hz"),
         profile.band.order,
-        stats.count(),
+        stats.count() / profile.channels.max(1) as u64,
         format_quantity(profile.sample_rate_hz, "Hz"),
         if args.loop_buffer {
             ", loop buffer"
@@ -1044,6 +1110,59 @@ impl Sink for SourcesSink {
     fn finish(&mut self) -> Result<crate::sink::SinkReport> {
         self.inner.finish()
     }
+}
+
+/// The manifest's channel keys, under `extra`: `channels`, `correlation` (the N×N matrix),
+/// `expected_rms_per_channel` and `measured_rms_per_channel` (unit, AC + DC). The top-level
+/// `measured_*` keys and `clipped` count every channel.
+fn channel_manifest(
+    manifest: &mut Manifest,
+    profile: &Profile,
+    expected_rms: f64,
+    channel_stats: &[RunningStats],
+) {
+    use serde_json::json;
+    let extra = &mut manifest.extra;
+    extra.insert("channels".into(), json!(profile.channels));
+    extra.insert("correlation".into(), json!(profile.correlation));
+    extra.insert(
+        "expected_rms_per_channel".into(),
+        json!(vec![expected_rms; profile.channels]),
+    );
+    extra.insert(
+        "measured_rms_per_channel".into(),
+        json!(channel_stats.iter().map(|s| s.rms()).collect::<Vec<_>>()),
+    );
+}
+
+/// Summary lines for more than one channel: the count, the correlation matrix and each
+/// channel's measured RMS against the expected one.
+fn channel_summary(profile: &Profile, expected_rms: f64, channel_stats: &[RunningStats]) -> String {
+    let u = profile.unit.symbol();
+    let mut s = format!(
+        "  channels        {} (every one with the profile's density; clipped counts all)\n",
+        profile.channels
+    );
+    s += "  correlation     ";
+    for (i, row) in profile.correlation.iter().enumerate() {
+        if i > 0 {
+            s += "                  ";
+        }
+        s += &row
+            .iter()
+            .map(|x| format!("{x:>6.3}"))
+            .collect::<Vec<_>>()
+            .join(" ");
+        s += "\n";
+    }
+    for (k, st) in channel_stats.iter().enumerate() {
+        s += &format!(
+            "  channel {k:<7} RMS {} measured, {} expected\n",
+            format_quantity(st.rms(), u),
+            format_quantity(expected_rms, u)
+        );
+    }
+    s
 }
 
 /// The manifest's burst keys, under `extra`: `expected_std`, `expected_mean`,

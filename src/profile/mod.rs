@@ -5,11 +5,15 @@
 //! √Hz for densities.
 
 mod burst;
+mod channels;
 mod quantity;
 mod schema;
 mod tone;
 
 pub use burst::{Burst, BurstSampling, NEXT_ROW_TOLERANCE, describe_levels};
+pub use channels::{
+    MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
+};
 pub use quantity::{Dimension, format_quantity, parse_quantity};
 pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
 pub use tone::{AmplitudeConvention, Tone};
@@ -130,6 +134,11 @@ pub struct Profile {
     pub tones: Vec<Tone>,
     /// DC value in the unit added to every sample (the `offset` key; 0 without it).
     pub offset: f64,
+    /// Channels per frame, 1 ≤ N ≤ [`MAX_CHANNELS`] (the `channels` key, default 1).
+    pub channels: usize,
+    /// The N×N correlation matrix between channels (dimensionless; symmetric, unit diagonal,
+    /// positive semi-definite); the identity without a `correlation` key.
+    pub correlation: Vec<Vec<f64>>,
 }
 
 impl Profile {
@@ -236,6 +245,8 @@ impl Profile {
                 "given_as": t.convention,
             })).collect::<Vec<_>>(),
             "offset": self.offset,
+            "channels": self.channels,
+            "correlation": self.correlation,
         })
     }
 }

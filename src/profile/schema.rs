@@ -66,6 +66,8 @@ const TOP_KEYS: &[&str] = &[
     "burst",
     "tone",
     "offset",
+    "channels",
+    "correlation",
 ];
 const BAND_KEYS: &[&str] = &["low", "high", "order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
@@ -92,6 +94,8 @@ struct RawProfile {
     #[serde(default)]
     tone: Vec<Spanned<RawTone>>,
     offset: Option<Spanned<Value>>,
+    channels: Option<Spanned<Value>>,
+    correlation: Option<Spanned<Value>>,
 }
 
 #[derive(Deserialize)]
@@ -706,6 +710,9 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         ));
     }
 
+    let (channels, correlation) =
+        super::channels::validate_channels(cx, raw.channels.as_ref(), raw.correlation.as_ref())?;
+
     Ok(Profile {
         name: raw.name.as_ref().map(|n| n.get_ref().clone()),
         unit,
@@ -719,6 +726,8 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         bursts,
         tones,
         offset,
+        channels,
+        correlation,
     })
 }
 

@@ -1,4 +1,5 @@
-//! CSV text: a header line, then `time,value` per sample, `\n` line ends.
+//! CSV text: a header line, then `time,value` per sample, `\n` line ends. With more than
+//! one channel, one row per frame: `time_s,ch0_…,ch1_…` (see [`CsvSink`]).
 
 use std::io::Write;
 
@@ -36,6 +37,8 @@ pub struct CsvSink<W: Write> {
     header: Option<String>,
     /// Number of per-source columns after the value column.
     sources: usize,
+    /// Channels per row (one value column each).
+    channels: usize,
 }
 
 impl<W: Write> CsvSink<W> {
@@ -53,8 +56,9 @@ impl<W: Write> CsvSink<W> {
             out: Buffered::new(out, "writing CSV"),
             scaler: Scaler::new(spec),
             sample_rate_hz: spec.sample_rate_hz,
-            header: Some(format!("time_s,{}\n", value_column(spec))),
+            header: Some(format!("time_s,{}\n", value_columns(spec))),
             sources: 0,
+            channels: usize::from(spec.channels),
         })
     }
 
@@ -62,6 +66,11 @@ impl<W: Write> CsvSink<W> {
     /// `<name>_<unit>` from `names` (see [`source_column_names`]). Samples then go in with
     /// [`Sink::write_sources`].
     pub fn with_sources(spec: &SinkSpec, out: W, names: &[String]) -> Result<CsvSink<W>> {
+        if spec.channels != 1 {
+            return Err(Error::Unsupported(
+                "per-source columns are written for one channel only".into(),
+            ));
+        }
         let mut sink = CsvSink::new(spec, out)?;
         let columns = source_column_names(names, spec.unit);
         sink.header = Some(format!(
@@ -81,6 +90,9 @@ impl<W: Write> CsvSink<W> {
                 self.sources,
                 sources.len()
             )));
+        }
+        if self.channels > 1 {
+            return self.write_frames(samples);
         }
         self.scaler.check_finite(samples)?;
         for part in sources {
@@ -118,6 +130,43 @@ impl<W: Write> CsvSink<W> {
         Ok(())
     }
 
+    /// Rows of `time_s` and one value per channel; `samples` holds whole interleaved frames.
+    fn write_frames(&mut self, samples: &[f64]) -> Result<()> {
+        let ch = self.channels;
+        if samples.len() % ch != 0 {
+            return Err(Error::Unsupported(format!(
+                "a CSV writer of {ch} channels was given {} samples, not whole frames",
+                samples.len()
+            )));
+        }
+        self.scaler.check_finite(samples)?;
+        self.put_header();
+        let fs = self.sample_rate_hz;
+        let sf = self.scaler.sample_format;
+        let digital = self.scaler.gain.is_some();
+        for chunk in samples.chunks(CSV_CHUNK * ch) {
+            for frame in chunk.chunks_exact(ch) {
+                let t = (self.scaler.report.samples / ch as u64) as f64 / fs;
+                let buf = &mut self.out.buf;
+                write!(buf, "{t}").expect("writing to a Vec");
+                for &x in frame {
+                    let r = if sf.is_integer() {
+                        write!(buf, ",{}", self.scaler.code(x))
+                    } else if sf == SampleFormat::F32 && digital {
+                        write!(buf, ",{}", self.scaler.f32_value(x))
+                    } else {
+                        write!(buf, ",{}", self.scaler.digital(x))
+                    };
+                    r.expect("writing to a Vec");
+                    self.scaler.report.samples += 1;
+                }
+                buf.push(b'\n');
+            }
+            self.out.maybe_flush()?;
+        }
+        Ok(())
+    }
+
     fn put_header(&mut self) {
         if let Some(h) = self.header.take() {
             self.out.buf.extend_from_slice(h.as_bytes());
@@ -150,6 +199,20 @@ pub fn source_column_names(names: &[String], unit: crate::profile::Unit) -> Vec<
         out.push(column);
     }
     out
+}
+
+/// The value columns for `spec`: the value column alone for one channel, otherwise
+/// `ch0_<value column>`, `ch1_<value column>`, … (channels count from 0, like the correlation
+/// matrix's indices).
+fn value_columns(spec: &SinkSpec) -> String {
+    let v = value_column(spec);
+    if spec.channels == 1 {
+        return v;
+    }
+    (0..spec.channels)
+        .map(|k| format!("ch{k}_{v}"))
+        .collect::<Vec<_>>()
+        .join(",")
 }
 
 /// The value column's name for `spec` (see [`CsvSink`]).

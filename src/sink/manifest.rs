@@ -41,7 +41,7 @@ pub struct Manifest {
     pub seed: u64,
     /// Sample rate in samples per second (Hz).
     pub sample_rate_hz: f64,
-    /// Samples written.
+    /// Samples written per channel (frames).
     pub samples: u64,
     /// Duration in seconds: `samples / sample_rate_hz`.
     pub duration_s: f64,
@@ -67,7 +67,7 @@ pub struct Manifest {
     pub measured_std: f64,
     /// Measured mean in `unit`.
     pub measured_mean: f64,
-    /// Samples clipped at digital full scale.
+    /// Samples clipped at digital full scale, over every channel.
     pub clipped: u64,
     /// True if the output is a seamless loop (periodic block).
     #[serde(rename = "loop")]
@@ -94,8 +94,9 @@ impl Manifest {
             profile: serde_json::Value::Null,
             seed,
             sample_rate_hz: spec.sample_rate_hz,
-            samples: report.samples,
-            duration_s: report.samples as f64 / spec.sample_rate_hz,
+            samples: report.samples / u64::from(spec.channels.max(1)),
+            duration_s: (report.samples / u64::from(spec.channels.max(1))) as f64
+                / spec.sample_rate_hz,
             format: spec.format,
             sample_format: match &spec.adc {
                 Some(adc) => adc.container().name().to_string(),

@@ -71,9 +71,10 @@ const FLUSH_BYTES: usize = 64 * 1024;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Format {
-    /// RIFF/WAVE, mono, with a header written first (needs the total sample count).
+    /// RIFF/WAVE, interleaved frames, with a header written first (needs the total sample
+    /// count).
     Wav,
-    /// Text: a header line, then `time,value` per sample.
+    /// Text: a header line, then `time,value` per sample (`time,ch0,ch1,…` per frame).
     Csv,
     /// Headerless little-endian samples.
     Raw,
@@ -350,12 +351,6 @@ impl SinkSpec {
         if self.channels == 0 {
             return Err(Error::option("channels", "expected at least 1 channel"));
         }
-        if self.channels > 1 && !matches!(self.format, Format::Npy | Format::C) {
-            return Err(Error::Unsupported(format!(
-                "{} channels: multi-channel {} output is not written yet",
-                self.channels, self.format
-            )));
-        }
         match self.format {
             Format::Wav => wav::validate(self)?,
             Format::Npy | Format::C => {
@@ -380,9 +375,9 @@ impl SinkSpec {
 /// What a sink wrote, returned by [`Sink::finish`].
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct SinkReport {
-    /// Samples written.
+    /// Samples written, counting every channel (frames × channels).
     pub samples: u64,
-    /// Samples whose digital value exceeded ±1.0 and were clipped (0 without a full scale,
+    /// Samples (of any channel) whose digital value exceeded ±1.0 and were clipped (0 without a full scale,
     /// except f32 values beyond the f32 range).
     pub clipped: u64,
     /// Largest |sample| seen, in physical units (before scaling and clipping); 0 if none.

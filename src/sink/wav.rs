@@ -9,10 +9,18 @@
 //! | i24, i32 | EXTENSIBLE, tag 0xFFFE, 40 bytes (cbSize 22, valid bits = container bits, channel mask, PCM SubFormat GUID) | – | 68 / 104 |
 //! | f32 | IEEE float, tag 3, 18 bytes (cbSize 0) | `fact` (sample frames) | 58 / 94 |
 //!
-//! EXTENSIBLE is used for PCM wider than 16 bits, as the Microsoft multichannel document asks
-//! (REFERENCES §10). EXTENSIBLE PCM carries no `fact` chunk: its data is PCM (common practice).
-//! 64-bit float WAV is not offered (see [`wav_bytes`]). All files are mono; the header code
-//! takes a channel count so more channels only need a frame layout.
+//! | f32, more than 2 channels | EXTENSIBLE, 40 bytes, IEEE float SubFormat GUID | `fact` | 80 / 116 |
+//!
+//! EXTENSIBLE is used for PCM wider than 16 bits and for more than 2 channels, as Microsoft's
+//! WAVEFORMATEXTENSIBLE documentation and its "Multiple channel audio data and WAVE files"
+//! (2001) ask: WAVEFORMATEX cannot describe more than two channels or samples wider than 16
+//! bits unambiguously (REFERENCES §10). EXTENSIBLE PCM carries no `fact` chunk: its data is
+//! PCM (common practice). 64-bit float WAV is not offered (see [`wav_bytes`]).
+//!
+//! Frames are interleaved (channel 0, 1, …, N − 1 of frame 0, then frame 1), nBlockAlign =
+//! N × container bytes. The channel mask is SPEAKER_FRONT_CENTER for mono and 0 for more
+//! channels: 0 means no speaker positions, which is right for measurement channels that are
+//! not loudspeaker feeds (WAVEFORMATEXTENSIBLE documentation).
 //!
 //! # RF64 (EBU Tech 3306)
 //!
@@ -48,8 +56,21 @@ const MASK_FRONT_CENTER: u32 = 0x4;
 const GUID_PCM: [u8; 16] = [
     0x01, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xAA, 0x00, 0x38, 0x9B, 0x71,
 ];
-/// Channels written; WAV output is mono for now.
+/// KSDATAFORMAT_SUBTYPE_IEEE_FLOAT, GUID 00000003-0000-0010-8000-00AA00389B71, stored like
+/// [`GUID_PCM`].
+const GUID_IEEE_FLOAT: [u8; 16] = [
+    0x03, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xAA, 0x00, 0x38, 0x9B, 0x71,
+];
+/// `dwChannelMask` for more than one channel: 0, no speaker positions.
+const MASK_NONE: u32 = 0;
+/// Channels of the mono helpers ([`wav_bytes`], [`wav_max_frames`], [`check_wav_size`]).
 const CHANNELS: u16 = 1;
+
+/// True when `fmt ` must be WAVEFORMATEXTENSIBLE: PCM wider than 16 bits or more than two
+/// channels (Microsoft WAVEFORMATEXTENSIBLE documentation; REFERENCES §10).
+fn extensible(sample_format: SampleFormat, channels: u16) -> bool {
+    channels > 2 || matches!(sample_format, SampleFormat::I24 | SampleFormat::I32)
+}
 
 /// The RIFF size and data size fields are u32 (REFERENCES §10): the largest RIFF size.
 const RIFF_SIZE_MAX: u64 = u32::MAX as u64;
@@ -106,7 +127,14 @@ impl WavPlan {
 }
 
 /// Bytes before the samples of the plain RIFF layout of `sample_format`.
-fn riff_header_bytes(sample_format: SampleFormat) -> Result<u64> {
+fn riff_header_bytes(sample_format: SampleFormat, channels: u16) -> Result<u64> {
+    if sample_format == SampleFormat::F32 && extensible(sample_format, channels) {
+        // 12 + fmt (8+40) + fact (8+4) + data header (8)
+        return Ok(80);
+    }
+    if sample_format == SampleFormat::I16 && extensible(sample_format, channels) {
+        return Ok(68);
+    }
     Ok(match sample_format {
         // "RIFF"+size+"WAVE" (12) + fmt (8+16) + data header (8)
         SampleFormat::I16 => 44,
@@ -138,7 +166,7 @@ fn too_large(frames: u64, channels: u16, sample_format: SampleFormat) -> Error {
 /// RF64 (EBU Tech 3306, see the module docs) beyond. A pure function; errors for
 /// [`SampleFormat::F64`] (not offered), 0 channels, and sizes past 2^64 bytes.
 pub fn wav_plan(frames: u64, channels: u16, sample_format: SampleFormat) -> Result<WavPlan> {
-    let riff_header = riff_header_bytes(sample_format)?;
+    let riff_header = riff_header_bytes(sample_format, channels)?;
     if channels == 0 {
         return Err(Error::option("channels", "expected at least 1 channel"));
     }
@@ -177,7 +205,7 @@ pub fn wav_plan(frames: u64, channels: u16, sample_format: SampleFormat) -> Resu
 /// counts beyond 64-bit sizes. Errors for [`SampleFormat::F64`], which WAV output does not
 /// offer.
 pub fn wav_bytes(frames: u64, sample_format: SampleFormat) -> Result<u64> {
-    riff_header_bytes(sample_format)?;
+    riff_header_bytes(sample_format, CHANNELS)?;
     Ok(wav_plan(frames, CHANNELS, sample_format).map_or(u64::MAX, |p| p.total_bytes()))
 }
 
@@ -185,7 +213,7 @@ pub fn wav_bytes(frames: u64, sample_format: SampleFormat) -> Result<u64> {
 /// limit of its u32 RIFF size field; one more and the file is written as RF64. Errors for
 /// [`SampleFormat::F64`].
 pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
-    let header = riff_header_bytes(sample_format)?;
+    let header = riff_header_bytes(sample_format, CHANNELS)?;
     let bytes = u64::from(CHANNELS) * sample_format.bytes() as u64;
     // RIFF size = file size − 8; take the largest frame count, then step back if the pad
     // byte pushes it over.
@@ -206,9 +234,9 @@ pub fn check_wav_size(frames: u64, sample_format: SampleFormat) -> Result<()> {
 
 /// WAV-specific checks of a spec (called from [`SinkSpec::validate`]).
 pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
-    riff_header_bytes(spec.sample_format)?;
+    riff_header_bytes(spec.sample_format, spec.channels)?;
     let rate = spec.sample_rate_hz;
-    let bytes_per_second = rate * f64::from(CHANNELS) * spec.sample_format.bytes() as f64;
+    let bytes_per_second = rate * f64::from(spec.channels) * spec.sample_format.bytes() as f64;
     if rate.fract() != 0.0 || bytes_per_second > f64::from(u32::MAX) {
         return Err(Error::Unsupported(format!(
             "WAV stores the sample rate and byte rate as 32-bit whole numbers; {rate} Hz cannot \
@@ -222,7 +250,7 @@ pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
                 .to_string(),
         ));
     };
-    check_wav_size(frames, spec.sample_format)
+    wav_plan(frames, spec.channels, spec.sample_format).map(|_| ())
 }
 
 /// The header bytes (everything before the first sample) of a WAV holding `frames` frames of
@@ -266,10 +294,11 @@ pub fn wav_header(
         h.extend_from_slice(&0u32.to_le_bytes()); // tableLength: no other large chunk
     }
     let (tag, fmt_len): (u16, u32) = match sample_format {
+        _ if extensible(sample_format, channels) => (TAG_EXTENSIBLE, 40),
         SampleFormat::I16 => (TAG_PCM, 16),
-        SampleFormat::F32 => (TAG_IEEE_FLOAT, 18),
-        _ => (TAG_EXTENSIBLE, 40),
+        _ => (TAG_IEEE_FLOAT, 18),
     };
+    let float = sample_format == SampleFormat::F32;
     h.extend_from_slice(b"fmt ");
     h.extend_from_slice(&fmt_len.to_le_bytes());
     h.extend_from_slice(&tag.to_le_bytes()); // wFormatTag
@@ -290,8 +319,19 @@ pub fn wav_header(
         TAG_EXTENSIBLE => {
             h.extend_from_slice(&22u16.to_le_bytes()); // cbSize
             h.extend_from_slice(&bits.to_le_bytes()); // wValidBitsPerSample
-            h.extend_from_slice(&MASK_FRONT_CENTER.to_le_bytes()); // dwChannelMask
-            h.extend_from_slice(&GUID_PCM); // SubFormat
+            let mask = if channels == 1 {
+                MASK_FRONT_CENTER
+            } else {
+                MASK_NONE
+            };
+            h.extend_from_slice(&mask.to_le_bytes()); // dwChannelMask
+            h.extend_from_slice(if float { &GUID_IEEE_FLOAT } else { &GUID_PCM }); // SubFormat
+            if float {
+                h.extend_from_slice(b"fact");
+                h.extend_from_slice(&4u32.to_le_bytes());
+                let n = u32::try_from(plan.frames).unwrap_or(RF64_SIZE_MARKER);
+                h.extend_from_slice(&n.to_le_bytes()); // dwSampleLength
+            }
         }
         _ => {}
     }
@@ -301,7 +341,8 @@ pub fn wav_header(
     Ok(h)
 }
 
-/// Mono WAV writer: i16 PCM, i24/i32 EXTENSIBLE PCM, f32 IEEE float; RIFF, or RF64 past
+/// WAV writer of interleaved frames of [`SinkSpec::channels`] samples: i16 PCM, i24/i32
+/// EXTENSIBLE PCM, f32 IEEE float (EXTENSIBLE past two channels); RIFF, or RF64 past
 /// 4 GiB (see the module docs).
 ///
 /// Needs a full scale and the sample count ([`SinkSpec::frames`]); writing more samples
@@ -311,6 +352,7 @@ pub struct WavSink<W: Write> {
     out: Buffered<W>,
     scaler: Scaler,
     frames: u64,
+    channels: u16,
     pad: bool,
 }
 
@@ -326,18 +368,28 @@ impl<W: Write> WavSink<W> {
             )));
         }
         let frames = spec.frames.expect("validated");
-        let plan = wav_plan(frames, CHANNELS, spec.sample_format)?;
+        let plan = wav_plan(frames, spec.channels, spec.sample_format)?;
         let mut out = Buffered::new(out, "writing WAV");
         // validate() checked the rate is a whole number whose byte rate fits a u32.
         let rate = spec.sample_rate_hz as u32;
-        out.buf
-            .extend_from_slice(&wav_header(frames, CHANNELS, spec.sample_format, rate)?);
+        out.buf.extend_from_slice(&wav_header(
+            frames,
+            spec.channels,
+            spec.sample_format,
+            rate,
+        )?);
         Ok(WavSink {
             out,
             scaler: Scaler::new(spec),
             frames,
+            channels: spec.channels,
             pad: plan.pad_bytes == 1,
         })
+    }
+
+    /// Samples announced: frames × channels.
+    fn samples(&self) -> u64 {
+        self.frames * u64::from(self.channels)
     }
 
     fn count_error(&self, got: u64) -> Error {
@@ -348,7 +400,7 @@ impl<W: Write> WavSink<W> {
                 format!(
                     "the WAV header announced {} samples but {got} were given; \
                      the file would be inconsistent",
-                    self.frames
+                    self.samples()
                 ),
             ),
         )
@@ -360,7 +412,7 @@ impl<W: Write> Sink for WavSink<W> {
         self.out.ensure_open()?;
         let done = self.scaler.report.samples;
         let after = done + samples.len() as u64;
-        if after > self.frames {
+        if after > self.samples() {
             return Err(self.count_error(after));
         }
         self.scaler.check_finite(samples)?;
@@ -374,7 +426,7 @@ impl<W: Write> Sink for WavSink<W> {
     fn finish(&mut self) -> Result<SinkReport> {
         self.out.ensure_open()?;
         let done = self.scaler.report.samples;
-        if done != self.frames {
+        if done != self.samples() {
             self.out.finished = true;
             return Err(self.count_error(done));
         }

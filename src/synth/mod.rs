@@ -6,8 +6,10 @@
 //! - [`BurstChain`]: a burst source's Markov chain, simulated event by event.
 //! - [`tone`]: the deterministic parts (sine tones and the DC offset), from the sample index.
 //! - [`Generator`]: all of a profile's sources together, the pull API.
+//! - [`ChannelGenerator`]: N correlated channels of a profile, interleaved frames.
 
 mod burst;
+mod channels;
 mod design;
 mod periodic;
 mod shaper;
@@ -15,6 +17,7 @@ pub mod tone;
 mod white;
 
 pub use burst::{BurstChain, BurstTally};
+pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
 pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, Shaper};
@@ -92,6 +95,11 @@ impl Generator {
     /// Absolute sample index of the next sample's tones and offset.
     pub fn deterministic_index(&self) -> u64 {
         self.index
+    }
+
+    /// Sample rate in Hz.
+    pub fn sample_rate_hz(&self) -> f64 {
+        self.sample_rate_hz
     }
 
     /// The tones, in profile order.
