@@ -15,7 +15,7 @@ mod white;
 pub use burst::{BurstChain, BurstTally};
 pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
-pub use shaper::{BATCH_PAIRS, Shaper};
+pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
 pub use white::{Domain, WhiteStreams};
 
 use crate::burst::BurstModel;
