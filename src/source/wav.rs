@@ -317,6 +317,7 @@ mod tests {
             full_scale: Some(1.0),
             frames: Some(x.len() as u64),
             channels: 1,
+            start_frame: 0,
             unit: Unit::Volt,
         };
         let mut b = Vec::new();

@@ -42,8 +42,18 @@ pub struct Generator {
 impl Generator {
     /// Design the engine for `profile` and seed it with `seed`.
     pub fn new(profile: &Profile, seed: u64) -> Result<Generator> {
+        Generator::starting_at(profile, seed, 0)
+    }
+
+    /// The engine of [`Generator::new`] positioned at sample `start` (0-based, below
+    /// [`MAX_START`]): its samples are bit for bit those the run from 0 makes from `start` on,
+    /// for every source. The Gaussian part seeks at a cost independent of `start`
+    /// ([`Shaper::starting_at`]); each burst replays its path up to `start`, one step per jump
+    /// ([`BurstChain::skip`]). Burst tallies count from `start`.
+    pub fn starting_at(profile: &Profile, seed: u64, start: u64) -> Result<Generator> {
         let design = design_profile(profile)?;
-        let shaper = (!profile.sources.is_empty()).then(|| Shaper::new(&design, seed));
+        let shaper =
+            (!profile.sources.is_empty()).then(|| Shaper::starting_at(&design, seed, start));
         let bursts = profile
             .bursts
             .iter()
@@ -53,7 +63,11 @@ impl Generator {
         let chains = bursts
             .iter()
             .enumerate()
-            .map(|(i, m)| BurstChain::new(m, &streams, i as u64))
+            .map(|(i, m)| {
+                let mut chain = BurstChain::new(m, &streams, i as u64);
+                chain.skip(start);
+                chain
+            })
             .collect();
         Ok(Generator {
             design,

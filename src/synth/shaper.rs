@@ -153,7 +153,10 @@ impl Shaper {
     /// # Panics
     /// If `start` is at or beyond [`MAX_START`].
     pub fn starting_at(design: &Design, seed: u64, start: u64) -> Shaper {
-        assert!(start < MAX_START, "start {start} is beyond {MAX_START} samples");
+        assert!(
+            start < MAX_START,
+            "start {start} is beyond {MAX_START} samples"
+        );
         let mut shaper = Shaper::new(design, seed);
         seek(&mut shaper.levels, start);
         shaper
@@ -368,7 +371,12 @@ mod tests {
         let b = BATCH_OUT as u64;
         let len = 20_000;
         let mut starts = vec![1, CHUNK as u64 - 1, CHUNK as u64, CHUNK as u64 + 1];
-        starts.extend([HOP as u64 - 1, HOP as u64, 2 * HOP as u64 - 1, 2 * HOP as u64]);
+        starts.extend([
+            HOP as u64 - 1,
+            HOP as u64,
+            2 * HOP as u64 - 1,
+            2 * HOP as u64,
+        ]);
         // Batch boundaries of level j fall at multiples of 4^j·BATCH_OUT in output samples.
         for k in [b, 4 * b, 16 * b] {
             starts.extend([k - 1, k, k + 1, k - len as u64 / 2]);
@@ -382,7 +390,10 @@ mod tests {
             let n0 = n0 as usize;
             assert!(part == whole[n0..n0 + len], "seed 11, start {n0}");
         }
-        assert_eq!(Shaper::starting_at(&d, 11, 0).levels.len(), d.levels().len());
+        assert_eq!(
+            Shaper::starting_at(&d, 11, 0).levels.len(),
+            d.levels().len()
+        );
     }
 
     #[test]
