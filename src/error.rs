@@ -57,6 +57,23 @@ pub enum Error {
         /// A full scale that would have held every sample, formatted with its unit.
         suggested: String,
     },
+    /// Samples fell outside an ADC's input range (`--bits`/`--range`) and clipping was not
+    /// allowed.
+    #[error(
+        "{count} of {total} samples fell outside the ADC range {range} and would be clamped to \
+         the end codes; a range of {suggested} would hold this noise \
+         (use a wider --range, or --allow-clipping)"
+    )]
+    ClippedRange {
+        /// Number of samples outside the range.
+        count: u64,
+        /// Number of samples written in all.
+        total: u64,
+        /// The range that was used, e.g. `-1.65 V..1.65 V`.
+        range: String,
+        /// A range that would have held every sample, in the same form.
+        suggested: String,
+    },
     /// The run was stopped by SIGINT or SIGTERM; nothing was left under the target name.
     #[error("interrupted: no output was written under the target name")]
     Interrupted,
@@ -95,7 +112,10 @@ impl Error {
             | Error::Option { .. }
             | Error::Unsupported(_)
             | Error::Input { .. } => 2,
-            Error::Io { .. } | Error::Clipped { .. } | Error::Mismatch(_) => 1,
+            Error::Io { .. }
+            | Error::Clipped { .. }
+            | Error::ClippedRange { .. }
+            | Error::Mismatch(_) => 1,
             Error::Interrupted => 130,
         }
     }

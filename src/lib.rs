@@ -3,7 +3,8 @@
 //! Data flows one way: a profile file becomes a [`profile::Profile`]; [`density`] gives its
 //! one-sided target density S(f) in unit²/Hz (unit = V or A); [`synth`] designs and runs the
 //! engine that synthesises noise with that density (and computes the density it actually
-//! makes); [`sink`] scales, quantises and writes the samples with a manifest; [`analysis`]
+//! makes); [`sink`] scales, quantises and writes the samples with a manifest (or, through
+//! [`adc`], the integer codes of an ideal N-bit converter over a physical range); [`analysis`]
 //! measures samples. [`source`] reads captures (WAV, CSV, raw) back as physical samples, and
 //! [`figure`] draws an analysis as SVG and HTML. [`cmd`] holds the subcommands the binary
 //! calls.
@@ -29,6 +30,7 @@
 //! ```
 #![deny(missing_docs)]
 
+pub mod adc;
 pub mod amplifier;
 pub mod analysis;
 pub mod budget;

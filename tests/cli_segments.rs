@@ -20,7 +20,12 @@ fn run(args: &[&str], cwd: &Path) -> Output {
 
 /// Raw f64 samples of `profile` from sample `start`, `len` samples long.
 fn piece(dir: &Path, profile: &str, start: u64, len: u64, extra: &[&str]) -> Vec<u8> {
-    let name = format!("piece-{start}-{len}.f64");
+    let ext = if extra.contains(&"--bits") {
+        "bin"
+    } else {
+        "f64"
+    };
+    let name = format!("piece-{start}-{len}.{ext}");
     let (s, l) = (start.to_string(), len.to_string());
     let mut args = vec![
         "generate",
@@ -207,6 +212,23 @@ fn mixed_pieces_join_in_every_format_and_with_source_columns() {
         joined.push_str(p.split_once('\n').unwrap().1);
     }
     assert!(joined == whole, "seed {SEED}: joined CSV differs");
+}
+
+#[test]
+fn adc_codes_with_tpdf_dither_pieces_join_to_the_run() {
+    let s = Scratch::new("seg", "adc");
+    s.file("mixed.toml", MIXED);
+    let adc = [
+        "--bits",
+        "12",
+        "--range",
+        "-20uV..20uV",
+        "--dither",
+        "tpdf",
+        "--format",
+        "raw",
+    ];
+    assert_pieces_join(&s.dir, "mixed.toml", 50_000, &[2047, 2048, 30_001], &adc);
 }
 
 #[test]

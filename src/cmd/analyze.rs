@@ -77,7 +77,8 @@ pub struct AnalyzeArgs {
     pub fit: Option<PathBuf>,
 }
 
-/// The container of a capture, from its extension: `.wav`, `.csv`, anything else raw.
+/// The container of a capture, from its extension: `.wav`, `.csv`, `.npy` and `.h` (both
+/// refused by the readers), anything else raw.
 fn format_of(path: &Path) -> Format {
     match path
         .extension()
@@ -86,6 +87,9 @@ fn format_of(path: &Path) -> Format {
     {
         Some("wav") => Format::Wav,
         Some("csv") => Format::Csv,
+        // Not read: named so the refusal says why instead of reading a header as samples.
+        Some("npy") => Format::Npy,
+        Some("h") => Format::C,
         _ => Format::Raw,
     }
 }

@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 use std::rc::Rc;
 use std::sync::atomic::{AtomicBool, Ordering};
 
+use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::analysis::stats::RunningStats;
 use crate::density;
 use crate::error::{Error, Result};
@@ -63,9 +64,13 @@ pub struct GenerateArgs {
     /// Write one periodic buffer whose end joins its start (for generators that repeat a buffer).
     #[arg(long = "loop")]
     pub loop_buffer: bool,
-    /// Output format: wav, csv or raw. Default: from the extension of OUT.
+    /// Output format: wav, csv, raw, npy or c (a C header). Default: from the extension of OUT.
     #[arg(long, value_name = "FORMAT")]
     pub format: Option<String>,
+    /// Name of the C array (--format c), a C identifier; its macros are NAME_LENGTH etc.
+    /// Default: the output file's stem, made a valid identifier.
+    #[arg(long, value_name = "NAME")]
+    pub name: Option<String>,
     /// Sample format: f32, f64 (raw/CSV only), i16, i24 or i32. Default: the extension of a
     /// raw file (.i16, .i24, .i32, .f64), else f32.
     #[arg(long = "sample-format", value_name = "F")]
@@ -87,6 +92,21 @@ pub struct GenerateArgs {
     /// source: the Gaussian sum and each burst).
     #[arg(long, value_name = "WHICH", default_value = "total")]
     pub columns: String,
+    /// ADC codes: quantise to N-bit integer codes (1 to 32) over --range like an ideal
+    /// converter, mid-tread; CSV or raw output (raw in the smallest u8/u16/u32 or i8/i16/i32).
+    #[arg(long, value_name = "N")]
+    pub bits: Option<u32>,
+    /// The ADC's input range in the profile's unit, e.g. `-1.65V..1.65V` or `0V..3.3V`
+    /// (needs --bits).
+    #[arg(long, value_name = "LO..HI", allow_hyphen_values = true)]
+    pub range: Option<String>,
+    /// ADC code numbering: `twos` (two's complement, signed; default when the range holds
+    /// both signs) or `offset` (offset binary, unsigned; default otherwise).
+    #[arg(long, value_name = "CODING")]
+    pub code: Option<String>,
+    /// Dither added before rounding: `tpdf` (triangular, ±1 LSB peak) or `none` (default).
+    #[arg(long, value_name = "KIND")]
+    pub dither: Option<String>,
 }
 
 /// Whatever produces the next samples (unit) into a slice.
@@ -140,6 +160,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     }
     let fs = profile.sample_rate_hz;
+    let adc = adc_from_args(args, &profile)?;
 
     let target = match args.output.as_deref() {
         Some("-") => Target::Stdout,
@@ -149,7 +170,9 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 .profile
                 .file_stem()
                 .map_or("noise".into(), |s| s.to_string_lossy().into_owned());
-            Target::File(Path::new("out").join(format!("{stem}.wav")))
+            // ADC codes cannot go to WAV: default to a raw file named after their container.
+            let ext = adc.as_ref().map_or("wav", |a| a.container().name());
+            Target::File(Path::new("out").join(format!("{stem}.{ext}")))
         }
     };
     let format = match (&args.format, &target) {
@@ -166,13 +189,47 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                         "--output",
                         format!(
                             "cannot tell the format of {} from its extension: use .wav, .csv, \
-                         .raw/.f32/.i16/.bin, or give --format",
+                         .raw/.f32/.i16/.bin, .npy, .h, or give --format",
                             p.display()
                         ),
                     )
                 })?
         }
     };
+    let extension = match &target {
+        Target::File(p) => p.extension().map(|e| e.to_string_lossy().to_lowercase()),
+        Target::Stdout => None,
+    };
+    if let (Some(ext), Format::Raw) = (&extension, format) {
+        let named = Container::from_extension(ext);
+        let names_type = named.is_some() || SampleFormat::from_extension(ext).is_some();
+        match &adc {
+            Some(a) if names_type && named != Some(a.container()) => {
+                return Err(Error::option(
+                    "--output",
+                    format!(
+                        "the extension .{ext} names {ext} samples, but {}-bit {} codes are \
+                         stored as {} (the smallest integer that holds them): name the file \
+                         .{}, .raw or .bin",
+                        a.bits(),
+                        coding_words(a.coding()),
+                        a.container(),
+                        a.container()
+                    ),
+                ));
+            }
+            None if named.is_some() && SampleFormat::from_extension(ext).is_none() => {
+                return Err(Error::option(
+                    "--output",
+                    format!(
+                        "the extension .{ext} names unsigned or 8-bit ADC codes: give --bits and \
+                         --range, or use .raw, .f32, .f64, .i16, .i24 or .i32"
+                    ),
+                ));
+            }
+            _ => {}
+        }
+    }
     let sample_format = match &args.sample_format {
         Some(s) => s
             .parse::<SampleFormat>()
@@ -185,6 +242,39 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 .unwrap_or(SampleFormat::F32),
             _ => SampleFormat::F32,
         },
+    };
+
+    if matches!(format, Format::Npy | Format::C) {
+        if let Target::Stdout = target {
+            return Err(Error::option(
+                "--output",
+                format!(
+                    "{format} output is written to a file (standard output carries streams, and \
+                     its header needs the sample count); give -o FILE.{}",
+                    if format == Format::Npy { "npy" } else { "h" }
+                ),
+            ));
+        }
+    }
+    let array_name = match (&args.name, format, &target) {
+        (Some(n), Format::C, _) => {
+            crate::sink::validate_array_name(n)?;
+            Some(n.clone())
+        }
+        (Some(_), _, _) => {
+            return Err(Error::option(
+                "--name",
+                format!(
+                    "names the array of a C header, but the output is {format}; write a .h \
+                     file or give --format c"
+                ),
+            ));
+        }
+        (None, Format::C, Target::File(p)) => Some(crate::sink::default_array_name(
+            &p.file_stem()
+                .map_or(String::new(), |s| s.to_string_lossy().into_owned()),
+        )),
+        (None, _, _) => None,
     };
 
     // Length.
@@ -228,6 +318,8 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         return Err(Error::option("--samples", "expected at least one sample"));
     }
     let start = start_index(args, fs, unit)?;
+    // The dither of each sample depends on its index in the run from 0.
+    let adc = adc.map(|a| a.starting_at(start));
     let segment = args.start.is_some() || args.start_sample.is_some();
     if segment && args.loop_buffer {
         return Err(Error::option(
@@ -330,8 +422,14 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     };
 
     // Scale.
-    let needs_scale = format == Format::Wav || sample_format.is_integer();
-    let scale = if let Some(q) = &args.full_scale {
+    let needs_scale = (format == Format::Wav || sample_format.is_integer()) && adc.is_none();
+    let scale = if adc.is_some() {
+        // ADC codes are scaled by their range (adc_from_args refuses --full-scale/--level).
+        Scale {
+            full_scale: None,
+            level_dbfs: None,
+        }
+    } else if let Some(q) = &args.full_scale {
         let v = parse_quantity(q, Dimension::Amplitude, unit)
             .map_err(|m| Error::option("--full-scale", m))?;
         if !(v > 0.0 && v.is_finite()) {
@@ -359,13 +457,33 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             level_dbfs: None,
         }
     };
+    // The quantisation noise density of the stored codes: Q/√(6·fs) for integer formats and
+    // undithered ADC codes, Q/√(2·fs) with TPDF dither (REFERENCES §9).
+    let floor = match (&adc, scale.full_scale) {
+        (Some(a), _) => Some((
+            match a.dither() {
+                Dither::None => format!("{}-bit ADC's quantisation noise", a.bits()),
+                Dither::Tpdf => {
+                    format!("{}-bit ADC's added noise (TPDF dither included)", a.bits())
+                }
+            },
+            a.added_noise_psd(fs).sqrt(),
+            "more bits or a narrower --range",
+        )),
+        (None, Some(fsc)) if sample_format.is_integer() => {
+            let bits = (sample_format.bytes() * 8) as i32;
+            let lsb = 2.0 * fsc / 2f64.powi(bits);
+            Some((
+                format!("{bits}-bit quantisation noise"),
+                lsb / (6.0 * fs).sqrt(),
+                "more bits or a smaller full scale",
+            ))
+        }
+        _ => None,
+    };
     // Bursts alone have no density floor to compare quantisation noise with.
-    if let (Some(fsc), true, false) = (
-        scale.full_scale,
-        sample_format.is_integer(),
-        profile.sources.is_empty(),
-    ) {
-        if let Some(note) = quantisation_note(&profile, fsc, sample_format) {
+    if let (Some((what, density, advice)), false) = (floor, profile.sources.is_empty()) {
+        if let Some(note) = quantisation_note(&profile, &what, density, advice) {
             notes.push(note);
         }
     }
@@ -382,7 +500,20 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         channels: 1,
         start_frame: start,
         unit: profile.unit,
+        adc: adc.clone(),
+        name: array_name,
+        provenance: vec![
+            format!(
+                "profile: {} ({file})",
+                profile.name.as_deref().unwrap_or("(unnamed profile)")
+            ),
+            format!("seed: {}", args.seed),
+        ],
     };
+    // Refuse what the format cannot hold before any file or folder is made.
+    spec.validate()?;
+    let (container_keys, container_notes) = crate::sink::container_facts(&spec)?;
+    notes.extend(container_notes);
 
     let mut stats = RunningStats::new();
     let progress = progress_bar(samples);
@@ -426,6 +557,15 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 )?;
                 report = sink.finish()?;
             }
+            if let (Some(a), true) = (&adc, report.clipped > 0 && !args.allow_clipping) {
+                let (lo, hi) = a.suggest_range(stats.min(), stats.max());
+                return Err(Error::ClippedRange {
+                    count: report.clipped,
+                    total: report.samples,
+                    range: range_text(a.lo(), a.hi(), unit),
+                    suggested: range_text(lo, hi, unit),
+                });
+            }
             if report.clipped > 0 && !args.allow_clipping {
                 let fsc = scale.full_scale.unwrap_or(1.0);
                 return Err(Error::Clipped {
@@ -436,10 +576,18 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 });
             }
             if report.clipped > 0 {
-                notes.push(format!(
-                    "{} samples clipped at full scale (--allow-clipping)",
-                    report.clipped
-                ));
+                notes.push(match &adc {
+                    Some(a) => format!(
+                        "{} samples outside the ADC range {} clamped to the end codes \
+                         (--allow-clipping)",
+                        report.clipped,
+                        range_text(a.lo(), a.hi(), unit)
+                    ),
+                    None => format!(
+                        "{} samples clipped at full scale (--allow-clipping)",
+                        report.clipped
+                    ),
+                });
             }
             let mut manifest = Manifest::new(&spec, args.seed, &report, &stats, expected_rms);
             manifest.profile = profile.to_json();
@@ -448,6 +596,10 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             manifest.start_sample = start;
             manifest.start_s = start as f64 / fs;
             manifest.notes = notes.clone();
+            manifest.extra.extend(container_keys);
+            if let Some(a) = &adc {
+                manifest.extra.insert("adc".into(), a.to_json(fs));
+            }
             if let Some(g) = &generator {
                 burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
             }
@@ -469,6 +621,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         expected_rms,
         &stats,
         report.clipped,
+        adc.as_ref(),
         &notes,
     );
     if segment {
@@ -562,12 +715,134 @@ fn parse_dbfs(text: &str) -> Result<f64> {
     }
 }
 
-/// A note when an integer format's quantisation noise density Q/√(6·fs) (REFERENCES: IEEE Std
-/// 1241 uniform-error model) comes within 10 dB of the lowest target density in the band.
-fn quantisation_note(profile: &Profile, full_scale: f64, sf: SampleFormat) -> Option<String> {
-    let bits = (sf.bytes() * 8) as i32;
-    let lsb = 2.0 * full_scale / 2f64.powi(bits);
-    let q_density = lsb / (6.0 * profile.sample_rate_hz).sqrt();
+/// The ADC named by `--bits`, `--range`, `--code` and `--dither` (`None` without `--bits`),
+/// its dither seeded by `--seed`. Refuses the ADC options without `--bits`, `--bits` without
+/// `--range`, and `--full-scale`, `--level` or `--sample-format` beside `--bits`.
+fn adc_from_args(args: &GenerateArgs, profile: &Profile) -> Result<Option<Adc>> {
+    let unit = profile.unit.symbol();
+    let Some(bits) = args.bits else {
+        for (given, option) in [
+            (args.range.is_some(), "--range"),
+            (args.code.is_some(), "--code"),
+            (args.dither.is_some(), "--dither"),
+        ] {
+            if given {
+                return Err(Error::option(
+                    option,
+                    format!(
+                        "belongs to ADC codes and needs --bits N (the resolution, 1 to 32), \
+                         e.g. --bits 12 --range \"-1.65{unit}..1.65{unit}\""
+                    ),
+                ));
+            }
+        }
+        return Ok(None);
+    };
+    for (given, option) in [
+        (args.full_scale.is_some(), "--full-scale"),
+        (args.level.is_some(), "--level"),
+        (args.sample_format.is_some(), "--sample-format"),
+    ] {
+        if given {
+            return Err(Error::option(
+                option,
+                "cannot be combined with --bits: ADC codes are scaled by --range and stored in \
+                 the smallest integer that holds them (u8/u16/u32 for offset, i8/i16/i32 for \
+                 twos); drop it",
+            ));
+        }
+    }
+    let Some(range) = &args.range else {
+        return Err(Error::option(
+            "--bits",
+            format!(
+                "needs --range, the converter's input range in {unit}, e.g. --range \
+                 \"-1.65{unit}..1.65{unit}\" or --range \"0{unit}..3.3{unit}\""
+            ),
+        ));
+    };
+    let (lo, hi) = parse_range(range, unit).map_err(|m| Error::option("--range", m))?;
+    let coding = args.code.as_deref().map(str::parse::<Coding>).transpose()?;
+    let dither = match args.dither.as_deref() {
+        Some(d) => d.parse::<Dither>()?,
+        None => Dither::None,
+    };
+    Ok(Some(
+        Adc::new(bits, lo, hi, coding, dither)?.with_seed(args.seed),
+    ))
+}
+
+/// `lo..hi` with units, as `--range` accepts it.
+fn range_text(lo: f64, hi: f64, unit: &str) -> String {
+    format!(
+        "{}..{}",
+        format_quantity(lo, unit),
+        format_quantity(hi, unit)
+    )
+}
+
+/// "two's-complement" or "offset-binary".
+fn coding_words(c: Coding) -> &'static str {
+    match c {
+        Coding::Twos => "two's-complement",
+        Coding::Offset => "offset-binary",
+    }
+}
+
+/// The summary's ADC lines: the converter, what its end and centre codes stand for, and the
+/// noise it adds.
+fn adc_summary(a: &Adc, profile: &Profile) -> String {
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let d = |v: f64| format_quantity(v, &format!("{u}/\u{221a}Hz"));
+    let fs = profile.sample_rate_hz;
+    let (cmin, cmax) = a.code_range();
+    let zero_code = match a.coding() {
+        Coding::Twos => 0,
+        Coding::Offset => 1i64 << (a.bits() - 1),
+    };
+    let mut s = format!(
+        "  ADC             {}-bit {} codes ({}) over {}, LSB {}\n",
+        a.bits(),
+        coding_words(a.coding()),
+        a.container(),
+        range_text(a.lo(), a.hi(), u),
+        q(a.lsb())
+    );
+    s += &format!(
+        "  codes           code c stands for {} + c·LSB: {cmin} = {}, {zero_code} = {} (centre), \
+         {cmax} = {}\n",
+        q(a.level(0)),
+        q(a.level(cmin)),
+        q(a.level(zero_code)),
+        q(a.level(cmax))
+    );
+    s += &format!(
+        "  quantisation    {} RMS (Q/√12), {} (Q/√(6·fs)) without dither\n",
+        q(a.quantisation_noise_rms()),
+        d(a.quantisation_noise_density(fs))
+    );
+    s += &match a.dither() {
+        Dither::None => "  dither          none\n".to_string(),
+        Dither::Tpdf => format!(
+            "  dither          TPDF ±1 LSB: total added noise {} RMS (Q/2), {} (Q/√(2·fs))\n",
+            q(a.added_noise_variance().sqrt()),
+            d(a.added_noise_psd(fs).sqrt())
+        ),
+    };
+    s
+}
+
+/// A note when the stored codes' quantisation noise density (REFERENCES §9: IEEE Std 1241
+/// uniform-error model, Q/√(6·fs); with TPDF dither Q/√(2·fs)) comes within 10 dB of the
+/// lowest target density in the band. `what` names the noise ("16-bit quantisation noise"),
+/// `advice` the fix.
+fn quantisation_note(
+    profile: &Profile,
+    what: &str,
+    q_density: f64,
+    advice: &str,
+) -> Option<String> {
     let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
     let lowest = (0..=200)
         .map(|i| lo * (hi / lo).powf(i as f64 / 200.0))
@@ -577,9 +852,8 @@ fn quantisation_note(profile: &Profile, full_scale: f64, sf: SampleFormat) -> Op
     let unit = format!("{}/√Hz", profile.unit.symbol());
     (margin_db < 10.0).then(|| {
         format!(
-            "the {}-bit quantisation noise ({}) is only {:.1} dB below the lowest density in \
-             the band ({}): use more bits or a smaller full scale",
-            bits,
+            "the {what} ({}) is only {:.1} dB below the lowest density in \
+             the band ({}): use {advice}",
             format_quantity(q_density, &unit),
             margin_db,
             format_quantity(lowest, &unit)
@@ -709,6 +983,7 @@ fn summary_text(
     expected_rms: f64,
     stats: &RunningStats,
     clipped: u64,
+    adc: Option<&Adc>,
     notes: &[String],
 ) -> String {
     let u = profile.unit.symbol();
@@ -757,6 +1032,7 @@ fn summary_text(
         q(stats.peak_to_peak())
     );
     match (scale.full_scale, scale.level_dbfs) {
+        _ if adc.is_some() => s += &adc_summary(adc.expect("checked"), profile),
         (Some(f), Some(l)) => {
             s += &format!(
                 "  scale           digital 1.0 = {} ({l} dBFS, AES17)\n",

@@ -17,7 +17,9 @@ const CSV_CHUNK: usize = 2048;
 ///   * full scale, f32/f64 → `value_fs`: the digital value (physical / full scale), clipped
 ///     to ±1.0; rounded to f32 first for f32;
 ///   * full scale, integer format → `code_i16` / `code_i24` / `code_i32`: the integer code
-///     (digital ±1.0 ↔ ±(2^(b−1) − 1), see the module docs).
+///     (digital ±1.0 ↔ ±(2^(b−1) − 1), see the module docs);
+///   * ADC codes ([`SinkSpec::adc`]) → `code_twos_<N>bit` / `code_offset_<N>bit`, e.g.
+///     `code_twos_12bit`: the converter's integer code (see [`crate::adc`]).
 ///
 /// * With [`CsvSink::with_sources`], one more column per source follows (e.g. `gaussian_V`,
 ///   `input_trap_V`): the physical value of that source's part of the sample, in the unit,
@@ -98,7 +100,9 @@ impl<W: Write> CsvSink<W> {
             for (k, &x) in chunk.iter().enumerate() {
                 let t = n as f64 / fs;
                 // Writing into a Vec<u8> cannot fail.
-                let r = if sf.is_integer() {
+                let r = if self.scaler.adc.is_some() {
+                    write!(buf, "{t},{}", self.scaler.adc_code(x))
+                } else if sf.is_integer() {
                     write!(buf, "{t},{}", self.scaler.code(x))
                 } else if sf == SampleFormat::F32 && digital {
                     write!(buf, "{t},{}", self.scaler.f32_value(x))
@@ -154,6 +158,9 @@ pub fn source_column_names(names: &[String], unit: crate::profile::Unit) -> Vec<
 
 /// The value column's name for `spec` (see [`CsvSink`]).
 fn value_column(spec: &SinkSpec) -> String {
+    if let Some(adc) = &spec.adc {
+        return format!("code_{}_{}bit", adc.coding(), adc.bits());
+    }
     match spec.full_scale {
         None => format!("value_{}", spec.unit.symbol()),
         Some(_) if spec.sample_format.is_integer() => format!("code_{}", spec.sample_format),

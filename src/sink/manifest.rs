@@ -47,11 +47,13 @@ pub struct Manifest {
     pub duration_s: f64,
     /// Output container.
     pub format: Format,
-    /// Stored sample format.
-    pub sample_format: SampleFormat,
+    /// Stored sample format: a [`SampleFormat`] name (`f32`, `i16`, …) or, for ADC codes, the
+    /// code container (`u8`, `u16`, `u32`, `i8`, `i16`, `i32`; see `extra.adc`).
+    pub sample_format: String,
     /// Physical unit of the samples.
     pub unit: Unit,
-    /// Physical value (in `unit`) of digital 1.0; `None` when physical values were written.
+    /// Physical value (in `unit`) of digital 1.0; `None` when physical values or ADC codes
+    /// (`extra.adc`) were written.
     pub full_scale: Option<f64>,
     /// Requested RMS level in dBFS, if the level was set that way; see `dbfs_convention`.
     pub level_dbfs: Option<f64>,
@@ -99,7 +101,10 @@ impl Manifest {
             samples: report.samples,
             duration_s: report.samples as f64 / spec.sample_rate_hz,
             format: spec.format,
-            sample_format: spec.sample_format,
+            sample_format: match &spec.adc {
+                Some(adc) => adc.container().name().to_string(),
+                None => spec.sample_format.name().to_string(),
+            },
             unit: spec.unit,
             full_scale: spec.full_scale,
             level_dbfs: None,
@@ -125,6 +130,73 @@ pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
     serde_json::to_writer_pretty(&mut out, m).map_err(|e| Error::io(ctx, e.into()))?;
     out.write_all(b"\n").map_err(|e| Error::io(ctx, e))?;
     out.flush().map_err(|e| Error::io(ctx, e))
+}
+
+/// What the manifest says about the container beyond `format`, as keys for its `extra` map
+/// and notes for its `notes` (both empty for CSV and raw):
+///
+/// * WAV: `container` — `"RIFF"`, or `"RF64"` past 4 GiB (EBU Tech 3306).
+/// * npy: `npy_dtype` (e.g. `"<f4"`) and `npy_shape` (`[frames]` or `[frames, channels]`);
+///   for i24 a note that the codes are stored as `'<i4'`.
+/// * C: `c_name` (the array), `c_type` (its element type) and `c_macros` (the macro names).
+///
+/// Errors only where the spec itself cannot be written (see [`SinkSpec::validate`]).
+pub fn container_facts(
+    spec: &SinkSpec,
+) -> Result<(serde_json::Map<String, serde_json::Value>, Vec<String>)> {
+    use serde_json::json;
+    let mut keys = serde_json::Map::new();
+    let mut notes = Vec::new();
+    let frames = spec.frames.unwrap_or(0);
+    match spec.format {
+        Format::Wav => {
+            let plan = super::wav_plan(frames, spec.channels, spec.sample_format)?;
+            keys.insert("container".into(), json!(plan.container.name()));
+            if plan.container == super::WavContainer::Rf64 {
+                notes.push(
+                    "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers without \
+                     RF64 support cannot open it"
+                        .to_string(),
+                );
+            }
+        }
+        Format::Npy => {
+            keys.insert("npy_dtype".into(), json!(super::npy_spec_descr(spec)));
+            keys.insert(
+                "npy_shape".into(),
+                json!(super::npy_shape(frames, spec.channels)),
+            );
+            if spec.sample_format == SampleFormat::I24 && spec.adc.is_none() {
+                notes.push(
+                    "i24 codes are stored as '<i4' (int32) in the .npy file, with the values \
+                     of 24-bit codes (-8388607..8388607)"
+                        .to_string(),
+                );
+            }
+        }
+        Format::C => {
+            let name = spec.name.clone().unwrap_or_else(|| "noise".to_string());
+            let upper = name.to_ascii_uppercase();
+            keys.insert("c_type".into(), json!(super::c_spec_type(spec)));
+            let macros: &[&str] = if spec.adc.is_some() {
+                &[
+                    "LENGTH",
+                    "CHANNELS",
+                    "SAMPLE_RATE_HZ",
+                    "BITS",
+                    "LSB",
+                    "CODE_ZERO_LEVEL",
+                ]
+            } else {
+                &["LENGTH", "CHANNELS", "SAMPLE_RATE_HZ", "FULL_SCALE"]
+            };
+            let macros: Vec<String> = macros.iter().map(|m| format!("{upper}_{m}")).collect();
+            keys.insert("c_macros".into(), json!(macros));
+            keys.insert("c_name".into(), json!(name));
+        }
+        Format::Csv | Format::Raw => {}
+    }
+    Ok((keys, notes))
 }
 
 #[cfg(test)]
@@ -237,5 +309,30 @@ mod tests {
             let got = erfc(1.0 / (sigma * std::f64::consts::SQRT_2));
             assert!((got - p).abs() <= tol, "{l} dBFS: {got:e} vs {p:e}");
         }
+    }
+
+    /// The manifest names the container; the switch to RF64 is the WAV writer's (one frame
+    /// past the plain RIFF limit), so nothing needs writing to see it.
+    #[test]
+    fn container_facts_follow_the_format() {
+        let max = super::super::wav_max_frames(SampleFormat::I16).unwrap();
+        for (frames, want) in [(max, "RIFF"), (max + 1, "RF64")] {
+            let s = spec(Format::Wav, SampleFormat::I16, Some(1.0), Some(frames));
+            let (keys, notes) = container_facts(&s).unwrap();
+            assert_eq!(keys["container"], want);
+            assert_eq!(notes.len(), usize::from(want == "RF64"));
+        }
+        let s = spec(Format::Npy, SampleFormat::I24, Some(1.0), Some(9));
+        let (keys, notes) = container_facts(&s).unwrap();
+        assert_eq!(keys["npy_dtype"], "<i4");
+        assert_eq!(keys["npy_shape"], serde_json::json!([9]));
+        assert!(notes[0].contains("'<i4'"));
+        let mut s = spec(Format::C, SampleFormat::I16, Some(1.0), Some(9));
+        s.name = Some("trace".into());
+        let (keys, _) = container_facts(&s).unwrap();
+        assert_eq!(keys["c_type"], "int16_t");
+        assert_eq!(keys["c_macros"][0], "TRACE_LENGTH");
+        let s = spec(Format::Raw, SampleFormat::I16, Some(1.0), None);
+        assert!(container_facts(&s).unwrap().0.is_empty());
     }
 }

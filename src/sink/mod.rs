@@ -1,4 +1,5 @@
-//! Writers behind one [`Sink`] trait: WAV, CSV, raw; the manifest.
+//! Writers behind one [`Sink`] trait: WAV (RF64 past 4 GiB), CSV, raw, numpy `.npy`, C
+//! header arrays; the manifest.
 //!
 //! Engines hand a sink blocks of **physical** samples (the profile's [`Unit`], volts or
 //! amperes). The sink scales them to digital units, clips, quantises and encodes them; the
@@ -19,6 +20,10 @@
 //!   `full_scale / (2^(b−1) − 1)`, which differs from the `FSR/2^b` of IEEE Std 1241 (REFERENCES
 //!   §9) by the factor `2^b/(2^b − 2)` (3·10⁻⁵ for 16 bits). Common practice; chosen so
 //!   clipping is exactly `|d| > 1.0` for every format.
+//! * ADC codes: with [`SinkSpec::adc`] every writer stores the codes of that ideal converter
+//!   instead ([`crate::adc`]: offset binary or two's complement over a physical range, in the
+//!   smallest u8/u16/u32 or i8/i16/i32 container); `full_scale` is then `None` and
+//!   `sample_format` is not used. Clipping is a sample outside the range, counted the same way.
 //! * Non-finite samples (NaN, ±∞) are refused with an error before any of the block is
 //!   encoded.
 //!
@@ -28,17 +33,24 @@
 //!
 //! [`Unit`]: crate::profile::Unit
 
+mod c_header;
 mod csv;
 mod manifest;
+mod npy;
 mod raw;
 mod wav;
 
+pub use c_header::{CHeaderSink, c_spec_type, c_type, default_array_name, validate_array_name};
 pub use csv::{CsvSink, source_column_names};
 pub use manifest::{
-    DBFS_CONVENTION, Manifest, dbfs_from_rms_digital, rms_digital_from_dbfs, write_manifest,
+    DBFS_CONVENTION, Manifest, container_facts, dbfs_from_rms_digital, rms_digital_from_dbfs,
+    write_manifest,
 };
+pub use npy::{NpySink, npy_descr, npy_header, npy_shape, npy_spec_descr};
 pub use raw::RawSink;
-pub use wav::{WavSink, check_wav_size, wav_bytes, wav_max_frames};
+pub use wav::{
+    WavContainer, WavPlan, WavSink, check_wav_size, wav_bytes, wav_header, wav_max_frames, wav_plan,
+};
 
 use std::fmt;
 use std::io::{self, Write};
@@ -46,6 +58,7 @@ use std::str::FromStr;
 
 use serde::Serialize;
 
+use crate::adc::{Adc, Container, Quantiser};
 use crate::error::{Error, Result};
 use crate::profile::Unit;
 
@@ -64,28 +77,55 @@ pub enum Format {
     Csv,
     /// Headerless little-endian samples.
     Raw,
+    /// numpy's `.npy` array file (NEP 1 / `numpy.lib.format`): a header, then the samples.
+    Npy,
+    /// A C header (`.h`) holding a `static const` array and macros for its length and scale.
+    C,
 }
 
 impl Format {
     /// The format for a file extension (with or without the dot, any case): `wav`; `csv`;
-    /// `raw`, `bin`, `f32`, `f64`, `i16`, `i24`, `i32` → [`Format::Raw`]. `None` otherwise.
+    /// `raw`, `bin`, `f32`, `f64`, `i16`, `i24`, `i32` and the ADC code containers `u8`,
+    /// `u16`, `u32`, `i8` → [`Format::Raw`]; `npy`; `h` → [`Format::C`]. `None` otherwise.
     pub fn from_extension(ext: &str) -> Option<Format> {
         let e = ext.strip_prefix('.').unwrap_or(ext).to_ascii_lowercase();
         match e.as_str() {
             "wav" => Some(Format::Wav),
             "csv" => Some(Format::Csv),
-            "raw" | "bin" | "f32" | "f64" | "i16" | "i24" | "i32" => Some(Format::Raw),
+            "raw" | "bin" | "f32" | "f64" | "i16" | "i24" | "i32" | "u8" | "u16" | "u32" | "i8" => {
+                Some(Format::Raw)
+            }
+            "npy" => Some(Format::Npy),
+            "h" => Some(Format::C),
             _ => None,
         }
     }
 
-    /// The format's name as accepted by [`FromStr`]: `"wav"`, `"csv"` or `"raw"`.
+    /// Every format, in a fixed order.
+    pub const ALL: [Format; 5] = [
+        Format::Wav,
+        Format::Csv,
+        Format::Raw,
+        Format::Npy,
+        Format::C,
+    ];
+
+    /// The format's name as accepted by [`FromStr`]: `"wav"`, `"csv"`, `"raw"`, `"npy"` or
+    /// `"c"`.
     pub fn name(self) -> &'static str {
         match self {
             Format::Wav => "wav",
             Format::Csv => "csv",
             Format::Raw => "raw",
+            Format::Npy => "npy",
+            Format::C => "c",
         }
+    }
+
+    /// True for the formats whose header states the sample count, so it must be known
+    /// before the first sample ([`SinkSpec::frames`]).
+    pub fn needs_frames(self) -> bool {
+        matches!(self, Format::Wav | Format::Npy | Format::C)
     }
 }
 
@@ -98,17 +138,18 @@ impl fmt::Display for Format {
 impl FromStr for Format {
     type Err = Error;
 
-    /// Parses `wav`, `csv` or `raw` (any case).
+    /// Parses `wav`, `csv`, `raw`, `npy` or `c` (any case).
     fn from_str(s: &str) -> Result<Format> {
-        match s.to_ascii_lowercase().as_str() {
-            "wav" => Ok(Format::Wav),
-            "csv" => Ok(Format::Csv),
-            "raw" => Ok(Format::Raw),
-            _ => Err(Error::option(
-                "--format",
-                format!("unknown format \"{s}\"; expected wav, csv or raw"),
-            )),
-        }
+        let l = s.to_ascii_lowercase();
+        Format::ALL
+            .into_iter()
+            .find(|f| f.name() == l)
+            .ok_or_else(|| {
+                Error::option(
+                    "--format",
+                    format!("unknown format \"{s}\"; expected wav, csv, raw, npy or c"),
+                )
+            })
     }
 }
 
@@ -234,6 +275,15 @@ pub struct SinkSpec {
     /// Index of the first frame in the whole run (0 unless the file is a segment that starts
     /// later): CSV's time column starts at `start_frame / sample_rate_hz` seconds.
     pub start_frame: u64,
+    /// Store the integer codes of this ideal converter instead of scaled samples (see
+    /// [`crate::adc`]); needs `full_scale: None`, ignores `sample_format`, not for WAV.
+    pub adc: Option<Adc>,
+    /// The identifier of the data, for formats that name it (the C array; its macros are the
+    /// name in capitals). `None`: [`default_array_name`] of nothing, `noise`.
+    pub name: Option<String>,
+    /// Where the data came from (profile, seed, version), one line each, for formats that
+    /// can carry comments (the C header writes them in its leading comment).
+    pub provenance: Vec<String>,
 }
 
 impl SinkSpec {
@@ -250,7 +300,28 @@ impl SinkSpec {
                 ),
             ));
         }
+        if self.adc.is_some() {
+            if let Some(fs) = self.full_scale {
+                return Err(Error::option(
+                    "--full-scale",
+                    format!(
+                        "ADC codes (--bits) are scaled by their --range; a full scale ({fs} {}) \
+                         cannot apply as well",
+                        self.unit.symbol()
+                    ),
+                ));
+            }
+            if self.format == Format::Wav {
+                return Err(Error::option(
+                    "--bits",
+                    "WAV cannot carry ADC codes as they are (WAV PCM is left-justified, signed \
+                     audio at full scale); write CSV (.csv), raw (.raw, .bin, .u16, .i16, …), .npy \
+                     or a C header (.h)",
+                ));
+            }
+        }
         match self.full_scale {
+            _ if self.adc.is_some() => {}
             Some(fs) if !(fs.is_finite() && fs > 0.0) => {
                 return Err(Error::option(
                     "--full-scale",
@@ -282,14 +353,28 @@ impl SinkSpec {
         if self.channels == 0 {
             return Err(Error::option("channels", "expected at least 1 channel"));
         }
-        if self.channels > 1 {
+        if self.channels > 1 && !matches!(self.format, Format::Npy | Format::C) {
             return Err(Error::Unsupported(format!(
-                "{} channels: multi-channel output is not written yet",
-                self.channels
+                "{} channels: multi-channel {} output is not written yet",
+                self.channels, self.format
             )));
         }
-        if self.format == Format::Wav {
-            wav::validate(self)?;
+        match self.format {
+            Format::Wav => wav::validate(self)?,
+            Format::Npy | Format::C => {
+                if self.frames.is_none() {
+                    return Err(Error::Unsupported(format!(
+                        "{} output states its length in its header, so the sample count must \
+                         be known before the first sample; give a duration (not inf) or \
+                         --samples",
+                        self.format
+                    )));
+                }
+                if self.format == Format::C {
+                    validate_array_name(self.name.as_deref().unwrap_or("noise"))?;
+                }
+            }
+            Format::Csv | Format::Raw => {}
         }
         Ok(())
     }
@@ -334,6 +419,8 @@ pub fn open_sink<'a, W: Write + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn S
         Format::Wav => Box::new(WavSink::new(spec, out)?),
         Format::Csv => Box::new(CsvSink::new(spec, out)?),
         Format::Raw => Box::new(RawSink::new(spec, out)?),
+        Format::Npy => Box::new(NpySink::new(spec, out)?),
+        Format::C => Box::new(CHeaderSink::new(spec, out)?),
     })
 }
 
@@ -341,6 +428,8 @@ pub fn open_sink<'a, W: Write + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn S
 #[derive(Debug, Clone)]
 struct Scaler {
     sample_format: SampleFormat,
+    /// The ADC's quantiser and container, when codes are written (then `gain` is `None`).
+    adc: Option<(Quantiser, Container)>,
     /// `1 / full_scale`, or `None` for physical output.
     gain: Option<f64>,
     /// `2^(b−1) − 1` as f64 for integer formats, 1.0 for floats.
@@ -352,6 +441,7 @@ impl Scaler {
     fn new(spec: &SinkSpec) -> Scaler {
         Scaler {
             sample_format: spec.sample_format,
+            adc: spec.adc.as_ref().map(|a| (a.quantiser(), a.container())),
             gain: spec.full_scale.map(|fs| 1.0 / fs),
             code_max: spec.sample_format.full_scale_code().map_or(1.0, f64::from),
             report: SinkReport::default(),
@@ -408,6 +498,21 @@ impl Scaler {
         (self.digital(x) * self.code_max).round() as i32
     }
 
+    /// The ADC code for physical `x` (only with an ADC); counts the peak and clipping.
+    #[inline]
+    fn adc_code(&mut self, x: f64) -> i64 {
+        let a = x.abs();
+        if a > self.report.peak_abs {
+            self.report.peak_abs = a;
+        }
+        let (q, _) = self.adc.as_mut().expect("an ADC spec");
+        let (code, clipped) = q.code(x);
+        if clipped {
+            self.report.clipped += 1;
+        }
+        code
+    }
+
     /// f32 value for physical `x`; beyond the f32 range (only possible without a full scale)
     /// it is clipped to ±f32::MAX and counted.
     #[inline]
@@ -423,6 +528,15 @@ impl Scaler {
 
     /// Appends the little-endian encoding of `samples` to `buf`.
     fn encode_le(&mut self, samples: &[f64], buf: &mut Vec<u8>) {
+        if let Some((_, container)) = self.adc {
+            buf.reserve(samples.len() * container.bytes());
+            for &x in samples {
+                let code = self.adc_code(x);
+                container.put_le(code, buf);
+            }
+            self.report.samples += samples.len() as u64;
+            return;
+        }
         buf.reserve(samples.len() * self.sample_format.bytes());
         match self.sample_format {
             SampleFormat::F32 => {
@@ -536,6 +650,9 @@ pub(crate) mod test_util {
             channels: 1,
             start_frame: 0,
             unit: Unit::Volt,
+            adc: None,
+            name: None,
+            provenance: Vec::new(),
         }
     }
 
@@ -582,7 +699,9 @@ mod tests {
         assert_eq!(Format::from_extension("wav"), Some(Format::Wav));
         assert_eq!(Format::from_extension(".WAV"), Some(Format::Wav));
         assert_eq!(Format::from_extension("csv"), Some(Format::Csv));
-        for e in ["raw", "f32", "f64", "i16", "i24", "i32", "bin", ".I24"] {
+        for e in [
+            "raw", "f32", "f64", "i16", "i24", "i32", "bin", ".I24", "u8", "u16", "u32", "i8",
+        ] {
             assert_eq!(Format::from_extension(e), Some(Format::Raw), "{e}");
         }
         assert_eq!(Format::from_extension("flac"), None);
@@ -741,6 +860,84 @@ mod tests {
             assert!(*last > 0, "{f}");
             assert!(rest.iter().all(|&s| s >= FLUSH_BYTES), "{f}: {:?}", sizes.0);
         }
+    }
+
+    /// ADC codes reach raw and CSV through the one Scaler: both hold exactly the codes of the
+    /// library's quantiser (dither included, blocks split unevenly), in the container the ADC
+    /// names, with samples outside the range counted as clipped.
+    #[test]
+    fn adc_codes_reach_every_writer_alike() {
+        use crate::adc::{Adc, Coding, Dither};
+        let x = gaussian(40_000, 0.6, SEED);
+        for (bits, coding, bytes) in [
+            (12, Coding::Twos, 2),
+            (12, Coding::Offset, 2),
+            (8, Coding::Offset, 1),
+            (20, Coding::Twos, 4),
+        ] {
+            let adc = Adc::new(bits, -1.65, 1.65, Some(coding), Dither::Tpdf)
+                .unwrap()
+                .with_seed(SEED);
+            let mut q = adc.quantiser();
+            let want: Vec<i64> = x.iter().map(|&v| q.code(v).0).collect();
+            let outside = x.iter().filter(|v| v.abs() > 1.65).count() as u64;
+            assert!(outside > 0, "seed {SEED}: nothing outside the range");
+            let mut s = spec(Format::Raw, SampleFormat::F32, None, None);
+            s.adc = Some(adc.clone());
+            let (b, r) = render(&s, &x).unwrap();
+            assert_eq!(b.len(), x.len() * bytes, "{bits} {coding}");
+            assert_eq!((r.samples, r.clipped), (x.len() as u64, outside));
+            let got: Vec<i64> = b
+                .chunks_exact(bytes)
+                .map(|c| {
+                    let mut w = [0u8; 8];
+                    w[..bytes].copy_from_slice(c);
+                    let u = i64::from_le_bytes(w);
+                    let sign = 1i64 << (8 * bytes - 1);
+                    if coding == Coding::Twos && u & sign != 0 {
+                        u - 2 * sign
+                    } else {
+                        u
+                    }
+                })
+                .collect();
+            assert_eq!(got, want, "raw {bits} {coding}");
+            s.format = Format::Csv;
+            let (b, r) = render(&s, &x).unwrap();
+            assert_eq!(r.clipped, outside);
+            let text = String::from_utf8(b).unwrap();
+            let mut lines = text.lines();
+            assert_eq!(
+                lines.next(),
+                Some(format!("time_s,code_{coding}_{bits}bit").as_str())
+            );
+            let csv: Vec<i64> = lines
+                .map(|l| l.split_once(',').unwrap().1.parse().unwrap())
+                .collect();
+            assert_eq!(csv, want, "csv {bits} {coding}");
+        }
+    }
+
+    #[test]
+    fn adc_specs_refuse_a_full_scale_and_wav() {
+        use crate::adc::{Adc, Dither};
+        let adc = Adc::new(12, 0.0, 3.3, None, Dither::None).unwrap();
+        let mut s = spec(Format::Raw, SampleFormat::I16, Some(1.0), None);
+        s.adc = Some(adc.clone());
+        assert!(
+            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--full-scale")
+        );
+        let mut s = spec(Format::Wav, SampleFormat::I16, None, Some(10));
+        s.adc = Some(adc);
+        let e = s.validate().unwrap_err();
+        assert!(
+            matches!(e, Error::Option { ref option, .. } if option == "--bits"),
+            "{e}"
+        );
+        assert!(e.to_string().contains("CSV"), "{e}");
+        // Integer sample formats need no full scale with an ADC.
+        s.format = Format::Raw;
+        assert!(s.validate().is_ok());
     }
 
     #[test]

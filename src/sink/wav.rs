@@ -1,20 +1,34 @@
 //! RIFF/WAVE writer for any `Write` (no `Seek`): the header is written first from the known
-//! sample count.
+//! sample count. A file whose RIFF size would pass the u32 field (4 GiB) is written as RF64.
 //!
 //! Layouts (Microsoft RIFF/WAVE 1.0 and Rev. 3; WAVEFORMATEXTENSIBLE; REFERENCES §10):
 //!
-//! | sample format | `fmt ` | other chunks | header bytes |
+//! | sample format | `fmt ` | other chunks | header bytes (RIFF / RF64) |
 //! |---|---|---|---|
-//! | i16 | PCM, tag 1, 16 bytes | – | 44 |
-//! | i24, i32 | EXTENSIBLE, tag 0xFFFE, 40 bytes (cbSize 22, valid bits = container bits, channel mask, PCM SubFormat GUID) | – | 68 |
-//! | f32 | IEEE float, tag 3, 18 bytes (cbSize 0) | `fact` (sample frames) | 58 |
+//! | i16 | PCM, tag 1, 16 bytes | – | 44 / 80 |
+//! | i24, i32 | EXTENSIBLE, tag 0xFFFE, 40 bytes (cbSize 22, valid bits = container bits, channel mask, PCM SubFormat GUID) | – | 68 / 104 |
+//! | f32 | IEEE float, tag 3, 18 bytes (cbSize 0) | `fact` (sample frames) | 58 / 94 |
 //!
 //! EXTENSIBLE is used for PCM wider than 16 bits, as the Microsoft multichannel document asks
 //! (REFERENCES §10). EXTENSIBLE PCM carries no `fact` chunk: its data is PCM (common practice).
 //! 64-bit float WAV is not offered (see [`wav_bytes`]). All files are mono; the header code
 //! takes a channel count so more channels only need a frame layout.
+//!
+//! # RF64 (EBU Tech 3306)
+//!
+//! When the RIFF size (file length − 8) of the plain layout would exceed `u32::MAX`, the file
+//! becomes RF64 as EBU Tech 3306 lays it out (REFERENCES §10; field order from memory of the
+//! standard): the id `"RF64"` replaces `"RIFF"`, the RIFF size field and the `data` chunk's
+//! size field hold 0xFFFFFFFF, and a `ds64` chunk (28 bytes: riffSize, dataSize and
+//! sampleCount as u64, then a u32 table length of 0) comes first after `"WAVE"`. A `fact`
+//! chunk's u32 sample count holds the frames while they fit and 0xFFFFFFFF beyond (the real
+//! count is ds64's sampleCount). Below the limit the file stays plain RIFF, byte for byte as
+//! before, since far more readers open RIFF than RF64. [`wav_plan`] makes the decision as a
+//! pure function of the content; [`wav_header`] writes the bytes.
 
 use std::io::Write;
+
+use serde::Serialize;
 
 use super::{Buffered, CHUNK_SAMPLES, SampleFormat, Scaler, Sink, SinkReport, SinkSpec};
 use crate::error::{Error, Result};
@@ -39,16 +53,61 @@ const CHANNELS: u16 = 1;
 
 /// The RIFF size and data size fields are u32 (REFERENCES §10): the largest RIFF size.
 const RIFF_SIZE_MAX: u64 = u32::MAX as u64;
+/// Bytes of the `ds64` chunk of RF64, its 8-byte chunk header included: riffSize, dataSize,
+/// sampleCount (u64 each) and tableLength (u32) = 28 body bytes (EBU Tech 3306, from memory).
+const DS64_CHUNK_BYTES: u64 = 8 + 28;
+/// What RF64 puts in the u32 size fields whose true value is in `ds64` (EBU Tech 3306).
+const RF64_SIZE_MARKER: u32 = u32::MAX;
 
-/// The fixed part of a WAV file for one sample format.
-#[derive(Debug, Clone, Copy)]
-struct Layout {
-    /// Bytes before the sample data (RIFF header, `fmt `, `fact`, `data` header).
-    header: u64,
+/// The container of a WAV file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+pub enum WavContainer {
+    /// Plain RIFF/WAVE with u32 sizes (files up to 4 GiB).
+    #[serde(rename = "RIFF")]
+    Riff,
+    /// RF64 (EBU Tech 3306): u64 sizes in a `ds64` chunk, for files past 4 GiB.
+    #[serde(rename = "RF64")]
+    Rf64,
 }
 
-fn layout(sample_format: SampleFormat) -> Result<Layout> {
-    let header = match sample_format {
+impl WavContainer {
+    /// The file's first four bytes as text: `"RIFF"` or `"RF64"` (also the manifest's name).
+    pub fn name(self) -> &'static str {
+        match self {
+            WavContainer::Riff => "RIFF",
+            WavContainer::Rf64 => "RF64",
+        }
+    }
+}
+
+/// The sizes of one WAV file, decided before any byte is written ([`wav_plan`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct WavPlan {
+    /// RIFF or RF64.
+    pub container: WavContainer,
+    /// Bytes before the first sample (every chunk header up to and including `data`'s).
+    pub header_bytes: u64,
+    /// Bytes of samples: frames × channels × bytes per sample.
+    pub data_bytes: u64,
+    /// 1 when the data chunk needs a pad byte to end on an even offset, else 0 (RIFF: the pad
+    /// is not counted in the chunk's size but is in the RIFF size).
+    pub pad_bytes: u64,
+    /// File length − 8: the RIFF size field (RIFF) or ds64's riffSize (RF64).
+    pub riff_size: u64,
+    /// Sample frames (one sample per channel): the `fact` count, ds64's sampleCount.
+    pub frames: u64,
+}
+
+impl WavPlan {
+    /// Length of the whole file in bytes.
+    pub fn total_bytes(&self) -> u64 {
+        self.riff_size + 8
+    }
+}
+
+/// Bytes before the samples of the plain RIFF layout of `sample_format`.
+fn riff_header_bytes(sample_format: SampleFormat) -> Result<u64> {
+    Ok(match sample_format {
         // "RIFF"+size+"WAVE" (12) + fmt (8+16) + data header (8)
         SampleFormat::I16 => 44,
         // 12 + fmt (8+40) + data header (8)
@@ -56,8 +115,7 @@ fn layout(sample_format: SampleFormat) -> Result<Layout> {
         // 12 + fmt (8+18) + fact (8+4) + data header (8)
         SampleFormat::F32 => 58,
         SampleFormat::F64 => return Err(f64_refused()),
-    };
-    Ok(Layout { header })
+    })
 }
 
 fn f64_refused() -> Error {
@@ -68,56 +126,87 @@ fn f64_refused() -> Error {
     )
 }
 
-/// Data bytes and the pad byte that makes the data chunk even (RIFF: the pad is not counted
-/// in the chunk's size but is in the RIFF size).
-fn data_and_pad(frames: u64, sample_format: SampleFormat) -> (u64, u64) {
-    let data = frames.saturating_mul(u64::from(CHANNELS) * sample_format.bytes() as u64);
-    (data, data % 2)
+fn too_large(frames: u64, channels: u16, sample_format: SampleFormat) -> Error {
+    Error::Unsupported(format!(
+        "a WAV of {frames} frames of {channels} {sample_format} channel(s) would be larger \
+         than 2^64 bytes, beyond even RF64's 64-bit sizes; ask for a shorter duration"
+    ))
+}
+
+/// The container and sizes of a WAV holding `frames` frames of `channels` channels in
+/// `sample_format`: plain RIFF while its RIFF size (file length − 8) fits the u32 field,
+/// RF64 (EBU Tech 3306, see the module docs) beyond. A pure function; errors for
+/// [`SampleFormat::F64`] (not offered), 0 channels, and sizes past 2^64 bytes.
+pub fn wav_plan(frames: u64, channels: u16, sample_format: SampleFormat) -> Result<WavPlan> {
+    let riff_header = riff_header_bytes(sample_format)?;
+    if channels == 0 {
+        return Err(Error::option("channels", "expected at least 1 channel"));
+    }
+    let frame_bytes = u64::from(channels) * sample_format.bytes() as u64;
+    let data_bytes = frames
+        .checked_mul(frame_bytes)
+        .ok_or_else(|| too_large(frames, channels, sample_format))?;
+    let pad_bytes = data_bytes % 2;
+    let riff_size_for = |header: u64| {
+        (header - 8)
+            .checked_add(data_bytes)
+            .and_then(|v| v.checked_add(pad_bytes))
+            // Room for the 8 bytes before the size, so the file length is a u64 too.
+            .filter(|v| *v <= u64::MAX - 8)
+            .ok_or_else(|| too_large(frames, channels, sample_format))
+    };
+    let riff_size = riff_size_for(riff_header)?;
+    let (container, header_bytes, riff_size) = if riff_size <= RIFF_SIZE_MAX {
+        (WavContainer::Riff, riff_header, riff_size)
+    } else {
+        let header = riff_header + DS64_CHUNK_BYTES;
+        (WavContainer::Rf64, header, riff_size_for(header)?)
+    };
+    Ok(WavPlan {
+        container,
+        header_bytes,
+        data_bytes,
+        pad_bytes,
+        riff_size,
+        frames,
+    })
 }
 
 /// Total size in bytes of a mono WAV holding `frames` samples in `sample_format`: header,
-/// data and pad byte. Saturates at `u64::MAX` for absurd counts. Errors for
-/// [`SampleFormat::F64`], which WAV output does not offer.
+/// data and pad byte (RF64 past 4 GiB, see [`wav_plan`]). Saturates at `u64::MAX` for
+/// counts beyond 64-bit sizes. Errors for [`SampleFormat::F64`], which WAV output does not
+/// offer.
 pub fn wav_bytes(frames: u64, sample_format: SampleFormat) -> Result<u64> {
-    let l = layout(sample_format)?;
-    let (data, pad) = data_and_pad(frames, sample_format);
-    Ok(l.header.saturating_add(data).saturating_add(pad))
+    riff_header_bytes(sample_format)?;
+    Ok(wav_plan(frames, CHANNELS, sample_format).map_or(u64::MAX, |p| p.total_bytes()))
 }
 
-/// The most samples a mono WAV in `sample_format` can hold under the 4 GiB limit of the
-/// u32 RIFF size field. Errors for [`SampleFormat::F64`].
+/// The most samples a mono **plain RIFF** WAV in `sample_format` can hold under the 4 GiB
+/// limit of its u32 RIFF size field; one more and the file is written as RF64. Errors for
+/// [`SampleFormat::F64`].
 pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
-    let l = layout(sample_format)?;
+    let header = riff_header_bytes(sample_format)?;
     let bytes = u64::from(CHANNELS) * sample_format.bytes() as u64;
     // RIFF size = file size − 8; take the largest frame count, then step back if the pad
     // byte pushes it over.
-    let room = RIFF_SIZE_MAX - (l.header - 8);
+    let room = RIFF_SIZE_MAX - (header - 8);
     let mut frames = room / bytes;
-    while wav_bytes(frames, sample_format)? - 8 > RIFF_SIZE_MAX {
+    while wav_plan(frames, CHANNELS, sample_format)?.container != WavContainer::Riff {
         frames -= 1;
     }
     Ok(frames)
 }
 
-/// Refuses (with [`Error::Unsupported`]) a WAV whose RIFF or data size would exceed the u32
-/// fields of RIFF/WAVE, i.e. a file past 4 GiB. Nothing is written; call before opening.
+/// Refuses (with [`Error::Unsupported`]) a mono WAV whose size would pass even RF64's 64-bit
+/// fields (and f64, which WAV output does not offer). A WAV past 4 GiB is fine: it is written
+/// as RF64. Nothing is written; call before opening.
 pub fn check_wav_size(frames: u64, sample_format: SampleFormat) -> Result<()> {
-    let total = wav_bytes(frames, sample_format)?;
-    // The RIFF size (total − 8) always exceeds the data size, so checking it covers both.
-    if total - 8 <= RIFF_SIZE_MAX {
-        return Ok(());
-    }
-    let max = wav_max_frames(sample_format)?;
-    Err(Error::Unsupported(format!(
-        "a WAV of {frames} {sample_format} samples would be {total} bytes, but RIFF/WAV sizes \
-         are 32-bit fields, which limits a WAV file to 4 GiB ({max} {sample_format} samples \
-         at most); write raw output instead (no size limit), or ask for a shorter duration"
-    )))
+    wav_plan(frames, CHANNELS, sample_format).map(|_| ())
 }
 
 /// WAV-specific checks of a spec (called from [`SinkSpec::validate`]).
 pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
-    layout(spec.sample_format)?;
+    riff_header_bytes(spec.sample_format)?;
     let rate = spec.sample_rate_hz;
     let bytes_per_second = rate * f64::from(CHANNELS) * spec.sample_format.bytes() as f64;
     if rate.fract() != 0.0 || bytes_per_second > f64::from(u32::MAX) {
@@ -136,20 +225,46 @@ pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
     check_wav_size(frames, spec.sample_format)
 }
 
-/// The header bytes for a mono WAV of `frames` samples. The spec must have passed
-/// [`validate`], so every size fits its field.
-fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<u8> {
-    let (data, pad) = data_and_pad(frames, sample_format);
-    let total = layout(sample_format).expect("validated").header + data + pad;
+/// The header bytes (everything before the first sample) of a WAV holding `frames` frames of
+/// `channels` channels in `sample_format` at `sample_rate_hz` (whole samples per second):
+/// RIFF or RF64 as [`wav_plan`] decides. A pure function. Errors as [`wav_plan`], and when
+/// the byte rate `rate × channels × bytes` does not fit its u32 field.
+pub fn wav_header(
+    frames: u64,
+    channels: u16,
+    sample_format: SampleFormat,
+    sample_rate_hz: u32,
+) -> Result<Vec<u8>> {
+    let plan = wav_plan(frames, channels, sample_format)?;
     let container_bytes = sample_format.bytes() as u16;
-    let block_align = CHANNELS * container_bytes;
-    let rate = sample_rate_hz as u32;
+    let block_align = channels * container_bytes;
+    let byte_rate = sample_rate_hz
+        .checked_mul(u32::from(block_align))
+        .ok_or_else(|| {
+            Error::Unsupported(format!(
+                "WAV stores the byte rate as a 32-bit number; {sample_rate_hz} Hz × \
+                 {block_align} bytes per frame does not fit (use raw output)"
+            ))
+        })?;
     let bits = 8 * container_bytes;
+    let rf64 = plan.container == WavContainer::Rf64;
+    // A u32 size field: the value, or RF64's marker when the true value is in ds64.
+    let field = |v: u64| {
+        if rf64 { RF64_SIZE_MARKER } else { v as u32 }
+    };
 
-    let mut h = Vec::with_capacity(68);
-    h.extend_from_slice(b"RIFF");
-    h.extend_from_slice(&((total - 8) as u32).to_le_bytes());
+    let mut h = Vec::with_capacity(plan.header_bytes as usize);
+    h.extend_from_slice(if rf64 { b"RF64" } else { b"RIFF" });
+    h.extend_from_slice(&field(plan.riff_size).to_le_bytes());
     h.extend_from_slice(b"WAVE");
+    if rf64 {
+        h.extend_from_slice(b"ds64");
+        h.extend_from_slice(&((DS64_CHUNK_BYTES - 8) as u32).to_le_bytes());
+        h.extend_from_slice(&plan.riff_size.to_le_bytes()); // riffSize (low, high)
+        h.extend_from_slice(&plan.data_bytes.to_le_bytes()); // dataSize
+        h.extend_from_slice(&plan.frames.to_le_bytes()); // sampleCount
+        h.extend_from_slice(&0u32.to_le_bytes()); // tableLength: no other large chunk
+    }
     let (tag, fmt_len): (u16, u32) = match sample_format {
         SampleFormat::I16 => (TAG_PCM, 16),
         SampleFormat::F32 => (TAG_IEEE_FLOAT, 18),
@@ -158,9 +273,9 @@ fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<
     h.extend_from_slice(b"fmt ");
     h.extend_from_slice(&fmt_len.to_le_bytes());
     h.extend_from_slice(&tag.to_le_bytes()); // wFormatTag
-    h.extend_from_slice(&CHANNELS.to_le_bytes()); // nChannels
-    h.extend_from_slice(&rate.to_le_bytes()); // nSamplesPerSec
-    h.extend_from_slice(&(rate * u32::from(block_align)).to_le_bytes()); // nAvgBytesPerSec
+    h.extend_from_slice(&channels.to_le_bytes()); // nChannels
+    h.extend_from_slice(&sample_rate_hz.to_le_bytes()); // nSamplesPerSec
+    h.extend_from_slice(&byte_rate.to_le_bytes()); // nAvgBytesPerSec
     h.extend_from_slice(&block_align.to_le_bytes()); // nBlockAlign
     h.extend_from_slice(&bits.to_le_bytes()); // wBitsPerSample (container)
     match tag {
@@ -168,7 +283,9 @@ fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<
             h.extend_from_slice(&0u16.to_le_bytes()); // cbSize
             h.extend_from_slice(b"fact");
             h.extend_from_slice(&4u32.to_le_bytes());
-            h.extend_from_slice(&(frames as u32).to_le_bytes()); // dwSampleLength
+            // dwSampleLength: the frames while they fit, else the marker (ds64 has them).
+            let n = u32::try_from(plan.frames).unwrap_or(RF64_SIZE_MARKER);
+            h.extend_from_slice(&n.to_le_bytes());
         }
         TAG_EXTENSIBLE => {
             h.extend_from_slice(&22u16.to_le_bytes()); // cbSize
@@ -179,12 +296,13 @@ fn header(frames: u64, sample_format: SampleFormat, sample_rate_hz: f64) -> Vec<
         _ => {}
     }
     h.extend_from_slice(b"data");
-    h.extend_from_slice(&(data as u32).to_le_bytes());
-    debug_assert_eq!(h.len() as u64, total - data - pad);
-    h
+    h.extend_from_slice(&field(plan.data_bytes).to_le_bytes());
+    debug_assert_eq!(h.len() as u64, plan.header_bytes);
+    Ok(h)
 }
 
-/// Mono WAV writer: i16 PCM, i24/i32 EXTENSIBLE PCM, f32 IEEE float (see the module docs).
+/// Mono WAV writer: i16 PCM, i24/i32 EXTENSIBLE PCM, f32 IEEE float; RIFF, or RF64 past
+/// 4 GiB (see the module docs).
 ///
 /// Needs a full scale and the sample count ([`SinkSpec::frames`]); writing more samples
 /// than announced, or finishing with fewer, is an error because the header would be wrong.
@@ -208,14 +326,17 @@ impl<W: Write> WavSink<W> {
             )));
         }
         let frames = spec.frames.expect("validated");
+        let plan = wav_plan(frames, CHANNELS, spec.sample_format)?;
         let mut out = Buffered::new(out, "writing WAV");
+        // validate() checked the rate is a whole number whose byte rate fits a u32.
+        let rate = spec.sample_rate_hz as u32;
         out.buf
-            .extend_from_slice(&header(frames, spec.sample_format, spec.sample_rate_hz));
+            .extend_from_slice(&wav_header(frames, CHANNELS, spec.sample_format, rate)?);
         Ok(WavSink {
             out,
             scaler: Scaler::new(spec),
             frames,
-            pad: data_and_pad(frames, spec.sample_format).1 == 1,
+            pad: plan.pad_bytes == 1,
         })
     }
 
@@ -461,7 +582,7 @@ mod tests {
 
     /// The limits below are hand arithmetic on `RIFF size = header − 8 + data + pad ≤ 2^32 − 1`.
     #[test]
-    fn the_4_gib_limit_is_computed_exactly() {
+    fn the_riff_limit_is_computed_exactly() {
         // i16: 36 + 2f ≤ 4294967295 → f ≤ 2147483629
         assert_eq!(wav_max_frames(SampleFormat::I16).unwrap(), 2_147_483_629);
         // f32: 50 + 4f → f ≤ 1073741811
@@ -477,42 +598,140 @@ mod tests {
             SampleFormat::F32,
         ] {
             let max = wav_max_frames(sf).unwrap();
-            assert!(check_wav_size(max, sf).is_ok(), "{sf}");
-            assert!(
-                wav_bytes(max, sf).unwrap() - 8 <= u64::from(u32::MAX),
+            let p = wav_plan(max, 1, sf).unwrap();
+            assert_eq!(p.container, WavContainer::Riff, "{sf}");
+            assert!(p.riff_size <= u64::from(u32::MAX), "{sf}");
+            assert_eq!(p.total_bytes(), wav_bytes(max, sf).unwrap());
+            let q = wav_plan(max + 1, 1, sf).unwrap();
+            assert_eq!(q.container, WavContainer::Rf64, "{sf}");
+            // RF64 adds the 36-byte ds64 chunk and nothing else.
+            assert_eq!(q.header_bytes, p.header_bytes + 36, "{sf}");
+            assert_eq!(
+                q.riff_size,
+                q.header_bytes - 8 + q.data_bytes + q.pad_bytes,
                 "{sf}"
             );
-            let e = check_wav_size(max + 1, sf).unwrap_err();
-            assert!(matches!(e, Error::Unsupported(_)));
-            let m = e.to_string();
-            assert!(
-                m.contains("4 GiB") && m.contains("raw") && m.contains("shorter"),
-                "{m}"
-            );
+            assert!(check_wav_size(max + 1, sf).is_ok(), "{sf}");
         }
+        // Only sizes past 2^64 bytes are refused.
+        let e = check_wav_size(u64::MAX / 2, SampleFormat::I32).unwrap_err();
+        assert!(matches!(e, Error::Unsupported(_)) && e.to_string().contains("2^64"));
         assert_eq!(wav_bytes(u64::MAX, SampleFormat::I32).unwrap(), u64::MAX);
     }
 
-    /// 2^30 f32 samples (exactly 4 GiB of data) are refused at open, before any byte is
-    /// written.
+    fn u32_at(h: &[u8], at: usize) -> u32 {
+        u32::from_le_bytes(h[at..at + 4].try_into().unwrap())
+    }
+
+    fn u64_at(h: &[u8], at: usize) -> u64 {
+        u64::from_le_bytes(h[at..at + 8].try_into().unwrap())
+    }
+
+    /// One frame past the RIFF limit, every field of the RF64 header (EBU Tech 3306 layout,
+    /// REFERENCES §10): the marker 0xFFFFFFFF in the RIFF and data sizes, the true sizes in
+    /// ds64. Expected numbers are hand arithmetic: header = RIFF header + 36; data = frames ×
+    /// bytes; riffSize = header − 8 + data + pad. No sample is written.
     #[test]
-    fn oversized_wav_is_refused_before_writing() {
-        struct Counting(u64);
-        impl Write for Counting {
-            fn write(&mut self, b: &[u8]) -> std::io::Result<usize> {
-                self.0 += b.len() as u64;
-                Ok(b.len())
+    fn rf64_header_fields_at_the_switch_over() {
+        // (format, frames = RIFF max + 1, header bytes, data bytes, riffSize, offset of "data")
+        let cases = [
+            (
+                SampleFormat::I16,
+                2_147_483_630u64,
+                80usize,
+                4_294_967_260u64,
+                4_294_967_332u64,
+                72usize,
+            ),
+            (
+                SampleFormat::F32,
+                1_073_741_812,
+                94,
+                4_294_967_248,
+                4_294_967_334,
+                86,
+            ),
+            (
+                SampleFormat::I32,
+                1_073_741_809,
+                104,
+                4_294_967_236,
+                4_294_967_332,
+                96,
+            ),
+            // 3 × 1431655745 = 4294967235 is odd: one pad byte, counted in riffSize only.
+            (
+                SampleFormat::I24,
+                1_431_655_745,
+                104,
+                4_294_967_235,
+                4_294_967_332,
+                96,
+            ),
+        ];
+        for (sf, frames, header, data, riff, data_at) in cases {
+            let h = wav_header(frames, 1, sf, 48_000).unwrap();
+            assert_eq!(h.len(), header, "{sf}");
+            assert_eq!(&h[0..4], b"RF64", "{sf}");
+            assert_eq!(u32_at(&h, 4), u32::MAX, "{sf}: RIFF size marker");
+            assert_eq!(&h[8..12], b"WAVE");
+            assert_eq!(&h[12..16], b"ds64", "{sf}: ds64 first after WAVE");
+            assert_eq!(u32_at(&h, 16), 28, "{sf}: ds64 size");
+            assert_eq!(u64_at(&h, 20), riff, "{sf}: riffSize");
+            assert_eq!(u64_at(&h, 28), data, "{sf}: dataSize");
+            assert_eq!(u64_at(&h, 36), frames, "{sf}: sampleCount");
+            assert_eq!(u32_at(&h, 44), 0, "{sf}: table length");
+            assert_eq!(&h[48..52], b"fmt ", "{sf}");
+            assert_eq!(u32_at(&h, 60), 48_000, "{sf}: rate");
+            assert_eq!(&h[data_at..data_at + 4], b"data", "{sf}");
+            assert_eq!(u32_at(&h, data_at + 4), u32::MAX, "{sf}: data size marker");
+            if sf == SampleFormat::F32 {
+                assert_eq!(&h[74..78], b"fact");
+                assert_eq!(
+                    u32_at(&h, 82),
+                    frames as u32,
+                    "fact holds frames below 2^32"
+                );
             }
-            fn flush(&mut self) -> std::io::Result<()> {
-                Ok(())
-            }
+            // The plan says the same, and the file length is riffSize + 8.
+            let p = wav_plan(frames, 1, sf).unwrap();
+            assert_eq!((p.data_bytes, p.riff_size), (data, riff), "{sf}");
+            assert_eq!(p.total_bytes(), header as u64 + data + data % 2, "{sf}");
+            // One frame less is plain RIFF, with the true sizes in the u32 fields.
+            let h = wav_header(frames - 1, 1, sf, 48_000).unwrap();
+            assert_eq!(&h[0..4], b"RIFF", "{sf}");
+            assert_eq!(h.len(), header - 36, "{sf}");
+            let p = wav_plan(frames - 1, 1, sf).unwrap();
+            assert_eq!(u64::from(u32_at(&h, 4)), p.riff_size, "{sf}");
+            assert_eq!(u64::from(u32_at(&h, data_at - 32)), p.data_bytes, "{sf}");
         }
-        let mut out = Counting(0);
-        let s = spec(Format::Wav, SampleFormat::F32, Some(1.0), Some(1 << 30));
-        let e = open_sink(&s, &mut out).err().unwrap();
-        assert!(e.to_string().contains("4 GiB"), "{e}");
-        assert_eq!(e.exit_code(), 2);
-        assert_eq!(out.0, 0);
+        // Past 2^32 frames (i16 mono, 8 GiB + ε), fact-less i16 still carries the true
+        // sampleCount in ds64; an f32 file's fact count becomes the marker.
+        let n = (1u64 << 32) + 5;
+        let h = wav_header(n, 1, SampleFormat::I16, 48_000).unwrap();
+        assert_eq!(u64_at(&h, 36), n);
+        assert_eq!(u64_at(&h, 28), 2 * n);
+        let h = wav_header(n, 1, SampleFormat::F32, 48_000).unwrap();
+        assert_eq!(u32_at(&h, 82), u32::MAX);
+        assert_eq!(u64_at(&h, 36), n);
+    }
+
+    /// 2^30 f32 samples (exactly 4 GiB of data) open as RF64; the first bytes written are
+    /// the RF64 header, then the samples.
+    #[test]
+    fn a_wav_past_4_gib_is_written_as_rf64() {
+        let frames = 1u64 << 30;
+        let s = spec(Format::Wav, SampleFormat::F32, Some(1.0), Some(frames));
+        let mut out = Vec::new();
+        {
+            let mut sink = open_sink(&s, &mut out).unwrap();
+            sink.write(&vec![0.5; 20_000]).unwrap();
+            // Dropped unfinished: the header and whatever reached the writer is there.
+        }
+        let h = wav_header(frames, 1, SampleFormat::F32, 48_000).unwrap();
+        assert_eq!(&out[..h.len()], &h[..]);
+        assert_eq!(&out[0..4], b"RF64");
+        assert_eq!(&out[h.len()..h.len() + 4], &0.5f32.to_le_bytes());
     }
 
     #[test]

@@ -96,6 +96,16 @@ pub fn open_source<'a, R: Read + 'a>(
         Format::Wav => Box::new(WavSource::new(input, options)?),
         Format::Csv => Box::new(CsvSource::new(input, options)?),
         Format::Raw => Box::new(RawSource::new(input, options)?),
+        Format::Npy | Format::C => {
+            return Err(Error::input(
+                &options.name,
+                format!(
+                    "{} files are not read by analyze; analyse the raw or WAV output of the \
+                     same run instead",
+                    options.format
+                ),
+            ));
+        }
     })
 }
 
@@ -129,6 +139,20 @@ impl SideManifest {
         let obj = v
             .as_object()
             .ok_or_else(|| Error::input(name, "expected a JSON object"))?;
+        if obj
+            .get("extra")
+            .and_then(|e| e.get("adc"))
+            .is_some_and(|a| a.is_object())
+        {
+            // Codes of `generate --bits` stand for lo + (code − code_min)·LSB; no reader maps
+            // them back yet, and reading them as digital or physical values would be wrong.
+            return Err(Error::input(
+                name,
+                "the file holds ADC codes (generate --bits, see extra.adc); analyze does not \
+                 read ADC code files yet: generate the same profile and seed without --bits \
+                 to analyse the noise",
+            ));
+        }
         let mut m = SideManifest::default();
         if let Some(fs) = obj.get("full_scale") {
             m.states_scale = true;

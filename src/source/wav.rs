@@ -1,7 +1,9 @@
 //! RIFF/WAVE reader on any `Read` (no `Seek`): PCM 16/24/32-bit and IEEE float 32/64-bit,
 //! with plain (`fmt ` tags 1 and 3) or WAVE_FORMAT_EXTENSIBLE (tag 0xFFFE, PCM or float
 //! SubFormat GUID) headers (Microsoft RIFF/WAVE 1.0 and Rev. 3; WAVEFORMATEXTENSIBLE;
-//! REFERENCES §10).
+//! REFERENCES §10), in a RIFF or an RF64 container (EBU Tech 3306, also under ITU-R
+//! BS.2088's id BW64: the `ds64` chunk's 64-bit data size replaces the `data` chunk's
+//! 0xFFFFFFFF).
 //!
 //! Chunks before `data` that are not `fmt ` (`fact`, `LIST`, `JUNK`, ...) are skipped, with
 //! their pad byte. A `data` size of 0xFFFFFFFF or 0 (placeholders of writers that stream) is
@@ -62,18 +64,41 @@ impl<R: Read> WavSource<R> {
                 "not a WAV file: {got} bytes, shorter than the 12-byte RIFF header"
             )));
         }
-        if &head[0..4] != b"RIFF" || &head[8..12] != b"WAVE" {
-            let what = if &head[0..4] == b"RF64" {
-                "an RF64 file (WAV past 4 GiB), which is not read yet; convert it to raw"
-                    .to_string()
-            } else {
-                format!(
-                    "not a WAV file: it starts with {:?}, not \"RIFF....WAVE\"",
-                    String::from_utf8_lossy(&head[..4])
-                )
-            };
-            return Err(bad(what));
+        // ITU-R BS.2088's BW64 uses RF64's layout under its own id (REFERENCES §10).
+        let rf64 = &head[0..4] == b"RF64" || &head[0..4] == b"BW64";
+        if !(&head[0..4] == b"RIFF" || rf64) || &head[8..12] != b"WAVE" {
+            return Err(bad(format!(
+                "not a WAV file: it starts with {:?}, not \"RIFF....WAVE\" or \"RF64....WAVE\"",
+                String::from_utf8_lossy(&head[..4])
+            )));
         }
+        // RF64 (EBU Tech 3306, from memory of its layout): a ds64 chunk first after "WAVE"
+        // holds the 64-bit riffSize, dataSize and sampleCount (then a table of other large
+        // chunks); the u32 data size is then 0xFFFFFFFF and stands for ds64's dataSize.
+        let ds64_data = if rf64 {
+            let mut ch = [0u8; 8];
+            if read_full(&mut input, &mut ch, &name)? < 8 || &ch[0..4] != b"ds64" {
+                return Err(bad(
+                    "an RF64 file must start with a \"ds64\" chunk after \"WAVE\" (EBU Tech \
+                     3306); this one does not"
+                        .to_string(),
+                ));
+            }
+            let size = le32(&ch[4..8]);
+            if !(28..=1 << 20).contains(&size) {
+                return Err(bad(format!(
+                    "the \"ds64\" chunk is {size} bytes; expected at least 28"
+                )));
+            }
+            let mut body = vec![0u8; size as usize + (size as usize & 1)];
+            if read_full(&mut input, &mut body, &name)? < size as usize {
+                return Err(bad("truncated inside the \"ds64\" chunk".to_string()));
+            }
+            let le64 = |at: usize| u64::from_le_bytes(body[at..at + 8].try_into().expect("8"));
+            Some(le64(8))
+        } else {
+            None
+        };
         let mut notes = Vec::new();
         let mut fmt: Option<(SampleFormat, u16, u32)> = None;
         loop {
@@ -108,7 +133,15 @@ impl<R: Read> WavSource<R> {
                         ));
                     };
                     let frame_bytes = sample_format.bytes() * channels as usize;
-                    let remaining = if size == u32::MAX || size == 0 {
+                    let remaining = if let (Some(data), u32::MAX) = (ds64_data, size) {
+                        if data % frame_bytes as u64 != 0 {
+                            return Err(bad(format!(
+                                "the ds64 chunk announces {data} data bytes, not a whole \
+                                 number of {frame_bytes}-byte frames"
+                            )));
+                        }
+                        Some(data)
+                    } else if size == u32::MAX || size == 0 {
                         notes.push(format!(
                             "the data size field is a streaming placeholder ({size:#x}); read \
                              to the end of the file"
@@ -139,6 +172,12 @@ impl<R: Read> WavSource<R> {
                         sample_rate_hz = r;
                     }
                     check_rate(sample_rate_hz, "the header", &name)?;
+                    if rf64 {
+                        notes.push(format!(
+                            "{} container (64-bit sizes, EBU Tech 3306)",
+                            String::from_utf8_lossy(&head[0..4])
+                        ));
+                    }
                     let info = StreamInfo {
                         format: Format::Wav,
                         sample_format: Some(sample_format),
@@ -319,6 +358,9 @@ mod tests {
             channels: 1,
             start_frame: 0,
             unit: Unit::Volt,
+            adc: None,
+            name: None,
+            provenance: Vec::new(),
         };
         let mut b = Vec::new();
         {
@@ -396,5 +438,81 @@ mod tests {
         assert_eq!(y.len(), 10);
         assert_eq!(info.frames, None);
         assert!(info.notes[0].contains("placeholder"));
+    }
+    /// A small RF64 file built by hand from the EBU Tech 3306 layout (REFERENCES §10):
+    /// "RF64", size marker, "WAVE", ds64 (riffSize, dataSize, sampleCount, table length 0),
+    /// a PCM `fmt `, a `data` chunk whose size is the marker. Its samples read back exactly.
+    #[test]
+    fn a_small_rf64_file_reads_back() {
+        let codes: [i16; 5] = [0, 16_384, -16_384, 32_767, -32_767];
+        let data: Vec<u8> = codes.iter().flat_map(|c| c.to_le_bytes()).collect();
+        let mut b = Vec::new();
+        b.extend_from_slice(b"RF64");
+        b.extend_from_slice(&u32::MAX.to_le_bytes());
+        b.extend_from_slice(b"WAVE");
+        b.extend_from_slice(b"ds64");
+        b.extend_from_slice(&28u32.to_le_bytes());
+        let riff_size = 4 + 36 + 24 + 8 + data.len() as u64;
+        b.extend_from_slice(&riff_size.to_le_bytes());
+        b.extend_from_slice(&(data.len() as u64).to_le_bytes());
+        b.extend_from_slice(&(codes.len() as u64).to_le_bytes());
+        b.extend_from_slice(&0u32.to_le_bytes());
+        b.extend_from_slice(b"fmt ");
+        b.extend_from_slice(&16u32.to_le_bytes());
+        b.extend_from_slice(&1u16.to_le_bytes()); // PCM
+        b.extend_from_slice(&1u16.to_le_bytes()); // mono
+        b.extend_from_slice(&8000u32.to_le_bytes());
+        b.extend_from_slice(&16000u32.to_le_bytes());
+        b.extend_from_slice(&2u16.to_le_bytes());
+        b.extend_from_slice(&16u16.to_le_bytes());
+        b.extend_from_slice(b"data");
+        b.extend_from_slice(&u32::MAX.to_le_bytes());
+        b.extend_from_slice(&data);
+        assert_eq!(b.len() as u64, riff_size + 8);
+        // A trailing chunk after the data is not read as samples: ds64 gives the size.
+        b.extend_from_slice(b"LIST\x04\0\0\0abcd");
+        let (info, y) = read_all(&b).unwrap();
+        assert_eq!(info.frames, Some(5));
+        assert_eq!(info.sample_rate_hz, 8000.0);
+        assert_eq!(info.sample_format, Some(SampleFormat::I16));
+        assert!(
+            info.notes.iter().any(|n| n.contains("RF64")),
+            "{:?}",
+            info.notes
+        );
+        let want: Vec<f64> = codes.iter().map(|&c| f64::from(c) / 32_767.0).collect();
+        assert_eq!(y, want);
+        // BW64 is the same layout under another id.
+        let mut c = b.clone();
+        c[0..4].copy_from_slice(b"BW64");
+        assert_eq!(read_all(&c).unwrap().1, want);
+        // Without ds64 first it is refused with the reason.
+        let mut c = b.clone();
+        c[12..16].copy_from_slice(b"JUNK");
+        let e = read_all(&c).unwrap_err();
+        assert!(e.to_string().contains("ds64"), "{e}");
+        assert_eq!(e.exit_code(), 2);
+    }
+
+    /// The header our writer makes past 4 GiB, followed by only a few samples: the reader
+    /// takes the frame count from ds64 and then reports the file as truncated.
+    #[test]
+    fn our_rf64_header_reads_its_64_bit_sizes() {
+        let frames = (1u64 << 31) + 3; // i16: 4 GiB + 6 bytes of data
+        let mut b = crate::sink::wav_header(frames, 1, SampleFormat::I16, 48_000).unwrap();
+        assert_eq!(&b[0..4], b"RF64");
+        b.extend_from_slice(&[0u8; 64]);
+        let mut src = open_source(&b[..], &opts()).unwrap();
+        assert_eq!(src.info().frames, Some(frames));
+        let mut block = Vec::new();
+        assert_eq!(src.read_block(&mut block, 32).unwrap(), 32);
+        let e = loop {
+            match src.read_block(&mut block, 1000) {
+                Ok(0) => panic!("no truncation reported"),
+                Ok(_) => {}
+                Err(e) => break e,
+            }
+        };
+        assert!(e.to_string().contains("truncated"), "{e}");
     }
 }

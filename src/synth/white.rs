@@ -17,6 +17,8 @@ pub enum Domain {
     Periodic = 1,
     /// Burst sources: one stream per burst (the stream id's chunk field is the burst's index).
     Burst = 2,
+    /// ADC dither: one stream per chunk of 2048 samples of the output (see [`crate::adc`]).
+    Dither = 3,
 }
 
 /// A seeded family of independent standard-normal streams.
