@@ -240,12 +240,14 @@ mod tests {
             "measured_mean",
             "clipped",
             "loop",
+            "start_sample",
+            "start_s",
             "notes",
             "extra",
         ] {
             assert!(keys.contains(&k), "missing {k}");
         }
-        assert_eq!(keys.len(), 20);
+        assert_eq!(keys.len(), 22);
         assert_eq!(v["version"], env!("CARGO_PKG_VERSION"));
         assert_eq!(v["format"], "wav");
         assert_eq!(v["sample_format"], "i24");
