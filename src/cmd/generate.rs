@@ -43,6 +43,19 @@ pub struct GenerateArgs {
     /// Length of the run in samples (instead of --duration).
     #[arg(long, value_name = "N")]
     pub samples: Option<u64>,
+    /// Start the run at this time, e.g. `3600s`, `2 h`: the output is exactly what a run from
+    /// 0 writes from there on (a segment; --duration/--samples give its length). Must fall on a
+    /// whole sample.
+    #[arg(
+        long,
+        value_name = "TIME",
+        conflicts_with = "start_sample",
+        allow_hyphen_values = true
+    )]
+    pub start: Option<String>,
+    /// Start the run at this sample index (0-based) instead of --start.
+    #[arg(long = "start-sample", value_name = "N")]
+    pub start_sample: Option<u64>,
     /// Sample rate, overriding the profile's, e.g. `96 kHz` (reported in the summary and manifest).
     #[arg(long, value_name = "R")]
     pub rate: Option<String>,
@@ -337,6 +350,18 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     if samples == Some(0) {
         return Err(Error::option("--samples", "expected at least one sample"));
     }
+    let start = start_index(args, fs, unit)?;
+    // The dither of each stored value depends on its index in the run from 0 (interleaved
+    // values of several channels each count).
+    let adc = adc.map(|a| a.starting_at(start * profile.channels as u64));
+    let segment = args.start.is_some() || args.start_sample.is_some();
+    if segment && args.loop_buffer {
+        return Err(Error::option(
+            "--loop",
+            "a loop buffer is one whole period, not a part of a longer run: --start and \
+             --start-sample cannot be used with --loop",
+        ));
+    }
 
     let per_source = match args.columns.as_str() {
         "total" => false,
@@ -433,7 +458,9 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             var,
         )
     } else if channels > 1 {
-        let m = Rc::new(RefCell::new(ChannelGenerator::new(&profile, args.seed)?));
+        let m = Rc::new(RefCell::new(ChannelGenerator::starting_at(
+            &profile, args.seed, start,
+        )?));
         let var = m.borrow().generator().variance();
         multi = Some(m.clone());
         (
@@ -441,7 +468,9 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             var,
         )
     } else {
-        let g = Rc::new(RefCell::new(Generator::new(&profile, args.seed)?));
+        let g = Rc::new(RefCell::new(Generator::starting_at(
+            &profile, args.seed, start,
+        )?));
         let var = g.borrow().variance();
         generator = Some(g.clone());
         if per_source {
@@ -563,6 +592,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         full_scale: scale.full_scale,
         frames: samples,
         channels,
+        start_frame: start,
         unit: profile.unit,
         adc: adc.clone(),
         name: array_name,
@@ -660,6 +690,8 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             manifest.profile = profile.to_json();
             manifest.level_dbfs = scale.level_dbfs;
             manifest.looped = args.loop_buffer;
+            manifest.start_sample = start;
+            manifest.start_s = start as f64 / fs;
             manifest.notes = notes.clone();
             manifest.extra.extend(container_keys);
             if let Some(a) = &adc {
@@ -702,6 +734,12 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         adc.as_ref(),
         &notes,
     );
+    if segment {
+        summary += &format!(
+            "  start           sample {start} ({} s); a segment of the run from 0\n",
+            start as f64 / fs
+        );
+    }
     if let Some(g) = &generator {
         summary += &burst_summary(&g.borrow(), &profile, expected_variance, expected_mean);
     }
@@ -718,6 +756,65 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         summary += &channel_summary(&profile, expected_rms, &channel_stats);
     }
     Ok(summary)
+}
+
+/// Relative tolerance for a start time to count as on a sample: far above the rounding of
+/// two parsed decimals and their product (a few 1e-16), far below one sample up to 10^12
+/// samples.
+const START_TOLERANCE: f64 = 1e-13;
+
+/// The first sample of the run from `--start` (a time on the sample grid) or `--start-sample`.
+fn start_index(args: &GenerateArgs, fs: f64, unit: &str) -> Result<u64> {
+    let limit = crate::synth::MAX_START;
+    if let Some(n) = args.start_sample {
+        if n >= limit {
+            return Err(Error::option(
+                "--start-sample",
+                format!(
+                    "{n} is beyond the last possible start, sample {}",
+                    limit - 1
+                ),
+            ));
+        }
+        return Ok(n);
+    }
+    let Some(text) = &args.start else {
+        return Ok(0);
+    };
+    let t = parse_quantity(text, Dimension::Time, unit).map_err(|m| Error::option("--start", m))?;
+    if t < 0.0 {
+        return Err(Error::option(
+            "--start",
+            format!("{text:?} is before the start of the run: expected 0 s or later"),
+        ));
+    }
+    let x = t * fs;
+    let k = x.round();
+    if k >= limit as f64 {
+        return Err(Error::option(
+            "--start",
+            format!(
+                "{text:?} is beyond the last possible start, sample {}",
+                limit - 1
+            ),
+        ));
+    }
+    if (x - k).abs() > START_TOLERANCE * x.max(1.0) {
+        let (lo, hi) = (x.floor(), x.floor() + 1.0);
+        return Err(Error::option(
+            "--start",
+            format!(
+                "{text:?} is not on a sample at {}: the nearest sample times are {} s (sample \
+                 {}) and {} s (sample {}); or give --start-sample N",
+                format_quantity(fs, "Hz"),
+                lo / fs,
+                lo as u64,
+                hi / fs,
+                hi as u64
+            ),
+        ));
+    }
+    Ok(k as u64)
 }
 
 fn parse_dbfs(text: &str) -> Result<f64> {

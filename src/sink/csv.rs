@@ -11,7 +11,8 @@ const CSV_CHUNK: usize = 2048;
 
 /// CSV writer. Columns:
 ///
-/// * `time_s`: sample index `n` divided by the sample rate, in seconds (`n as f64 / fs`).
+/// * `time_s`: sample index `n` divided by the sample rate, in seconds (`n as f64 / fs`);
+///   `n` counts from [`SinkSpec::start_frame`], so a segment's times are the whole run's.
 /// * The value column, named by what it holds:
 ///   * no full scale → `value_<unit>`, e.g. `value_V`: the physical value in the unit;
 ///   * full scale, f32/f64 → `value_fs`: the digital value (physical / full scale), clipped
@@ -39,6 +40,8 @@ pub struct CsvSink<W: Write> {
     sources: usize,
     /// Channels per row (one value column each).
     channels: usize,
+    /// Index of the first row's sample in the whole run ([`SinkSpec::start_frame`]).
+    start_frame: u64,
 }
 
 impl<W: Write> CsvSink<W> {
@@ -59,6 +62,7 @@ impl<W: Write> CsvSink<W> {
             header: Some(format!("time_s,{}\n", value_columns(spec))),
             sources: 0,
             channels: usize::from(spec.channels),
+            start_frame: spec.start_frame,
         })
     }
 
@@ -103,7 +107,7 @@ impl<W: Write> CsvSink<W> {
         let sf = self.scaler.sample_format;
         let digital = self.scaler.gain.is_some();
         for (c, chunk) in samples.chunks(CSV_CHUNK).enumerate() {
-            let mut n = self.scaler.report.samples;
+            let mut n = self.scaler.report.samples + self.start_frame;
             let buf = &mut self.out.buf;
             for (k, &x) in chunk.iter().enumerate() {
                 let t = n as f64 / fs;
@@ -124,7 +128,7 @@ impl<W: Write> CsvSink<W> {
                 buf.push(b'\n');
                 n += 1;
             }
-            self.scaler.report.samples = n;
+            self.scaler.report.samples = n - self.start_frame;
             self.out.maybe_flush()?;
         }
         Ok(())

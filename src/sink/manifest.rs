@@ -72,6 +72,10 @@ pub struct Manifest {
     /// True if the output is a seamless loop (periodic block).
     #[serde(rename = "loop")]
     pub looped: bool,
+    /// Index of the first sample in the run from 0 (0 unless the file is a segment).
+    pub start_sample: u64,
+    /// Time of the first sample in the run from 0, in seconds: `start_sample / sample_rate_hz`.
+    pub start_s: f64,
     /// Free-text remarks for the reader (warnings, caveats).
     pub notes: Vec<String>,
     /// Further keys added by later features, kept under `extra`.
@@ -112,6 +116,8 @@ impl Manifest {
             measured_mean: stats.mean(),
             clipped: report.clipped,
             looped: false,
+            start_sample: 0,
+            start_s: 0.0,
             notes: Vec::new(),
             extra: serde_json::Map::new(),
         }
@@ -235,12 +241,14 @@ mod tests {
             "measured_mean",
             "clipped",
             "loop",
+            "start_sample",
+            "start_s",
             "notes",
             "extra",
         ] {
             assert!(keys.contains(&k), "missing {k}");
         }
-        assert_eq!(keys.len(), 20);
+        assert_eq!(keys.len(), 22);
         assert_eq!(v["version"], env!("CARGO_PKG_VERSION"));
         assert_eq!(v["format"], "wav");
         assert_eq!(v["sample_format"], "i24");

@@ -273,6 +273,9 @@ pub struct SinkSpec {
     pub channels: u16,
     /// The physical unit of the samples handed to [`Sink::write`].
     pub unit: Unit,
+    /// Index of the first frame in the whole run (0 unless the file is a segment that starts
+    /// later): CSV's time column starts at `start_frame / sample_rate_hz` seconds.
+    pub start_frame: u64,
     /// Store the integer codes of this ideal converter instead of scaled samples (see
     /// [`crate::adc`]); needs `full_scale: None`, ignores `sample_format`, not for WAV.
     pub adc: Option<Adc>,
@@ -640,6 +643,7 @@ pub(crate) mod test_util {
             full_scale,
             frames,
             channels: 1,
+            start_frame: 0,
             unit: Unit::Volt,
             adc: None,
             name: None,

@@ -356,6 +356,7 @@ mod tests {
             full_scale: Some(1.0),
             frames: Some(x.len() as u64),
             channels: 1,
+            start_frame: 0,
             unit: Unit::Volt,
             adc: None,
             name: None,

@@ -56,8 +56,14 @@ pub struct BurstChain {
     /// Time from the start of the next sample (its instant, or its interval) to the next jump,
     /// in samples.
     left: f64,
-    /// Length of the current visit so far, in samples, up to the next sample's start.
+    /// Length of the current visit in samples, known when it is entered (for the first visit:
+    /// its residual from sample 0), so the tally needs no running sum of runs.
     visit: f64,
+    /// Time in each level within the produced samples: whole sample periods (exact) and the
+    /// parts of periods that hold a jump (summed in event order), so the tally does not depend
+    /// on how `fill` is split.
+    whole: Vec<u64>,
+    part: Vec<f64>,
     tally: BurstTally,
 }
 
@@ -82,7 +88,9 @@ impl BurstChain {
             rng,
             state: start,
             left,
-            visit: 0.0,
+            visit: left,
+            whole: vec![0; k],
+            part: vec![0.0; k],
             tally: BurstTally {
                 visits: vec![0; k],
                 visit_time_s: vec![0.0; k],
@@ -104,58 +112,89 @@ impl BurstChain {
 
     /// Overwrite `out` with the next samples, in the profile's unit.
     pub fn fill(&mut self, out: &mut [f64]) {
+        self.run(out.len() as u64, Some(out));
+    }
+
+    /// Move the chain on by `samples` samples without producing them: the path, the random
+    /// draws and every float operation on the chain's time are those [`BurstChain::fill`]
+    /// would make, so what follows is bit for bit what a run through them gives. The tally
+    /// does not count the skipped samples (nor the visits that end in them). Cost is one step
+    /// per jump in the skipped time, not per sample.
+    pub fn skip(&mut self, samples: u64) {
+        let kept = self.tally.clone();
+        let (whole, part) = (self.whole.clone(), self.part.clone());
+        self.run(samples, None);
+        self.tally = kept;
+        (self.whole, self.part) = (whole, part);
+    }
+
+    fn run(&mut self, samples: u64, out: Option<&mut [f64]>) {
         match self.sampling {
-            BurstSampling::Instant => self.fill_instant(out),
-            BurstSampling::Mean => self.fill_mean(out),
+            BurstSampling::Instant => self.run_instant(samples, out),
+            BurstSampling::Mean => self.run_mean(samples, out),
+        }
+        for (t, (w, p)) in self
+            .tally
+            .occupied_s
+            .iter_mut()
+            .zip(self.whole.iter().zip(&self.part))
+        {
+            *t = (*w as f64 + p) * self.sample_period_s;
         }
     }
 
     /// Leave the current level at `left` (≤ the current position) and enter the next one.
     fn jump(&mut self) {
         let i = self.state;
-        let visit = self.visit + self.left;
         self.tally.visits[i] += 1;
-        self.tally.visit_time_s[i] += visit * self.sample_period_s;
+        self.tally.visit_time_s[i] += self.visit * self.sample_period_s;
         let j = pick(&self.cumulative[i], self.rng.random::<f64>());
         self.tally.jumps[i][j] += 1;
         self.state = j;
-        // The new visit began `left` samples from the next sample's start (≤ 0 for instant
-        // sampling, within the interval for the mean).
-        self.visit = -self.left;
-        self.left += self.rng.sample::<f64, _>(Exp1) * self.dwell[j];
+        // The new visit begins at `left` (≤ 0 for instant sampling, within the interval for
+        // the mean) and lasts an exponential dwell.
+        self.visit = self.rng.sample::<f64, _>(Exp1) * self.dwell[j];
+        self.left += self.visit;
     }
 
-    /// Account `run` samples of the current level and move the position on.
-    fn advance(&mut self, run: f64) {
-        self.left -= run;
-        self.visit += run;
+    /// The next run of whole samples in the current level, at most `rest`: `bound` is
+    /// `left.ceil()` (instant) or `left.floor()` (mean), a whole number below 2^53.
+    fn run_length(bound: f64, rest: u64) -> u64 {
+        (bound as u64).min(rest)
     }
 
-    fn fill_instant(&mut self, out: &mut [f64]) {
+    // Moving on by a whole number of samples is exact in f64 (left is below 2^53 samples and
+    // the result no larger in magnitude, or left < 1 and the step is always 1), so `left` takes
+    // the same values whatever the run lengths: split fills and skips agree bit for bit.
+    fn run_instant(&mut self, samples: u64, mut out: Option<&mut [f64]>) {
         let mut i = 0;
-        while i < out.len() {
+        while i < samples {
             // A jump exactly at a sample instant is seen at that instant (right-continuous).
             while self.left <= 0.0 {
                 self.jump();
             }
             // Instants at offsets 0, 1, … < left are in the current level.
-            let run = self.left.ceil().min((out.len() - i) as f64) as usize;
-            out[i..i + run].fill(self.levels[self.state]);
-            self.tally.occupied_s[self.state] += run as f64 * self.sample_period_s;
-            self.advance(run as f64);
+            let run = Self::run_length(self.left.ceil(), samples - i);
+            if let Some(out) = out.as_deref_mut() {
+                out[i as usize..(i + run) as usize].fill(self.levels[self.state]);
+            }
+            self.whole[self.state] += run;
+            self.left -= run as f64;
             i += run;
         }
     }
 
-    fn fill_mean(&mut self, out: &mut [f64]) {
+    fn run_mean(&mut self, samples: u64, mut out: Option<&mut [f64]>) {
         let mut i = 0;
-        while i < out.len() {
+        while i < samples {
             if self.left >= 1.0 {
                 // Whole intervals before the next jump hold the level exactly.
-                let run = self.left.floor().min((out.len() - i) as f64) as usize;
-                out[i..i + run].fill(self.levels[self.state]);
-                self.tally.occupied_s[self.state] += run as f64 * self.sample_period_s;
-                self.advance(run as f64);
+                let run = Self::run_length(self.left.floor(), samples - i);
+                if let Some(out) = out.as_deref_mut() {
+                    out[i as usize..(i + run) as usize].fill(self.levels[self.state]);
+                }
+                self.whole[self.state] += run;
+                self.left -= run as f64;
                 i += run;
                 continue;
             }
@@ -165,15 +204,17 @@ impl BurstChain {
             while self.left < 1.0 {
                 let span = self.left - pos;
                 acc += self.levels[self.state] * span;
-                self.tally.occupied_s[self.state] += span * self.sample_period_s;
+                self.part[self.state] += span;
                 pos = self.left;
                 self.jump();
             }
             let span = 1.0 - pos;
             acc += self.levels[self.state] * span;
-            self.tally.occupied_s[self.state] += span * self.sample_period_s;
-            out[i] = acc;
-            self.advance(1.0);
+            self.part[self.state] += span;
+            if let Some(out) = out.as_deref_mut() {
+                out[i as usize] = acc;
+            }
+            self.left -= 1.0;
             i += 1;
         }
     }
@@ -245,6 +286,58 @@ mod tests {
             let mut other = vec![0.0; 20_000];
             BurstChain::new(&m, &w, 1).fill(&mut other);
             assert_ne!(whole, other);
+        }
+    }
+
+    #[test]
+    fn a_skipped_chain_continues_exactly_and_tallies_from_there() {
+        for sampling in [BurstSampling::Instant, BurstSampling::Mean] {
+            let m = model(sampling);
+            let w = WhiteStreams::new(6);
+            let (n0, len) = (12_345u64, 20_000usize);
+            let mut whole = vec![0.0; n0 as usize + len];
+            let mut run = BurstChain::new(&m, &w, 0);
+            run.fill(&mut whole[..n0 as usize]);
+            let before = run.tally().clone();
+            run.fill(&mut whole[n0 as usize..]);
+            let mut seg = BurstChain::new(&m, &w, 0);
+            seg.skip(n0);
+            assert!(seg.tally().visits.iter().all(|&v| v == 0), "{sampling:?}");
+            let mut part = vec![0.0; len];
+            seg.fill(&mut part[..777]);
+            seg.fill(&mut part[777..]);
+            assert!(part == whole[n0 as usize..], "seed 6, {sampling:?}");
+            // The segment's tally is what the run from 0 counted after n0: counts exactly,
+            // times to rounding.
+            let (a, b, t) = (&before, run.tally(), seg.tally());
+            for i in 0..3 {
+                assert_eq!(t.visits[i], b.visits[i] - a.visits[i], "{sampling:?}");
+                for j in 0..3 {
+                    assert_eq!(t.jumps[i][j], b.jumps[i][j] - a.jumps[i][j]);
+                }
+                let occ = b.occupied_s[i] - a.occupied_s[i];
+                assert!((t.occupied_s[i] - occ).abs() < 1e-9, "{sampling:?}");
+                let vt = b.visit_time_s[i] - a.visit_time_s[i];
+                assert!((t.visit_time_s[i] - vt).abs() < 1e-9, "{sampling:?}");
+            }
+            let total: f64 = t.occupied_s.iter().sum();
+            assert!((total - len as f64 / 1000.0).abs() < 1e-9, "{total}");
+        }
+    }
+
+    #[test]
+    fn the_tally_does_not_depend_on_how_fill_is_split() {
+        for sampling in [BurstSampling::Instant, BurstSampling::Mean] {
+            let m = model(sampling);
+            let w = WhiteStreams::new(8);
+            let mut x = vec![0.0; 30_000];
+            let mut a = BurstChain::new(&m, &w, 0);
+            a.fill(&mut x);
+            let mut b = BurstChain::new(&m, &w, 0);
+            for piece in x.chunks_mut(997) {
+                b.fill(piece);
+            }
+            assert_eq!(a.tally(), b.tally(), "{sampling:?}");
         }
     }
 

@@ -77,9 +77,16 @@ pub struct ChannelGenerator {
 impl ChannelGenerator {
     /// The engine for `profile`'s channels and correlation, seeded with `seed`.
     pub fn new(profile: &Profile, seed: u64) -> Result<ChannelGenerator> {
+        ChannelGenerator::starting_at(profile, seed, 0)
+    }
+
+    /// The engine of [`ChannelGenerator::new`] positioned at frame `start` (0-based): its
+    /// frames are bit for bit those the run from 0 makes from `start` on
+    /// ([`Generator::starting_at`] for every channel's engine).
+    pub fn starting_at(profile: &Profile, seed: u64, start: u64) -> Result<ChannelGenerator> {
         let n = profile.channels;
         let engines = (0..n)
-            .map(|k| Generator::new(profile, channel_seed(seed, k)))
+            .map(|k| Generator::starting_at(profile, channel_seed(seed, k), start))
             .collect::<Result<Vec<_>>>()?;
         let mean = engines[0].noise_mean();
         Ok(ChannelGenerator {

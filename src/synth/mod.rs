@@ -20,7 +20,7 @@ pub use burst::{BurstChain, BurstTally};
 pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
 pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
-pub use shaper::{BATCH_PAIRS, Shaper};
+pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
 pub use white::{Domain, WhiteStreams};
 
 use crate::burst::BurstModel;
@@ -59,8 +59,19 @@ pub struct Generator {
 impl Generator {
     /// Design the engine for `profile` and seed it with `seed`.
     pub fn new(profile: &Profile, seed: u64) -> Result<Generator> {
+        Generator::starting_at(profile, seed, 0)
+    }
+
+    /// The engine of [`Generator::new`] positioned at sample `start` (0-based, below
+    /// [`MAX_START`]): its samples are bit for bit those the run from 0 makes from `start` on,
+    /// for every source. The Gaussian part seeks at a cost independent of `start`
+    /// ([`Shaper::starting_at`]); each burst replays its path up to `start`, one step per jump
+    /// ([`BurstChain::skip`]); tones and offset take the absolute index `start`. Burst
+    /// tallies count from `start`.
+    pub fn starting_at(profile: &Profile, seed: u64, start: u64) -> Result<Generator> {
         let design = design_profile(profile)?;
-        let shaper = (!profile.sources.is_empty()).then(|| Shaper::new(&design, seed));
+        let shaper =
+            (!profile.sources.is_empty()).then(|| Shaper::starting_at(&design, seed, start));
         let bursts = profile
             .bursts
             .iter()
@@ -70,7 +81,11 @@ impl Generator {
         let chains = bursts
             .iter()
             .enumerate()
-            .map(|(i, m)| BurstChain::new(m, &streams, i as u64))
+            .map(|(i, m)| {
+                let mut chain = BurstChain::new(m, &streams, i as u64);
+                chain.skip(start);
+                chain
+            })
             .collect();
         Ok(Generator {
             design,
@@ -80,7 +95,7 @@ impl Generator {
             tones: profile.tones.clone(),
             offset: profile.offset,
             sample_rate_hz: profile.sample_rate_hz,
-            index: 0,
+            index: start,
             scratch: Vec::new(),
         })
     }

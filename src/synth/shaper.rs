@@ -49,6 +49,8 @@ struct LevelState {
     ready: Vec<f64>,
     ready_pos: usize,
     primed: bool,
+    /// Samples of the next batch to drop (a run started mid-batch, see [`Shaper::starting_at`]).
+    skip: usize,
 }
 
 /// Per-worker buffers for one block pair.
@@ -130,6 +132,7 @@ impl Shaper {
                 ready: vec![0.0; BATCH_OUT],
                 ready_pos: BATCH_OUT,
                 primed: false,
+                skip: 0,
             })
             .collect();
         let tx = Transforms {
@@ -147,10 +150,55 @@ impl Shaper {
         }
     }
 
+    /// A shaper whose first sample is sample `start` (0-based) of the run that
+    /// [`Shaper::new`] makes: from there on the samples are bit for bit the same.
+    ///
+    /// Cost is bounded and does not grow with `start`: every level computes only the one or
+    /// two batches of its block grid that its output needs, then drops the leading samples.
+    ///
+    /// # Panics
+    /// If `start` is at or beyond [`MAX_START`].
+    pub fn starting_at(design: &Design, seed: u64, start: u64) -> Shaper {
+        assert!(
+            start < MAX_START,
+            "start {start} is beyond {MAX_START} samples"
+        );
+        let mut shaper = Shaper::new(design, seed);
+        seek(&mut shaper.levels, start);
+        shaper
+    }
+
     /// Fill `out` with the next samples, in the design's unit.
     pub fn fill(&mut self, out: &mut [f64]) {
         pull(&mut self.levels, &self.tx, &mut self.scratch, out);
     }
+}
+
+/// First sample index a shaper cannot start at (2^56; about 2.3 thousand years at 1 MHz): the
+/// chunk field of a stream id has 48 bits.
+pub const MAX_START: u64 = 1 << 56;
+
+// Seeking relies on batches covering whole white chunks.
+const _: () = assert!(HISTORY % CHUNK == 0 && BATCH_OUT % CHUNK == 0 && BATCH_OUT % RATIO == 0);
+
+/// Put `levels` where a run from 0 is when its top level is about to hand out sample `start`.
+///
+/// A run from 0 computes level j in batches of BATCH_OUT samples; batch b reads the white
+/// chunks from index b·BATCH_OUT/CHUNK (the first HISTORY samples are the previous batch's
+/// tail) and the level below's samples from b·BATCH_OUT/RATIO on (LOW_HISTORY of them shared
+/// with the previous batch). So the level is primed as if batch b were its first, the level
+/// below is put at b·BATCH_OUT/RATIO the same way, and the first `start − b·BATCH_OUT` samples
+/// of the batch are dropped. Each batch is then the same arithmetic on the same inputs.
+fn seek(levels: &mut [LevelState], start: u64) {
+    let Some((head, below)) = levels.split_first_mut() else {
+        return;
+    };
+    let batch = start / BATCH_OUT as u64;
+    head.next_chunk = batch * (BATCH_OUT / CHUNK) as u64;
+    head.primed = false;
+    head.ready_pos = head.ready.len();
+    head.skip = (start % BATCH_OUT as u64) as usize;
+    seek(below, batch * (BATCH_OUT / RATIO) as u64);
 }
 
 fn pull(levels: &mut [LevelState], tx: &Transforms, scratch: &mut [Scratch], out: &mut [f64]) {
@@ -220,7 +268,7 @@ fn batch(
             let l = &low[2 * p * LOW_HOP..2 * p * LOW_HOP + LOW_HOP + LOW_LEN];
             pair(tx, s, shaper, interp, w, l, out);
         });
-    level.ready_pos = 0;
+    level.ready_pos = std::mem::take(&mut level.skip);
     if active {
         let end = level.white.len();
         level.white.copy_within(end - HISTORY.., 0);
@@ -329,6 +377,52 @@ mod tests {
         let one = run(1);
         assert_eq!(one, run(2));
         assert_eq!(one, run(3));
+    }
+
+    #[test]
+    fn a_run_started_anywhere_equals_the_run_from_zero_from_there_on() {
+        // band.low = 0.05 Hz at 48 kHz: a deep pyramid, so boundaries of several levels.
+        let d = Design::new(&flat, 48_000.0, 0.05).unwrap();
+        assert!(d.levels().len() >= 8, "{} levels", d.levels().len());
+        let b = BATCH_OUT as u64;
+        let len = 20_000;
+        let mut starts = vec![1, CHUNK as u64 - 1, CHUNK as u64, CHUNK as u64 + 1];
+        starts.extend([
+            HOP as u64 - 1,
+            HOP as u64,
+            2 * HOP as u64 - 1,
+            2 * HOP as u64,
+        ]);
+        // Batch boundaries of level j fall at multiples of 4^j·BATCH_OUT in output samples.
+        for k in [b, 4 * b, 16 * b] {
+            starts.extend([k - 1, k, k + 1, k - len as u64 / 2]);
+        }
+        let end = *starts.iter().max().unwrap() as usize + len;
+        let mut whole = vec![0.0; end];
+        Shaper::new(&d, 11).fill(&mut whole);
+        for &n0 in &starts {
+            let mut part = vec![0.0; len];
+            Shaper::starting_at(&d, 11, n0).fill(&mut part);
+            let n0 = n0 as usize;
+            assert!(part == whole[n0..n0 + len], "seed 11, start {n0}");
+        }
+        assert_eq!(
+            Shaper::starting_at(&d, 11, 0).levels.len(),
+            d.levels().len()
+        );
+    }
+
+    #[test]
+    fn a_far_start_equals_a_nearer_start_with_its_lead_dropped() {
+        let d = Design::new(&flat, 48_000.0, 0.05).unwrap();
+        let n0 = 10_000_000_000u64;
+        let lead = BATCH_OUT + 1000;
+        let mut far = vec![0.0; 5000];
+        Shaper::starting_at(&d, 3, n0).fill(&mut far);
+        let mut near = vec![0.0; lead + 5000];
+        Shaper::starting_at(&d, 3, n0 - lead as u64).fill(&mut near);
+        assert!(far == near[lead..], "seed 3, start {n0}");
+        assert!(far.iter().all(|x| x.is_finite()) && far.iter().any(|&x| x != 0.0));
     }
 
     #[test]
