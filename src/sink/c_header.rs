@@ -218,14 +218,7 @@ impl<W: Write> CHeaderSink<W> {
             )));
         }
         let frames = spec.frames.expect("validated");
-        let samples = frames
-            .checked_mul(u64::from(spec.channels))
-            .ok_or_else(|| {
-                Error::Unsupported(format!(
-                    "{frames} frames of {} channels are more samples than 2^64",
-                    spec.channels
-                ))
-            })?;
+        let samples = spec.announced_samples()?;
         if samples == 0 {
             // A zero-length array is not C.
             return Err(Error::Unsupported(

@@ -288,6 +288,23 @@ pub struct SinkSpec {
 }
 
 impl SinkSpec {
+    /// Values the writer will be handed in all: frames × channels. For writers whose header
+    /// states the length (npy, C); call after [`SinkSpec::validate`], which requires `frames`.
+    pub fn announced_samples(&self) -> Result<u64> {
+        let frames = self.frames.ok_or_else(|| {
+            Error::Unsupported(format!(
+                "{} output states its length first: give --samples or --duration",
+                self.format
+            ))
+        })?;
+        frames.checked_mul(u64::from(self.channels)).ok_or_else(|| {
+            Error::Unsupported(format!(
+                "{frames} frames of {} channels are more samples than 2^64",
+                self.channels
+            ))
+        })
+    }
+
     /// Checks that the spec can be written at all, before any output: a positive sample rate,
     /// a positive finite full scale where one is needed, and the format's own limits (for
     /// WAV: no f64, a whole sample rate, a known sample count, the 4 GiB size limit).

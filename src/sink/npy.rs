@@ -123,14 +123,7 @@ impl<W: Write> NpySink<W> {
             )));
         }
         let frames = spec.frames.expect("validated");
-        let samples = frames
-            .checked_mul(u64::from(spec.channels))
-            .ok_or_else(|| {
-                Error::Unsupported(format!(
-                    "{frames} frames of {} channels are more samples than 2^64",
-                    spec.channels
-                ))
-            })?;
+        let samples = spec.announced_samples()?;
         let mut out = Buffered::new(out, "writing npy");
         out.buf.extend_from_slice(&npy_header(
             npy_spec_descr(spec),
