@@ -7,7 +7,7 @@ mod common;
 use std::path::Path;
 use std::process::{Command, Output};
 
-use common::Scratch;
+use common::{Scratch, run, text};
 use noisewright::adc::{Adc, Coding, Dither};
 
 /// White noise of 2 mV/√Hz over 10 Hz – 20 kHz: about 0.3 V RMS, so ±1.65 V holds it (5.6σ)
@@ -26,18 +26,6 @@ density = "2 mV/rtHz"
 
 const SEED: &str = "7";
 const N: usize = 20_000;
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .current_dir(cwd)
-        .output()
-        .unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
 
 /// `generate w.toml --samples N --seed SEED -o OUT` plus `extra`, in a scratch folder.
 fn generate(s: &Scratch, out: &str, extra: &[&str]) -> Output {

@@ -8,7 +8,7 @@ use std::ffi::OsString;
 use std::path::Path;
 use std::process::{Command, Output};
 
-use common::Scratch;
+use common::{Scratch, text};
 use noisewright::profile::parse_profile;
 use noisewright::synth::Generator;
 use rand::{RngExt, SeedableRng};
@@ -62,10 +62,6 @@ fn nw(args: &[&std::ffi::OsStr]) -> Output {
 
 fn os(s: &str) -> OsString {
     OsString::from(s)
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
 }
 
 /// `generate PROFILE -o OUT --seed SEED -q EXTRA…`; panics with stderr on failure.

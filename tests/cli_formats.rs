@@ -8,7 +8,7 @@ use std::ffi::OsString;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-use common::Scratch;
+use common::{Scratch, text};
 
 /// Fixed seed of every run in this file (printed in failure messages).
 const SEED: u64 = 20_261_206;
@@ -35,10 +35,6 @@ fn nw(args: &[&str], cwd: &Path) -> Output {
         .current_dir(cwd)
         .output()
         .expect("the noisewright binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
 }
 
 /// Runs `generate` on the demo profile with the fixed seed and length, writing `out`;

@@ -4,19 +4,10 @@
 mod common;
 
 use std::path::Path;
-use std::process::{Command, Output};
 
-use common::Scratch;
+use common::{Scratch, run};
 
 const SEED: &str = "17";
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .current_dir(cwd)
-        .output()
-        .unwrap()
-}
 
 /// Raw f64 samples of `profile` from sample `start`, `len` samples long.
 fn piece(dir: &Path, profile: &str, start: u64, len: u64, extra: &[&str]) -> Vec<u8> {

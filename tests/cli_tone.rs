@@ -4,22 +4,7 @@
 
 mod common;
 
-use std::path::Path;
-use std::process::{Command, Output};
-
-use common::Scratch;
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .current_dir(cwd)
-        .output()
-        .unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::{Scratch, run, text};
 
 const HEAD: &str = "name = \"cli tones\"\nsample_rate = \"10 kHz\"\noffset = \"0.5 mV\"\n\
                     [band]\nlow = \"1 Hz\"\nhigh = \"5 kHz\"\n[[floor]]\ndensity = \"1 uV/rtHz\"\n";

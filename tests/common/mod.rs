@@ -236,3 +236,18 @@ impl Drop for Scratch {
         let _ = std::fs::remove_dir_all(&self.dir);
     }
 }
+
+/// Runs the noisewright binary with `args` in the folder `cwd` and returns its exit status
+/// and output.
+pub fn run(args: &[&str], cwd: &std::path::Path) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_noisewright"))
+        .args(args)
+        .current_dir(cwd)
+        .output()
+        .unwrap()
+}
+
+/// Bytes (a program's stdout or stderr) as text, invalid UTF-8 replaced.
+pub fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
