@@ -15,7 +15,7 @@ pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
 pub use quantity::{Dimension, format_quantity, parse_quantity};
-pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
+pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, MIN_LOW_TO_RATE, parse_profile};
 pub use tone::{AmplitudeConvention, Tone};
 
 use serde::Serialize;

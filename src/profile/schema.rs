@@ -51,6 +51,11 @@ mod amplifier;
 /// Temperature of a resistor without a `temperature` key: 25 °C in kelvin.
 pub const DEFAULT_TEMPERATURE_K: f64 = 298.15;
 
+/// Smallest `band.low / sample_rate` accepted (dimensionless): the engine's pyramid reaches
+/// down to about 8.5e-16 of the sample rate (24 levels of ×4, see `synth::design`), so this
+/// keeps every accepted profile within its reach.
+pub const MIN_LOW_TO_RATE: f64 = 1e-15;
+
 /// Highest Butterworth order accepted for `band.order`.
 pub const MAX_ORDER: u32 = 8;
 
@@ -134,10 +139,14 @@ struct RawTable {
 pub fn parse_profile(text: &str, file: &str) -> Result<Profile> {
     let cx = Cx { text, file };
     let doc = DeTable::parse(text).map_err(|e| {
+        let at = e
+            .span()
+            .map(|s| format!(" at column {}", column_of(text, s.start)))
+            .unwrap_or_default();
         cx.err(
             "syntax",
             e.span(),
-            format!("not valid TOML: {}", e.message().trim()),
+            format!("not valid TOML{at}: {}", e.message().trim()),
         )
     })?;
     check_keys(&cx, doc.get_ref())?;
@@ -171,6 +180,16 @@ impl Cx<'_> {
             message: message.into(),
         }
     }
+}
+
+/// 1-based column (in characters) of byte offset `pos` in `text`.
+fn column_of(text: &str, pos: usize) -> usize {
+    let mut pos = pos.min(text.len());
+    while !text.is_char_boundary(pos) {
+        pos -= 1;
+    }
+    let start = text[..pos].rfind('\n').map_or(0, |i| i + 1);
+    text[start..pos].chars().count() + 1
 }
 
 /// 1-based line of byte offset `pos` in `text`.
@@ -506,6 +525,20 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
                 "band.low ({}) must be below band.high ({})",
                 hz(low),
                 hz(high)
+            ),
+        ));
+    }
+    if low / fs < MIN_LOW_TO_RATE {
+        return Err(cx.err(
+            "band.low",
+            Some(low_v.span()),
+            format!(
+                "{} is below what the engine can shape at sample_rate {}: band.low must be at \
+                 least {MIN_LOW_TO_RATE:e} of the sample rate ({}); raise band.low or lower \
+                 sample_rate",
+                hz(low),
+                hz(fs),
+                hz(MIN_LOW_TO_RATE * fs)
             ),
         ));
     }

@@ -46,8 +46,12 @@ const CROSS_HI: f64 = 0.35;
 const LOW_EDGE_MIN: f64 = 0.06;
 /// Frequency-sampling grid used to design each shaping FIR.
 const DESIGN_GRID: usize = 1 << 15;
-/// Deepest pyramid allowed (band.low / fs down to about 1e-12).
+/// Deepest pyramid allowed: band.low / fs down to LOW_EDGE_MIN / 4^23 ≈ 8.5e-16.
 const MAX_LEVELS: usize = 24;
+// Every profile the schema accepts (band.low / fs ≥ MIN_LOW_TO_RATE) fits in the pyramid.
+const _: () = assert!(
+    crate::profile::MIN_LOW_TO_RATE * (1u128 << (2 * (MAX_LEVELS - 1))) as f64 >= LOW_EDGE_MIN
+);
 /// Lags of the exact autocorrelation recursion; enough for INTERP_TAPS / (RATIO − 1).
 const ACF_LAGS: usize = 200;
 
@@ -92,8 +96,10 @@ impl Design {
             count += 1;
             if count > MAX_LEVELS {
                 return Err(Error::Unsupported(format!(
-                    "band.low / sample_rate = {:e} is below the engine's limit of about 1e-12",
-                    low_hz / sample_rate_hz
+                    "band.low / sample rate = {:e} is below the engine's limit of {:e}: raise \
+                     band.low or lower the sample rate (the profile's sample_rate or --rate)",
+                    low_hz / sample_rate_hz,
+                    crate::profile::MIN_LOW_TO_RATE
                 )));
             }
         }

@@ -87,12 +87,29 @@ pub(super) fn validate(
             .map(|v| positive(cx, v, &key(k), dim, Unit::Volt))
             .transpose()
     };
+    // Current noise is in A/√Hz whatever the profile's unit: say so rather than suggest
+    // changing the profile's unit.
     let current = |v: &Spanned<Value>, k: &str| -> Result<f64> {
-        let x = spanned_quantity(cx, v, &key(k), Dimension::Density, Unit::Ampere)?;
+        let x =
+            spanned_quantity(cx, v, &key(k), Dimension::Density, Unit::Ampere).map_err(|_| {
+                cx.err(
+                &key(k),
+                Some(v.span()),
+                format!(
+                    "expected a current noise density such as \"1 pA/rtHz\" (A/\u{221a}Hz, or a \
+                     number in A/\u{221a}Hz), got {}",
+                    v.get_ref()
+                ),
+            )
+            })?;
         if x >= 0.0 {
             Ok(x)
         } else {
-            Err(cx.err(&key(k), Some(v.span()), "must be >= 0"))
+            Err(cx.err(
+                &key(k),
+                Some(v.span()),
+                format!("must be >= 0, got {}", format_quantity(x, "A/\u{221a}Hz")),
+            ))
         }
     };
 
