@@ -158,6 +158,12 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     if let Some(r) = &args.rate {
         let rate = parse_quantity(r, Dimension::Frequency, unit)
             .map_err(|m| Error::option("--rate", m))?;
+        if !(rate > 0.0 && rate.is_finite()) {
+            return Err(Error::option(
+                "--rate",
+                format!("expected a positive sample rate such as 96 kHz, got {r:?}"),
+            ));
+        }
         if profile.band.high_hz > rate / 2.0 {
             return Err(Error::option(
                 "--rate",
@@ -264,9 +270,27 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     }
     let sample_format = match &args.sample_format {
-        Some(s) => s
-            .parse::<SampleFormat>()
-            .map_err(|m| Error::option("--sample-format", m))?,
+        Some(s) => {
+            let given = s
+                .parse::<SampleFormat>()
+                .map_err(|m| Error::option("--sample-format", m))?;
+            // A raw file named .i16/.f64/… says its own sample format: the two must agree.
+            let named = match (&extension, format) {
+                (Some(ext), Format::Raw) => SampleFormat::from_extension(ext),
+                _ => None,
+            };
+            if let Some(named) = named.filter(|n| *n != given) {
+                return Err(Error::option(
+                    "--sample-format",
+                    format!(
+                        "{given} samples cannot go into {}: its extension .{named} names {named} \
+                         samples; name the file .{given}, .raw or .bin, or drop --sample-format",
+                        args.output.as_deref().unwrap_or_default()
+                    ),
+                ));
+            }
+            given
+        }
         // A raw file named .i16/.i24/.i32/.f64 says its own sample format.
         None => match (&target, format) {
             (Target::File(p), Format::Raw) => p
@@ -328,10 +352,11 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     .map_err(|m| Error::option("--duration", m))?,
                 None => DEFAULT_DURATION_S,
             };
+            let given = d.unwrap_or("the default");
             if !(secs > 0.0 && secs.is_finite()) {
                 return Err(Error::option(
                     "--duration",
-                    "expected a positive time such as 10s",
+                    format!("expected a positive time such as 10s, got {given:?}"),
                 ));
             }
             let n = (secs * fs).round();
@@ -339,7 +364,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 return Err(Error::option(
                     "--duration",
                     format!(
-                        "{d:?} is shorter than one sample at {}",
+                        "{given:?} is shorter than one sample at {}",
                         format_quantity(fs, "Hz")
                     ),
                 ));
@@ -348,7 +373,10 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         }
     };
     if samples == Some(0) {
-        return Err(Error::option("--samples", "expected at least one sample"));
+        return Err(Error::option(
+            "--samples",
+            "expected at least one sample, got 0",
+        ));
     }
     let start = start_index(args, fs, unit)?;
     // The dither of each stored value depends on its index in the run from 0 (interleaved
@@ -383,6 +411,13 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 "sources writes one column per source, which only CSV output can hold \
                  (the output is {format}); write a .csv file or give --format csv"
             ),
+        ));
+    }
+    if per_source && args.loop_buffer {
+        return Err(Error::option(
+            "--columns",
+            "sources writes the parts of the streaming engine, but a --loop buffer is made in \
+             one piece; use --columns total with --loop",
         ));
     }
     let channels = profile.channels as u16;
@@ -529,7 +564,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         if !(v > 0.0 && v.is_finite()) {
             return Err(Error::option(
                 "--full-scale",
-                "expected a positive value such as 10uV",
+                format!("expected a positive value such as 10uV, got {q:?}"),
             ));
         }
         Scale {

@@ -147,17 +147,18 @@ fn riff_header_bytes(sample_format: SampleFormat, channels: u16) -> Result<u64> 
 }
 
 fn f64_refused() -> Error {
-    Error::Unsupported(
+    Error::option(
+        "--sample-format",
         "64-bit float WAV is not offered: the format allows it, but many WAV readers and audio \
-         tools cannot open it; use f32 WAV (24-bit significand), i32 WAV, or raw f64 output"
-            .to_string(),
+         tools cannot open it; use f32 WAV (24-bit significand), i32 WAV, or raw f64 output",
     )
 }
 
 fn too_large(frames: u64, channels: u16, sample_format: SampleFormat) -> Error {
     Error::Unsupported(format!(
         "a WAV of {frames} frames of {channels} {sample_format} channel(s) would be larger \
-         than 2^64 bytes, beyond even RF64's 64-bit sizes; ask for a shorter duration"
+         than 2^64 bytes, beyond even RF64's 64-bit sizes; ask for a shorter --duration or \
+         fewer --samples"
     ))
 }
 
@@ -240,13 +241,14 @@ pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
     if rate.fract() != 0.0 || bytes_per_second > f64::from(u32::MAX) {
         return Err(Error::Unsupported(format!(
             "WAV stores the sample rate and byte rate as 32-bit whole numbers; {rate} Hz cannot \
-             be written (use a whole sample rate, or raw output)"
+             be written: use a whole number of Hz (the profile's sample_rate or --rate), or raw \
+             output"
         )));
     }
     let Some(frames) = spec.frames else {
         return Err(Error::Unsupported(
             "WAV output needs the total sample count before the first sample (its header \
-             comes first); give a duration, or use raw or CSV output"
+             comes first); give --duration (not inf) or --samples, or use raw or CSV output"
                 .to_string(),
         ));
     };
@@ -608,7 +610,7 @@ mod tests {
         )
         .err()
         .unwrap();
-        assert!(matches!(e, Error::Unsupported(_)));
+        assert!(matches!(e, Error::Option { ref option, .. } if option == "--sample-format"));
         let m = e.to_string();
         assert!(m.contains("readers") && m.contains("raw f64"), "{m}");
         assert!(wav_bytes(1, SampleFormat::F64).is_err());
