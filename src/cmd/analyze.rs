@@ -100,6 +100,12 @@ fn format_of(path: &Path) -> Format {
 }
 
 fn open_file(path: &Path) -> Result<fs::File> {
+    if path.is_dir() {
+        return Err(Error::input(
+            path.display().to_string(),
+            "is a folder; expected a capture file (WAV, CSV or raw)",
+        ));
+    }
     fs::File::open(path)
         .map_err(|e| Error::input(path.display().to_string(), format!("cannot open: {e}")))
 }
@@ -161,17 +167,19 @@ fn pass(
 }
 
 /// Samples in a capture, known or estimated before reading it: the header's count, the size
-/// of a raw file, or the lines of a CSV file.
+/// of a raw file or of a WAV whose header does not say (an upper bound), or the lines of a
+/// CSV file.
 fn sample_count(path: &Path, info: &StreamInfo) -> Result<u64> {
     if let Some(n) = info.frames {
         return Ok(n);
     }
     match info.format {
-        Format::Raw => {
+        Format::Raw | Format::Wav => {
             let len = fs::metadata(path)
                 .map_err(|e| Error::io(format!("reading {}", path.display()), e))?
                 .len();
-            Ok(len / info.sample_format.map_or(1, |s| s.bytes()) as u64)
+            let frame = info.sample_format.map_or(1, |s| s.bytes()) * usize::from(info.channels);
+            Ok(len / frame.max(1) as u64)
         }
         _ => {
             // Count newlines (an upper bound: headers, comments and blank lines count too).
@@ -207,8 +215,17 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     let format = format_of(&args.file);
     let mpath = manifest_path(&args.file);
     let manifest = if mpath.is_file() {
-        let text = fs::read_to_string(&mpath)
-            .map_err(|e| Error::io(format!("reading {}", mpath.display()), e))?;
+        let text = fs::read_to_string(&mpath).map_err(|e| {
+            if e.kind() == std::io::ErrorKind::InvalidData {
+                Error::input(
+                    mpath.display().to_string(),
+                    "not valid UTF-8 text; expected the JSON manifest that generate writes \
+                     beside its output (or remove it)",
+                )
+            } else {
+                Error::io(format!("reading {}", mpath.display()), e)
+            }
+        })?;
         Some(SideManifest::parse(&text, &mpath.display().to_string())?)
     } else {
         None
@@ -229,11 +246,28 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         .unwrap_or("V");
     let sample_format = match &args.sample_format {
         Some(s) => Some(s.parse::<SampleFormat>()?),
-        None => args
-            .file
-            .extension()
-            .and_then(|e| SampleFormat::from_extension(&e.to_string_lossy()))
-            .or(manifest.as_ref().and_then(|m| m.sample_format)),
+        None => {
+            let named = match format {
+                Format::Raw => args
+                    .file
+                    .extension()
+                    .and_then(|e| SampleFormat::from_extension(&e.to_string_lossy())),
+                _ => None,
+            };
+            let stated = manifest.as_ref().and_then(|m| m.sample_format);
+            if let (Some(n), Some(m)) = (named, stated) {
+                if n != m {
+                    return Err(Error::input(
+                        mpath.display().to_string(),
+                        format!(
+                            "sample_format: says {m}, but the name of {name} (.{n}) says {n}; \
+                             give --sample-format to say which is right"
+                        ),
+                    ));
+                }
+            }
+            named.or(stated)
+        }
     };
     let rate = match &args.rate {
         Some(r) => Some(
@@ -249,7 +283,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             if !(v.is_finite() && v > 0.0) {
                 return Err(Error::option(
                     "--full-scale",
-                    "expected a positive value such as 2V",
+                    format!("expected a positive value such as 2V, got {q:?}"),
                 ));
             }
             Some(v)
@@ -285,11 +319,20 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         "A" => Unit::Ampere,
         _ => Unit::Volt,
     });
+    let profile_name = args
+        .profile
+        .as_ref()
+        .map_or("--full-scale".to_string(), |p| p.display().to_string());
     let scale = Scale::resolve(
         info.values,
         manifest.as_ref(),
         full_scale,
-        profile.as_ref().map(|p| p.unit).or(full_scale_unit),
+        profile
+            .as_ref()
+            .map(|p| p.unit)
+            .or(full_scale_unit)
+            .map(|u| (u, profile_name.as_str())),
+        &name,
     )?;
     let fs = info.sample_rate_hz;
     let mut notes = info.notes.clone();
@@ -310,9 +353,13 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
                     return Err(Error::option(
                         "--profile",
                         format!(
-                            "the profile's band reaches {}, above half the capture's rate {}",
+                            "band.high = {} in {profile_name} is above half the rate of {name} \
+                             ({} at {}): the capture cannot hold that band; judge it against a \
+                             profile whose band ends at {} or lower",
                             format_quantity(p.band.high_hz, "Hz"),
-                            format_quantity(fs, "Hz")
+                            format_quantity(fs / 2.0, "Hz"),
+                            format_quantity(fs, "Hz"),
+                            format_quantity(fs / 2.0, "Hz")
                         ),
                     ));
                 }
@@ -329,6 +376,12 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         }
     };
     let n_hint = sample_count(&args.file, &info)?;
+    if n_hint < 16 {
+        return Err(Error::input(
+            &name,
+            format!("{n_hint} samples: too few to analyse; a density estimate needs at least 16"),
+        ));
+    }
     let seg_len = segment_length(
         fs,
         n_hint,
@@ -546,7 +599,11 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         let fit = match &without_bursts {
             Some(r) => fit_floor(r, &options).or_else(|_| fit_floor(&report, &options)),
             None => fit_floor(&report, &options),
-        }?;
+        }
+        .map_err(|e| match e {
+            Error::Unsupported(m) => Error::option("--fit", format!("{name}: {m}")),
+            e => e,
+        })?;
         let toml = fit.to_profile_toml(&report, &name);
         fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
         json["fit"] = fit.to_json();

@@ -3,8 +3,10 @@
 //! * **Time column** (optional): the first column whose name starts with `time` or is `t`
 //!   (any case). Its unit follows from a suffix `_s`, `_ms`, `_us` or `(s)`, `(ms)`, `(us)`
 //!   (default seconds). The sample rate is `(k − 1)/(t_{k−1} − t_0)` over the first 4096
-//!   rows; every later step must be within half a sample period of `1/rate`, else the file
-//!   is refused (the samples must be evenly spaced for a density estimate).
+//!   rows, once each of their steps is within half of their median step; every later step
+//!   must be within half a sample period of `1/rate`, else the file is refused, naming the
+//!   line of the step (the samples must be evenly spaced for a density estimate). With
+//!   `--rate` the time column only has to increase overall.
 //! * **Value column**: the first column that is not the time column. Its name says what it
 //!   holds, as `generate` writes it: `value_V` / `value_A` physical volts or amperes,
 //!   `value_fs` digital values, `code_i16` / `code_i24` / `code_i32` integer codes (read as
@@ -33,6 +35,8 @@ pub struct CsvSource<R: Read> {
     time_col: Option<usize>,
     time_scale: f64,
     value_col: usize,
+    /// The header's column names, joined by commas (for messages).
+    header: String,
     /// 2^(b−1)−1 for code columns (values are divided by it), 1 otherwise.
     value_div: f64,
     /// Values read ahead while estimating the rate, not yet handed out.
@@ -102,6 +106,7 @@ impl<R: Read> CsvSource<R> {
             time_col: None,
             time_scale: 1.0,
             value_col: 0,
+            header: String::new(),
             value_div: 1.0,
             pending: Vec::new(),
             last_time: None,
@@ -117,6 +122,7 @@ impl<R: Read> CsvSource<R> {
             ));
         }
         let header: Vec<String> = src.line.split(',').map(|s| s.trim().to_string()).collect();
+        src.header = header.join(",");
         if header.iter().all(|h| h.parse::<f64>().is_ok()) {
             return Err(Error::input(
                 &src.name,
@@ -166,15 +172,45 @@ impl<R: Read> CsvSource<R> {
         };
         // Read ahead to estimate the rate (and to compare it with --rate).
         let mut times = Vec::new();
+        let mut lines = Vec::new();
         if src.time_col.is_some() {
             while src.pending.len() < RATE_ROWS {
                 match src.row()? {
                     Some((t, v)) => {
                         times.push(t.expect("time column"));
+                        lines.push(src.line_no);
                         src.pending.push(v);
                     }
                     None => break,
                 }
+            }
+        }
+        // Steps of the rows read ahead: the first that does not increase, or that is off the
+        // median step by more than half of it, is named with its line (a gap would distort a
+        // rate taken from the whole span, so the median is the reference here).
+        // With --rate the time column only has to increase overall.
+        let steps: Vec<f64> = match rate {
+            None => times.windows(2).map(|w| w[1] - w[0]).collect(),
+            Some(_) => Vec::new(),
+        };
+        if let Some(i) = steps.iter().position(|d| d.is_nan() || *d <= 0.0) {
+            return Err(Error::input(
+                &src.name,
+                format!(
+                    "line {}: the time column does not increase ({} s after {} s): cannot tell \
+                     the sample rate; the times must increase by one sample period per row",
+                    lines[i + 1],
+                    times[i + 1],
+                    times[i]
+                ),
+            ));
+        }
+        if !steps.is_empty() {
+            let mut sorted = steps.clone();
+            sorted.sort_by(f64::total_cmp);
+            let median = sorted[sorted.len() / 2];
+            if let Some(i) = steps.iter().position(|d| (d - median).abs() > 0.5 * median) {
+                return Err(src.uneven(lines[i + 1], steps[i], median));
             }
         }
         let from_times = if times.len() >= 2 {
@@ -182,7 +218,12 @@ impl<R: Read> CsvSource<R> {
             if span.is_nan() || span <= 0.0 {
                 return Err(Error::input(
                     &src.name,
-                    "the time column does not increase: cannot tell the sample rate",
+                    format!(
+                        "lines {} to {}: the time column does not increase: cannot tell the \
+                         sample rate",
+                        lines[0],
+                        lines[lines.len() - 1]
+                    ),
                 ));
             }
             Some((times.len() - 1) as f64 / span)
@@ -217,8 +258,8 @@ impl<R: Read> CsvSource<R> {
         src.info.sample_rate_hz = rate;
         src.period_s = 1.0 / rate;
         if src.check_steps {
-            for w in times.windows(2) {
-                src.check_step(w[0], w[1])?;
+            for (i, w) in times.windows(2).enumerate() {
+                src.check_step(w[0], w[1], lines[i + 1])?;
             }
         }
         src.first_time = times.first().copied().unwrap_or(0.0);
@@ -230,10 +271,20 @@ impl<R: Read> CsvSource<R> {
     fn next_line(&mut self) -> Result<bool> {
         loop {
             self.line.clear();
-            let n = self
-                .input
-                .read_line(&mut self.line)
-                .map_err(|e| Error::io(format!("reading {}", self.name), e))?;
+            let n = self.input.read_line(&mut self.line).map_err(|e| {
+                if e.kind() == std::io::ErrorKind::InvalidData {
+                    Error::input(
+                        &self.name,
+                        format!(
+                            "line {}: not valid UTF-8 text; a CSV capture is text with a header \
+                             line such as time_s,value_V (for binary samples use raw or WAV)",
+                            self.line_no + 1
+                        ),
+                    )
+                } else {
+                    Error::io(format!("reading {}", self.name), e)
+                }
+            })?;
             if n == 0 {
                 return Ok(false);
             }
@@ -267,9 +318,14 @@ impl<R: Read> CsvSource<R> {
             None
         };
         if let Some(what) = missing {
+            let columns = self.header.split(',').count();
             return Err(Error::input(
                 &self.name,
-                format!("line {}: the {what} field is missing", self.line_no),
+                format!(
+                    "line {}: the {what} field is missing; every row needs the {columns} \
+                     columns of the header ({})",
+                    self.line_no, self.header
+                ),
             ));
         }
         self.rows += 1;
@@ -290,20 +346,24 @@ impl<R: Read> CsvSource<R> {
         }
     }
 
-    fn check_step(&self, a: f64, b: f64) -> Result<()> {
+    /// Checks the step from time `a` to time `b` (s), the latter on `line`.
+    fn check_step(&self, a: f64, b: f64, line: usize) -> Result<()> {
         let step = b - a;
         if (step - self.period_s).abs() > 0.5 * self.period_s {
-            return Err(Error::input(
-                &self.name,
-                format!(
-                    "near line {}: the time column steps by {step} s where the rate of the first \
-                     rows gives {} s; the samples must be evenly spaced (gaps or resets cannot \
-                     be analysed)",
-                    self.line_no, self.period_s
-                ),
-            ));
+            return Err(self.uneven(line, step, self.period_s));
         }
         Ok(())
+    }
+
+    fn uneven(&self, line: usize, step: f64, period_s: f64) -> Error {
+        Error::input(
+            &self.name,
+            format!(
+                "line {line}: the time column steps by {step} s where the first rows step by \
+                 {period_s} s; the samples must be evenly spaced (gaps or resets cannot be \
+                 analysed)"
+            ),
+        )
     }
 }
 
@@ -326,7 +386,7 @@ impl<R: Read> SampleSource for CsvSource<R> {
                 Some((t, v)) => {
                     if let (Some(t), true) = (t, self.check_steps) {
                         if let Some(prev) = self.last_time {
-                            self.check_step(prev, t)?;
+                            self.check_step(prev, t, self.line_no)?;
                         }
                         self.last_time = Some(t);
                     }

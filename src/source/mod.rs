@@ -128,6 +128,8 @@ pub struct SideManifest {
     /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
     /// `high_hz`, `order`), when the manifest records one.
     pub band: Option<Band>,
+    /// The manifest's file name, for messages.
+    pub file: String,
 }
 
 impl SideManifest {
@@ -153,35 +155,37 @@ impl SideManifest {
                  to analyse the noise",
             ));
         }
-        let mut m = SideManifest::default();
+        let mut m = SideManifest {
+            file: name.to_string(),
+            ..SideManifest::default()
+        };
+        let bad = |key: &str, expected: &str, got: &serde_json::Value| {
+            Error::input(name, format!("{key}: expected {expected}, got {got}"))
+        };
         if let Some(fs) = obj.get("full_scale") {
             m.states_scale = true;
             if !fs.is_null() {
                 let x = fs.as_f64().filter(|x| x.is_finite() && *x > 0.0);
-                m.full_scale = Some(x.ok_or_else(|| {
-                    Error::input(name, "full_scale: expected a positive number or null")
-                })?);
+                m.full_scale =
+                    Some(x.ok_or_else(|| bad("full_scale", "a positive number or null", fs))?);
             }
         }
         if let Some(u) = obj.get("unit").filter(|u| !u.is_null()) {
             m.unit = Some(match u.as_str() {
                 Some("V") => Unit::Volt,
                 Some("A") => Unit::Ampere,
-                _ => return Err(Error::input(name, "unit: expected \"V\" or \"A\"")),
+                _ => return Err(bad("unit", "\"V\" or \"A\"", u)),
             });
         }
         if let Some(r) = obj.get("sample_rate_hz").filter(|r| !r.is_null()) {
             let x = r.as_f64().filter(|x| x.is_finite() && *x > 0.0);
             m.sample_rate_hz =
-                Some(x.ok_or_else(|| {
-                    Error::input(name, "sample_rate_hz: expected a positive number")
-                })?);
+                Some(x.ok_or_else(|| bad("sample_rate_hz", "a positive number of Hz", r))?);
         }
         if let Some(s) = obj.get("sample_format").filter(|s| !s.is_null()) {
             let f = s.as_str().and_then(|s| s.parse::<SampleFormat>().ok());
-            m.sample_format = Some(f.ok_or_else(|| {
-                Error::input(name, "sample_format: expected f32, f64, i16, i24 or i32")
-            })?);
+            m.sample_format =
+                Some(f.ok_or_else(|| bad("sample_format", "f32, f64, i16, i24 or i32", s))?);
         }
         let b = &v["profile"]["band"];
         if let (Some(lo), Some(hi)) = (b["low_hz"].as_f64(), b["high_hz"].as_f64()) {
@@ -213,7 +217,8 @@ pub struct Scale {
 
 impl Scale {
     /// Decides the scale from what the file says (`values`), the manifest beside it, a
-    /// `--full-scale` value and the unit a profile expects.
+    /// `--full-scale` value and the unit a profile expects (with what to call it in messages:
+    /// the profile's file name). `capture` is the capture's file name, for messages.
     ///
     /// * `--full-scale` wins: the values are taken as digital and multiplied by it.
     /// * Otherwise a manifest's `full_scale` number applies to digital or unknown values; its
@@ -225,34 +230,49 @@ impl Scale {
         values: Values,
         manifest: Option<&SideManifest>,
         full_scale: Option<f64>,
-        profile_unit: Option<Unit>,
+        profile: Option<(Unit, &str)>,
+        capture: &str,
     ) -> Result<Scale> {
-        let manifest_unit = manifest.and_then(|m| m.unit);
         let file_unit = match values {
-            Values::Physical(u) => Some(u),
+            Values::Physical(u) => {
+                Some((u, format!("{capture} (its value_{} column)", u.symbol())))
+            }
             _ => None,
         };
-        let mut unit = None;
-        for u in [file_unit, manifest_unit, profile_unit]
+        let manifest_unit = manifest.and_then(|m| Some((m.unit?, m.file.clone())));
+        let profile_unit = profile.map(|(u, name)| (u, name.to_string()));
+        let mut unit: Option<(Unit, String)> = None;
+        for (i, (u, said_by)) in [file_unit, manifest_unit, profile_unit.clone()]
             .into_iter()
-            .flatten()
+            .enumerate()
+            .filter_map(|(i, s)| Some((i, s?)))
         {
-            match unit {
-                None => unit = Some(u),
-                Some(prev) if prev != u => {
-                    return Err(Error::option(
-                        "--profile",
-                        format!(
-                            "the capture is in {} but the profile or manifest is in {}: they \
-                             must describe the same quantity",
-                            prev.symbol(),
-                            u.symbol()
-                        ),
-                    ));
+            match &unit {
+                None => unit = Some((u, said_by)),
+                Some((prev, prev_by)) if *prev != u => {
+                    let message = format!(
+                        "{prev_by} is in {} but {said_by} is in {}: they must describe the same \
+                         quantity",
+                        prev.symbol(),
+                        u.symbol()
+                    );
+                    // The third side is the profile (or, without one, --full-scale's unit);
+                    // otherwise the manifest disagrees with the capture.
+                    return Err(if i == 2 {
+                        let option = if said_by == "--full-scale" {
+                            "--full-scale"
+                        } else {
+                            "--profile"
+                        };
+                        Error::option(option, message)
+                    } else {
+                        Error::input(&said_by, message)
+                    });
                 }
                 Some(_) => {}
             }
         }
+        let unit = unit.map(|(u, _)| u);
         if let Some(fs) = full_scale {
             return Ok(Scale {
                 gain: fs,
@@ -412,30 +432,47 @@ mod tests {
             states_scale: true,
             ..Default::default()
         };
-        let s = Scale::resolve(Values::Digital, Some(&digital_manifest), None, None).unwrap();
+        let s = Scale::resolve(Values::Digital, Some(&digital_manifest), None, None, "c").unwrap();
         assert_eq!(
             (s.gain, s.unit, s.origin),
             (3.0, Some(Unit::Volt), "manifest")
         );
-        let s = Scale::resolve(Values::Digital, Some(&digital_manifest), Some(5.0), None).unwrap();
+        let s = Scale::resolve(
+            Values::Digital,
+            Some(&digital_manifest),
+            Some(5.0),
+            None,
+            "c",
+        )
+        .unwrap();
         assert_eq!((s.gain, s.origin), (5.0, "--full-scale"));
-        let s = Scale::resolve(Values::Digital, None, None, None).unwrap();
+        let s = Scale::resolve(Values::Digital, None, None, None, "c").unwrap();
         assert_eq!((s.gain, s.unit, s.symbol()), (1.0, None, "FS"));
         let physical_manifest = SideManifest {
             states_scale: true,
             unit: Some(Unit::Ampere),
             ..Default::default()
         };
-        let s = Scale::resolve(Values::Unknown, Some(&physical_manifest), None, None).unwrap();
+        let s = Scale::resolve(Values::Unknown, Some(&physical_manifest), None, None, "c").unwrap();
         assert_eq!((s.gain, s.unit), (1.0, Some(Unit::Ampere)));
+        let physical_manifest = SideManifest {
+            file: "c.csv.json".into(),
+            ..physical_manifest
+        };
         let e = Scale::resolve(
             Values::Physical(Unit::Volt),
             Some(&physical_manifest),
             None,
             None,
+            "c.csv",
         )
         .unwrap_err();
-        assert!(e.to_string().contains("in V but"), "{e}");
+        assert!(
+            e.to_string()
+                .contains("c.csv (its value_V column) is in V but c.csv.json is in A"),
+            "{e}"
+        );
+        assert_eq!(e.exit_code(), 2);
     }
 
     #[test]

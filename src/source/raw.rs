@@ -19,6 +19,8 @@ pub struct RawSource<R: Read> {
     name: String,
     sample_format: SampleFormat,
     buf: Vec<u8>,
+    /// Bytes read so far.
+    read: u64,
 }
 
 impl<R: Read> RawSource<R> {
@@ -62,6 +64,7 @@ impl<R: Read> RawSource<R> {
             name,
             sample_format,
             buf: vec![0u8; READ_BYTES],
+            read: 0,
         })
     }
 }
@@ -77,15 +80,18 @@ impl<R: Read> SampleSource for RawSource<R> {
         let want = max.max(1).saturating_mul(b).min(self.buf.len() / b * b);
         let got = read_full(&mut self.input, &mut self.buf[..want], &self.name)?;
         if got % b != 0 {
+            let end = self.read + got as u64;
             return Err(Error::input(
                 &self.name,
                 format!(
-                    "truncated: the file ends inside a {b}-byte {} sample (its length is not a \
-                     whole number of samples; is --sample-format right?)",
-                    self.sample_format
+                    "truncated: the file ends at byte {end}, inside a {b}-byte {} sample at byte \
+                     {} (its length is not a whole number of samples; is --sample-format right?)",
+                    self.sample_format,
+                    end - end % b as u64
                 ),
             ));
         }
+        self.read += got as u64;
         decode_le(&self.buf[..got], self.sample_format, b, out);
         Ok(out.len())
     }

@@ -42,6 +42,12 @@ pub struct WavSource<R: Read> {
     frame_bytes: usize,
     sample_format: SampleFormat,
     buf: Vec<u8>,
+    /// Byte offset of the `data` chunk's header in the file, for messages.
+    data_at: u64,
+    /// Data bytes the header announces (`None`: read to the end).
+    announced: Option<u64>,
+    /// Data bytes read so far.
+    read: u64,
 }
 
 fn le16(b: &[u8]) -> u16 {
@@ -75,25 +81,34 @@ impl<R: Read> WavSource<R> {
         // RF64 (EBU Tech 3306, from memory of its layout): a ds64 chunk first after "WAVE"
         // holds the 64-bit riffSize, dataSize and sampleCount (then a table of other large
         // chunks); the u32 data size is then 0xFFFFFFFF and stands for ds64's dataSize.
+        // Byte offset in the file of what is read next, for messages.
+        let mut pos: u64 = 12;
         let ds64_data = if rf64 {
             let mut ch = [0u8; 8];
             if read_full(&mut input, &mut ch, &name)? < 8 || &ch[0..4] != b"ds64" {
                 return Err(bad(
-                    "an RF64 file must start with a \"ds64\" chunk after \"WAVE\" (EBU Tech \
-                     3306); this one does not"
+                    "an RF64 file must have a \"ds64\" chunk at byte 12, right after \"WAVE\" \
+                     (EBU Tech 3306); this one does not"
                         .to_string(),
                 ));
             }
             let size = le32(&ch[4..8]);
-            if !(28..=1 << 20).contains(&size) {
+            const DS64_MAX: u32 = 1 << 20;
+            if !(28..=DS64_MAX).contains(&size) {
                 return Err(bad(format!(
-                    "the \"ds64\" chunk is {size} bytes; expected at least 28"
+                    "the \"ds64\" chunk at byte 12 is {size} bytes; expected 28 to {DS64_MAX}"
                 )));
             }
             let mut body = vec![0u8; size as usize + (size as usize & 1)];
-            if read_full(&mut input, &mut body, &name)? < size as usize {
-                return Err(bad("truncated inside the \"ds64\" chunk".to_string()));
+            let got = read_full(&mut input, &mut body, &name)?;
+            if got < size as usize {
+                return Err(bad(format!(
+                    "truncated inside the \"ds64\" chunk at byte 12: it announces {size} bytes \
+                     but the file ends at byte {}",
+                    20 + got
+                )));
             }
+            pos += 8 + body.len() as u64;
             let le64 = |at: usize| u64::from_le_bytes(body[at..at + 8].try_into().expect("8"));
             Some(le64(8))
         } else {
@@ -104,40 +119,50 @@ impl<R: Read> WavSource<R> {
         loop {
             let mut ch = [0u8; 8];
             let got = read_full(&mut input, &mut ch, &name)?;
+            let at = pos;
             if got < 8 {
-                return Err(bad(if fmt.is_none() {
-                    "truncated: the file ends before its \"fmt \" chunk".to_string()
-                } else {
-                    "truncated: the file ends before its \"data\" chunk".to_string()
-                }));
+                let missing = if fmt.is_none() { "fmt " } else { "data" };
+                return Err(bad(format!(
+                    "truncated: the file ends at byte {} before its \"{missing}\" chunk",
+                    at + got as u64
+                )));
             }
+            pos += 8;
             let id = [ch[0], ch[1], ch[2], ch[3]];
             let size = le32(&ch[4..8]);
             match &id {
                 b"fmt " => {
                     if !(16..=1024).contains(&size) {
                         return Err(bad(format!(
-                            "the \"fmt \" chunk is {size} bytes; expected 16 to 1024"
+                            "the \"fmt \" chunk at byte {at} is {size} bytes; expected 16 to 1024"
                         )));
                     }
                     let mut body = vec![0u8; size as usize + (size as usize & 1)];
-                    if read_full(&mut input, &mut body, &name)? < size as usize {
-                        return Err(bad("truncated inside the \"fmt \" chunk".to_string()));
+                    let got = read_full(&mut input, &mut body, &name)?;
+                    if got < size as usize {
+                        return Err(bad(format!(
+                            "truncated inside the \"fmt \" chunk at byte {at}: it announces \
+                             {size} bytes but the file ends at byte {}",
+                            pos + got as u64
+                        )));
                     }
-                    fmt = Some(parse_fmt(&body[..size as usize], &name)?);
+                    pos += body.len() as u64;
+                    fmt = Some(parse_fmt(&body[..size as usize], &name, at)?);
                 }
                 b"data" => {
                     let Some((sample_format, channels, rate)) = fmt else {
-                        return Err(bad(
-                            "the \"data\" chunk comes before any \"fmt \" chunk".to_string()
-                        ));
+                        return Err(bad(format!(
+                            "the \"data\" chunk at byte {at} comes before any \"fmt \" chunk; \
+                             the format must be known before the samples"
+                        )));
                     };
                     let frame_bytes = sample_format.bytes() * channels as usize;
                     let remaining = if let (Some(data), u32::MAX) = (ds64_data, size) {
                         if data % frame_bytes as u64 != 0 {
                             return Err(bad(format!(
-                                "the ds64 chunk announces {data} data bytes, not a whole \
-                                 number of {frame_bytes}-byte frames"
+                                "the \"ds64\" chunk announces {data} data bytes for the \
+                                 \"data\" chunk at byte {at}, not a whole number of \
+                                 {frame_bytes}-byte frames"
                             )));
                         }
                         Some(data)
@@ -150,8 +175,8 @@ impl<R: Read> WavSource<R> {
                     } else {
                         if size as usize % frame_bytes != 0 {
                             return Err(bad(format!(
-                                "the data chunk holds {size} bytes, not a whole number of \
-                                 {frame_bytes}-byte frames"
+                                "the \"data\" chunk at byte {at} holds {size} bytes, not a \
+                                 whole number of {frame_bytes}-byte frames"
                             )));
                         }
                         Some(u64::from(size))
@@ -195,6 +220,9 @@ impl<R: Read> WavSource<R> {
                         frame_bytes,
                         sample_format,
                         buf: vec![0u8; READ_BYTES - READ_BYTES % frame_bytes],
+                        data_at: at,
+                        announced: remaining,
+                        read: 0,
                     });
                 }
                 _ => {
@@ -204,19 +232,23 @@ impl<R: Read> WavSource<R> {
                         .map_err(|e| Error::io(format!("reading {name}"), e))?;
                     if skipped < u64::from(size) {
                         return Err(bad(format!(
-                            "truncated inside the {:?} chunk before the samples",
-                            String::from_utf8_lossy(&id)
+                            "truncated inside the {:?} chunk at byte {at} before the samples: it \
+                             announces {size} bytes but the file ends at byte {}",
+                            String::from_utf8_lossy(&id),
+                            pos + skipped
                         )));
                     }
+                    pos += skip;
                 }
             }
         }
     }
 }
 
-/// (sample format, channels, rate) from a `fmt ` chunk body.
-fn parse_fmt(b: &[u8], name: &str) -> Result<(SampleFormat, u16, u32)> {
-    let bad = |m: String| Error::input(name, m);
+/// (sample format, channels, rate) from a `fmt ` chunk body; `at` is the chunk's byte offset
+/// in the file, for messages.
+fn parse_fmt(b: &[u8], name: &str, at: u64) -> Result<(SampleFormat, u16, u32)> {
+    let bad = |m: String| Error::input(name, format!("the \"fmt \" chunk at byte {at}: {m}"));
     let mut tag = le16(&b[0..2]);
     let channels = le16(&b[2..4]);
     let rate = le32(&b[4..8]);
@@ -271,7 +303,9 @@ fn parse_fmt(b: &[u8], name: &str) -> Result<(SampleFormat, u16, u32)> {
         }
     };
     if channels == 0 {
-        return Err(bad("the header says 0 channels".to_string()));
+        return Err(bad(
+            "the header says 0 channels; expected at least 1".to_string()
+        ));
     }
     if usize::from(block_align) != sf.bytes() * usize::from(channels) {
         return Err(bad(format!(
@@ -303,15 +337,18 @@ impl<R: Read> SampleSource for WavSource<R> {
         }
         let got = read_full(&mut self.input, &mut self.buf[..want], &self.name)?;
         let whole = got - got % fb;
+        // The data chunk's samples start 8 bytes after its header.
+        let end = self.data_at + 8 + self.read + got as u64;
         if got < want {
-            if let Some(rem) = self.remaining {
+            if let (Some(rem), Some(total)) = (self.remaining, self.announced) {
                 let short = rem - got as u64;
                 return Err(Error::input(
                     &self.name,
                     format!(
-                        "truncated: the data chunk announces {} more bytes of samples than the \
-                         file holds ({short} missing, about {} samples)",
-                        short,
+                        "truncated: the \"data\" chunk at byte {} announces {total} bytes of \
+                         samples but the file ends at byte {end} ({short} missing, about {} \
+                         samples)",
+                        self.data_at,
                         short / fb as u64
                     ),
                 ));
@@ -319,10 +356,13 @@ impl<R: Read> SampleSource for WavSource<R> {
             if got % fb != 0 {
                 return Err(Error::input(
                     &self.name,
-                    format!("truncated: the file ends inside a {fb}-byte sample frame"),
+                    format!(
+                        "truncated: the file ends at byte {end}, inside a {fb}-byte sample frame"
+                    ),
                 ));
             }
         }
+        self.read += whole as u64;
         decode_le(&self.buf[..whole], self.sample_format, fb, out);
         if let Some(rem) = self.remaining.as_mut() {
             *rem -= whole as u64;
