@@ -1,6 +1,6 @@
 //! CLI tests of `noisewright generate --bits N --range LO..HI`: ADC codes in CSV and raw, the
-//! manifest's converter record, dither, clipping against the range, and bad input (exit 2, a
-//! message naming the option and what is expected, no output file).
+//! manifest's converter record, dither and clipping against the range. Bad ADC options are
+//! rows of tests/error_classes.rs.
 
 mod common;
 
@@ -255,122 +255,6 @@ fn samples_outside_the_range_are_counted_and_refused_unless_allowed() {
     assert_eq!(codes.iter().max(), Some(&127));
 }
 
-/// Every bad ADC setting: exit 2, a message naming the option and what is expected, and no
-/// output file or folder.
-#[test]
-fn bad_adc_settings_exit_2_with_the_option_and_no_output() {
-    let cases: &[(&[&str], &str, &str)] = &[
-        (&["--bits", "12", "--range", "1V..-1V"], "--range", "below"),
-        (&["--bits", "12", "--range", "1V"], "--range", "low..high"),
-        (
-            &["--bits", "12", "--range", "1Hz..2Hz"],
-            "--range",
-            "low end",
-        ),
-        (&["--bits", "0", "--range", "-1V..1V"], "--bits", "1 to 32"),
-        (&["--bits", "33", "--range", "-1V..1V"], "--bits", "got 33"),
-        (&["--bits", "12"], "--bits", "needs --range"),
-        (&["--range", "-1V..1V"], "--range", "needs --bits"),
-        (&["--dither", "tpdf"], "--dither", "needs --bits"),
-        (&["--code", "twos"], "--code", "needs --bits"),
-        (
-            &["--bits", "12", "--range", "-1V..1V", "--full-scale", "1V"],
-            "--full-scale",
-            "cannot be combined with --bits",
-        ),
-        (
-            &["--bits", "12", "--range", "-1V..1V", "--level", "-20dBFS"],
-            "--level",
-            "cannot be combined with --bits",
-        ),
-        (
-            &[
-                "--bits",
-                "12",
-                "--range",
-                "-1V..1V",
-                "--sample-format",
-                "i16",
-            ],
-            "--sample-format",
-            "smallest integer",
-        ),
-        (
-            &["--bits", "12", "--range", "-1V..1V", "--code", "unsigned"],
-            "--code",
-            "twos",
-        ),
-        (
-            &["--bits", "12", "--range", "-1V..1V", "--dither", "rect"],
-            "--dither",
-            "tpdf",
-        ),
-    ];
-    for (extra, option, expected) in cases {
-        for out in ["x.csv", "x.raw"] {
-            let s = Scratch::new("adc", "bad");
-            let o = generate(&s, out, extra);
-            let e = text(&o.stderr);
-            assert_eq!(o.status.code(), Some(2), "{extra:?}: {e}");
-            assert!(e.contains(&format!("option {option}:")), "{extra:?}: {e}");
-            assert!(e.contains(expected), "{extra:?}: {e}");
-            let left: Vec<_> = std::fs::read_dir(&s.dir)
-                .unwrap()
-                .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-                .filter(|n| n != "w.toml")
-                .collect();
-            assert!(left.is_empty(), "{extra:?}: left {left:?}");
-        }
-    }
-    // Outputs that cannot hold the codes.
-    let bits = ["--bits", "12", "--range", "-1.65V..1.65V"];
-    for (out, option, expected) in [
-        ("x.wav", "--bits", "WAV"),
-        ("x.u16", "--output", ".i16"),
-        ("x.i24", "--output", "i16"),
-        ("x.f32", "--output", "i16"),
-    ] {
-        let s = Scratch::new("adc", "badout");
-        let o = generate(&s, out, &bits);
-        let e = text(&o.stderr);
-        assert_eq!(o.status.code(), Some(2), "{out}: {e}");
-        assert!(
-            e.contains(&format!("option {option}:")) && e.contains(expected),
-            "{out}: {e}"
-        );
-        assert!(!s.path(out).exists());
-    }
-    // Code extensions without --bits.
-    let s = Scratch::new("adc", "badext");
-    let o = generate(&s, "x.u16", &[]);
-    assert_eq!(o.status.code(), Some(2));
-    assert!(text(&o.stderr).contains("--bits"), "{}", text(&o.stderr));
-    // A range in volts for a profile in amperes.
-    let p = s.file(
-        "a.toml",
-        &WHITE.replace("\"V\"", "\"A\"").replace("mV", "mA"),
-    );
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "--samples",
-            "10",
-            "--bits",
-            "12",
-            "--range",
-            "0V..1V",
-            "-o",
-            "y.csv",
-        ],
-        &s.dir,
-    );
-    let e = text(&o.stderr);
-    assert_eq!(o.status.code(), Some(2), "{e}");
-    assert!(e.contains("option --range:") && e.contains("in A"), "{e}");
-    assert!(!s.path("y.csv").exists());
-}
-
 /// The floor note uses the noise the converter adds: 4 bits over ±1.65 V add Q/√(6·fs) =
 /// 384 µV/√Hz undithered (14.3 dB below the 2 mV/√Hz floor: no note) and Q/√(2·fs) =
 /// 665 µV/√Hz with TPDF dither (9.6 dB: a note), REFERENCES §9.
@@ -394,19 +278,6 @@ fn the_floor_note_counts_the_dither() {
         "{}",
         m["notes"]
     );
-}
-
-/// `analyze` does not map codes back to levels yet; it must say so rather than read codes as
-/// digital or physical values.
-#[test]
-fn analyze_refuses_code_files_instead_of_misreading_them() {
-    let s = Scratch::new("adc", "analyze");
-    let o = generate(&s, "a.i16", &["--bits", "12", "--range", "-1.65V..1.65V"]);
-    assert!(o.status.success(), "{}", text(&o.stderr));
-    let o = run(&["analyze", "a.i16"], &s.dir);
-    let e = text(&o.stderr);
-    assert_eq!(o.status.code(), Some(2), "{e}");
-    assert!(e.contains("a.i16.json") && e.contains("ADC codes"), "{e}");
 }
 
 /// numpy as the independent reader and re-implementation (tests/python/adc_ref.py): it reads

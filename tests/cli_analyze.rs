@@ -1,6 +1,6 @@
 //! CLI tests of `noisewright analyze`: readers of every format, the density and statistics
 //! against numpy/SciPy, the verdict against a profile, the fit round trip, burst levels,
-//! pictures, and bad input (exit 2 with a message naming the file).
+//! pictures. Malformed captures are rows of tests/error_classes.rs.
 
 mod common;
 
@@ -718,63 +718,6 @@ fn hand_written_64_bit_float_wav_reads_back() {
             "{err}"
         );
     }
-}
-
-/// Malformed or truncated input: exit 2, a message naming the file and what is wrong.
-#[test]
-fn malformed_and_truncated_files_are_refused_with_exit_2() {
-    let s = scratch("bad");
-    let prof = s.file("white.toml", WHITE);
-    let wav = s.path("ok.wav");
-    generate(&prof, &wav, &["--samples", "10000"]);
-    let bytes = std::fs::read(&wav).unwrap();
-    let cases: Vec<(&str, Vec<u8>, &str, Vec<&str>)> = vec![
-        (
-            "cut.wav",
-            bytes[..bytes.len() / 2].to_vec(),
-            "truncated",
-            vec![],
-        ),
-        ("head.wav", bytes[..20].to_vec(), "truncated", vec![]),
-        (
-            "text.wav",
-            b"hello, this is not audio".to_vec(),
-            "not a WAV",
-            vec![],
-        ),
-        ("empty.wav", Vec::new(), "not a WAV", vec![]),
-        (
-            "odd.i24",
-            vec![0u8; 3 * 100 + 1],
-            "truncated",
-            vec!["--rate", "1kHz"],
-        ),
-        (
-            "bad.csv",
-            b"time_s,value_V\n0,1\n0.001,oops\n".to_vec(),
-            "line 3",
-            vec![],
-        ),
-        ("nohead.csv", b"0,1\n0.001,2\n".to_vec(), "header", vec![]),
-    ];
-    for (name, body, needle, extra) in cases {
-        let p = s.path(name);
-        std::fs::write(&p, body).unwrap();
-        let (code, _, err) = analyze(&p, &extra);
-        assert_eq!(code, 2, "{name}: {err}");
-        assert!(err.contains(name) && err.contains(needle), "{name}: {err}");
-    }
-    // A raw file without its rate says which option is missing.
-    let p = s.path("norate.f32");
-    std::fs::write(&p, [0u8; 400]).unwrap();
-    let (code, _, err) = analyze(&p, &[]);
-    assert_eq!(code, 2);
-    assert!(err.contains("--rate"), "{err}");
-    // Digital values with a profile but no scale.
-    std::fs::remove_file(format!("{}.json", wav.display())).unwrap();
-    let (code, _, err) = analyze(&wav, &["--profile", prof.to_str().unwrap()]);
-    assert_eq!(code, 2);
-    assert!(err.contains("--full-scale"), "{err}");
 }
 
 /// `--plot` writes an SVG with the density; `--report` one HTML page with three inline SVGs,

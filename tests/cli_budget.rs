@@ -1,5 +1,5 @@
-//! CLI tests of `noisewright budget`: the text report, the JSON keys, the SVG chart, and bad
-//! input (exit 2, a message naming file, line and key or the option).
+//! CLI tests of `noisewright budget`: the text report, the JSON keys and the SVG chart. Bad
+//! input is in tests/error_classes.rs.
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -167,61 +167,4 @@ fn plot_writes_an_svg_with_every_source_and_the_band_edges() {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     assert_eq!(left, ["budget.svg"]);
-}
-
-#[test]
-fn bad_input_exits_2_naming_the_file_line_and_key() {
-    let dir = scratch("bad");
-    let cases: &[(&str, &str, &[&str], &[&str])] = &[
-        (
-            "topology",
-            &WORKED.replace("\"non-inverting\"", "\"sideways\""),
-            &[],
-            &["topology.toml:8", "amplifier[0].topology", "\"inverting\""],
-        ),
-        (
-            "unknown",
-            &WORKED.replace("temperature", "temprature"),
-            &[],
-            &[
-                "unknown.toml:14",
-                "amplifier[0].temprature",
-                "did you mean `temperature`",
-            ],
-        ),
-        (
-            "current",
-            &WORKED.replace("1 pA/rtHz", "1 pV/rtHz"),
-            &[],
-            &["current.toml:10", "amplifier[0].current_density"],
-        ),
-        (
-            "band",
-            WORKED,
-            &["--band", "10Hz-20Hz"],
-            &["--band", "low..high"],
-        ),
-        (
-            "order",
-            WORKED,
-            &["--band", "1..2", "--order", "9"],
-            &["--order"],
-        ),
-    ];
-    for (name, body, extra, needles) in cases {
-        let p = dir.join(format!("{name}.toml"));
-        std::fs::write(&p, body).unwrap();
-        let mut args = vec!["budget", p.to_str().unwrap()];
-        args.extend_from_slice(extra);
-        let o = run(&args, &dir);
-        assert_eq!(o.status.code(), Some(2), "{name}: {}", text(&o.stderr));
-        let err = text(&o.stderr);
-        for n in *needles {
-            assert!(err.contains(n), "{name}: {err:?} lacks {n:?}");
-        }
-        assert!(o.stdout.is_empty(), "{name}");
-    }
-    let o = run(&["budget", "missing.toml"], &dir);
-    assert_eq!(o.status.code(), Some(2));
-    assert!(text(&o.stderr).contains("missing.toml"));
 }

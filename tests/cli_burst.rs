@@ -1,5 +1,5 @@
 //! CLI tests of burst sources in `noisewright generate`: per-source CSV columns, the manifest's
-//! burst keys, the summary, and bad burst input (exit 2, file, line and key, no output).
+//! burst keys and the summary. Bad burst input is in tests/error_classes.rs.
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
@@ -191,69 +191,4 @@ fn a_burst_only_profile_writes_exact_levels() {
         "{}",
         text(&o.stdout)
     );
-}
-
-#[test]
-fn bad_bursts_and_options_exit_2_naming_file_line_and_key() {
-    let dir = scratch("bad");
-    let cases: &[(&str, &str, &[&str])] = &[
-        (
-            "lengths",
-            "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 2]\n",
-            &[
-                "lengths.toml:8: burst[0].dwell",
-                "3 levels but 2 dwell times",
-            ],
-        ),
-        (
-            "one-level",
-            "[[burst]]\nlevels = [\"1 uV\"]\ndwell = [1]\n",
-            &["one-level.toml:7: burst[0].levels", "at least two levels"],
-        ),
-        (
-            "zero-dwell",
-            "[[burst]]\nlevels = [0, 1]\ndwell = [\"0 s\", 1]\n",
-            &["zero-dwell.toml:8: burst[0].dwell[0]", "> 0"],
-        ),
-        (
-            "row-sum",
-            "[[burst]]\nlevels = [0, 1, 2]\ndwell = [1, 1, 1]\nnext = [[0, 0.5, 0.6], [1, 0, 0], [1, 0, 0]]\n",
-            &["row-sum.toml:9: burst[0].next[0]", "sum to 1"],
-        ),
-        (
-            "self-jump",
-            "[[burst]]\nlevels = [0, 1]\ndwell = [1, 1]\nnext = [[0, 1], [0.5, 0.5]]\n",
-            &[
-                "self-jump.toml:9: burst[0].next[1]",
-                "cannot jump to itself",
-            ],
-        ),
-    ];
-    for (name, body, needles) in cases {
-        let p = write(&dir, &format!("{name}.toml"), body);
-        let o = run(&["generate", p.to_str().unwrap(), "-o", "x.csv"], &dir);
-        let err = text(&o.stderr);
-        assert_eq!(o.status.code(), Some(2), "{name}: {err}");
-        for n in *needles {
-            assert!(err.contains(n), "{name}: {n:?} missing from {err:?}");
-        }
-        assert!(!dir.join("x.csv").exists(), "{name}: left an output");
-    }
-    let p = write(&dir, "mixed.toml", MIXED);
-    for (args, needle) in [
-        (&["-o", "x.wav", "--columns", "sources"][..], "--columns"),
-        (&["-o", "x.csv", "--columns", "all"][..], "--columns"),
-        (
-            &["-o", "x.csv", "--loop", "--samples", "1000"][..],
-            "--loop",
-        ),
-    ] {
-        let mut a = vec!["generate", p.to_str().unwrap()];
-        a.extend_from_slice(args);
-        let o = run(&a, &dir);
-        let err = text(&o.stderr);
-        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
-        assert!(err.contains(needle), "{args:?}: {err}");
-        assert!(!dir.join("x.wav").exists() && !dir.join("x.csv").exists());
-    }
 }

@@ -1,6 +1,7 @@
 //! CLI tests of the array outputs of `noisewright generate`: `.npy` read back by numpy.load,
 //! a C header compiled by the system C compiler, each compared value for value with the raw
-//! output of the same run; the manifest's container keys; bad input (exit 2, no file).
+//! output of the same run; the manifest's container keys. Bad input is in
+//! tests/error_classes.rs.
 
 mod common;
 
@@ -356,39 +357,6 @@ fn wav_manifest_names_the_riff_container() {
     assert_eq!(&std::fs::read(&w).unwrap()[..4], b"RIFF");
 }
 
-/// Bad requests for the array formats: exit 2, a message naming the option, and no file.
-#[test]
-fn bad_array_requests_are_refused_with_exit_2_and_no_output() {
-    let dir = Scratch::new("formats", "bad");
-    let profile = dir.file("demo.toml", PROFILE);
-    let p = profile.to_str().unwrap();
-    let cases: &[(&[&str], &str)] = &[
-        (&["-o", "x.h", "--name", "2fast"], "--name"),
-        (&["-o", "x.h", "--name", "static"], "--name"),
-        (&["-o", "x.h", "--name", "a-b"], "--name"),
-        (&["-o", "x.wav", "--name", "ok_name"], "--name"),
-        (&["-o", "-", "--format", "npy"], "--output"),
-        (&["-o", "-", "--format", "c"], "--output"),
-        (&["-o", "x.npy", "--duration", "inf"], "--duration"),
-        (&["-o", "x.npy", "--format", "mat"], "--format"),
-    ];
-    for (extra, needle) in cases {
-        let mut args = vec!["generate", p, "--samples", "100"];
-        args.extend_from_slice(extra);
-        let o = nw(&args, &dir.dir);
-        let err = text(&o.stderr);
-        assert_eq!(o.status.code(), Some(2), "{extra:?}: {err}");
-        assert!(err.contains(needle), "{extra:?}: {err}");
-        assert!(o.stdout.is_empty(), "{extra:?}: wrote to stdout");
-        let left: Vec<_> = std::fs::read_dir(&dir.dir)
-            .unwrap()
-            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-            .filter(|n| n != "demo.toml")
-            .collect();
-        assert!(left.is_empty(), "{extra:?}: left {left:?}");
-    }
-}
-
 /// `analyze` reads an RF64 file: our RIFF output rewritten by hand into the EBU Tech 3306
 /// layout (ds64 chunk first, 0xFFFFFFFF size markers) gives the same statistics and
 /// density as the RIFF file itself.
@@ -426,18 +394,5 @@ fn analyze_reads_rf64_like_the_same_riff_file() {
     assert_eq!(b["samples"], SAMPLES);
     for key in ["samples", "mean", "rms", "std", "min", "max", "density"] {
         assert_eq!(a[key], b[key], "{key}");
-    }
-}
-
-/// `analyze` refuses the array formats by name instead of reading a header as samples.
-#[test]
-fn analyze_refuses_npy_and_c_headers_by_name() {
-    let dir = Scratch::new("formats", "anpy");
-    for out in ["a.npy", "a.h"] {
-        let p = generate(&dir, out, &[]);
-        let o = nw(&["analyze", p.to_str().unwrap()], &dir.dir);
-        let err = text(&o.stderr);
-        assert_eq!(o.status.code(), Some(2), "{out}: {err}");
-        assert!(err.contains("not read by analyze"), "{out}: {err}");
     }
 }
