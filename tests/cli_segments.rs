@@ -11,7 +11,9 @@ const SEED: &str = "17";
 
 /// Raw f64 samples of `profile` from sample `start`, `len` samples long.
 fn piece(dir: &Path, profile: &str, start: u64, len: u64, extra: &[&str]) -> Vec<u8> {
-    let ext = if extra.contains(&"--bits") {
+    // A raw extension such as .f64 names its sample format, so codes or another
+    // --sample-format go into a .bin file.
+    let ext = if extra.contains(&"--bits") || extra.contains(&"--sample-format") {
         "bin"
     } else {
         "f64"
