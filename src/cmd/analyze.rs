@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 
 use super::generate::manifest_path;
+use super::pending::{PendingFile, commit_all};
 use crate::analysis::capture::{
     BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
 };
@@ -336,6 +337,15 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         profile.as_ref().map(|p| p.band.low_hz),
     )?;
 
+    // The output files are made before the passes, so a folder that cannot take them fails
+    // before the work; they land together at the end or not at all.
+    let pending = |p: &Option<PathBuf>| p.as_deref().map(PendingFile::create).transpose();
+    let (fit_out, plot_out, report_out) = (
+        pending(&args.fit)?,
+        pending(&args.plot)?,
+        pending(&args.report)?,
+    );
+
     let mut first = FirstPass::new(fs, seg_len, TRACE_SAMPLES);
     pass(&args.file, &options, &scale, interrupted, &mut |x| {
         first.push(x)
@@ -511,7 +521,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     if !tone_json.is_empty() {
         json["tones"] = serde_json::json!(tone_json);
     }
-    if let Some(path) = &args.fit {
+    if let (Some(path), Some(out)) = (&args.fit, &fit_out) {
         // The band of --profile, else the band recorded in the manifest of a generated file.
         let band = profile
             .as_ref()
@@ -548,24 +558,30 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             None => fit_floor(&report, &options),
         }?;
         let toml = fit.to_profile_toml(&report, &name);
-        fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+        out.write_all(toml.as_bytes())?;
         json["fit"] = fit.to_json();
         json["fit"]["profile_file"] = serde_json::json!(path.display().to_string());
     }
     let density_svg = (args.plot.is_some() || args.report.is_some())
         .then(|| figure::density_svg(&report, profile.as_ref(), design.as_ref()));
-    if let (Some(path), Some(svg)) = (&args.plot, &density_svg) {
-        fs::write(path, svg).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+    if let (Some(out), Some(svg)) = (&plot_out, &density_svg) {
+        out.write_all(svg.as_bytes())?;
     }
-    if let Some(path) = &args.report {
+    if let Some(out) = &report_out {
         let html = figure::report_html(
             &report,
             &json,
             density_svg.as_deref().unwrap_or(""),
             profile.as_ref(),
         );
-        fs::write(path, html).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+        out.write_all(html.as_bytes())?;
     }
+    commit_all(
+        [fit_out, plot_out, report_out]
+            .into_iter()
+            .flatten()
+            .collect(),
+    )?;
     let output = if args.json {
         let mut s = serde_json::to_string_pretty(&json).expect("JSON values serialise");
         s.push('\n');

@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 use std::rc::Rc;
 use std::sync::atomic::{AtomicBool, Ordering};
 
+use super::pending::{PendingFile, commit_all};
 use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::analysis::stats::RunningStats;
 use crate::density;
@@ -629,7 +630,8 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 interrupted,
                 &progress,
             )
-            .and_then(|_| sink.finish());
+            .and_then(|_| sink.finish())
+            .map_err(|e| naming_output(e, "standard output"));
             match result {
                 Ok(r) => report = r,
                 Err(Error::Io { source, .. }) if source.kind() == io::ErrorKind::BrokenPipe => {
@@ -639,7 +641,12 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             }
         }
         Target::File(path) => {
+            let shown = path.display().to_string();
+            let manifest_path = manifest_path(path);
+            // Both files are made before the run, so a folder that cannot take them fails
+            // before the work, and neither lands unless both were written (commit_all).
             let pending = PendingFile::create(path)?;
+            let mp = PendingFile::create(&manifest_path)?;
             {
                 let writer = BufWriter::with_capacity(1 << 20, pending.file()?);
                 let mut sink = make_sink(&spec, Box::new(writer))?;
@@ -651,8 +658,9 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     &mut channel_stats,
                     interrupted,
                     &progress,
-                )?;
-                report = sink.finish()?;
+                )
+                .map_err(|e| naming_output(e, &shown))?;
+                report = sink.finish().map_err(|e| naming_output(e, &shown))?;
             }
             if let (Some(a), true) = (&adc, report.clipped > 0 && !args.allow_clipping) {
                 let (lo, hi) = a.suggest_range(stats.min(), stats.max());
@@ -713,11 +721,10 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 );
                 channel_manifest(&mut manifest, &profile, expected_rms, &channel_stats);
             }
-            let manifest_path = manifest_path(path);
-            let mp = PendingFile::create(&manifest_path)?;
-            write_manifest(&manifest, BufWriter::new(mp.file()?))?;
-            pending.commit()?;
-            mp.commit()?;
+            write_manifest(&manifest, BufWriter::new(mp.file()?))
+                .map_err(|e| naming_output(e, &manifest_path.display().to_string()))?;
+            // The noise file last: where it exists, its manifest does too.
+            commit_all(vec![mp, pending])?;
         }
     }
     progress.finish_and_clear();
@@ -999,6 +1006,19 @@ pub(crate) fn manifest_path(path: &Path) -> PathBuf {
     PathBuf::from(s)
 }
 
+/// An I/O error of a writer names where its bytes were going (`target`: the output file
+/// the user named, not its temporary name, or standard output); other errors pass as they
+/// are.
+fn naming_output(e: Error, target: &str) -> Error {
+    match e {
+        Error::Io { context, source } => Error::Io {
+            context: format!("{context} to {target}"),
+            source,
+        },
+        other => other,
+    }
+}
+
 /// Runs the engine into the sink: `samples` frames (None: until interrupted) of
 /// `channel_stats.len()` interleaved channels; `stats` over every sample, `channel_stats`
 /// per channel (only kept for more than one channel).
@@ -1053,59 +1073,6 @@ fn progress_bar(samples: Option<u64>) -> indicatif::ProgressBar {
             bar
         }
         _ => indicatif::ProgressBar::hidden(),
-    }
-}
-
-/// A file being written under a temporary name beside its target; renamed into place by
-/// [`PendingFile::commit`], removed if dropped before that (an error or an interruption).
-struct PendingFile {
-    tmp: PathBuf,
-    target: PathBuf,
-    committed: bool,
-}
-
-impl PendingFile {
-    fn create(target: &Path) -> Result<PendingFile> {
-        let dir = match target.parent() {
-            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-            _ => PathBuf::from("."),
-        };
-        if !dir.is_dir() {
-            fs::create_dir_all(&dir)
-                .map_err(|e| Error::io(format!("creating folder {}", dir.display()), e))?;
-        }
-        let name = target
-            .file_name()
-            .map_or("output".into(), |n| n.to_string_lossy().into_owned());
-        let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
-        fs::File::create(&tmp).map_err(|e| Error::io(format!("creating {}", tmp.display()), e))?;
-        Ok(PendingFile {
-            tmp,
-            target: target.to_path_buf(),
-            committed: false,
-        })
-    }
-
-    fn file(&self) -> Result<fs::File> {
-        fs::OpenOptions::new()
-            .write(true)
-            .open(&self.tmp)
-            .map_err(|e| Error::io(format!("opening {}", self.tmp.display()), e))
-    }
-
-    fn commit(mut self) -> Result<()> {
-        fs::rename(&self.tmp, &self.target)
-            .map_err(|e| Error::io(format!("renaming into {}", self.target.display()), e))?;
-        self.committed = true;
-        Ok(())
-    }
-}
-
-impl Drop for PendingFile {
-    fn drop(&mut self) {
-        if !self.committed {
-            let _ = fs::remove_file(&self.tmp);
-        }
     }
 }
 

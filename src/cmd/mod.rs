@@ -3,6 +3,7 @@
 pub mod analyze;
 pub mod budget;
 pub mod generate;
+mod pending;
 
 use std::sync::atomic::AtomicBool;
 
