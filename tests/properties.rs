@@ -842,8 +842,9 @@ struct Measured {
 
 /// Property A. Each case fails by chance with probability at most FALSE_ALARM = 1e−3 for its
 /// Gaussian bands (Bonferroni over the bands, as `analyze`), plus 1e−3 per burst for the
-/// step-power bound; over the 40 fixed cases (≈ 14 bursts among them) the family-wise
-/// probability of a chance failure is at most 40 × 1e−3 + 14 × 1e−3 ≈ 5 %, and since the
+/// step-power bound; over the 40 fixed cases (the generator gives ≈ 0.47 bursts a case, so
+/// ≈ 19 bursts) the family-wise probability of a chance failure is at most
+/// 40 × 1e−3 + 19 × 1e−3 ≈ 6 %, and since the
 /// seeds are fixed a pass is reproducible: only a change of the engine, the generator or
 /// the seeds draws new noise.
 #[test]
