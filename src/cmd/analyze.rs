@@ -33,7 +33,7 @@ const TRACE_SAMPLES: usize = 4096;
 const HIST_BINS: usize = 201;
 /// A tone's leakage is left out of the bins where it exceeds this fraction of the designed
 /// noise density (biasing a kept bin by < 0.005 dB).
-const TONE_LEAKAGE: f64 = 1e-3;
+pub const TONE_LEAKAGE: f64 = 1e-3;
 /// Total false-failure probability of the band verdicts, split over the bands (Bonferroni).
 pub const FALSE_ALARM: f64 = 1e-3;
 /// Default engineering tolerance, dB.

@@ -13,7 +13,9 @@ use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::analysis::stats::RunningStats;
 use crate::density;
 use crate::error::{Error, Result};
-use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
+use crate::profile::{
+    Dimension, Profile, format_quantity, format_quantity_exact, parse_profile, parse_quantity,
+};
 use crate::sink::{
     CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, open_sink, rms_digital_from_dbfs,
     wav_plan, write_manifest,
@@ -671,7 +673,12 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     count: report.clipped,
                     total: report.samples,
                     range: range_text(a.lo(), a.hi(), unit),
-                    suggested: range_text(lo, hi, unit),
+                    // Two significant digits by design: the display form reads them as meant.
+                    suggested: format!(
+                        "{}..{}",
+                        format_quantity(lo, unit),
+                        format_quantity(hi, unit)
+                    ),
                 });
             }
             if report.clipped > 0 && !args.allow_clipping {
@@ -904,12 +911,13 @@ fn adc_from_args(args: &GenerateArgs, profile: &Profile) -> Result<Option<Adc>> 
     ))
 }
 
-/// `lo..hi` with units, as `--range` accepts it.
+/// `lo..hi` with units, as `--range` accepts it, each end exactly as given (it parses back
+/// to the same range).
 fn range_text(lo: f64, hi: f64, unit: &str) -> String {
     format!(
         "{}..{}",
-        format_quantity(lo, unit),
-        format_quantity(hi, unit)
+        format_quantity_exact(lo, unit),
+        format_quantity_exact(hi, unit)
     )
 }
 
@@ -1208,11 +1216,11 @@ fn summary_text(
     );
     s += &format!(
         "  band            {} .. {} (order {}), {} samples at {}{}\n",
-        format_quantity(profile.band.low_hz, "Hz"),
-        format_quantity(profile.band.high_hz, "Hz"),
+        format_quantity_exact(profile.band.low_hz, "Hz"),
+        format_quantity_exact(profile.band.high_hz, "Hz"),
         profile.band.order,
         stats.count() / profile.channels.max(1) as u64,
-        format_quantity(profile.sample_rate_hz, "Hz"),
+        format_quantity_exact(profile.sample_rate_hz, "Hz"),
         if args.loop_buffer {
             ", loop buffer"
         } else {
@@ -1473,14 +1481,14 @@ fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> String {
     if profile.offset != 0.0 {
         s += &format!(
             "  offset          {} added to every sample (in the mean and RMS above)\n",
-            q(profile.offset)
+            format_quantity_exact(profile.offset, u)
         );
     }
     for (i, (t, (snr_db, enob))) in profile.tones.iter().zip(snr).enumerate() {
         s += &format!(
             "  tone            {}: {}, {} peak ({} RMS), phase {:.3} deg\n",
             t.name,
-            format_quantity(t.frequency_hz, "Hz"),
+            format_quantity_exact(t.frequency_hz, "Hz"),
             q(t.peak),
             q(t.rms()),
             t.phase_rad.to_degrees()
