@@ -78,11 +78,11 @@ impl Generator {
         let fs = profile.sample_rate_hz;
         // The chains are simulated jump by jump: a profile built by hand (or designed at
         // another rate) with dwell times below the schema's limit would never finish a sample.
-        if let Some(b) = profile
-            .bursts
-            .iter()
-            .find(|b| b.dwell_s.iter().any(|t| !(t * fs >= MIN_DWELL_SAMPLES)))
-        {
+        if let Some(b) = profile.bursts.iter().find(|b| {
+            b.dwell_s
+                .iter()
+                .any(|t| t.is_nan() || t * fs < MIN_DWELL_SAMPLES)
+        }) {
             return Err(Error::Unsupported(format!(
                 "burst {:?}: every dwell time must be at least 1/1000 of a sample period ({} \
                  at {}); the shortest is {}",
