@@ -1,8 +1,12 @@
 //! Arbitrary bytes as a capture for every reader `analyze` has (WAV incl. RF64/BW64, CSV,
-//! raw in each sample format) and as the JSON manifest beside it. The first byte picks the
-//! reader and its options; the rest is the file. Every reader must return values or an
-//! error, never panic, and never yield more values than asked for.
+//! raw in each sample format), as the JSON manifest beside it, and as the `.npy` and `.h`
+//! files `analyze` refuses. The first byte picks the reader and its options; the rest is the
+//! file, handed over in reads of one size (whole, 1 byte or 7 bytes, by the input's length,
+//! as a file or a pipe may). Every reader must return values or an error, never panic, and
+//! never yield more values than asked for.
 #![no_main]
+
+use std::io::Read;
 
 use libfuzzer_sys::fuzz_target;
 use noisewright::sink::{Format, SampleFormat};
@@ -23,11 +27,14 @@ fuzz_target!(|data: &[u8]| {
     let (format, sample_format) = match sel % 8 {
         0 | 1 => (Format::Wav, None),
         2 | 3 => (Format::Csv, None),
-        4 => {
+        4 if sel & 8 == 0 => {
             // The manifest parser reads the same untrusted directory.
             let _ = SideManifest::parse(&String::from_utf8_lossy(file), "fuzz.json");
             return;
         }
+        // Containers analyze names but does not read: refused before any byte is read.
+        4 if sel & 16 == 0 => (Format::Npy, None),
+        4 => (Format::C, None),
         _ => (
             Format::Raw,
             Some(FORMATS[(sel as usize / 8) % FORMATS.len()]),
@@ -43,10 +50,15 @@ fuzz_target!(|data: &[u8]| {
         format,
         sample_format,
         rate_hz,
-        fallback_rate_hz: Some(1000.0),
+        // Bit 3 of a WAV or CSV selector: no manifest rate to fall back on.
+        fallback_rate_hz: (format == Format::Raw || sel & 8 == 0).then_some(1000.0),
         name: "fuzz.capture".into(),
     };
-    let Ok(mut source) = open_source(file, &options) else {
+    let input = Chunked {
+        data: file,
+        chunk: [usize::MAX, 1, 7][data.len() % 3],
+    };
+    let Ok(mut source) = open_source(input, &options) else {
         return;
     };
     let mut out = Vec::new();
@@ -61,3 +73,18 @@ fuzz_target!(|data: &[u8]| {
         }
     }
 });
+
+/// A reader that hands out at most `chunk` bytes per call.
+struct Chunked<'a> {
+    data: &'a [u8],
+    chunk: usize,
+}
+
+impl Read for Chunked<'_> {
+    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
+        let n = buf.len().min(self.chunk).min(self.data.len());
+        buf[..n].copy_from_slice(&self.data[..n]);
+        self.data = &self.data[n..];
+        Ok(n)
+    }
+}

@@ -20,7 +20,7 @@ const DIMS: [Dimension; 6] = [
 const PREFIXES: [&str; 13] = [
     "", "f", "p", "n", "u", "\u{b5}", "\u{3bc}", "m", "k", "M", "G", "T", "x",
 ];
-const UNITS: [&str; 20] = [
+const UNITS: [&str; 22] = [
     "",
     "Hz",
     "s",
@@ -30,6 +30,8 @@ const UNITS: [&str; 20] = [
     "\u{b0}C",
     "K",
     "Ohm",
+    "ohm",
+    "Ohms",
     "ohms",
     "\u{3a9}",
     "\u{2126}",

@@ -4,7 +4,7 @@
 //! [[burst]]
 //! name = "input trap"                  # optional, default "burst 1", "burst 2", …
 //! levels = ["0 uV", "3 uV", "7 uV"]    # ≥ 2 levels in the profile unit (V or A)
-//! dwell = ["20 ms", "5 ms", "2 ms"]    # mean time spent in each level per visit, > 0
+//! dwell = ["20 ms", "5 ms", "2 ms"]    # mean time per visit of each level, ≥ 1/1000 of 1/fs
 //! next = [[0, 0.7, 0.3], [1, 0, 0], [0.5, 0.5, 0]]  # optional jump probabilities
 //! sampling = "instant"                 # optional: "instant" (default) or "mean"
 //! ```
@@ -29,6 +29,14 @@ pub(super) const BURST_KEYS: &[&str] = &["name", "levels", "dwell", "next", "sam
 
 /// How far a `next` row's sum may be from 1 before it is refused (absolute).
 pub const NEXT_ROW_TOLERANCE: f64 = 1e-6;
+
+/// Shortest mean dwell time accepted, in sample periods (1/fs). The engine simulates a burst
+/// jump by jump, so a level this short costs up to 1/`MIN_DWELL_SAMPLES` = 1000 jumps per
+/// sample; without a bound a dwell of 1e-30 s never finishes one sample. A level visited
+/// for a thousandth of a sample is too brief to show in the samples anyway: noise that fast is
+/// white at this rate (a `[[floor]]` describes it). The value is this crate's cost limit, not
+/// a physical one.
+pub const MIN_DWELL_SAMPLES: f64 = 1e-3;
 
 /// How a burst source's path becomes one sample.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -100,15 +108,16 @@ pub(super) struct RawBurst {
     sampling: Option<Spanned<Value>>,
 }
 
-/// Validate every `[[burst]]` table, in file order.
+/// Validate every `[[burst]]` table, in file order, against the sample rate `fs` (Hz).
 pub(super) fn validate_bursts(
     cx: &Cx<'_>,
     raw: &[Spanned<RawBurst>],
     unit: Unit,
+    fs: f64,
 ) -> Result<Vec<Burst>> {
     raw.iter()
         .enumerate()
-        .map(|(i, b)| validate_burst(cx, i, b.get_ref(), b.span(), unit))
+        .map(|(i, b)| validate_burst(cx, i, b.get_ref(), b.span(), unit, fs))
         .collect()
 }
 
@@ -118,6 +127,7 @@ fn validate_burst(
     b: &RawBurst,
     span: Range<usize>,
     unit: Unit,
+    fs: f64,
 ) -> Result<Burst> {
     let key = |k: &str| format!("burst[{i}].{k}");
     let levels_v = b.levels.as_ref().ok_or_else(|| {
@@ -172,13 +182,22 @@ fn validate_burst(
     }
     let mut dwell_s = Vec::with_capacity(k);
     for (j, v) in dwell_v.get_ref().iter().enumerate() {
-        let t = positive(
-            cx,
-            v,
-            &format!("{}[{j}]", key("dwell")),
-            Dimension::Time,
-            unit,
-        )?;
+        let jkey = format!("{}[{j}]", key("dwell"));
+        let t = positive(cx, v, &jkey, Dimension::Time, unit)?;
+        if t * fs < MIN_DWELL_SAMPLES {
+            return Err(cx.err(
+                &jkey,
+                Some(v.span()),
+                format!(
+                    "must be at least 1/1000 of a sample period ({} at sample_rate {}), got \
+                     {}: every jump is simulated, and a level that brief is white noise at \
+                     this rate (describe it with a [[floor]], or raise sample_rate)",
+                    format_quantity(MIN_DWELL_SAMPLES / fs, "s"),
+                    format_quantity(fs, "Hz"),
+                    format_quantity(t, "s")
+                ),
+            ));
+        }
         dwell_s.push(t);
     }
     let next = match &b.next {
@@ -497,5 +516,24 @@ mod tests {
             "{e}"
         );
         assert_eq!(e.exit_code(), 2);
+    }
+
+    /// At 10 kHz a sample period is 100 µs, so the shortest dwell is 100 ns: exactly that is
+    /// accepted, just below (or 1e-30 s, which would never finish a sample) is refused at its
+    /// own key and line, saying the limit.
+    #[test]
+    fn dwell_below_a_thousandth_of_a_sample_is_refused() {
+        let p = parse("[[burst]]\nlevels = [0, 1]\ndwell = [\"100 ns\", 1]\n").unwrap();
+        assert_eq!(p.bursts[0].dwell_s[0] * p.sample_rate_hz, MIN_DWELL_SAMPLES);
+        for short in ["\"99 ns\"", "\"1e-30 s\""] {
+            let (k, l, msg) = fail(&format!(
+                "[[burst]]\nlevels = [0, 1]\ndwell = [1,\n  {short}]\n"
+            ));
+            assert_eq!((k.as_str(), l), ("burst[0].dwell[1]", Some(8)), "{msg}");
+            assert!(
+                msg.contains("1/1000 of a sample period (100 ns at sample_rate 10 kHz)"),
+                "{msg}"
+            );
+        }
     }
 }

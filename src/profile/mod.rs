@@ -10,7 +10,7 @@ mod quantity;
 mod schema;
 mod tone;
 
-pub use burst::{Burst, BurstSampling, NEXT_ROW_TOLERANCE, describe_levels};
+pub use burst::{Burst, BurstSampling, MIN_DWELL_SAMPLES, NEXT_ROW_TOLERANCE, describe_levels};
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };

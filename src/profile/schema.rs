@@ -731,7 +731,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
     for (i, a) in raw.amplifier.iter().enumerate() {
         sources.extend(amplifier::validate(cx, i, a, unit)?);
     }
-    let bursts = validate_bursts(cx, &raw.burst, unit)?;
+    let bursts = validate_bursts(cx, &raw.burst, unit, fs)?;
     let tones = validate_tones(cx, &raw.tone, unit, fs)?;
     let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
     if sources.is_empty() && bursts.is_empty() {

@@ -25,8 +25,8 @@ pub use white::{Domain, WhiteStreams};
 
 use crate::burst::BurstModel;
 use crate::density::target_psd;
-use crate::error::Result;
-use crate::profile::{Profile, Tone};
+use crate::error::{Error, Result};
+use crate::profile::{MIN_DWELL_SAMPLES, Profile, Tone, format_quantity};
 
 /// The streaming engine for a profile: the Gaussian part (its [`Design`] and a seeded
 /// [`Shaper`]) plus one [`BurstChain`] per burst source.
@@ -57,7 +57,10 @@ pub struct Generator {
 }
 
 impl Generator {
-    /// Design the engine for `profile` and seed it with `seed`.
+    /// Design the engine for `profile` and seed it with `seed`. Fails with
+    /// [`crate::Error::Unsupported`] when the design fails or a burst has a dwell time below
+    /// [`MIN_DWELL_SAMPLES`] sample periods at the profile's rate (the schema refuses those
+    /// already; a profile built by hand or moved to another rate may not).
     pub fn new(profile: &Profile, seed: u64) -> Result<Generator> {
         Generator::starting_at(profile, seed, 0)
     }
@@ -72,10 +75,27 @@ impl Generator {
         let design = design_profile(profile)?;
         let shaper =
             (!profile.sources.is_empty()).then(|| Shaper::starting_at(&design, seed, start));
+        let fs = profile.sample_rate_hz;
+        // The chains are simulated jump by jump: a profile built by hand (or designed at
+        // another rate) with dwell times below the schema's limit would never finish a sample.
+        if let Some(b) = profile.bursts.iter().find(|b| {
+            b.dwell_s
+                .iter()
+                .any(|t| t.is_nan() || t * fs < MIN_DWELL_SAMPLES)
+        }) {
+            return Err(Error::Unsupported(format!(
+                "burst {:?}: every dwell time must be at least 1/1000 of a sample period ({} \
+                 at {}); the shortest is {}",
+                b.name,
+                format_quantity(MIN_DWELL_SAMPLES / fs, "s"),
+                format_quantity(fs, "Hz"),
+                format_quantity(b.dwell_s.iter().copied().fold(f64::INFINITY, f64::min), "s")
+            )));
+        }
         let bursts = profile
             .bursts
             .iter()
-            .map(|b| BurstModel::new(b, profile.sample_rate_hz))
+            .map(|b| BurstModel::new(b, fs))
             .collect::<Result<Vec<_>>>()?;
         let streams = WhiteStreams::new(seed);
         let chains = bursts
