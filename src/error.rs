@@ -74,7 +74,9 @@ pub enum Error {
         /// A range that would have held every sample, in the same form.
         suggested: String,
     },
-    /// The run was stopped by SIGINT or SIGTERM; nothing was left under the target name.
+    /// The run was stopped by SIGINT, SIGTERM or SIGHUP; nothing was left under the target
+    /// name. Its exit code is 130 (128 + SIGINT); the binary instead ends by the signal that
+    /// came, once its partial files are gone.
     #[error("interrupted: no output was written under the target name")]
     Interrupted,
     /// The requested output cannot be produced in the chosen format (e.g. a WAV past 4 GiB).

@@ -1,12 +1,13 @@
 //! Structured quantities: a number (sign, digits, fraction, exponent) with an SI prefix and a
-//! unit symbol, parsed as every dimension; and `format_quantity` of any finite value parsed
-//! back. Parsing never panics; a formatted value parses back within its 6 significant digits
-//! and formats to the same text again.
+//! unit symbol, parsed as every dimension; and any finite value formatted and parsed back.
+//! Parsing never panics; `format_quantity_exact` parses back to the very same `f64` (bit for
+//! bit); `format_quantity` (display) parses back within its 6 significant digits and formats
+//! to the same text again.
 #![no_main]
 
 use arbitrary::Arbitrary;
 use libfuzzer_sys::fuzz_target;
-use noisewright::profile::{Dimension, format_quantity, parse_quantity};
+use noisewright::profile::{Dimension, format_quantity, format_quantity_exact, parse_quantity};
 
 const DIMS: [Dimension; 6] = [
     Dimension::Frequency,
@@ -88,7 +89,19 @@ fuzz_target!(|input: Input<'_>| {
             (Dimension::Density, "V/rtHz"),
             (Dimension::Amplitude, "V"),
             (Dimension::Time, "s"),
+            (Dimension::Temperature, "K"),
         ] {
+            let exact = format_quantity_exact(v, unit);
+            let back = parse_quantity(&exact, dim, "V")
+                .unwrap_or_else(|e| panic!("{v:e} written as {exact:?} does not parse: {e}"));
+            assert_eq!(
+                back.to_bits(),
+                v.to_bits(),
+                "{v:e} -> {exact:?} -> {back:e}"
+            );
+            if v == 0.0 {
+                continue;
+            }
             let shown = format_quantity(v, unit);
             let back = parse_quantity(&shown, dim, "V")
                 .unwrap_or_else(|e| panic!("{v:e} formatted as {shown:?} does not parse: {e}"));

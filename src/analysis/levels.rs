@@ -103,9 +103,15 @@ impl LevelTrace {
 
     /// Adds samples (unit).
     pub fn push(&mut self, x: &[f64]) {
-        for &v in x {
-            self.acc += v;
-            self.acc_n += 1;
+        let mut rest = x;
+        while !rest.is_empty() {
+            // The samples that complete the current point, summed one by one in order.
+            let take = (self.m - self.acc_n).min(rest.len());
+            for &v in &rest[..take] {
+                self.acc += v;
+            }
+            rest = &rest[take..];
+            self.acc_n += take;
             if self.acc_n == self.m {
                 self.points.push(self.acc / self.m as f64);
                 self.acc = 0.0;
@@ -128,23 +134,29 @@ impl LevelTrace {
 
     /// The levels, when clearly present (see the module docs); `None` otherwise. `quantum` is
     /// the capture's quantisation step in its unit (one LSB of an integer file), if any.
+    ///
+    /// The fits at every `s` and mixture size are independent and run on rayon's pool; the
+    /// answer is the first success in the order above, whatever the number of threads.
     pub fn detect(&self, quantum: Option<f64>) -> Option<Levels> {
+        use rayon::prelude::*;
+        let mut tries = Vec::new();
         let mut s = 1;
         while self.points.len() / s >= 512 {
-            let y: Vec<f64> = self
-                .points
-                .chunks_exact(s)
-                .map(|c| c.iter().sum::<f64>() / s as f64)
-                .collect();
-            for k in [3, 2] {
-                let dt = (self.m * s) as f64 / self.sample_rate_hz;
-                if let Some(l) = try_levels(&y, k, dt, quantum.unwrap_or(0.0)) {
-                    return Some(l);
-                }
-            }
+            tries.extend([(s, 3), (s, 2)]);
             s *= 2;
         }
-        None
+        tries
+            .into_par_iter()
+            .with_max_len(1)
+            .find_map_first(|(s, k)| {
+                let y: Vec<f64> = self
+                    .points
+                    .chunks_exact(s)
+                    .map(|c| c.iter().sum::<f64>() / s as f64)
+                    .collect();
+                let dt = (self.m * s) as f64 / self.sample_rate_hz;
+                try_levels(&y, k, dt, quantum.unwrap_or(0.0))
+            })
     }
 }
 
@@ -199,21 +211,30 @@ fn fit_mixture(y: &[f64], k: usize) -> Option<Vec<Component>> {
     }
     // Sheppard's floor: a histogram cannot resolve spreads below a bin.
     let sd_floor = width / 12f64.sqrt();
+    // Only occupied bins contribute: keep them (in bin order) once instead of skipping the
+    // empty ones in every iteration.
+    let occupied: Vec<(f64, f64)> = counts
+        .iter()
+        .zip(&centres)
+        .filter(|(c, _)| **c != 0.0)
+        .map(|(&c, &x)| (c, x))
+        .collect();
     let mut resp = vec![0f64; k];
+    let mut height = vec![0f64; k];
     let mut prev_ll = f64::NEG_INFINITY;
     for _ in 0..500 {
         let mut sw = vec![0f64; k];
         let mut sx = vec![0f64; k];
         let mut sxx = vec![0f64; k];
         let mut ll = 0.0;
-        for (c, &x) in counts.iter().zip(&centres) {
-            if *c == 0.0 {
-                continue;
-            }
+        for (h, p) in height.iter_mut().zip(&comps) {
+            *h = p.w / p.sd;
+        }
+        for &(c, x) in &occupied {
             let mut tot = 0.0;
-            for (r, p) in resp.iter_mut().zip(&comps) {
+            for ((r, p), h) in resp.iter_mut().zip(&comps).zip(&height) {
                 let z = (x - p.mu) / p.sd;
-                *r = p.w / p.sd * (-0.5 * z * z).exp();
+                *r = h * (-0.5 * z * z).exp();
                 tot += *r;
             }
             if tot <= 0.0 {

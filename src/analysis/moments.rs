@@ -73,6 +73,7 @@ impl CentralMoments {
         let nb = self.hist.counts.len();
         let scale = nb as f64 / (self.hist.hi - self.hist.lo);
         let limits = SIGMA_LEVELS.map(|k| k * self.std);
+        let top = (nb + 1) as f64;
         for &v in x {
             let d = v - self.mean;
             let d2 = d * d;
@@ -83,9 +84,10 @@ impl CentralMoments {
             for (c, l) in self.within.iter_mut().zip(&limits) {
                 *c += u64::from(a <= *l);
             }
-            let b = ((v - self.hist.lo) * scale).floor();
-            if b >= 0.0 && b <= nb as f64 {
-                self.hist.counts[(b as usize).min(nb - 1)] += 1;
+            // Bin ⌊t⌋ for 0 ≤ ⌊t⌋ ≤ nb, i.e. 0 ≤ t < nb + 1, where truncation is the floor.
+            let t = (v - self.hist.lo) * scale;
+            if t >= 0.0 && t < top {
+                self.hist.counts[(t as usize).min(nb - 1)] += 1;
             }
         }
         self.n += x.len() as u64;

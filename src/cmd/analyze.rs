@@ -5,8 +5,10 @@ use std::fs;
 use std::io::{BufReader, Read};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::mpsc;
 
 use super::generate::manifest_path;
+use super::pending::{PendingFile, commit_all};
 use crate::analysis::capture::{
     BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
 };
@@ -32,7 +34,7 @@ const TRACE_SAMPLES: usize = 4096;
 const HIST_BINS: usize = 201;
 /// A tone's leakage is left out of the bins where it exceeds this fraction of the designed
 /// noise density (biasing a kept bin by < 0.005 dB).
-const TONE_LEAKAGE: f64 = 1e-3;
+pub const TONE_LEAKAGE: f64 = 1e-3;
 /// Total false-failure probability of the band verdicts, split over the bands (Bonferroni).
 pub const FALSE_ALARM: f64 = 1e-3;
 /// Default engineering tolerance, dB.
@@ -121,7 +123,14 @@ fn parse_db(text: &str) -> Result<f64> {
     }
 }
 
-/// One pass over the capture: every physical sample goes to `each`.
+/// Blocks read ahead of the analysis in [`pass`].
+const READ_AHEAD: usize = 3;
+
+/// One pass over the capture: every physical sample goes to `each`, in order.
+///
+/// A reader thread opens, reads, decodes, checks and scales the file block by block while
+/// `each` analyses the block before; blocks go back and forth through two channels, so at
+/// most `READ_AHEAD + 1` blocks are held.
 fn pass(
     path: &Path,
     options: &SourceOptions,
@@ -129,35 +138,55 @@ fn pass(
     interrupted: &AtomicBool,
     each: &mut dyn FnMut(&[f64]),
 ) -> Result<StreamInfo> {
-    let file = open_file(path)?;
-    let mut src = open_source(file, options)?;
-    let mut block = Vec::with_capacity(BLOCK);
-    let mut done: u64 = 0;
-    loop {
-        if interrupted.load(Ordering::Relaxed) {
-            return Err(Error::Interrupted);
-        }
-        let n = src.read_block(&mut block, BLOCK)?;
-        if n == 0 {
-            break;
-        }
-        if let Some(i) = block.iter().position(|v| !v.is_finite()) {
-            return Err(Error::input(
-                &options.name,
-                format!(
-                    "sample {} is {}; only finite samples can be analysed",
-                    done + i as u64,
-                    block[i]
-                ),
-            ));
-        }
-        if scale.gain != 1.0 {
-            block.iter_mut().for_each(|v| *v *= scale.gain);
-        }
-        each(&block);
-        done += n as u64;
+    let (full_tx, full_rx) = mpsc::sync_channel::<Vec<f64>>(READ_AHEAD);
+    let (empty_tx, empty_rx) = mpsc::channel::<Vec<f64>>();
+    for _ in 0..=READ_AHEAD {
+        empty_tx
+            .send(Vec::with_capacity(BLOCK))
+            .expect("the receiver is alive");
     }
-    Ok(src.info().clone())
+    std::thread::scope(|threads| {
+        let reader = threads.spawn(move || -> Result<StreamInfo> {
+            let mut src = open_source(open_file(path)?, options)?;
+            let mut done: u64 = 0;
+            // The analysis hands every block back until it stops early.
+            while let Ok(mut block) = empty_rx.recv() {
+                if interrupted.load(Ordering::Relaxed) {
+                    return Err(Error::Interrupted);
+                }
+                let n = src.read_block(&mut block, BLOCK)?;
+                if n == 0 {
+                    break;
+                }
+                if let Some(i) = block.iter().position(|v| !v.is_finite()) {
+                    return Err(Error::input(
+                        &options.name,
+                        format!(
+                            "sample {} is {}; only finite samples can be analysed",
+                            done + i as u64,
+                            block[i]
+                        ),
+                    ));
+                }
+                if scale.gain != 1.0 {
+                    block.iter_mut().for_each(|v| *v *= scale.gain);
+                }
+                done += n as u64;
+                if full_tx.send(block).is_err() {
+                    break;
+                }
+            }
+            Ok(src.info().clone())
+        });
+        for block in full_rx {
+            each(&block);
+            // The reader may have stopped already; then the block is simply dropped.
+            let _ = empty_tx.send(block);
+        }
+        reader
+            .join()
+            .unwrap_or_else(|panic| std::panic::resume_unwind(panic))
+    })
 }
 
 /// Samples in a capture, known or estimated before reading it: the header's count, the size
@@ -336,6 +365,15 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         profile.as_ref().map(|p| p.band.low_hz),
     )?;
 
+    // The output files are made before the passes, so a folder that cannot take them fails
+    // before the work; they land together at the end or not at all.
+    let pending = |p: &Option<PathBuf>| p.as_deref().map(PendingFile::create).transpose();
+    let (fit_out, plot_out, report_out) = (
+        pending(&args.fit)?,
+        pending(&args.plot)?,
+        pending(&args.report)?,
+    );
+
     let mut first = FirstPass::new(fs, seg_len, TRACE_SAMPLES);
     pass(&args.file, &options, &scale, interrupted, &mut |x| {
         first.push(x)
@@ -347,10 +385,29 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             format!("{} samples: too few to analyse", st.count()),
         ));
     }
+    // One LSB of an integer file, in the capture's unit: codes of a coarsely quantised signal
+    // are not burst levels.
+    let quantum = match (info.sample_format, scale.full_scale) {
+        (Some(sf), Some(fsc)) if sf.is_integer() => {
+            Some(fsc / f64::from(sf.full_scale_code().expect("integer")))
+        }
+        (Some(sf), None) if sf.is_integer() => {
+            Some(1.0 / f64::from(sf.full_scale_code().expect("integer")))
+        }
+        _ => None,
+    };
+    // The burst-level search needs only pass 1's trace: it runs on the pool while pass 2 reads
+    // the file again.
     let mut moments = CentralMoments::new(st.mean(), st.std(), st.min(), st.max(), HIST_BINS);
-    pass(&args.file, &options, &scale, interrupted, &mut |x| {
-        moments.push(x)
-    })?;
+    let (levels, second) = rayon::join(
+        || first.levels.detect(quantum),
+        || {
+            pass(&args.file, &options, &scale, interrupted, &mut |x| {
+                moments.push(x)
+            })
+        },
+    );
+    second?;
 
     let spectrum = first.welch.finish();
     if spectrum.segments == 0 {
@@ -471,18 +528,6 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         }
         _ => None,
     };
-    // One LSB of an integer file, in the capture's unit: codes of a coarsely quantised signal
-    // are not burst levels.
-    let quantum = match (info.sample_format, scale.full_scale) {
-        (Some(sf), Some(fsc)) if sf.is_integer() => {
-            Some(fsc / f64::from(sf.full_scale_code().expect("integer")))
-        }
-        (Some(sf), None) if sf.is_integer() => {
-            Some(1.0 / f64::from(sf.full_scale_code().expect("integer")))
-        }
-        _ => None,
-    };
-    let levels = first.levels.detect(quantum);
     let decades = rms_per_decade(&spectrum);
     let report = CaptureReport {
         file: serde_json::json!({
@@ -511,7 +556,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     if !tone_json.is_empty() {
         json["tones"] = serde_json::json!(tone_json);
     }
-    if let Some(path) = &args.fit {
+    if let (Some(path), Some(out)) = (&args.fit, &fit_out) {
         // The band of --profile, else the band recorded in the manifest of a generated file.
         let band = profile
             .as_ref()
@@ -548,24 +593,30 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             None => fit_floor(&report, &options),
         }?;
         let toml = fit.to_profile_toml(&report, &name);
-        fs::write(path, &toml).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+        out.write_all(toml.as_bytes())?;
         json["fit"] = fit.to_json();
         json["fit"]["profile_file"] = serde_json::json!(path.display().to_string());
     }
     let density_svg = (args.plot.is_some() || args.report.is_some())
         .then(|| figure::density_svg(&report, profile.as_ref(), design.as_ref()));
-    if let (Some(path), Some(svg)) = (&args.plot, &density_svg) {
-        fs::write(path, svg).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+    if let (Some(out), Some(svg)) = (&plot_out, &density_svg) {
+        out.write_all(svg.as_bytes())?;
     }
-    if let Some(path) = &args.report {
+    if let Some(out) = &report_out {
         let html = figure::report_html(
             &report,
             &json,
             density_svg.as_deref().unwrap_or(""),
             profile.as_ref(),
         );
-        fs::write(path, html).map_err(|e| Error::io(format!("writing {}", path.display()), e))?;
+        out.write_all(html.as_bytes())?;
     }
+    commit_all(
+        [fit_out, plot_out, report_out]
+            .into_iter()
+            .flatten()
+            .collect(),
+    )?;
     let output = if args.json {
         let mut s = serde_json::to_string_pretty(&json).expect("JSON values serialise");
         s.push('\n');

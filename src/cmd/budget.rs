@@ -2,9 +2,9 @@
 //! or an SVG chart.
 
 use std::fs;
-use std::io::Write;
 use std::path::PathBuf;
 
+use super::pending::PendingFile;
 use crate::budget::{BandSpec, budget, chart, parse_band, to_json, write_text};
 use crate::error::{Error, Result};
 use crate::plot::write_density_svg;
@@ -70,20 +70,10 @@ pub fn run(args: &BudgetArgs) -> Result<String> {
     if let Some(path) = &args.plot {
         let mut svg = Vec::new();
         write_density_svg(&chart(&profile, &b), 1000, 640, &mut svg)?;
-        let context = path.display().to_string();
         // Written beside the target and renamed, so a failure leaves no half-written chart.
-        let tmp = path.with_file_name(format!(
-            ".{}.partial",
-            path.file_name()
-                .map_or("plot".into(), |n| n.to_string_lossy())
-        ));
-        fs::File::create(&tmp)
-            .and_then(|mut f| f.write_all(&svg))
-            .and_then(|()| fs::rename(&tmp, path))
-            .map_err(|e| {
-                let _ = fs::remove_file(&tmp);
-                Error::io(context, e)
-            })?;
+        let out = PendingFile::create(path)?;
+        out.write_all(&svg)?;
+        out.commit()?;
     }
     if args.json {
         Ok(format!("{:#}\n", to_json(&b)))

@@ -6,12 +6,16 @@ use std::io::{self, BufWriter, IsTerminal};
 use std::path::{Path, PathBuf};
 use std::rc::Rc;
 use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::{Arc, Mutex, mpsc};
 
+use super::pending::{PendingFile, commit_all};
 use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::analysis::stats::RunningStats;
 use crate::density;
 use crate::error::{Error, Result};
-use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
+use crate::profile::{
+    Dimension, Profile, format_quantity, format_quantity_exact, parse_profile, parse_quantity,
+};
 use crate::sink::{
     CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, open_sink, rms_digital_from_dbfs,
     wav_plan, write_manifest,
@@ -439,7 +443,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
     let mut generator: Option<Rc<RefCell<Generator>>> = None;
     let mut multi: Option<Rc<RefCell<ChannelGenerator>>> = None;
-    let parts: Rc<RefCell<Vec<Vec<f64>>>> = Rc::default();
+    let parts: Arc<Mutex<Vec<Vec<f64>>>> = Arc::default();
     let (mut engine, expected_variance): (Engine, f64) = if args.loop_buffer {
         let n = samples.unwrap_or(0) as usize;
         let mut buffer = periodic_buffer(&target_psd, fs, n, args.seed)?;
@@ -475,12 +479,10 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         generator = Some(g.clone());
         if per_source {
             let parts = parts.clone();
-            parts
-                .borrow_mut()
-                .resize(g.borrow().part_count(), Vec::new());
+            lock(&parts).resize(g.borrow().part_count(), Vec::new());
             (
                 Box::new(move |out: &mut [f64]| {
-                    g.borrow_mut().fill_sources(out, &mut parts.borrow_mut())
+                    g.borrow_mut().fill_sources(out, &mut lock(&parts))
                 }),
                 var,
             )
@@ -504,7 +506,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let figures = (!profile.tones.is_empty() || profile.offset != 0.0)
         .then(|| Generator::new(&profile, 0))
         .transpose()?;
-    let make_sink = |spec: &SinkSpec, w: Box<dyn io::Write>| -> Result<Box<dyn Sink>> {
+    let make_sink = |spec: &SinkSpec, w: Box<dyn io::Write + Send>| -> Result<Box<dyn Sink>> {
         if per_source {
             Ok(Box::new(SourcesSink {
                 inner: Box::new(CsvSink::with_sources(spec, w, &source_names)?),
@@ -612,13 +614,15 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let mut stats = RunningStats::new();
     let mut channel_stats = vec![RunningStats::new(); usize::from(channels)];
     let progress = progress_bar(samples);
+    // A writer thread pays off with a second core; per-source CSV columns are written from
+    // buffers the engine refills, so that path stays in step.
+    let overlap = !per_source && rayon::current_num_threads() > 1;
     let report;
     match &target {
         Target::Stdout => {
-            let stdout = io::stdout();
             let mut sink = make_sink(
                 &spec,
-                Box::new(BufWriter::with_capacity(1 << 20, stdout.lock())),
+                Box::new(BufWriter::with_capacity(1 << 20, io::stdout())),
             )?;
             let result = pump(
                 &mut *engine,
@@ -628,8 +632,10 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 &mut channel_stats,
                 interrupted,
                 &progress,
+                overlap,
             )
-            .and_then(|_| sink.finish());
+            .and_then(|_| sink.finish())
+            .map_err(|e| naming_output(e, "standard output"));
             match result {
                 Ok(r) => report = r,
                 Err(Error::Io { source, .. }) if source.kind() == io::ErrorKind::BrokenPipe => {
@@ -639,7 +645,12 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             }
         }
         Target::File(path) => {
+            let shown = path.display().to_string();
+            let manifest_path = manifest_path(path);
+            // Both files are made before the run, so a folder that cannot take them fails
+            // before the work, and neither lands unless both were written (commit_all).
             let pending = PendingFile::create(path)?;
+            let mp = PendingFile::create(&manifest_path)?;
             {
                 let writer = BufWriter::with_capacity(1 << 20, pending.file()?);
                 let mut sink = make_sink(&spec, Box::new(writer))?;
@@ -651,8 +662,10 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     &mut channel_stats,
                     interrupted,
                     &progress,
-                )?;
-                report = sink.finish()?;
+                    overlap,
+                )
+                .map_err(|e| naming_output(e, &shown))?;
+                report = sink.finish().map_err(|e| naming_output(e, &shown))?;
             }
             if let (Some(a), true) = (&adc, report.clipped > 0 && !args.allow_clipping) {
                 let (lo, hi) = a.suggest_range(stats.min(), stats.max());
@@ -660,7 +673,12 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     count: report.clipped,
                     total: report.samples,
                     range: range_text(a.lo(), a.hi(), unit),
-                    suggested: range_text(lo, hi, unit),
+                    // Two significant digits by design: the display form reads them as meant.
+                    suggested: format!(
+                        "{}..{}",
+                        format_quantity(lo, unit),
+                        format_quantity(hi, unit)
+                    ),
                 });
             }
             if report.clipped > 0 && !args.allow_clipping {
@@ -713,11 +731,10 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                 );
                 channel_manifest(&mut manifest, &profile, expected_rms, &channel_stats);
             }
-            let manifest_path = manifest_path(path);
-            let mp = PendingFile::create(&manifest_path)?;
-            write_manifest(&manifest, BufWriter::new(mp.file()?))?;
-            pending.commit()?;
-            mp.commit()?;
+            write_manifest(&manifest, BufWriter::new(mp.file()?))
+                .map_err(|e| naming_output(e, &manifest_path.display().to_string()))?;
+            // The noise file last: where it exists, its manifest does too.
+            commit_all(vec![mp, pending])?;
         }
     }
     progress.finish_and_clear();
@@ -894,12 +911,13 @@ fn adc_from_args(args: &GenerateArgs, profile: &Profile) -> Result<Option<Adc>> 
     ))
 }
 
-/// `lo..hi` with units, as `--range` accepts it.
+/// `lo..hi` with units, as `--range` accepts it, each end exactly as given (it parses back
+/// to the same range).
 fn range_text(lo: f64, hi: f64, unit: &str) -> String {
     format!(
         "{}..{}",
-        format_quantity(lo, unit),
-        format_quantity(hi, unit)
+        format_quantity_exact(lo, unit),
+        format_quantity_exact(hi, unit)
     )
 }
 
@@ -999,46 +1017,161 @@ pub(crate) fn manifest_path(path: &Path) -> PathBuf {
     PathBuf::from(s)
 }
 
+/// An I/O error of a writer names where its bytes were going (`target`: the output file
+/// the user named, not its temporary name, or standard output); other errors pass as they
+/// are.
+fn naming_output(e: Error, target: &str) -> Error {
+    match e {
+        Error::Io { context, source } => Error::Io {
+            context: format!("{context} to {target}"),
+            source,
+        },
+        other => other,
+    }
+}
+
 /// Runs the engine into the sink: `samples` frames (None: until interrupted) of
 /// `channel_stats.len()` interleaved channels; `stats` over every sample, `channel_stats`
 /// per channel (only kept for more than one channel).
+///
+/// With `overlap`, a writer thread takes the statistics, the encoding and the writing of
+/// each block while this thread makes the next one (the engine stays on the calling thread,
+/// inside its rayon pool). The blocks, their order and so the bytes are the same either way.
+#[allow(clippy::too_many_arguments)]
 fn pump(
     engine: &mut dyn FnMut(&mut [f64]),
-    sink: &mut dyn crate::sink::Sink,
+    sink: &mut dyn Sink,
     samples: Option<u64>,
     stats: &mut RunningStats,
     channel_stats: &mut [RunningStats],
     interrupted: &AtomicBool,
     progress: &indicatif::ProgressBar,
+    overlap: bool,
 ) -> Result<()> {
     let ch = channel_stats.len().max(1);
-    let mut buf = vec![0.0; CHUNK * ch];
-    let mut column = Vec::with_capacity(CHUNK);
-    let mut done: u64 = 0;
-    loop {
-        let n = match samples {
-            Some(total) if done >= total => break,
-            Some(total) => ((total - done) as usize).min(CHUNK),
-            None => CHUNK,
-        };
-        if interrupted.load(Ordering::Relaxed) {
-            return Err(Error::Interrupted);
+    let mut blocks = Blocks {
+        samples,
+        done: 0,
+        frames: (CHUNK / ch).max(MIN_BLOCK_FRAMES),
+    };
+    let mut tally = Tally {
+        stats,
+        channel_stats,
+        column: Vec::new(),
+        written: 0,
+        progress,
+    };
+    if !overlap {
+        let mut buf = vec![0.0; blocks.frames * ch];
+        while let Some(n) = blocks.next_len() {
+            if interrupted.load(Ordering::Relaxed) {
+                return Err(Error::Interrupted);
+            }
+            let block = &mut buf[..n * ch];
+            engine(block);
+            tally.take(block, sink)?;
         }
-        let block = &mut buf[..n * ch];
-        engine(block);
-        stats.push(block);
+        return Ok(());
+    }
+    std::thread::scope(|scope| {
+        let (full_tx, full_rx) = mpsc::sync_channel::<Vec<f64>>(IN_FLIGHT);
+        let (empty_tx, empty_rx) = mpsc::channel::<Vec<f64>>();
+        let writer = scope.spawn(move || -> Result<()> {
+            for block in full_rx {
+                if interrupted.load(Ordering::Relaxed) {
+                    return Err(Error::Interrupted);
+                }
+                tally.take(&block, sink)?;
+                // The engine may have stopped already; then the buffer is simply dropped.
+                let _ = empty_tx.send(block);
+            }
+            Ok(())
+        });
+        let mut unallocated = IN_FLIGHT + 1;
+        let produced = (|| {
+            while let Some(n) = blocks.next_len() {
+                if interrupted.load(Ordering::Relaxed) {
+                    return Err(Error::Interrupted);
+                }
+                let mut buf = match empty_rx.try_recv() {
+                    Ok(b) => b,
+                    Err(_) if unallocated > 0 => {
+                        unallocated -= 1;
+                        Vec::with_capacity(blocks.frames * ch)
+                    }
+                    Err(_) => match empty_rx.recv() {
+                        Ok(b) => b,
+                        // The writer stopped on an error; it reports it below.
+                        Err(_) => break,
+                    },
+                };
+                buf.resize(n * ch, 0.0);
+                engine(&mut buf);
+                if full_tx.send(buf).is_err() {
+                    break;
+                }
+            }
+            Ok(())
+        })();
+        drop(full_tx);
+        let written = writer
+            .join()
+            .unwrap_or_else(|panic| std::panic::resume_unwind(panic));
+        written.and(produced)
+    })
+}
+
+/// Blocks handed from the engine to the writer thread at a time, besides the one being made.
+const IN_FLIGHT: usize = 2;
+/// Fewest frames per block, however many channels (a block holds about [`CHUNK`] samples).
+const MIN_BLOCK_FRAMES: usize = 1024;
+
+/// The lengths, in frames, of the run's consecutive blocks.
+struct Blocks {
+    samples: Option<u64>,
+    done: u64,
+    frames: usize,
+}
+
+impl Blocks {
+    /// Frames in the next block; `None` when the run is complete.
+    fn next_len(&mut self) -> Option<usize> {
+        let n = match self.samples {
+            Some(total) if self.done >= total => return None,
+            Some(total) => ((total - self.done) as usize).min(self.frames),
+            None => self.frames,
+        };
+        self.done += n as u64;
+        Some(n)
+    }
+}
+
+/// What happens to each block after the engine: statistics, the sink, the progress bar.
+struct Tally<'a> {
+    stats: &'a mut RunningStats,
+    channel_stats: &'a mut [RunningStats],
+    column: Vec<f64>,
+    /// Frames written so far.
+    written: u64,
+    progress: &'a indicatif::ProgressBar,
+}
+
+impl Tally<'_> {
+    fn take(&mut self, block: &[f64], sink: &mut dyn Sink) -> Result<()> {
+        self.stats.push(block);
+        let ch = self.channel_stats.len();
         if ch > 1 {
-            for (k, s) in channel_stats.iter_mut().enumerate() {
-                column.clear();
-                column.extend(block.iter().skip(k).step_by(ch));
-                s.push(&column);
+            for (k, s) in self.channel_stats.iter_mut().enumerate() {
+                self.column.clear();
+                self.column.extend(block.iter().skip(k).step_by(ch));
+                s.push(&self.column);
             }
         }
         sink.write(block)?;
-        done += n as u64;
-        progress.set_position(done);
+        self.written += (block.len() / ch.max(1)) as u64;
+        self.progress.set_position(self.written);
+        Ok(())
     }
-    Ok(())
 }
 
 fn progress_bar(samples: Option<u64>) -> indicatif::ProgressBar {
@@ -1053,59 +1186,6 @@ fn progress_bar(samples: Option<u64>) -> indicatif::ProgressBar {
             bar
         }
         _ => indicatif::ProgressBar::hidden(),
-    }
-}
-
-/// A file being written under a temporary name beside its target; renamed into place by
-/// [`PendingFile::commit`], removed if dropped before that (an error or an interruption).
-struct PendingFile {
-    tmp: PathBuf,
-    target: PathBuf,
-    committed: bool,
-}
-
-impl PendingFile {
-    fn create(target: &Path) -> Result<PendingFile> {
-        let dir = match target.parent() {
-            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-            _ => PathBuf::from("."),
-        };
-        if !dir.is_dir() {
-            fs::create_dir_all(&dir)
-                .map_err(|e| Error::io(format!("creating folder {}", dir.display()), e))?;
-        }
-        let name = target
-            .file_name()
-            .map_or("output".into(), |n| n.to_string_lossy().into_owned());
-        let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
-        fs::File::create(&tmp).map_err(|e| Error::io(format!("creating {}", tmp.display()), e))?;
-        Ok(PendingFile {
-            tmp,
-            target: target.to_path_buf(),
-            committed: false,
-        })
-    }
-
-    fn file(&self) -> Result<fs::File> {
-        fs::OpenOptions::new()
-            .write(true)
-            .open(&self.tmp)
-            .map_err(|e| Error::io(format!("opening {}", self.tmp.display()), e))
-    }
-
-    fn commit(mut self) -> Result<()> {
-        fs::rename(&self.tmp, &self.target)
-            .map_err(|e| Error::io(format!("renaming into {}", self.target.display()), e))?;
-        self.committed = true;
-        Ok(())
-    }
-}
-
-impl Drop for PendingFile {
-    fn drop(&mut self) {
-        if !self.committed {
-            let _ = fs::remove_file(&self.tmp);
-        }
     }
 }
 
@@ -1136,11 +1216,11 @@ fn summary_text(
     );
     s += &format!(
         "  band            {} .. {} (order {}), {} samples at {}{}\n",
-        format_quantity(profile.band.low_hz, "Hz"),
-        format_quantity(profile.band.high_hz, "Hz"),
+        format_quantity_exact(profile.band.low_hz, "Hz"),
+        format_quantity_exact(profile.band.high_hz, "Hz"),
         profile.band.order,
         stats.count() / profile.channels.max(1) as u64,
-        format_quantity(profile.sample_rate_hz, "Hz"),
+        format_quantity_exact(profile.sample_rate_hz, "Hz"),
         if args.loop_buffer {
             ", loop buffer"
         } else {
@@ -1194,12 +1274,19 @@ fn summary_text(
 /// (`--columns sources`): the engine fills `parts` with the block it has just produced.
 struct SourcesSink {
     inner: Box<dyn Sink>,
-    parts: Rc<RefCell<Vec<Vec<f64>>>>,
+    parts: Arc<Mutex<Vec<Vec<f64>>>>,
+}
+
+/// The per-source parts, also after a panic elsewhere poisoned the lock (they are plain data).
+fn lock(parts: &Mutex<Vec<Vec<f64>>>) -> std::sync::MutexGuard<'_, Vec<Vec<f64>>> {
+    parts
+        .lock()
+        .unwrap_or_else(std::sync::PoisonError::into_inner)
 }
 
 impl Sink for SourcesSink {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
-        let parts = self.parts.borrow();
+        let parts = lock(&self.parts);
         let slices: Vec<&[f64]> = parts.iter().map(|p| &p[..samples.len()]).collect();
         self.inner.write_sources(samples, &slices)
     }
@@ -1394,14 +1481,14 @@ fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> String {
     if profile.offset != 0.0 {
         s += &format!(
             "  offset          {} added to every sample (in the mean and RMS above)\n",
-            q(profile.offset)
+            format_quantity_exact(profile.offset, u)
         );
     }
     for (i, (t, (snr_db, enob))) in profile.tones.iter().zip(snr).enumerate() {
         s += &format!(
             "  tone            {}: {}, {} peak ({} RMS), phase {:.3} deg\n",
             t.name,
-            format_quantity(t.frequency_hz, "Hz"),
+            format_quantity_exact(t.frequency_hz, "Hz"),
             q(t.peak),
             q(t.rms()),
             t.phase_rad.to_degrees()

@@ -3,10 +3,12 @@
 pub mod analyze;
 pub mod budget;
 pub mod generate;
+mod pending;
 
+use std::io::{self, Write};
 use std::sync::atomic::AtomicBool;
 
-use crate::error::Result;
+use crate::error::{Error, Result};
 
 /// noisewright turns a noise density profile into real, reproducible noise.
 #[derive(Debug, clap::Parser)]
@@ -39,22 +41,30 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
                 if args.output.as_deref() == Some("-") {
                     eprint!("{summary}");
                 } else {
-                    print!("{summary}");
+                    print_out(&summary)?;
                 }
             }
             Ok(())
         }
-        Command::Budget(args) => {
-            print!("{}", budget::run(args)?);
-            Ok(())
-        }
+        Command::Budget(args) => print_out(&budget::run(args)?),
         Command::Analyze(args) => {
             let outcome = analyze::run(args, interrupted)?;
-            print!("{}", outcome.output);
+            print_out(&outcome.output)?;
             match outcome.failure {
                 Some(e) => Err(e),
                 None => Ok(()),
             }
         }
+    }
+}
+
+/// Writes `text` to standard output. A reader that closed the pipe (`| head`) ends the
+/// command quietly; any other failure (a full disk behind `> file`, `/dev/full`) is an
+/// I/O error naming standard output (exit 1) instead of a panic.
+fn print_out(text: &str) -> Result<()> {
+    let mut out = io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
+        r => r.map_err(|e| Error::io("writing to standard output", e)),
     }
 }

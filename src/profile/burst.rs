@@ -21,7 +21,7 @@ use serde::Deserialize;
 use toml::{Spanned, Value};
 
 use super::schema::{Cx, missing, positive, quantity};
-use super::{Dimension, Unit, format_quantity};
+use super::{Dimension, Unit, format_quantity_exact};
 use crate::error::Result;
 
 /// Keys allowed in a `[[burst]]` table.
@@ -325,11 +325,12 @@ fn unreachable_pair(m: &[Vec<f64>]) -> Option<(usize, usize)> {
     None
 }
 
-/// A short description of a burst's levels for messages, e.g. "0 V / 3 µV".
+/// A short description of a burst's levels for messages, e.g. "0 V / 3 µV": the levels as
+/// given, each exactly ([`format_quantity_exact`]).
 pub fn describe_levels(b: &Burst, unit: Unit) -> String {
     b.levels
         .iter()
-        .map(|&v| format_quantity(v, unit.symbol()))
+        .map(|&v| format_quantity_exact(v, unit.symbol()))
         .collect::<Vec<_>>()
         .join(" / ")
 }

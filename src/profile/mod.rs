@@ -14,7 +14,7 @@ pub use burst::{Burst, BurstSampling, NEXT_ROW_TOLERANCE, describe_levels};
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
-pub use quantity::{Dimension, format_quantity, parse_quantity};
+pub use quantity::{Dimension, format_quantity, format_quantity_exact, parse_quantity};
 pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, parse_profile};
 pub use tone::{AmplitudeConvention, Tone};
 

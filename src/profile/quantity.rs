@@ -256,13 +256,17 @@ impl<'a> Number<'a> {
     }
 }
 
-/// Format an SI value with an SI prefix and the unit, e.g. `4e-9, "V/√Hz"` → `"4 nV/√Hz"`.
-/// Uses up to 6 significant digits.
+/// Format an SI value with an SI prefix and the unit for **display**, e.g.
+/// `4e-9, "V/√Hz"` → `"4 nV/√Hz"`. Rounds to 6 significant digits, so it is lossy for values
+/// with more digits (`123456789 Hz` → `"123.457 MHz"`): use it for computed figures a person
+/// reads (RMS, densities, SNR, peak-to-peak), never for a value someone is meant to copy back
+/// into a profile or an option; that is what [`format_quantity_exact`] is for.
 ///
 /// The prefix is the engineering one (exponent a multiple of 3) that puts the number in
 /// [1, 1000); trailing zeros are trimmed (`"48 kHz"`, `"10 kΩ"`, `"0 V"`). Values outside the
 /// prefix range f…T are written with an exponent (`"1e-18 V"`). The output parses back with
-/// [`parse_quantity`] for the units that function knows.
+/// [`parse_quantity`] for the units that function knows, to within half a unit in the 6th
+/// significant digit (relative error ≤ 5e-6), and formats again to the same text.
 pub fn format_quantity(value: f64, unit: &str) -> String {
     if value == 0.0 {
         return format!("0 {unit}");
@@ -271,14 +275,47 @@ pub fn format_quantity(value: f64, unit: &str) -> String {
         return format!("{value} {unit}");
     }
     // `{:.5e}` rounds correctly to 6 significant digits: "d.ddddde±x", carries included.
-    let sci = format!("{:.5e}", value.abs());
+    with_prefix(value, &format!("{:.5e}", value.abs()), unit)
+}
+
+/// Format an SI value with an SI prefix and the unit so that [`parse_quantity`] gives back
+/// **the very same `f64`** (bit for bit, the sign of zero included), e.g. `4e-9, "V/√Hz"` →
+/// `"4 nV/√Hz"` and `123456789.0, "Hz"` → `"123.456789 MHz"`.
+///
+/// The digits are the shortest decimal that rounds back to `value` (what Rust's `{}` gives
+/// for an `f64`), placed before the engineering prefix by moving the decimal point in the
+/// text, not by arithmetic, so no rounding happens on the way; the parser folds the prefix
+/// back into the decimal exponent before its one correctly rounded conversion. A value with
+/// at most 6 significant digits reads exactly as [`format_quantity`] writes it. Used where a
+/// value is echoed back from a profile or an option (band edges, sample rate, tone
+/// frequencies, the offset, burst levels, ADC ranges) and in suggestions meant to be
+/// copied. `-0.0` is written `"-0 V"`; NaN and infinities as `"NaN V"`, `"inf V"` (which the
+/// parser refuses).
+pub fn format_quantity_exact(value: f64, unit: &str) -> String {
+    if value == 0.0 {
+        let sign = if value.is_sign_negative() { "-" } else { "" };
+        return format!("{sign}0 {unit}");
+    }
+    if !value.is_finite() {
+        return format!("{value} {unit}");
+    }
+    // `{:e}` without a precision gives the shortest round-trip digits: "d.ddde±x" or "de±x".
+    with_prefix(value, &format!("{:e}", value.abs()), unit)
+}
+
+/// `sci` (the scientific form of |`value`|, "d.ddde±x") written with the engineering SI
+/// prefix in front of `unit`, the sign of `value` in front; only the decimal point moves.
+fn with_prefix(value: f64, sci: &str, unit: &str) -> String {
     let (mant, exp) = sci
         .split_once('e')
         .expect("exponent format always has an 'e'");
     let exp: i32 = exp.parse().expect("exponent is an integer");
-    let digits: String = mant.chars().filter(|c| c.is_ascii_digit()).collect();
+    let mut digits: String = mant.chars().filter(|c| c.is_ascii_digit()).collect();
     let eng = exp.div_euclid(3) * 3;
     let int_len = (exp - eng) as usize + 1;
+    while digits.len() < int_len {
+        digits.push('0');
+    }
     let (int_part, frac_part) = digits.split_at(int_len);
     let frac_part = frac_part.trim_end_matches('0');
     let sign = if value < 0.0 { "-" } else { "" };
@@ -423,6 +460,8 @@ mod tests {
         assert_eq!(format_quantity(123456789.0, "Hz"), "123.457 MHz");
         assert_eq!(format_quantity(999.9999, "Hz"), "1 kHz");
         assert_eq!(format_quantity(1e-18, "V"), "1e-18 V");
+        // f64::MAX = 1.797693…e308 rounds down at 6 digits, so no value rounds past it.
+        assert_eq!(format_quantity(f64::MAX, "V"), "179.769e306 V");
     }
 
     #[test]
@@ -454,6 +493,39 @@ mod tests {
         ] {
             let back = ok(&format_quantity(v, "Hz"), Frequency);
             assert!(((back - v) / v).abs() <= 5e-6, "{v} -> {back}");
+        }
+    }
+
+    #[test]
+    fn exact_format_keeps_every_digit_and_the_sign_of_zero() {
+        assert_eq!(format_quantity_exact(123456789.0, "Hz"), "123.456789 MHz");
+        assert_eq!(format_quantity_exact(48e3, "Hz"), "48 kHz");
+        assert_eq!(format_quantity_exact(50.0, "Hz"), "50 Hz");
+        assert_eq!(format_quantity_exact(500.0, "Hz"), "500 Hz");
+        assert_eq!(format_quantity_exact(-2.5e-6, "A"), "-2.5 \u{b5}A");
+        assert_eq!(
+            format_quantity_exact(0.1 + 0.2, "s"),
+            "300.00000000000004 ms"
+        );
+        assert_eq!(format_quantity_exact(-0.0, "V"), "-0 V");
+        assert_eq!(format_quantity_exact(0.0, "V"), "0 V");
+        assert_eq!(format_quantity_exact(1e-18, "V"), "1e-18 V");
+        assert_eq!(format_quantity_exact(5e-324, "V"), "5e-324 V");
+        assert_eq!(
+            format_quantity_exact(f64::MAX, "V"),
+            "179.76931348623157e306 V"
+        );
+        for v in [
+            0.1 + 0.2,
+            std::f64::consts::PI * 1e-9,
+            -1.0 / 3.0,
+            f64::MAX,
+            f64::MIN_POSITIVE,
+            5e-324,
+            -0.0,
+        ] {
+            let back = ok(&format_quantity_exact(v, "V"), Amplitude);
+            assert_eq!(back.to_bits(), v.to_bits(), "{v:e}");
         }
     }
 }

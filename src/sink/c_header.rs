@@ -369,7 +369,7 @@ fn preamble(spec: &SinkSpec, frames: u64) -> String {
     s
 }
 
-impl<W: Write> Sink for CHeaderSink<W> {
+impl<W: Write + Send> Sink for CHeaderSink<W> {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
         self.out.ensure_open()?;
         let after = self.scaler.report.samples + samples.len() as u64;

@@ -231,7 +231,7 @@ fn value_column(spec: &SinkSpec) -> String {
     }
 }
 
-impl<W: Write> Sink for CsvSink<W> {
+impl<W: Write + Send> Sink for CsvSink<W> {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
         self.write_rows(samples, &[])
     }

@@ -408,7 +408,9 @@ pub struct SinkReport {
 ///
 /// Call [`write`](Sink::write) with consecutive blocks, then [`finish`](Sink::finish) exactly
 /// once. Output is buffered: dropping a sink without `finish` loses the buffered tail.
-pub trait Sink {
+/// Sinks are `Send`, so that a writer thread can encode and write while the engine makes the
+/// next block.
+pub trait Sink: Send {
     /// Scales, clips, quantises and writes a block of physical samples (in the spec's unit).
     fn write(&mut self, samples: &[f64]) -> Result<()>;
     /// Writes what is buffered (and any trailing pad), flushes the writer and reports.
@@ -426,7 +428,7 @@ pub trait Sink {
 
 /// Builds the sink for `spec` over `out`. Validates the spec first ([`SinkSpec::validate`]);
 /// nothing is written to `out` until the first [`Sink::write`] or [`Sink::finish`].
-pub fn open_sink<'a, W: Write + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn Sink + 'a>> {
+pub fn open_sink<'a, W: Write + Send + 'a>(spec: &SinkSpec, out: W) -> Result<Box<dyn Sink + 'a>> {
     Ok(match spec.format {
         Format::Wav => Box::new(WavSink::new(spec, out)?),
         Format::Csv => Box::new(CsvSink::new(spec, out)?),

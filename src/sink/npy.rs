@@ -151,7 +151,7 @@ impl<W: Write> NpySink<W> {
     }
 }
 
-impl<W: Write> Sink for NpySink<W> {
+impl<W: Write + Send> Sink for NpySink<W> {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
         self.out.ensure_open()?;
         let after = self.scaler.report.samples + samples.len() as u64;

@@ -32,7 +32,7 @@ impl<W: Write> RawSink<W> {
     }
 }
 
-impl<W: Write> Sink for RawSink<W> {
+impl<W: Write + Send> Sink for RawSink<W> {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
         self.out.ensure_open()?;
         self.scaler.check_finite(samples)?;

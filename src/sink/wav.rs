@@ -407,7 +407,7 @@ impl<W: Write> WavSink<W> {
     }
 }
 
-impl<W: Write> Sink for WavSink<W> {
+impl<W: Write + Send> Sink for WavSink<W> {
     fn write(&mut self, samples: &[f64]) -> Result<()> {
         self.out.ensure_open()?;
         let done = self.scaler.report.samples;

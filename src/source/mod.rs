@@ -336,20 +336,24 @@ pub(crate) fn read_full<R: Read>(r: &mut R, buf: &mut [u8], name: &str) -> Resul
 pub(crate) fn decode_le(bytes: &[u8], sf: SampleFormat, stride: usize, out: &mut Vec<f64>) {
     // Division (correctly rounded) rather than a reciprocal, so code/max is exact to the ulp.
     let code_max = sf.full_scale_code().map_or(1.0, f64::from);
-    for s in bytes.chunks_exact(stride) {
-        let v = match sf {
-            SampleFormat::F32 => f64::from(f32::from_le_bytes([s[0], s[1], s[2], s[3]])),
-            SampleFormat::F64 => {
-                f64::from_le_bytes([s[0], s[1], s[2], s[3], s[4], s[5], s[6], s[7]])
-            }
-            SampleFormat::I16 => f64::from(i16::from_le_bytes([s[0], s[1]])) / code_max,
-            SampleFormat::I24 => {
-                // Sign-extend the 3-byte value through the top byte of an i32.
-                f64::from(i32::from_le_bytes([0, s[0], s[1], s[2]]) >> 8) / code_max
-            }
-            SampleFormat::I32 => f64::from(i32::from_le_bytes([s[0], s[1], s[2], s[3]])) / code_max,
-        };
-        out.push(v);
+    let s = bytes.chunks_exact(stride);
+    // One loop per format (the match outside), each extending by an exact-size iterator.
+    match sf {
+        SampleFormat::F32 => {
+            out.extend(s.map(|s| f64::from(f32::from_le_bytes([s[0], s[1], s[2], s[3]]))))
+        }
+        SampleFormat::F64 => out.extend(
+            s.map(|s| f64::from_le_bytes([s[0], s[1], s[2], s[3], s[4], s[5], s[6], s[7]])),
+        ),
+        SampleFormat::I16 => {
+            out.extend(s.map(|s| f64::from(i16::from_le_bytes([s[0], s[1]])) / code_max))
+        }
+        // Sign-extend the 3-byte value through the top byte of an i32.
+        SampleFormat::I24 => out.extend(
+            s.map(|s| f64::from(i32::from_le_bytes([0, s[0], s[1], s[2]]) >> 8) / code_max),
+        ),
+        SampleFormat::I32 => out
+            .extend(s.map(|s| f64::from(i32::from_le_bytes([s[0], s[1], s[2], s[3]])) / code_max)),
     }
 }
 

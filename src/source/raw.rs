@@ -8,7 +8,7 @@ use crate::error::{Error, Result};
 use crate::sink::{Format, SampleFormat};
 
 /// Bytes read per block (a multiple of 2, 3, 4 and 8).
-const READ_BYTES: usize = 3 << 15;
+const READ_BYTES: usize = 3 << 18;
 
 /// Streaming raw reader. Integer codes read as digital values; floats as stored, their
 /// meaning [`Values::Unknown`] (a manifest or `--full-scale` decides).

@@ -28,7 +28,7 @@ const GUID_TAIL: [u8; 14] = [
     0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xAA, 0x00, 0x38, 0x9B, 0x71,
 ];
 /// Bytes read per block.
-const READ_BYTES: usize = 1 << 16;
+const READ_BYTES: usize = 1 << 20;
 
 /// Streaming WAV reader; see the module docs.
 #[derive(Debug)]

@@ -1,0 +1,189 @@
+//! Output files written under a temporary name and renamed into place, so that an error, a
+//! full disk or an interruption leaves nothing under the name the user asked for.
+//!
+//! Every file a subcommand writes goes through [`PendingFile`]; files that belong together
+//! (a noise file and its manifest, the outputs of one `analyze`) are renamed together by
+//! [`commit_all`], so either all of them land or none.
+
+use std::fs;
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+use crate::error::{Error, Result};
+
+/// A file being written under a temporary name beside its target
+/// (`.NAME.partial-PID`, hidden, in the same folder so the rename cannot cross file
+/// systems); renamed into place by [`PendingFile::commit`] or [`commit_all`], removed if
+/// dropped before that (an error or an interruption).
+#[derive(Debug)]
+pub(crate) struct PendingFile {
+    tmp: PathBuf,
+    target: PathBuf,
+    committed: bool,
+}
+
+impl PendingFile {
+    /// Creates the temporary file, and the target's folder if it does not exist. Refuses a
+    /// target that is an existing folder before anything is written, so a long run does not
+    /// fail only at its rename.
+    pub(crate) fn create(target: &Path) -> Result<PendingFile> {
+        let shown = target.display();
+        if target.is_dir() {
+            return Err(Error::io(
+                format!("creating {shown}"),
+                io::Error::new(
+                    io::ErrorKind::IsADirectory,
+                    "a folder has that name; give the name of a file",
+                ),
+            ));
+        }
+        let dir = folder_of(target);
+        // A path that exists but is not a folder (a file in the way) is left to the OS,
+        // whose "Not a directory" names the problem.
+        if !dir.exists() {
+            fs::create_dir_all(&dir)
+                .map_err(|e| Error::io(format!("creating folder {}", dir.display()), e))?;
+        }
+        let name = target
+            .file_name()
+            .map_or("output".into(), |n| n.to_string_lossy().into_owned());
+        let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
+        fs::File::create(&tmp).map_err(|e| Error::io(format!("creating {shown}"), e))?;
+        Ok(PendingFile {
+            tmp,
+            target: target.to_path_buf(),
+            committed: false,
+        })
+    }
+
+    /// The temporary file, opened for writing from its start.
+    pub(crate) fn file(&self) -> Result<fs::File> {
+        fs::OpenOptions::new()
+            .write(true)
+            .open(&self.tmp)
+            .map_err(|e| Error::io(format!("opening {}", self.tmp.display()), e))
+    }
+
+    /// Writes `bytes` to the temporary file; an error names the target.
+    pub(crate) fn write_all(&self, bytes: &[u8]) -> Result<()> {
+        let mut f = self.file()?;
+        f.write_all(bytes)
+            .and_then(|()| f.flush())
+            .map_err(|e| Error::io(format!("writing {}", self.target.display()), e))
+    }
+
+    /// Renames the temporary file into place.
+    pub(crate) fn commit(mut self) -> Result<()> {
+        fs::rename(&self.tmp, &self.target)
+            .map_err(|e| Error::io(format!("renaming into {}", self.target.display()), e))?;
+        self.committed = true;
+        Ok(())
+    }
+}
+
+impl Drop for PendingFile {
+    fn drop(&mut self) {
+        if !self.committed {
+            let _ = fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+/// Commits `files` in order; when one rename fails, the targets already renamed are
+/// removed again and the rest are dropped (their temporary files removed), so either every
+/// file lands or none does. Put the file whose presence others rely on last (the noise
+/// file after its manifest).
+pub(crate) fn commit_all(files: Vec<PendingFile>) -> Result<()> {
+    let mut landed: Vec<PathBuf> = Vec::with_capacity(files.len());
+    for f in files {
+        let target = f.target.clone();
+        if let Err(e) = f.commit() {
+            for t in &landed {
+                let _ = fs::remove_file(t);
+            }
+            return Err(e);
+        }
+        landed.push(target);
+    }
+    Ok(())
+}
+
+/// The folder a target is written in (`.` for a bare file name).
+fn folder_of(target: &Path) -> PathBuf {
+    match target.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn scratch(tag: &str) -> PathBuf {
+        let d =
+            std::env::temp_dir().join(format!("noisewright-pending-{}-{tag}", std::process::id()));
+        let _ = fs::remove_dir_all(&d);
+        fs::create_dir_all(&d).unwrap();
+        d
+    }
+
+    fn names(dir: &Path) -> Vec<String> {
+        let mut v: Vec<String> = fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        v.sort();
+        v
+    }
+
+    #[test]
+    fn a_dropped_file_leaves_nothing_and_a_committed_one_lands() {
+        let d = scratch("drop");
+        {
+            let p = PendingFile::create(&d.join("a.raw")).unwrap();
+            p.write_all(b"abc").unwrap();
+            assert_eq!(
+                names(&d).len(),
+                1,
+                "the temporary file exists while writing"
+            );
+        }
+        assert!(names(&d).is_empty(), "left behind: {:?}", names(&d));
+        let p = PendingFile::create(&d.join("a.raw")).unwrap();
+        p.write_all(b"abc").unwrap();
+        p.commit().unwrap();
+        assert_eq!(names(&d), ["a.raw"]);
+        assert_eq!(fs::read(d.join("a.raw")).unwrap(), b"abc");
+        fs::remove_dir_all(&d).unwrap();
+    }
+
+    #[test]
+    fn commit_all_removes_what_landed_when_a_later_rename_fails() {
+        let d = scratch("all");
+        let first = PendingFile::create(&d.join("x.json")).unwrap();
+        first.write_all(b"{}").unwrap();
+        let second = PendingFile::create(&d.join("x.raw")).unwrap();
+        second.write_all(b"data").unwrap();
+        // A folder appears under the second name after the check in create: its rename
+        // fails, and the first file, already renamed, must go again.
+        fs::create_dir(d.join("x.raw")).unwrap();
+        let e = commit_all(vec![first, second]).unwrap_err();
+        assert!(e.to_string().contains("x.raw"), "{e}");
+        assert_eq!(names(&d), ["x.raw"], "only the folder may remain");
+        assert!(d.join("x.raw").is_dir());
+        fs::remove_dir_all(&d).unwrap();
+    }
+
+    #[test]
+    fn a_folder_under_the_target_name_is_refused_before_writing() {
+        let d = scratch("dir");
+        fs::create_dir(d.join("out.wav")).unwrap();
+        let e = PendingFile::create(&d.join("out.wav")).unwrap_err();
+        assert_eq!(e.exit_code(), 1);
+        assert!(e.to_string().contains("out.wav"), "{e}");
+        assert!(e.to_string().contains("folder"), "{e}");
+        assert_eq!(names(&d), ["out.wav"]);
+        fs::remove_dir_all(&d).unwrap();
+    }
+}
