@@ -38,6 +38,7 @@ pub mod burst;
 pub mod cmd;
 pub mod density;
 pub mod error;
+pub mod fft;
 pub mod figure;
 pub mod plot;
 pub mod profile;

@@ -12,14 +12,13 @@
 //! windows) are computed in parallel on rayon's pool; the result does not depend on the number
 //! of threads or on how they share the work.
 //!
-//! The FFTs are rustfft's scalar ones: the SIMD paths give different rounding on different
-//! CPUs, and the output must be identical on every machine.
-
-use std::sync::Arc;
+//! The FFTs are [`crate::fft::Fft`]s: vectorised, yet bit-identical on every machine, so the
+//! output is too. Spectra are kept as split arrays (real parts, imaginary parts), the layout
+//! that FFT works on.
 
 use rayon::prelude::*;
-use rustfft::num_complex::Complex;
-use rustfft::{Fft, FftPlannerScalar};
+
+use crate::fft::Fft;
 
 use super::design::{Design, FFT_LEN, HISTORY, HOP, RATIO};
 use super::white::{Domain, WhiteStreams};
@@ -36,9 +35,9 @@ const BATCH_OUT: usize = 2 * HOP * BATCH_PAIRS;
 struct LevelState {
     index: usize,
     /// DFT of the zero-padded shaping taps, already divided by FFT_LEN; empty if inactive.
-    shaper: Vec<Complex<f64>>,
+    shaper: Spectrum,
     /// DFT of the zero-padded interpolator taps / FFT_LEN; empty for the deepest level.
-    interp: Vec<Complex<f64>>,
+    interp: Spectrum,
     /// White input of the batch: HISTORY samples shared with the last batch, then BATCH_OUT new.
     white: Vec<f64>,
     next_chunk: u64,
@@ -53,29 +52,53 @@ struct LevelState {
     skip: usize,
 }
 
+/// A complex spectrum as split arrays: real parts, imaginary parts.
+#[derive(Default)]
+struct Spectrum {
+    re: Vec<f64>,
+    im: Vec<f64>,
+}
+
+impl Spectrum {
+    fn zeros(len: usize) -> Spectrum {
+        Spectrum {
+            re: vec![0.0; len],
+            im: vec![0.0; len],
+        }
+    }
+
+    fn is_empty(&self) -> bool {
+        self.re.is_empty()
+    }
+
+    fn parts(&mut self) -> (&mut [f64], &mut [f64]) {
+        (&mut self.re, &mut self.im)
+    }
+}
+
 /// Per-worker buffers for one block pair.
 struct Scratch {
-    spec: Vec<Complex<f64>>,
-    low_spec: Vec<Complex<f64>>,
-    fft: Vec<Complex<f64>>,
+    spec: Spectrum,
+    low_spec: Spectrum,
+    fft: Spectrum,
+}
+
+impl Scratch {
+    fn new() -> Scratch {
+        Scratch {
+            spec: Spectrum::zeros(FFT_LEN),
+            low_spec: Spectrum::zeros(LOW_LEN),
+            fft: Spectrum::zeros(FFT_LEN),
+        }
+    }
 }
 
 struct Transforms {
-    forward: Arc<dyn Fft<f64>>,
-    inverse: Arc<dyn Fft<f64>>,
-    forward_low: Arc<dyn Fft<f64>>,
-    scratch_len: usize,
+    /// FFT_LEN points; its inverse is used too.
+    full: Fft,
+    /// LOW_LEN points, forward only.
+    low: Fft,
     white: WhiteStreams,
-}
-
-impl Transforms {
-    fn scratch(&self) -> Scratch {
-        Scratch {
-            spec: vec![Complex::new(0.0, 0.0); FFT_LEN],
-            low_spec: vec![Complex::new(0.0, 0.0); LOW_LEN],
-            fft: vec![Complex::new(0.0, 0.0); self.scratch_len],
-        }
-    }
 }
 
 /// A seeded, streaming generator of noise with a [`Design`]'s density.
@@ -93,20 +116,14 @@ pub struct Shaper {
 impl Shaper {
     /// A shaper running `design` on the white noise of `seed`.
     pub fn new(design: &Design, seed: u64) -> Shaper {
-        let mut planner = FftPlannerScalar::<f64>::new();
-        let forward = planner.plan_fft_forward(FFT_LEN);
-        let inverse = planner.plan_fft_inverse(FFT_LEN);
-        let forward_low = planner.plan_fft_forward(LOW_LEN);
-        let scratch_len = forward
-            .get_inplace_scratch_len()
-            .max(inverse.get_inplace_scratch_len())
-            .max(forward_low.get_inplace_scratch_len());
-        let spectrum = |taps: &[f64], fft: &Arc<dyn Fft<f64>>| {
-            let mut buf = vec![Complex::new(0.0, 0.0); FFT_LEN];
-            for (b, &t) in buf.iter_mut().zip(taps) {
-                b.re = t / FFT_LEN as f64;
+        let full = Fft::new(FFT_LEN);
+        let spectrum = |taps: &[f64]| {
+            let mut buf = Spectrum::zeros(FFT_LEN);
+            for (b, &t) in buf.re.iter_mut().zip(taps) {
+                *b = t / FFT_LEN as f64;
             }
-            fft.process(&mut buf);
+            let mut tmp = Spectrum::zeros(FFT_LEN);
+            full.forward(buf.parts(), tmp.parts());
             buf
         };
         let count = design.levels().len();
@@ -117,14 +134,14 @@ impl Shaper {
             .map(|(j, level)| LevelState {
                 index: j,
                 shaper: if level.active {
-                    spectrum(&level.taps, &forward)
+                    spectrum(&level.taps)
                 } else {
-                    Vec::new()
+                    Spectrum::default()
                 },
                 interp: if j + 1 < count {
-                    spectrum(design.interpolator(), &forward)
+                    spectrum(design.interpolator())
                 } else {
-                    Vec::new()
+                    Spectrum::default()
                 },
                 white: vec![0.0; HISTORY + BATCH_OUT],
                 next_chunk: 0,
@@ -136,13 +153,11 @@ impl Shaper {
             })
             .collect();
         let tx = Transforms {
-            forward,
-            inverse,
-            forward_low,
-            scratch_len,
+            full,
+            low: Fft::new(LOW_LEN),
             white: WhiteStreams::new(seed),
         };
-        let scratch = (0..BATCH_PAIRS).map(|_| tx.scratch()).collect();
+        let scratch = (0..BATCH_PAIRS).map(|_| Scratch::new()).collect();
         Shaper {
             levels,
             tx,
@@ -285,46 +300,54 @@ fn batch(
 fn pair(
     tx: &Transforms,
     s: &mut Scratch,
-    shaper: &[Complex<f64>],
-    interp: &[Complex<f64>],
+    shaper: &Spectrum,
+    interp: &Spectrum,
     white: &[f64],
     low: &[f64],
     out: &mut [f64],
 ) {
     if shaper.is_empty() {
-        s.spec.fill(Complex::new(0.0, 0.0));
+        s.spec.re.fill(0.0);
+        s.spec.im.fill(0.0);
     } else {
-        for (n, c) in s.spec.iter_mut().enumerate() {
-            *c = Complex::new(white[n], white[HOP + n]);
-        }
-        tx.forward.process_with_scratch(&mut s.spec, &mut s.fft);
-        for (c, h) in s.spec.iter_mut().zip(shaper) {
-            *c *= *h;
+        // Block A as the real part, block B as the imaginary part.
+        let input = (&white[..FFT_LEN], &white[HOP..HOP + FFT_LEN]);
+        tx.full.forward_into(input, s.spec.parts(), s.fft.parts());
+        let spec = s.spec.re.iter_mut().zip(s.spec.im.iter_mut());
+        for ((cr, ci), (hr, hi)) in spec.zip(shaper.re.iter().zip(&shaper.im)) {
+            let (a, b) = (*cr, *ci);
+            *cr = a * hr - b * hi;
+            *ci = a * hi + b * hr;
         }
     }
     if !interp.is_empty() {
-        for (m, c) in s.low_spec.iter_mut().enumerate() {
-            *c = Complex::new(low[m], low[LOW_HOP + m]);
-        }
-        tx.forward_low
-            .process_with_scratch(&mut s.low_spec, &mut s.fft);
+        let input = (&low[..LOW_LEN], &low[LOW_HOP..LOW_HOP + LOW_LEN]);
+        let tmp = (&mut s.fft.re[..LOW_LEN], &mut s.fft.im[..LOW_LEN]);
+        tx.low.forward_into(input, s.low_spec.parts(), tmp);
         // The zero-stuffed branch's spectrum: the short spectrum repeated RATIO times.
-        for (spec, g) in s
+        let spec = s
             .spec
+            .re
             .chunks_exact_mut(LOW_LEN)
-            .zip(interp.chunks_exact(LOW_LEN))
-        {
-            for ((c, g), l) in spec.iter_mut().zip(g).zip(&s.low_spec) {
-                *c += *g * *l;
+            .zip(s.spec.im.chunks_exact_mut(LOW_LEN));
+        let gain = interp
+            .re
+            .chunks_exact(LOW_LEN)
+            .zip(interp.im.chunks_exact(LOW_LEN));
+        for ((cr, ci), (gr, gi)) in spec.zip(gain) {
+            let spec = cr.iter_mut().zip(ci.iter_mut());
+            let gain = gr.iter().zip(gi);
+            let short = s.low_spec.re.iter().zip(&s.low_spec.im);
+            for (((cr, ci), (gr, gi)), (lr, li)) in spec.zip(gain).zip(short) {
+                *cr += gr * lr - gi * li;
+                *ci += gr * li + gi * lr;
             }
         }
     }
-    tx.inverse.process_with_scratch(&mut s.spec, &mut s.fft);
+    tx.full.inverse(s.spec.parts(), s.fft.parts());
     let (a, b) = out.split_at_mut(HOP);
-    for (i, c) in s.spec[HISTORY..].iter().enumerate() {
-        a[i] = c.re;
-        b[i] = c.im;
-    }
+    a.copy_from_slice(&s.spec.re[HISTORY..]);
+    b.copy_from_slice(&s.spec.im[HISTORY..]);
 }
 
 #[cfg(test)]
