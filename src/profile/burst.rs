@@ -21,7 +21,7 @@ use serde::Deserialize;
 use toml::{Spanned, Value};
 
 use super::schema::{Cx, missing, positive, quantity};
-use super::{Dimension, Unit, format_quantity_exact};
+use super::{Dimension, Unit, format_quantity, format_quantity_exact};
 use crate::error::Result;
 
 /// Keys allowed in a `[[burst]]` table.
