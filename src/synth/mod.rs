@@ -15,6 +15,7 @@ mod periodic;
 mod shaper;
 pub mod tone;
 mod white;
+mod ziggurat;
 
 pub use burst::{BurstChain, BurstTally};
 pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};

@@ -4,9 +4,8 @@
 //! chunk can be drawn without drawing the ones before it: output never depends on the order
 //! or the thread in which chunks are drawn.
 
-use rand::{RngExt, SeedableRng};
+use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
-use rand_distr::StandardNormal;
 
 /// Which part of the engine a stream belongs to (the top byte of a stream id).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -50,12 +49,10 @@ impl WhiteStreams {
         rng
     }
 
-    /// Fill `out` with independent N(0, 1) samples (dimensionless) from the start of `stream`.
+    /// Fill `out` with independent N(0, 1) samples (dimensionless) from the start of `stream`:
+    /// the values `rand_distr`'s `StandardNormal` draws from it, drawn in bulk.
     pub fn fill(&self, stream: u64, out: &mut [f64]) {
-        let mut rng = self.generator(stream);
-        for x in out {
-            *x = rng.sample(StandardNormal);
-        }
+        super::ziggurat::fill(self.generator(stream), out);
     }
 }
 
