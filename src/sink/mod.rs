@@ -464,6 +464,11 @@ impl Scaler {
 
     /// Refuses a block holding a non-finite value; call before encoding any of it.
     fn check_finite(&self, samples: &[f64]) -> Result<()> {
+        // Whole chunks first, without an early exit inside a chunk, so the test vectorises.
+        let chunk_ok = |c: &[f64]| c.iter().fold(true, |ok, x| ok & x.is_finite());
+        if samples.chunks(64).all(chunk_ok) {
+            return Ok(());
+        }
         match samples.iter().position(|x| !x.is_finite()) {
             None => Ok(()),
             Some(i) => Err(Error::io(
@@ -551,37 +556,116 @@ impl Scaler {
             self.report.samples += samples.len() as u64;
             return;
         }
-        buf.reserve(samples.len() * self.sample_format.bytes());
+        let m = self.code_max;
         match self.sample_format {
-            SampleFormat::F32 => {
-                for &x in samples {
-                    buf.extend_from_slice(&self.f32_value(x).to_le_bytes());
+            SampleFormat::F32 => self.encode_each(samples, buf, |d| {
+                let v = d as f32;
+                if v.is_infinite() {
+                    (f32::MAX.copysign(v).to_le_bytes(), true)
+                } else {
+                    (v.to_le_bytes(), false)
                 }
-            }
-            SampleFormat::F64 => {
-                for &x in samples {
-                    buf.extend_from_slice(&self.digital(x).to_le_bytes());
-                }
-            }
-            SampleFormat::I16 => {
-                for &x in samples {
-                    buf.extend_from_slice(&(self.code(x) as i16).to_le_bytes());
-                }
-            }
-            SampleFormat::I24 => {
-                for &x in samples {
-                    buf.extend_from_slice(&self.code(x).to_le_bytes()[..3]);
-                }
-            }
-            SampleFormat::I32 => {
-                for &x in samples {
-                    buf.extend_from_slice(&self.code(x).to_le_bytes());
-                }
-            }
+            }),
+            SampleFormat::F64 => self.encode_each(samples, buf, |d| (d.to_le_bytes(), false)),
+            SampleFormat::I16 => self.encode_each(samples, buf, |d| {
+                (((d * m).round() as i32 as i16).to_le_bytes(), false)
+            }),
+            SampleFormat::I24 => self.encode_each(samples, buf, |d| {
+                let b = ((d * m).round() as i32).to_le_bytes();
+                ([b[0], b[1], b[2]], false)
+            }),
+            SampleFormat::I32 => self.encode_each(samples, buf, |d| {
+                (((d * m).round() as i32).to_le_bytes(), false)
+            }),
         }
         self.report.samples += samples.len() as u64;
     }
 }
+
+impl Scaler {
+    /// Appends `put(digital)` for every sample, where `digital` is what [`Scaler::digital`]
+    /// gives, and `put` also says whether the encoding itself had to clip. Does the same
+    /// arithmetic as `digital` sample by sample, but keeps the peak and the clip count in
+    /// [`LANES`] independent lanes, so that the loop vectorises; both are exact (a maximum
+    /// and a count), so the result does not depend on the lanes.
+    #[inline(always)]
+    fn encode_each<const B: usize>(
+        &mut self,
+        samples: &[f64],
+        buf: &mut Vec<u8>,
+        put: impl Fn(f64) -> ([u8; B], bool),
+    ) {
+        // No full scale: the value itself, never clipped here (×1 and a clamp to ±∞ are exact).
+        let (gain, limit) = self.gain.map_or((1.0, f64::INFINITY), |g| (g, 1.0));
+        let start = buf.len();
+        buf.resize(start + B * samples.len(), 0);
+        let out = &mut buf[start..];
+        let mut lanes = Lanes {
+            peak: [0.0; LANES],
+            clipped: [0; LANES],
+        };
+        let mut xs = samples.chunks_exact(LANES);
+        let mut os = out.chunks_exact_mut(B * LANES);
+        for (x, o) in (&mut xs).zip(&mut os) {
+            let x: &[f64; LANES] = x.try_into().expect("LANES samples");
+            lanes.encode(x, gain, limit, &put, o);
+        }
+        let rest = xs.remainder();
+        if !rest.is_empty() {
+            // Padding with zeros changes neither the peak nor the clip count.
+            let mut x = [0.0; LANES];
+            x[..rest.len()].copy_from_slice(rest);
+            let mut o = [[0u8; B]; LANES];
+            lanes.encode(&x, gain, limit, &put, o.as_flattened_mut());
+            os.into_remainder()
+                .copy_from_slice(&o.as_flattened()[..B * rest.len()]);
+        }
+        let (peak, clipped) = (lanes.peak, lanes.clipped);
+        self.report.peak_abs = peak.iter().fold(self.report.peak_abs, |a, &p| a.max(p));
+        self.report.clipped += clipped.iter().sum::<u64>();
+    }
+}
+
+/// The running peak and clip count of [`Scaler::encode_each`], one per lane.
+struct Lanes {
+    /// Largest |x| per lane, physical unit.
+    peak: [f64; LANES],
+    clipped: [u64; LANES],
+}
+
+impl Lanes {
+    /// Encodes LANES samples `x` into `out` with `put`, first the digital values, the peak and
+    /// the clip count, then the bytes, in loops of constant length that vectorise.
+    #[inline(always)]
+    fn encode<const B: usize>(
+        &mut self,
+        x: &[f64; LANES],
+        gain: f64,
+        limit: f64,
+        put: &impl Fn(f64) -> ([u8; B], bool),
+        out: &mut [u8],
+    ) {
+        assert_eq!(out.len(), B * LANES);
+        let mut d = [0.0f64; LANES];
+        for k in 0..LANES {
+            let a = x[k].abs();
+            // A comparison, not f64::max (the samples are finite), so it vectorises.
+            self.peak[k] = if a > self.peak[k] { a } else { self.peak[k] };
+            let v = x[k] * gain;
+            self.clipped[k] += u64::from(v.abs() > limit);
+            d[k] = v.clamp(-limit, limit);
+        }
+        for (k, o) in out.chunks_exact_mut(B).enumerate() {
+            let (bytes, over) = put(d[k]);
+            self.clipped[k] += u64::from(over);
+            o.copy_from_slice(&bytes);
+        }
+    }
+}
+
+/// Independent lanes of [`Scaler::encode_each`]'s peak and clip count (eight f64 are two
+/// AVX2 registers).
+const LANES: usize = 8;
 
 /// An output writer with a reusable byte buffer, flushed in chunks of at least
 /// [`FLUSH_BYTES`].
