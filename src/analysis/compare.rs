@@ -18,6 +18,7 @@ use std::ops::Range;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 use super::welch::{BandEstimate, Spectrum};
+use crate::profile::Band;
 
 /// χ²_ν quantiles as a two-sided interval for `ratio = estimate/truth`:
 /// `[χ²_ν(p/2)/ν, χ²_ν(1 − p/2)/ν]`, dimensionless. `dof` > 0, 0 < `p_two_sided` < 1.
@@ -170,6 +171,37 @@ pub fn compare(
         tolerance_db,
         false_alarm,
     }
+}
+
+/// The bands of `bands` that lie wholly inside `band` (edges in Hz): the ones a comparison
+/// with a profile checks.
+pub fn bands_inside(bands: &[BandEstimate], band: &Band) -> Vec<BandEstimate> {
+    bands
+        .iter()
+        .filter(|b| b.f_lo_hz >= band.low_hz && b.f_hi_hz <= band.high_hz)
+        .cloned()
+        .collect()
+}
+
+/// Compares a capture's estimate with a profile's designed density, as `analyze` does: the
+/// bands of `bands` (from `spectrum`) inside `band` ([`bands_inside`]) against the expected
+/// mean of `density(f)` (f in Hz, one-sided, unit²/Hz) over each band's bins
+/// ([`expected_band_psd`]), with χ² intervals for a total false-failure probability
+/// `false_alarm` and a tolerance of `tolerance_db` dB on both sides ([`compare`]).
+pub fn compare_with_design(
+    bands: &[BandEstimate],
+    spectrum: &Spectrum,
+    band: &Band,
+    density: &dyn Fn(f64) -> f64,
+    false_alarm: f64,
+    tolerance_db: f64,
+) -> Comparison {
+    compare(
+        &bands_inside(bands, band),
+        &|b| expected_band_psd(density, spectrum, b.bins.clone()),
+        false_alarm,
+        tolerance_db,
+    )
 }
 
 #[cfg(test)]
