@@ -678,18 +678,8 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             .profile
             .as_ref()
             .map_or(String::new(), |p| p.display().to_string());
-        Some(Error::Mismatch(match c.worst() {
-            Some(w) => format!(
-                "{name} does not match {pname}: {} of {} bands outside their limits; worst \
-                 {:.4}..{:.4} Hz at {:+.2} dB (limits {:+.2} / {:+.2} dB)",
-                c.failed(),
-                c.bands.len(),
-                w.band.f_lo_hz,
-                w.band.f_hi_hz,
-                w.ratio_db,
-                w.limit_db.0,
-                w.limit_db.1
-            ),
+        Some(Error::Mismatch(match c.failure_line() {
+            Some(line) => format!("{name} does not match {pname}: {line}"),
             None => format!("{name} could not be checked against {pname}: no band inside its band"),
         }))
     });
