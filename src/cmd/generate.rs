@@ -13,9 +13,7 @@ use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::analysis::stats::RunningStats;
 use crate::density;
 use crate::error::{Error, Result};
-use crate::profile::{
-    Dimension, Profile, format_quantity, format_quantity_exact, parse_profile, parse_quantity,
-};
+use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{
     CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, open_sink, rms_digital_from_dbfs,
     wav_plan, write_manifest,
@@ -25,7 +23,10 @@ use crate::synth::{ChannelGenerator, Generator, periodic_buffer, periodic_varian
 
 mod summary;
 
-use summary::{coding_words, quantisation_note, range_text, summary_text};
+use summary::{
+    burst_summary, channel_summary, coding_words, quantisation_note, range_text, summary_text,
+    tone_figures, tone_summary,
+};
 
 /// Samples produced and written per step.
 const CHUNK: usize = 1 << 16;
@@ -1187,36 +1188,6 @@ fn channel_manifest(
     );
 }
 
-/// Summary lines for more than one channel: the count, the correlation matrix and each
-/// channel's measured RMS against the expected one.
-fn channel_summary(profile: &Profile, expected_rms: f64, channel_stats: &[RunningStats]) -> String {
-    let u = profile.unit.symbol();
-    let mut s = format!(
-        "  channels        {} (every one with the profile's density; clipped counts all)\n",
-        profile.channels
-    );
-    s += "  correlation     ";
-    for (i, row) in profile.correlation.iter().enumerate() {
-        if i > 0 {
-            s += "                  ";
-        }
-        s += &row
-            .iter()
-            .map(|x| format!("{x:>6.3}"))
-            .collect::<Vec<_>>()
-            .join(" ");
-        s += "\n";
-    }
-    for (k, st) in channel_stats.iter().enumerate() {
-        s += &format!(
-            "  channel {k:<7} RMS {} measured, {} expected\n",
-            format_quantity(st.rms(), u),
-            format_quantity(expected_rms, u)
-        );
-    }
-    s
-}
-
 /// The manifest's burst keys, under `extra`: `expected_std`, `expected_mean`,
 /// `expected_gaussian_rms` (unit), `bursts` (per burst: its occupancy, mean, variance, corner
 /// frequencies, and the occupancy this run measured) and, with `--columns sources`,
@@ -1278,31 +1249,6 @@ fn source_names(profile: &Profile) -> Vec<String> {
         .collect()
 }
 
-/// Each tone's expected SNR (dB) and ENOB (bits) against the profile's in-band noise (the
-/// Gaussian design plus bursts integrated over the band, [`Generator::tone_snr`]), and the
-/// in-band noise RMS (unit); with ADC codes also the same figures with the converter's added
-/// noise in the band (its white density [`Adc::added_noise_psd`] times the band width).
-struct ToneFigures {
-    noise: Vec<(f64, f64)>,
-    with_adc: Option<Vec<(f64, f64)>>,
-    noise_rms: f64,
-}
-
-fn tone_figures(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> ToneFigures {
-    let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
-    ToneFigures {
-        noise: g.tone_snr(lo, hi, 0.0),
-        with_adc: adc.map(|a| {
-            g.tone_snr(
-                lo,
-                hi,
-                a.added_noise_psd(profile.sample_rate_hz) * (hi - lo),
-            )
-        }),
-        noise_rms: g.band_noise_power(lo, hi).sqrt(),
-    }
-}
-
 /// The manifest's deterministic keys, under `extra` (only when the profile has tones or an
 /// offset): `offset` (unit), `noise_band_rms` (unit) and `tones` (per tone: `name`,
 /// `frequency_hz`, `peak`, `rms` (unit), `phase_deg`, `snr_db`, `enob_bits`, and with ADC
@@ -1335,134 +1281,6 @@ fn tone_manifest(manifest: &mut Manifest, profile: &Profile, g: &Generator, adc:
         })
         .collect();
     extra.insert("tones".into(), json!(tones));
-}
-
-/// Summary lines for the tones and offset (empty without either): per tone its frequency,
-/// peak and RMS amplitude, SNR against the in-band noise and ENOB (SINAD = SNR: no
-/// distortion is modelled), and the peak-to-peak with the tones (noise 6σ + Σ 2A).
-fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> String {
-    let u = profile.unit.symbol();
-    let q = |v: f64| format_quantity(v, u);
-    let f = tone_figures(profile, g, adc);
-    let (snr, noise_rms) = (&f.noise, f.noise_rms);
-    let mut s = String::new();
-    if profile.offset != 0.0 {
-        s += &format!(
-            "  offset          {} added to every sample (in the mean and RMS above)\n",
-            format_quantity_exact(profile.offset, u)
-        );
-    }
-    for (i, (t, (snr_db, enob))) in profile.tones.iter().zip(snr).enumerate() {
-        s += &format!(
-            "  tone            {}: {}, {} peak ({} RMS), phase {:.3} deg\n",
-            t.name,
-            format_quantity_exact(t.frequency_hz, "Hz"),
-            q(t.peak),
-            q(t.rms()),
-            t.phase_rad.to_degrees()
-        );
-        s += &format!(
-            "                  SNR {snr_db:.2} dB against {} noise in the band, ENOB {enob:.2} bits \
-             (IEEE 1241, SINAD = SNR: no distortion modelled)\n",
-            q(noise_rms)
-        );
-        if let Some(w) = &f.with_adc {
-            s += &format!(
-                "                  with the converter's added noise: SNR {:.2} dB, ENOB {:.2} bits\n",
-                w[i].0, w[i].1
-            );
-        }
-    }
-    if !profile.tones.is_empty() {
-        let spans: f64 = g
-            .bursts()
-            .iter()
-            .map(|m| {
-                let l = &m.burst().levels;
-                l.iter().copied().fold(f64::MIN, f64::max)
-                    - l.iter().copied().fold(f64::MAX, f64::min)
-            })
-            .sum();
-        let sigma = g.design().variance().sqrt();
-        let tones: f64 = profile.tones.iter().map(|t| 2.0 * t.peak).sum();
-        s += &format!(
-            "  peak-to-peak    {} (Gaussian 6σ + burst spans + Σ 2·peak of the tones), {} \
-             (6.6σ + …) expected at most\n",
-            q(6.0 * sigma + spans + tones),
-            q(6.6 * sigma + spans + tones)
-        );
-    }
-    s
-}
-
-/// Summary lines for the bursts (empty without any): the expected std and mean behind the
-/// AC + DC RMS, and per burst its levels, occupancy (designed and measured), mean, std and
-/// corner frequencies.
-fn burst_summary(g: &Generator, profile: &Profile, variance: f64, mean: f64) -> String {
-    if g.bursts().is_empty() {
-        return String::new();
-    }
-    let u = profile.unit.symbol();
-    let q = |v: f64| format_quantity(v, u);
-    let fractions = |p: &[f64]| {
-        p.iter()
-            .map(|x| format!("{x:.4}"))
-            .collect::<Vec<_>>()
-            .join(" / ")
-    };
-    let mut s = format!(
-        "  bursts          expected RMS above is AC+DC: std {}, mean {} (Gaussian part {} RMS)\n",
-        q(variance.sqrt()),
-        q(mean),
-        q(g.design().variance().sqrt())
-    );
-    let gauss_std = g.design().variance().sqrt();
-    let spans: f64 = g
-        .bursts()
-        .iter()
-        .map(|m| {
-            let l = &m.burst().levels;
-            l.iter().copied().fold(f64::MIN, f64::max) - l.iter().copied().fold(f64::MAX, f64::min)
-        })
-        .sum();
-    s += &format!(
-        "  peak-to-peak    {} (Gaussian 6σ + burst level spans), {} (6.6σ + spans) expected\n",
-        q(6.0 * gauss_std + spans),
-        q(6.6 * gauss_std + spans)
-    );
-    for (m, c) in g.bursts().iter().zip(g.chains()) {
-        let b = m.burst();
-        let corners: Vec<String> = m
-            .modes()
-            .iter()
-            .map(|x| {
-                if x.oscillation_hz > 0.0 {
-                    format!(
-                        "{} (oscillating at {})",
-                        format_quantity(x.corner_hz, "Hz"),
-                        format_quantity(x.oscillation_hz, "Hz")
-                    )
-                } else {
-                    format_quantity(x.corner_hz, "Hz")
-                }
-            })
-            .collect();
-        s += &format!(
-            "  burst           {} ({} sampling): levels {}\n",
-            b.name,
-            b.sampling.name(),
-            crate::profile::describe_levels(b, profile.unit)
-        );
-        s += &format!(
-            "                  occupancy {} (measured {}), mean {}, std {}, corner {}\n",
-            fractions(m.occupancy()),
-            fractions(&c.tally().occupancy()),
-            q(m.mean()),
-            q(m.variance().sqrt()),
-            corners.join(", ")
-        );
-    }
-    s
 }
 
 #[cfg(test)]

@@ -1,12 +1,13 @@
 //! The text `generate` prints when a run ends: the summary's lines (band, expected and
-//! measured levels, scale, seed, notes), the converter's lines with `--bits`, and the wording
-//! of the quantisation note.
+//! measured levels, scale, seed, notes), the converter's lines with `--bits`, the lines for
+//! several channels, tones and offset, and bursts, and the wording of the quantisation note.
 
 use super::{GenerateArgs, Scale, Target};
 use crate::adc::{Adc, Coding, Dither};
 use crate::analysis::stats::RunningStats;
 use crate::density;
 use crate::profile::{Profile, format_quantity, format_quantity_exact};
+use crate::synth::Generator;
 
 /// `lo..hi` with units, as `--range` accepts it, each end exactly as given (it parses back
 /// to the same range).
@@ -175,6 +176,193 @@ pub(super) fn summary_text(
     s += &format!("  seed            {}\n", args.seed);
     for n in notes {
         s += &format!("  note: {n}\n");
+    }
+    s
+}
+
+/// Summary lines for more than one channel: the count, the correlation matrix and each
+/// channel's measured RMS against the expected one.
+pub(super) fn channel_summary(
+    profile: &Profile,
+    expected_rms: f64,
+    channel_stats: &[RunningStats],
+) -> String {
+    let u = profile.unit.symbol();
+    let mut s = format!(
+        "  channels        {} (every one with the profile's density; clipped counts all)\n",
+        profile.channels
+    );
+    s += "  correlation     ";
+    for (i, row) in profile.correlation.iter().enumerate() {
+        if i > 0 {
+            s += "                  ";
+        }
+        s += &row
+            .iter()
+            .map(|x| format!("{x:>6.3}"))
+            .collect::<Vec<_>>()
+            .join(" ");
+        s += "\n";
+    }
+    for (k, st) in channel_stats.iter().enumerate() {
+        s += &format!(
+            "  channel {k:<7} RMS {} measured, {} expected\n",
+            format_quantity(st.rms(), u),
+            format_quantity(expected_rms, u)
+        );
+    }
+    s
+}
+
+/// Each tone's expected SNR (dB) and ENOB (bits) against the profile's in-band noise (the
+/// Gaussian design plus bursts integrated over the band, [`Generator::tone_snr`]), and the
+/// in-band noise RMS (unit); with ADC codes also the same figures with the converter's added
+/// noise in the band (its white density [`Adc::added_noise_psd`] times the band width).
+pub(super) struct ToneFigures {
+    pub(super) noise: Vec<(f64, f64)>,
+    pub(super) with_adc: Option<Vec<(f64, f64)>>,
+    pub(super) noise_rms: f64,
+}
+
+pub(super) fn tone_figures(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> ToneFigures {
+    let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
+    ToneFigures {
+        noise: g.tone_snr(lo, hi, 0.0),
+        with_adc: adc.map(|a| {
+            g.tone_snr(
+                lo,
+                hi,
+                a.added_noise_psd(profile.sample_rate_hz) * (hi - lo),
+            )
+        }),
+        noise_rms: g.band_noise_power(lo, hi).sqrt(),
+    }
+}
+
+/// Summary lines for the tones and offset (empty without either): per tone its frequency,
+/// peak and RMS amplitude, SNR against the in-band noise and ENOB (SINAD = SNR: no
+/// distortion is modelled), and the peak-to-peak with the tones (noise 6σ + Σ 2A).
+pub(super) fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> String {
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let f = tone_figures(profile, g, adc);
+    let (snr, noise_rms) = (&f.noise, f.noise_rms);
+    let mut s = String::new();
+    if profile.offset != 0.0 {
+        s += &format!(
+            "  offset          {} added to every sample (in the mean and RMS above)\n",
+            format_quantity_exact(profile.offset, u)
+        );
+    }
+    for (i, (t, (snr_db, enob))) in profile.tones.iter().zip(snr).enumerate() {
+        s += &format!(
+            "  tone            {}: {}, {} peak ({} RMS), phase {:.3} deg\n",
+            t.name,
+            format_quantity_exact(t.frequency_hz, "Hz"),
+            q(t.peak),
+            q(t.rms()),
+            t.phase_rad.to_degrees()
+        );
+        s += &format!(
+            "                  SNR {snr_db:.2} dB against {} noise in the band, ENOB {enob:.2} bits \
+             (IEEE 1241, SINAD = SNR: no distortion modelled)\n",
+            q(noise_rms)
+        );
+        if let Some(w) = &f.with_adc {
+            s += &format!(
+                "                  with the converter's added noise: SNR {:.2} dB, ENOB {:.2} bits\n",
+                w[i].0, w[i].1
+            );
+        }
+    }
+    if !profile.tones.is_empty() {
+        let spans: f64 = g
+            .bursts()
+            .iter()
+            .map(|m| {
+                let l = &m.burst().levels;
+                l.iter().copied().fold(f64::MIN, f64::max)
+                    - l.iter().copied().fold(f64::MAX, f64::min)
+            })
+            .sum();
+        let sigma = g.design().variance().sqrt();
+        let tones: f64 = profile.tones.iter().map(|t| 2.0 * t.peak).sum();
+        s += &format!(
+            "  peak-to-peak    {} (Gaussian 6σ + burst spans + Σ 2·peak of the tones), {} \
+             (6.6σ + …) expected at most\n",
+            q(6.0 * sigma + spans + tones),
+            q(6.6 * sigma + spans + tones)
+        );
+    }
+    s
+}
+
+/// Summary lines for the bursts (empty without any): the expected std and mean behind the
+/// AC + DC RMS, and per burst its levels, occupancy (designed and measured), mean, std and
+/// corner frequencies.
+pub(super) fn burst_summary(g: &Generator, profile: &Profile, variance: f64, mean: f64) -> String {
+    if g.bursts().is_empty() {
+        return String::new();
+    }
+    let u = profile.unit.symbol();
+    let q = |v: f64| format_quantity(v, u);
+    let fractions = |p: &[f64]| {
+        p.iter()
+            .map(|x| format!("{x:.4}"))
+            .collect::<Vec<_>>()
+            .join(" / ")
+    };
+    let mut s = format!(
+        "  bursts          expected RMS above is AC+DC: std {}, mean {} (Gaussian part {} RMS)\n",
+        q(variance.sqrt()),
+        q(mean),
+        q(g.design().variance().sqrt())
+    );
+    let gauss_std = g.design().variance().sqrt();
+    let spans: f64 = g
+        .bursts()
+        .iter()
+        .map(|m| {
+            let l = &m.burst().levels;
+            l.iter().copied().fold(f64::MIN, f64::max) - l.iter().copied().fold(f64::MAX, f64::min)
+        })
+        .sum();
+    s += &format!(
+        "  peak-to-peak    {} (Gaussian 6σ + burst level spans), {} (6.6σ + spans) expected\n",
+        q(6.0 * gauss_std + spans),
+        q(6.6 * gauss_std + spans)
+    );
+    for (m, c) in g.bursts().iter().zip(g.chains()) {
+        let b = m.burst();
+        let corners: Vec<String> = m
+            .modes()
+            .iter()
+            .map(|x| {
+                if x.oscillation_hz > 0.0 {
+                    format!(
+                        "{} (oscillating at {})",
+                        format_quantity(x.corner_hz, "Hz"),
+                        format_quantity(x.oscillation_hz, "Hz")
+                    )
+                } else {
+                    format_quantity(x.corner_hz, "Hz")
+                }
+            })
+            .collect();
+        s += &format!(
+            "  burst           {} ({} sampling): levels {}\n",
+            b.name,
+            b.sampling.name(),
+            crate::profile::describe_levels(b, profile.unit)
+        );
+        s += &format!(
+            "                  occupancy {} (measured {}), mean {}, std {}, corner {}\n",
+            fractions(m.occupancy()),
+            fractions(&c.tally().occupancy()),
+            q(m.mean()),
+            q(m.variance().sqrt()),
+            corners.join(", ")
+        );
     }
     s
 }
