@@ -19,19 +19,7 @@ use std::path::Path;
 use std::process::{Child, Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
-use common::{Scratch, run, text};
-
-const WHITE: &str = r#"
-name = "fault white"
-unit = "V"
-sample_rate = "48 kHz"
-[band]
-low = "10 Hz"
-high = "20 kHz"
-order = 0
-[[floor]]
-density = "10 nV/rtHz"
-"#;
+use common::{Scratch, WHITE, run, text};
 
 fn bin() -> Command {
     Command::new(env!("CARGO_BIN_EXE_noisewright"))

@@ -2,8 +2,12 @@
 //! Bad input is in tests/error_classes.rs; signals, unwritable outputs, a full disk and
 //! closed pipes are in `cli_faults.rs`.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
+
+use common::WHITE;
 
 fn bin() -> Command {
     Command::new(env!("CARGO_BIN_EXE_noisewright"))
@@ -24,18 +28,6 @@ fn run(args: &[&str], cwd: &Path) -> Output {
 fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
 }
-
-const WHITE: &str = r#"
-name = "cli white"
-unit = "V"
-sample_rate = "48 kHz"
-[band]
-low = "10 Hz"
-high = "20 kHz"
-order = 0
-[[floor]]
-density = "10 nV/rtHz"
-"#;
 
 fn write_profile(dir: &Path, name: &str, body: &str) -> PathBuf {
     let p = dir.join(name);

@@ -29,8 +29,8 @@
 use std::fmt::Write as _;
 
 use noisewright::analysis::capture::{BANDS_PER_DECADE, FIRST_BIN, segment_length};
-use noisewright::analysis::compare::{compare, expected_band_psd};
-use noisewright::analysis::tones::{leakage_bins, split_around};
+use noisewright::analysis::compare::{bands_inside, compare_with_design};
+use noisewright::analysis::tones::without_tones;
 use noisewright::analysis::welch::Welch;
 use noisewright::cmd::analyze::{FALSE_ALARM, TONE_LEAKAGE};
 use noisewright::density::{self, target_psd};
@@ -764,24 +764,15 @@ fn generate_and_measure(case: &Case, p: &Profile) -> Result<Measured, String> {
         welch.push(chunk);
     }
     let spectrum = welch.finish();
-    let mut bands = spectrum.log_bands(FIRST_BIN, BANDS_PER_DECADE);
     let noise = |f: f64| g.density(f);
-    if !p.tones.is_empty() {
-        let excluded: Vec<_> = p
-            .tones
-            .iter()
-            .map(|t| leakage_bins(t.frequency_hz, t.power(), &spectrum, &noise, TONE_LEAKAGE))
-            .collect();
-        bands = bands
-            .iter()
-            .flat_map(|b| split_around(b.bins.clone(), &excluded))
-            .map(|r| spectrum.band(r))
-            .collect();
-    }
-    let inside: Vec<_> = bands
-        .into_iter()
-        .filter(|b| b.f_lo_hz >= p.band.low_hz && b.f_hi_hz <= p.band.high_hz)
-        .collect();
+    let (bands, _) = without_tones(
+        spectrum.log_bands(FIRST_BIN, BANDS_PER_DECADE),
+        &spectrum,
+        &p.tones,
+        &noise,
+        TONE_LEAKAGE,
+    );
+    let inside = bands_inside(&bands, &p.band);
     if inside.is_empty() {
         return Ok(Measured {
             bands: 0,
@@ -797,25 +788,12 @@ fn generate_and_measure(case: &Case, p: &Profile) -> Result<Measured, String> {
     } else {
         burst_tolerance_db(&g, seconds, checked, Z_1E3)
     };
-    let c = compare(
-        &inside,
-        &|b| expected_band_psd(&noise, &spectrum, b.bins.clone()),
-        FALSE_ALARM,
-        tolerance,
-    );
+    let c = compare_with_design(&bands, &spectrum, &p.band, &noise, FALSE_ALARM, tolerance);
     if !c.pass {
         let w = c.worst().expect("a failed band");
         return Err(format!(
-            "{} of {} bands fail (tolerance {tolerance:.3} dB); worst {:.4}..{:.4} Hz: \
-             measured/designed {:+.3} dB, limits {:+.3} .. {:+.3} dB (ν {:.1}), {} frames, \
-             segment {seg}",
-            c.failed(),
-            c.bands.len(),
-            w.band.f_lo_hz,
-            w.band.f_hi_hz,
-            w.ratio_db,
-            w.limit_db.0,
-            w.limit_db.1,
+            "{} (tolerance {tolerance:.3} dB; the worst band's ν {:.1}), {} frames, segment {seg}",
+            c.failure_line().expect("a failed band"),
             w.band.dof,
             frames
         ));

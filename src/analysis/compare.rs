@@ -18,6 +18,7 @@ use std::ops::Range;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
 use super::welch::{BandEstimate, Spectrum};
+use crate::profile::Band;
 
 /// χ²_ν quantiles as a two-sided interval for `ratio = estimate/truth`:
 /// `[χ²_ν(p/2)/ν, χ²_ν(1 − p/2)/ν]`, dimensionless. `dof` > 0, 0 < `p_two_sided` < 1.
@@ -129,6 +130,25 @@ impl Comparison {
             .filter(|b| !b.pass)
             .max_by(|a, b| excess(a).total_cmp(&excess(b)))
     }
+
+    /// One line on the failed bands, `None` when none failed: how many of how many, and the
+    /// worst one's edges (Hz), its 10·log10(measured/expected) and its limits (dB), e.g.
+    /// `2 of 31 bands outside their limits; worst 10.0000..12.5000 Hz at +1.92 dB (limits
+    /// -1.71 / +1.52 dB)`.
+    pub fn failure_line(&self) -> Option<String> {
+        let w = self.worst()?;
+        Some(format!(
+            "{} of {} bands outside their limits; worst {:.4}..{:.4} Hz at {:+.2} dB (limits \
+             {:+.2} / {:+.2} dB)",
+            self.failed(),
+            self.bands.len(),
+            w.band.f_lo_hz,
+            w.band.f_hi_hz,
+            w.ratio_db,
+            w.limit_db.0,
+            w.limit_db.1
+        ))
+    }
 }
 
 /// Compares `bands` (from `spectrum`) with `expected(band)` (mean density over the band,
@@ -170,6 +190,37 @@ pub fn compare(
         tolerance_db,
         false_alarm,
     }
+}
+
+/// The bands of `bands` that lie wholly inside `band` (edges in Hz): the ones a comparison
+/// with a profile checks.
+pub fn bands_inside(bands: &[BandEstimate], band: &Band) -> Vec<BandEstimate> {
+    bands
+        .iter()
+        .filter(|b| b.f_lo_hz >= band.low_hz && b.f_hi_hz <= band.high_hz)
+        .cloned()
+        .collect()
+}
+
+/// Compares a capture's estimate with a profile's designed density, as `analyze` does: the
+/// bands of `bands` (from `spectrum`) inside `band` ([`bands_inside`]) against the expected
+/// mean of `density(f)` (f in Hz, one-sided, unit²/Hz) over each band's bins
+/// ([`expected_band_psd`]), with χ² intervals for a total false-failure probability
+/// `false_alarm` and a tolerance of `tolerance_db` dB on both sides ([`compare`]).
+pub fn compare_with_design(
+    bands: &[BandEstimate],
+    spectrum: &Spectrum,
+    band: &Band,
+    density: &dyn Fn(f64) -> f64,
+    false_alarm: f64,
+    tolerance_db: f64,
+) -> Comparison {
+    compare(
+        &bands_inside(bands, band),
+        &|b| expected_band_psd(density, spectrum, b.bins.clone()),
+        false_alarm,
+        tolerance_db,
+    )
 }
 
 #[cfg(test)]

@@ -12,7 +12,8 @@
 use std::f64::consts::TAU;
 use std::ops::Range;
 
-use crate::analysis::welch::Spectrum;
+use crate::analysis::welch::{BandEstimate, Spectrum};
+use crate::profile::Tone;
 use crate::synth::tone::cycle_fraction;
 
 /// Streaming least-squares fit of sines at known frequencies plus a DC term.
@@ -188,6 +189,34 @@ pub fn split_around(bins: Range<usize>, excluded: &[Range<usize>]) -> Vec<Range<
             .collect();
     }
     pieces
+}
+
+/// `bands` of `spectrum` with the Welch bins each of `tones` leaks into left out, as a
+/// comparison with a profile needs them: per tone the bins of [`leakage_bins`] (its leakage
+/// above `fraction` of `noise_density(f)`, f in Hz, unit²/Hz), each band split around them
+/// ([`split_around`]) and every piece estimated again ([`Spectrum::band`]). Returns the bands
+/// (edges in Hz, densities in unit²/Hz) and, per tone in order, its excluded bins (indices
+/// into `spectrum.psd`). With no tones the bands come back as they are.
+pub fn without_tones(
+    bands: Vec<BandEstimate>,
+    spectrum: &Spectrum,
+    tones: &[Tone],
+    noise_density: &dyn Fn(f64) -> f64,
+    fraction: f64,
+) -> (Vec<BandEstimate>, Vec<Range<usize>>) {
+    if tones.is_empty() {
+        return (bands, Vec::new());
+    }
+    let excluded: Vec<_> = tones
+        .iter()
+        .map(|t| leakage_bins(t.frequency_hz, t.power(), spectrum, noise_density, fraction))
+        .collect();
+    let bands = bands
+        .iter()
+        .flat_map(|b| split_around(b.bins.clone(), &excluded))
+        .map(|r| spectrum.band(r))
+        .collect();
+    (bands, excluded)
 }
 
 #[cfg(test)]

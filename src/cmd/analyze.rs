@@ -12,10 +12,10 @@ use super::pending::{PendingFile, commit_all};
 use crate::analysis::capture::{
     BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
 };
-use crate::analysis::compare::{Comparison, compare, expected_band_psd};
+use crate::analysis::compare::{Comparison, compare_with_design, expected_band_psd};
 use crate::analysis::fit::{FitOptions, fit_floor};
 use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
-use crate::analysis::tones::{ToneFit, leakage_bins, split_around};
+use crate::analysis::tones::{ToneFit, without_tones};
 use crate::burst::BurstModel;
 use crate::error::{Error, Result};
 use crate::figure;
@@ -491,16 +491,8 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     if let (Some(p), Some(d)) = (&profile, &design) {
         if !p.tones.is_empty() {
             let noise = |f: f64| d.density(f) + q_psd;
-            let excluded: Vec<_> = p
-                .tones
-                .iter()
-                .map(|t| leakage_bins(t.frequency_hz, t.power(), &spectrum, &noise, TONE_LEAKAGE))
-                .collect();
-            bands = bands
-                .iter()
-                .flat_map(|b| split_around(b.bins.clone(), &excluded))
-                .map(|r| spectrum.band(r))
-                .collect();
+            let excluded;
+            (bands, excluded) = without_tones(bands, &spectrum, &p.tones, &noise, TONE_LEAKAGE);
             let freqs: Vec<f64> = p.tones.iter().map(|t| t.frequency_hz).collect();
             let mut fit = ToneFit::new(&freqs, fs);
             pass(&args.file, &options, &scale, interrupted, &mut |x| {
@@ -552,14 +544,11 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     }
     let comparison: Option<Comparison> = match (&profile, &design) {
         (Some(p), Some(d)) => {
-            let inside: Vec<_> = bands
-                .iter()
-                .filter(|b| b.f_lo_hz >= p.band.low_hz && b.f_hi_hz <= p.band.high_hz)
-                .cloned()
-                .collect();
-            let c = compare(
-                &inside,
-                &|b| expected_band_psd(&|f| d.density(f) + q_psd, &spectrum, b.bins.clone()),
+            let c = compare_with_design(
+                &bands,
+                &spectrum,
+                &p.band,
+                &|f| d.density(f) + q_psd,
                 FALSE_ALARM,
                 tolerance_db,
             );
@@ -689,18 +678,8 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             .profile
             .as_ref()
             .map_or(String::new(), |p| p.display().to_string());
-        Some(Error::Mismatch(match c.worst() {
-            Some(w) => format!(
-                "{name} does not match {pname}: {} of {} bands outside their limits; worst \
-                 {:.4}..{:.4} Hz at {:+.2} dB (limits {:+.2} / {:+.2} dB)",
-                c.failed(),
-                c.bands.len(),
-                w.band.f_lo_hz,
-                w.band.f_hi_hz,
-                w.ratio_db,
-                w.limit_db.0,
-                w.limit_db.1
-            ),
+        Some(Error::Mismatch(match c.failure_line() {
+            Some(line) => format!("{name} does not match {pname}: {line}"),
             None => format!("{name} could not be checked against {pname}: no band inside its band"),
         }))
     });

@@ -1,5 +1,6 @@
 //! Shared helpers for the integration tests: χ² acceptance bands for density and variance
-//! estimates, and a band-by-band check of a Welch estimate against a designed density.
+//! estimates, a band-by-band check of a Welch estimate against a designed density, the
+//! Python reference, scratch folders, running the binary, and a white test profile.
 //!
 //! Each test binary uses only some of these.
 #![allow(dead_code)]
@@ -251,3 +252,17 @@ pub fn run(args: &[&str], cwd: &std::path::Path) -> std::process::Output {
 pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
 }
+
+/// A white test profile: a 10 nV/√Hz floor in volts, band 10 Hz – 20 kHz with a brick-wall
+/// (order 0) upper edge, sample rate 48 kHz.
+pub const WHITE: &str = r#"
+name = "cli white"
+unit = "V"
+sample_rate = "48 kHz"
+[band]
+low = "10 Hz"
+high = "20 kHz"
+order = 0
+[[floor]]
+density = "10 nV/rtHz"
+"#;
