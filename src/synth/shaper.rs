@@ -224,7 +224,15 @@ fn pull(levels: &mut [LevelState], tx: &Transforms, scratch: &mut [Scratch], out
     let mut done = 0;
     while done < out.len() {
         if head.ready_pos == head.ready.len() {
-            batch(head, below, tx, scratch);
+            // The block pairs that fit go straight into `out`; only the rest wait in `ready`.
+            let room = if head.skip == 0 {
+                ((out.len() - done) / (2 * HOP)).min(BATCH_PAIRS) * 2 * HOP
+            } else {
+                0
+            };
+            batch(head, below, tx, scratch, &mut out[done..done + room]);
+            done += room;
+            continue;
         }
         let n = (out.len() - done).min(head.ready.len() - head.ready_pos);
         out[done..done + n].copy_from_slice(&head.ready[head.ready_pos..head.ready_pos + n]);
@@ -246,13 +254,18 @@ fn draw(level: &mut LevelState, tx: &Transforms, range: std::ops::Range<usize>) 
     level.next_chunk += (range.len() / CHUNK) as u64;
 }
 
-/// Produce the next BATCH_PAIRS block pairs (BATCH_OUT samples) of `level`.
+/// Produce the next BATCH_PAIRS block pairs (BATCH_OUT samples) of `level`: the first
+/// `direct.len() / (2·HOP)` pairs into `direct`, the others into `level.ready` at the same
+/// offsets. `direct` must be empty when the batch has samples to drop (`level.skip > 0`).
 fn batch(
     level: &mut LevelState,
     below: &mut [LevelState],
     tx: &Transforms,
     scratch: &mut [Scratch],
+    direct: &mut [f64],
 ) {
+    debug_assert!(direct.len() % (2 * HOP) == 0 && direct.len() <= BATCH_OUT);
+    debug_assert!(direct.is_empty() || level.skip == 0);
     let active = !level.shaper.is_empty();
     let has_below = !level.interp.is_empty();
     if !level.primed {
@@ -273,9 +286,10 @@ fn batch(
     }
     let (white, low) = (&level.white, &level.low);
     let (shaper, interp) = (&level.shaper, &level.interp);
-    level
-        .ready
-        .par_chunks_mut(2 * HOP)
+    let room = direct.len();
+    let mut outs: Vec<&mut [f64]> = direct.chunks_mut(2 * HOP).collect();
+    outs.extend(level.ready[room..].chunks_mut(2 * HOP));
+    outs.par_iter_mut()
         .zip(scratch.par_iter_mut())
         .enumerate()
         .for_each(|(p, (out, s))| {
@@ -283,7 +297,7 @@ fn batch(
             let l = &low[2 * p * LOW_HOP..2 * p * LOW_HOP + LOW_HOP + LOW_LEN];
             pair(tx, s, shaper, interp, w, l, out);
         });
-    level.ready_pos = std::mem::take(&mut level.skip);
+    level.ready_pos = std::mem::take(&mut level.skip).max(room);
     if active {
         let end = level.white.len();
         level.white.copy_within(end - HISTORY.., 0);
@@ -367,7 +381,12 @@ mod tests {
         let mut b = Shaper::new(&d, 42);
         let mut parts = vec![0.0; 100_000];
         let mut pos = 0;
-        for n in [1usize, 7, 4095, 333, 40_000].iter().cycle() {
+        // Short calls are served from a level's ready buffer, calls of a block pair (2·HOP)
+        // or more partly straight from the FFTs: both paths and their seams are crossed.
+        for n in [1usize, 7, 4095, 333, 40_000, 2 * HOP + 1, 2 * HOP - 1]
+            .iter()
+            .cycle()
+        {
             let end = (pos + n).min(parts.len());
             b.fill(&mut parts[pos..end]);
             pos = end;
