@@ -15,8 +15,8 @@ use crate::density;
 use crate::error::{Error, Result};
 use crate::profile::{Dimension, Profile, format_quantity, parse_profile, parse_quantity};
 use crate::sink::{
-    CsvSink, Format, Manifest, SampleFormat, Sink, SinkSpec, open_sink, rms_digital_from_dbfs,
-    wav_plan, write_manifest,
+    CsvSink, FLUSH_BYTES, Format, Manifest, SampleFormat, Sink, SinkSpec, open_sink,
+    rms_digital_from_dbfs, wav_plan, write_manifest,
 };
 use crate::synth::tone;
 use crate::synth::{ChannelGenerator, Generator, periodic_buffer, periodic_variance};
@@ -664,7 +664,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
         Target::Stdout => {
             let mut sink = make_sink(
                 &spec,
-                Box::new(BufWriter::with_capacity(1 << 20, io::stdout())),
+                Box::new(BufWriter::with_capacity(FLUSH_BYTES, io::stdout())),
             )?;
             let result = pump(
                 &mut *engine,
@@ -694,7 +694,7 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             let pending = PendingFile::create(path)?;
             let mp = PendingFile::create(&manifest_path)?;
             {
-                let writer = BufWriter::with_capacity(1 << 20, pending.file()?);
+                let writer = BufWriter::with_capacity(FLUSH_BYTES, pending.file()?);
                 let mut sink = make_sink(&spec, Box::new(writer))?;
                 pump(
                     &mut *engine,

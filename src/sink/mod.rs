@@ -65,7 +65,10 @@ use crate::profile::Unit;
 /// Samples encoded per inner loop; keeps the byte buffer near [`FLUSH_BYTES`].
 const CHUNK_SAMPLES: usize = 16 * 1024;
 /// The byte buffer is handed to `write_all` once it holds at least this much (64 KiB).
-const FLUSH_BYTES: usize = 64 * 1024;
+///
+/// A `BufWriter` under a sink should have this capacity: writes at least as large as its
+/// capacity go straight through, so the bytes are not copied a second time.
+pub const FLUSH_BYTES: usize = 64 * 1024;
 
 /// Output container.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
@@ -597,28 +600,26 @@ impl Scaler {
     ) {
         // No full scale: the value itself, never clipped here (×1 and a clamp to ±∞ are exact).
         let (gain, limit) = self.gain.map_or((1.0, f64::INFINITY), |g| (g, 1.0));
-        let start = buf.len();
-        buf.resize(start + B * samples.len(), 0);
-        let out = &mut buf[start..];
+        buf.reserve(B * samples.len());
         let mut lanes = Lanes {
             peak: [0.0; LANES],
             clipped: [0; LANES],
         };
+        // Each group is encoded on the stack and appended, so the buffer is never zeroed first.
+        let mut o = [[0u8; B]; LANES];
         let mut xs = samples.chunks_exact(LANES);
-        let mut os = out.chunks_exact_mut(B * LANES);
-        for (x, o) in (&mut xs).zip(&mut os) {
+        for x in &mut xs {
             let x: &[f64; LANES] = x.try_into().expect("LANES samples");
-            lanes.encode(x, gain, limit, &put, o);
+            lanes.encode(x, gain, limit, &put, o.as_flattened_mut());
+            buf.extend_from_slice(o.as_flattened());
         }
         let rest = xs.remainder();
         if !rest.is_empty() {
             // Padding with zeros changes neither the peak nor the clip count.
             let mut x = [0.0; LANES];
             x[..rest.len()].copy_from_slice(rest);
-            let mut o = [[0u8; B]; LANES];
             lanes.encode(&x, gain, limit, &put, o.as_flattened_mut());
-            os.into_remainder()
-                .copy_from_slice(&o.as_flattened()[..B * rest.len()]);
+            buf.extend_from_slice(&o.as_flattened()[..B * rest.len()]);
         }
         let (peak, clipped) = (lanes.peak, lanes.clipped);
         self.report.peak_abs = peak.iter().fold(self.report.peak_abs, |a, &p| a.max(p));
