@@ -16,6 +16,9 @@
 //! included, not dropped). Its integral is computed exactly from autocorrelations.
 
 use std::f64::consts::PI;
+use std::sync::OnceLock;
+
+use rayon::prelude::*;
 
 use rustfft::FftPlannerScalar;
 use rustfft::num_complex::Complex;
@@ -73,13 +76,19 @@ pub struct Design {
     sample_rate_hz: f64,
     levels: Vec<Level>,
     interp: Vec<f64>,
+    /// [`Design::variance`], computed on first use (unit²): a run asks for it several times.
+    variance: OnceLock<f64>,
 }
 
 impl Design {
     /// Design the pyramid for `target`, a one-sided power density in unit²/Hz defined for
     /// `0 ≤ f ≤ sample_rate_hz/2` (it must be finite and ≥ 0; typically it already contains
     /// the band edges), whose lowest feature of interest is at `low_hz`.
-    pub fn new(target: &dyn Fn(f64) -> f64, sample_rate_hz: f64, low_hz: f64) -> Result<Design> {
+    pub fn new(
+        target: &(dyn Fn(f64) -> f64 + Sync),
+        sample_rate_hz: f64,
+        low_hz: f64,
+    ) -> Result<Design> {
         if !(sample_rate_hz > 0.0 && sample_rate_hz.is_finite()) {
             return Err(Error::Unsupported(format!(
                 "sample rate must be a positive number of Hz, got {sample_rate_hz}"
@@ -105,50 +114,58 @@ impl Design {
         }
         let mut planner = FftPlannerScalar::<f64>::new();
         let inverse = planner.plan_fft_inverse(DESIGN_GRID);
-        let mut grid = vec![Complex::new(0.0, 0.0); DESIGN_GRID];
         let window = kaiser(SHAPER_TAPS, SHAPER_BETA);
-        let mut levels = Vec::with_capacity(count);
-        for j in 0..count {
-            let rate = sample_rate_hz / (RATIO as f64).powi(j as i32);
-            for k in 0..=DESIGN_GRID / 2 {
-                let x = k as f64 / DESIGN_GRID as f64;
-                let w = level_weight(j, count, x);
-                let a = if w > 0.0 {
-                    let t = target(x * rate);
-                    if !(t.is_finite() && t >= 0.0) {
-                        return Err(Error::Unsupported(format!(
-                            "the target density is {t} at {} Hz; it must be finite and ≥ 0",
-                            x * rate
-                        )));
+        // The levels are independent: designed in parallel, the same arithmetic each; the
+        // first failing level (in order) is the one reported.
+        let levels = (0..count)
+            .into_par_iter()
+            .map(|j| {
+                let rate = sample_rate_hz / (RATIO as f64).powi(j as i32);
+                let mut grid = vec![Complex::new(0.0, 0.0); DESIGN_GRID];
+                for k in 0..=DESIGN_GRID / 2 {
+                    let x = k as f64 / DESIGN_GRID as f64;
+                    let w = level_weight(j, count, x);
+                    let a = if w > 0.0 {
+                        let t = target(x * rate);
+                        if !(t.is_finite() && t >= 0.0) {
+                            return Err(Error::Unsupported(format!(
+                                "the target density is {t} at {} Hz; it must be finite and ≥ 0",
+                                x * rate
+                            )));
+                        }
+                        (t * w * rate / 2.0).sqrt()
+                    } else {
+                        0.0
+                    };
+                    grid[k] = Complex::new(a, 0.0);
+                    if k > 0 && k < DESIGN_GRID / 2 {
+                        grid[DESIGN_GRID - k] = Complex::new(a, 0.0);
                     }
-                    (t * w * rate / 2.0).sqrt()
-                } else {
-                    0.0
-                };
-                grid[k] = Complex::new(a, 0.0);
-                if k > 0 && k < DESIGN_GRID / 2 {
-                    grid[DESIGN_GRID - k] = Complex::new(a, 0.0);
                 }
-            }
-            inverse.process(&mut grid);
-            let c = SHAPER_TAPS / 2;
-            let taps: Vec<f64> = (0..SHAPER_TAPS)
-                .map(|i| {
-                    let lag = (i as isize - c as isize).rem_euclid(DESIGN_GRID as isize) as usize;
-                    grid[lag].re / DESIGN_GRID as f64 * window[i]
+                inverse.process(&mut grid);
+                let c = SHAPER_TAPS / 2;
+                let taps: Vec<f64> = (0..SHAPER_TAPS)
+                    .map(|i| {
+                        let lag =
+                            (i as isize - c as isize).rem_euclid(DESIGN_GRID as isize) as usize;
+                        grid[lag].re / DESIGN_GRID as f64 * window[i]
+                    })
+                    .collect();
+                let active = taps.iter().any(|&t| t != 0.0);
+                Ok(Level {
+                    rate_hz: rate,
+                    taps,
+                    active,
                 })
-                .collect();
-            let active = taps.iter().any(|&t| t != 0.0);
-            levels.push(Level {
-                rate_hz: rate,
-                taps,
-                active,
-            });
-        }
+            })
+            .collect::<Vec<Result<Level>>>()
+            .into_iter()
+            .collect::<Result<Vec<Level>>>()?;
         Ok(Design {
             sample_rate_hz,
             levels,
             interp: interpolator(),
+            variance: OnceLock::new(),
         })
     }
 
@@ -191,8 +208,12 @@ impl Design {
     }
 
     /// The designed variance of the output, in unit² (the integral of [`Design::density`]
-    /// over 0…fs/2), computed exactly from the filters' autocorrelations.
+    /// over 0…fs/2), computed exactly from the filters' autocorrelations (once per design).
     pub fn variance(&self) -> f64 {
+        *self.variance.get_or_init(|| self.compute_variance())
+    }
+
+    fn compute_variance(&self) -> f64 {
         let gg = autocorrelation(&self.interp, INTERP_TAPS - 1);
         let mut below: Option<Vec<f64>> = None;
         for level in self.levels.iter().rev() {
