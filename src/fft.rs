@@ -923,6 +923,103 @@ mod tests {
         x.iter().map(|v| v.to_bits()).collect()
     }
 
+    /// The defining sequence of operations, one scalar at a time: for every pass (length n,
+    /// stride s, q = n/4), every p < q and j < s, the butterfly of
+    /// `x[s·(p + r·q) + j]` (r = 0..3), outputs m = 1..3 multiplied by `W_n^(mp)` (always on
+    /// the first pass, only for p > 0 on the others), stored at `y[s·(4p + m) + j]`; then the
+    /// radix-2 pass of an odd log2 N. Every optimised path must give exactly these bits.
+    fn oracle_forward(x: &(Vec<f64>, Vec<f64>)) -> (Vec<f64>, Vec<f64>) {
+        let len = x.0.len();
+        let (cos, sin) = unit_circle(len);
+        let (mut xr, mut xi) = x.clone();
+        let (mut yr, mut yi) = (vec![0.0; len], vec![0.0; len]);
+        let mut n = len;
+        while n >= 4 {
+            let (s, q) = (len / n, n / 4);
+            for p in 0..q {
+                for j in 0..s {
+                    let at = |r: usize| s * (p + r * q) + j;
+                    let v = |r: usize| ([xr[at(r)]], [xi[at(r)]]);
+                    let y = butterfly4::<1>([v(0), v(1), v(2), v(3)]);
+                    for (m, z) in y.into_iter().enumerate() {
+                        let z = if m > 0 && (s == 1 || p > 0) {
+                            let k = m * p * s;
+                            cmul([cos[k]], [-sin[k]], z.0, z.1)
+                        } else {
+                            z
+                        };
+                        yr[s * (4 * p + m) + j] = z.0[0];
+                        yi[s * (4 * p + m) + j] = z.1[0];
+                    }
+                }
+            }
+            std::mem::swap(&mut xr, &mut yr);
+            std::mem::swap(&mut xi, &mut yi);
+            n /= 4;
+        }
+        if n == 2 {
+            let h = len / 2;
+            for j in 0..h {
+                let (ar, ai, br, bi) = (xr[j], xi[j], xr[j + h], xi[j + h]);
+                (xr[j], xi[j], xr[j + h], xi[j + h]) = (ar + br, ai + bi, ar - br, ai - bi);
+            }
+        }
+        (xr, xi)
+    }
+
+    /// Inputs for the bit tests: Gaussian, and a sparse one of signed zeros and a few values
+    /// (so that the signs of zero results are checked too).
+    fn bit_test_inputs(n: usize, seed: u64) -> Vec<(Vec<f64>, Vec<f64>)> {
+        let gauss = random(n, seed);
+        let mut sparse = (vec![0.0; n], vec![-0.0; n]);
+        for k in (0..n).step_by(7) {
+            sparse.0[k] = if k % 2 == 0 { -0.0 } else { 1.5 };
+            sparse.1[k] = gauss.0[k];
+        }
+        let real = (gauss.0.clone(), vec![0.0; n]);
+        vec![gauss, sparse, real]
+    }
+
+    #[test]
+    fn every_path_gives_the_bits_of_the_defining_scalar_sequence() {
+        for log2 in 0..=16 {
+            let n = 1usize << log2;
+            let plans = [Fft::new(n), Fft::baseline(n)];
+            for (t, x) in bit_test_inputs(n, SEED + 300 + log2 as u64)
+                .iter()
+                .enumerate()
+            {
+                let want = oracle_forward(x);
+                // The inverse is the forward transform of the exchanged parts, exchanged back.
+                let swapped = (x.1.clone(), x.0.clone());
+                let want_inv = oracle_forward(&swapped);
+                for fft in &plans {
+                    let what = format!("N = {n}, input {t}, {:?}", fft.isa);
+                    let y = forward(fft, x);
+                    assert!(
+                        bits(&y.0) == bits(&want.0) && bits(&y.1) == bits(&want.1),
+                        "{what}"
+                    );
+                    let (mut re, mut im) = x.clone();
+                    let (mut tr, mut ti) = (vec![0.0; n], vec![0.0; n]);
+                    fft.forward((&mut re, &mut im), (&mut tr, &mut ti));
+                    assert!(
+                        bits(&re) == bits(&want.0) && bits(&im) == bits(&want.1),
+                        "{what}"
+                    );
+                    let (mut re, mut im) = x.clone();
+                    fft.inverse((&mut re, &mut im), (&mut tr, &mut ti));
+                    let ok = bits(&re) == bits(&want_inv.1) && bits(&im) == bits(&want_inv.0);
+                    assert!(ok, "{what}, inverse");
+                    let (mut yr, mut yi) = (vec![0.0; n], vec![0.0; n]);
+                    fft.inverse_into((&x.0, &x.1), (&mut yr, &mut yi), (&mut tr, &mut ti));
+                    let ok = bits(&yr) == bits(&want_inv.1) && bits(&yi) == bits(&want_inv.0);
+                    assert!(ok, "{what}, inverse_into");
+                }
+            }
+        }
+    }
+
     #[test]
     fn the_avx2_path_gives_the_same_bits_as_the_baseline() {
         let fast = |n| Fft::new(n);
