@@ -1,7 +1,7 @@
 //! A complex f64 FFT for power-of-two lengths whose results are the same, bit for bit, on
 //! every machine.
 //!
-//! [`Fft::new`] plans a length once (twiddles and the sequence of passes); the transforms then
+//! [`Fft::new`] plans a length once (twiddles and the sequence of stages); the transforms then
 //! work on split arrays, real parts in one slice and imaginary parts in another, with caller
 //! owned scratch of [`Fft::len`] samples per part. Conventions:
 //!
@@ -26,13 +26,18 @@
 //! # Why the bits do not depend on the machine
 //!
 //! - **One expression per output.** The algorithm is a Stockham (self-sorting) radix-4 FFT with
-//!   one radix-2 pass when log2 N is odd. Every pass is a loop over contiguous runs of samples
-//!   whose body uses only IEEE `+`, `−` and `×` on f64. Vector code (SSE2, or AVX2 chosen at
-//!   run time) applies that same body to 2 or 4 lanes at once, so each lane performs exactly
-//!   the scalar operations, in the same order. Rust never contracts `a·b + c` into a fused
-//!   multiply-add and has no fast-math mode, and `mul_add` is not used, so a wider vector or an
-//!   FMA-capable CPU cannot change a result. Which code runs for a pass depends only on N, never
-//!   on the CPU, and the test `the_avx2_path_gives_the_same_bits_as_the_baseline` checks it.
+//!   one radix-2 pass when log2 N is odd. The passes run in stages of two radix-4 passes (the
+//!   last stage may hold one radix-4 pass, the radix-2 pass or both), each stage reading every
+//!   sample once and writing it once, the values between its passes kept in registers. Every
+//!   stage is a loop whose body uses only IEEE `+`, `−` and `×` on f64, applied to eight
+//!   lanes at once (one lane for lengths too short for eight): portable arrays in the baseline
+//!   copy (the compiler picks SSE2), AVX2 intrinsics in a copy chosen at run time, the same
+//!   IEEE operation in every lane. So each lane performs exactly the scalar operations, in the
+//!   same order. Rust never contracts `a·b + c` into a fused multiply-add and has no fast-math
+//!   mode, and `mul_add` is not used, so a wider vector or an FMA-capable CPU cannot change a
+//!   result. Which code runs for a stage depends only on N, never on the CPU; the tests
+//!   `the_avx2_path_gives_the_same_bits_as_the_baseline` and
+//!   `every_path_gives_the_bits_of_the_defining_scalar_sequence` check it.
 //! - **Twiddles from basic operations.** The platform's `sin`/`cos` may differ in the last bit
 //!   between libraries, so the twiddle table is computed here: `sin` and `cos` of angles up to
 //!   π/4 from their Taylor series in Horner form (coefficients by IEEE division), 1/√2 at π/4,
@@ -48,19 +53,21 @@
 //! error (N. J. Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed., SIAM 2002,
 //! §24.1, Theorem 24.2); the tests hold this FFT to that bound.
 
-/// Samples per lane group: the width of the explicit lane arrays (four f64 fill one AVX2
-/// register; SSE2 uses two registers).
-const L: usize = 4;
+/// Lanes of the wide kernels: eight f64 samples per load or store of one part, 64 bytes (a
+/// cache line when aligned); two AVX2 registers, four SSE2 registers in the baseline copy.
+/// The baseline copy was also tried on two and four lanes: faster at 2048 points, slower at
+/// 8192, the length the engine transforms most.
+const L: usize = 8;
 
 /// A planned FFT of one power-of-two length.
 #[derive(Debug, Clone)]
 pub struct Fft {
     len: usize,
-    passes: Vec<Pass>,
+    stages: Vec<Stage>,
     isa: Isa,
 }
 
-/// Which compiled copy of the (identical) pass code runs.
+/// Which compiled copy of the (identical) stage code runs.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Isa {
     Baseline,
@@ -68,25 +75,35 @@ enum Isa {
     Avx2,
 }
 
+/// What a stage does: one sweep over the data, one load and one store of every sample, with
+/// one or two passes done in registers in between.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Kind {
-    /// Radix 4 with stride 1 (the first pass): lanes run over butterflies.
-    First4,
-    /// Radix 4 with stride ≥ 4: lanes run over the stride.
-    Radix4,
-    /// The radix-2 pass of an odd log2 N, last, with no twiddles.
-    Last2,
+    /// The first two radix-4 passes (strides 1 and 4): lanes run over consecutive
+    /// butterflies.
+    FirstPair,
+    /// Two radix-4 passes of strides s and 4s (s ≥ 16): lanes run over the stride.
+    Pair,
+    /// The radix-4 pass of length 4, last (even log2 N with an odd number of radix-4 passes).
+    Four,
+    /// The radix-4 pass of length 8 and the radix-2 pass after it (odd log2 N).
+    Eight,
+    /// The radix-2 pass alone, last (odd log2 N with an even number of radix-4 passes).
+    Two,
 }
 
+/// One sweep over the data, planned: its kind, sizes and twiddles.
 #[derive(Debug, Clone)]
-struct Pass {
+struct Stage {
     kind: Kind,
-    /// Length of the sub-transforms this pass splits.
+    /// Length in samples of the sub-transforms the stage's first pass splits.
     n: usize,
-    /// Stride: N / n.
+    /// Stride in samples of the stage's first pass: N / n.
     s: usize,
-    /// Twiddles `W^p, W^2p, W^3p` (`W = e^(−2πi/n)`, p < n/4) as six runs of n/4:
-    /// re and im of `W^p`, then of `W^2p`, then of `W^3p`.
+    /// Whether the kernel runs on [`L`] lanes (else on one: lengths too short for `L`).
+    wide: bool,
+    /// Twiddles in the order the stage reads them (see [`pair_twiddles`]; [`Kind::Four`] and
+    /// [`Kind::Eight`]: re, im of `W^(mp)` for p = 0 (m = 1..3), then p = 1 (m = 1..3)).
     tw: Vec<f64>,
 }
 
@@ -115,35 +132,62 @@ impl Fft {
             "FFT length {len} is not a power of two"
         );
         let (cos, sin) = unit_circle(len);
-        let mut passes = Vec::new();
+        let log2 = len.trailing_zeros();
+        let mut radix4 = log2 / 2;
+        let odd = log2 % 2 == 1;
+        let mut stages = Vec::new();
         let mut n = len;
-        while n >= 4 {
+        while radix4 >= 2 {
             let s = len / n;
-            let quarter = n / 4;
-            let mut tw = vec![0.0; 6 * quarter];
-            for m in 1..=3 {
-                for p in 0..quarter {
-                    // W_n^(m·p) = W_len^(m·p·s); m·p·s < 3·len/4.
-                    let k = m * p * s;
-                    tw[(2 * m - 2) * quarter + p] = cos[k];
-                    tw[(2 * m - 1) * quarter + p] = -sin[k];
+            let (kind, wide) = if s == 1 {
+                (Kind::FirstPair, n / 16 % L == 0)
+            } else {
+                (Kind::Pair, s % L == 0)
+            };
+            let width = if kind == Kind::FirstPair && wide {
+                L
+            } else {
+                1
+            };
+            let tw = pair_twiddles(n, s, width, &cos, &sin);
+            stages.push(Stage {
+                kind,
+                n,
+                s,
+                wide,
+                tw,
+            });
+            n /= 16;
+            radix4 -= 2;
+        }
+        if radix4 == 1 || odd {
+            let s = len / n;
+            let kind = match (radix4 == 1, odd) {
+                (true, true) => Kind::Eight,
+                (true, false) => Kind::Four,
+                _ => Kind::Two,
+            };
+            // W^(mp) for p = 0 and 1 (p = 1 only exists for n = 8): W_n^k = W_N^(ks).
+            let mut tw = Vec::new();
+            if kind != Kind::Two {
+                for p in 0..n / 4 {
+                    for m in 1..=3 {
+                        tw.push(cos[m * p * s]);
+                        tw.push(-sin[m * p * s]);
+                    }
                 }
             }
-            let kind = if s == 1 { Kind::First4 } else { Kind::Radix4 };
-            passes.push(Pass { kind, n, s, tw });
-            n /= 4;
-        }
-        if n == 2 {
-            passes.push(Pass {
-                kind: Kind::Last2,
-                n: 2,
-                s: len / 2,
-                tw: Vec::new(),
+            stages.push(Stage {
+                kind,
+                n,
+                s,
+                wide: s % L == 0,
+                tw,
             });
         }
         Fft {
             len,
-            passes,
+            stages,
             isa: Isa::Baseline,
         }
     }
@@ -206,11 +250,11 @@ impl Fft {
         self.run(None, (data.1, data.0), (scratch.1, scratch.0));
     }
 
-    /// Run the passes. The radix-4 passes alternate between `out` and `tmp`, pass k writing to
-    /// `out` when an even number of radix-4 passes follow it (out of place) or when k is odd
-    /// (in place, the data starting in `out`); the radix-2 pass then works in place in `out`,
-    /// or moves the data there from `tmp`. A copy is needed only in place, for an odd number
-    /// of radix-4 passes and no radix-2 pass.
+    /// Run the stages. Every stage but the last reads one buffer and writes the other; the last
+    /// writes `out`, in place if the data is already there (it completes the transform, so it
+    /// reads exactly the samples it writes). Out of place, stage k writes `out` when an even
+    /// number of stages follow it, so the input is never written; in place, the stages
+    /// alternate `out` → `tmp` → `out` …. No copy is needed except for N = 1.
     fn run(
         &self,
         input: Option<(&[f64], &[f64])>,
@@ -230,392 +274,810 @@ impl Fft {
                 "FFT of length {n}: input slices must have {n} samples"
             );
         }
-        #[derive(Clone, Copy, PartialEq)]
-        enum Loc {
-            In,
-            Out,
-            Tmp,
-        }
-        let moves = self.passes.iter().filter(|p| p.kind != Kind::Last2).count();
-        let mut at = if input.is_some() { Loc::In } else { Loc::Out };
-        for (k, pass) in self.passes.iter().enumerate() {
-            let isa = self.isa;
-            if pass.kind == Kind::Last2 {
-                match at {
-                    Loc::In => {
-                        let (r, i) = input.unwrap();
-                        pass.apply(isa, r, i, out_re, out_im);
-                    }
-                    Loc::Tmp => pass.apply(isa, tmp_re, tmp_im, out_re, out_im),
-                    Loc::Out => pass.apply_in_place(isa, out_re, out_im),
-                }
-                at = Loc::Out;
-                continue;
-            }
-            let to_out = if input.is_some() {
-                (moves - 1 - k) % 2 == 0
-            } else {
-                k % 2 == 1
-            };
-            match (at, to_out) {
-                (Loc::In, true) => {
-                    let (r, i) = input.unwrap();
-                    pass.apply(isa, r, i, out_re, out_im);
-                }
-                (Loc::In, false) => {
-                    let (r, i) = input.unwrap();
-                    pass.apply(isa, r, i, tmp_re, tmp_im);
-                }
-                (Loc::Out, false) => pass.apply(isa, out_re, out_im, tmp_re, tmp_im),
-                (Loc::Tmp, true) => pass.apply(isa, tmp_re, tmp_im, out_re, out_im),
-                _ => unreachable!("FFT passes alternate between two buffers"),
-            }
-            at = if to_out { Loc::Out } else { Loc::Tmp };
-        }
-        match at {
-            Loc::In => {
-                let (r, i) = input.unwrap();
+        let count = self.stages.len();
+        if count == 0 {
+            if let Some((r, i)) = input {
                 out_re.copy_from_slice(r);
                 out_im.copy_from_slice(i);
             }
-            Loc::Tmp => {
-                out_re.copy_from_slice(tmp_re);
-                out_im.copy_from_slice(tmp_im);
-            }
-            Loc::Out => {}
+            return;
+        }
+        let out = Dst {
+            re: out_re.as_mut_ptr(),
+            im: out_im.as_mut_ptr(),
+        };
+        let tmp = Dst {
+            re: tmp_re.as_mut_ptr(),
+            im: tmp_im.as_mut_ptr(),
+        };
+        let mut from = match input {
+            Some((r, i)) => Src {
+                re: r.as_ptr(),
+                im: i.as_ptr(),
+            },
+            None => out.src(),
+        };
+        for (k, stage) in self.stages.iter().enumerate() {
+            let to_out = k + 1 == count
+                || if input.is_some() {
+                    (count - 1 - k) % 2 == 0
+                } else {
+                    k % 2 == 1
+                };
+            let to = if to_out { out } else { tmp };
+            // SAFETY: all four pointers come from slices of N samples checked above; `from`
+            // and `to` are different buffers except for the last stage in place, which
+            // `Stage::apply` allows; the input is only read.
+            unsafe { stage.apply(self.isa, from, to) };
+            from = to.src();
         }
     }
 }
 
-impl Pass {
-    fn apply(&self, isa: Isa, xr: &[f64], xi: &[f64], yr: &mut [f64], yi: &mut [f64]) {
+/// Where a stage reads: N real and N imaginary parts.
+#[derive(Clone, Copy)]
+struct Src {
+    re: *const f64,
+    im: *const f64,
+}
+
+/// Where a stage writes: N real and N imaginary parts.
+#[derive(Clone, Copy)]
+struct Dst {
+    re: *mut f64,
+    im: *mut f64,
+}
+
+impl Dst {
+    fn src(self) -> Src {
+        Src {
+            re: self.re,
+            im: self.im,
+        }
+    }
+}
+
+impl Stage {
+    /// # Safety
+    /// `x` must be valid for reading and `y` for writing N samples per part; they either do
+    /// not overlap or, for the last stage only, are equal (in place).
+    unsafe fn apply(&self, isa: Isa, x: Src, y: Dst) {
         match isa {
-            Isa::Baseline => self.apply_any(xr, xi, yr, yi),
+            // SAFETY: as required of the caller; the portable lanes need no CPU feature.
+            Isa::Baseline if self.wide => unsafe { self.run::<Portable<L>>(x, y) },
+            Isa::Baseline => unsafe { self.run::<f64>(x, y) },
             // SAFETY: `Isa::Avx2` is only chosen after `is_x86_feature_detected!("avx2")`.
             #[cfg(target_arch = "x86_64")]
-            Isa::Avx2 => unsafe { self.apply_avx2(xr, xi, yr, yi) },
+            Isa::Avx2 => unsafe { self.apply_avx2(x, y) },
         }
     }
 
-    fn apply_in_place(&self, isa: Isa, re: &mut [f64], im: &mut [f64]) {
-        match isa {
-            Isa::Baseline => self.apply_in_place_any(re, im),
-            // SAFETY: `Isa::Avx2` is only chosen after `is_x86_feature_detected!("avx2")`.
-            #[cfg(target_arch = "x86_64")]
-            Isa::Avx2 => unsafe { self.apply_in_place_avx2(re, im) },
-        }
-    }
-
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    unsafe fn apply_in_place_avx2(&self, re: &mut [f64], im: &mut [f64]) {
-        self.apply_in_place_any(re, im)
-    }
-
-    /// Only the radix-2 pass runs in place.
-    #[inline(always)]
-    fn apply_in_place_any(&self, re: &mut [f64], im: &mut [f64]) {
-        debug_assert_eq!(self.kind, Kind::Last2);
-        if self.s % L == 0 {
-            last2_in_place::<L>(self.s, re, im)
-        } else {
-            last2_in_place::<1>(self.s, re, im)
-        }
-    }
-
-    /// The same code as [`Pass::apply_any`], compiled for AVX2 (not FMA: no contraction
+    /// The stage code compiled for AVX2, on [`avx::Avx`] lanes (not FMA: no contraction
     /// happens either way, see the module docs).
+    ///
+    /// # Safety
+    /// As [`Stage::apply`], and the CPU must have AVX2.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2")]
-    unsafe fn apply_avx2(&self, xr: &[f64], xi: &[f64], yr: &mut [f64], yi: &mut [f64]) {
-        self.apply_any(xr, xi, yr, yi)
+    unsafe fn apply_avx2(&self, x: Src, y: Dst) {
+        if self.wide {
+            // SAFETY: as required of the caller, who promises the AVX2 that `Avx` needs.
+            unsafe { self.run::<Twice<avx::Avx>>(x, y) }
+        } else {
+            // SAFETY: as required of the caller.
+            unsafe { self.run::<f64>(x, y) }
+        }
     }
 
+    /// # Safety
+    /// As [`Stage::apply`], the CPU having `V`'s features, and `V::W` lanes fitting the
+    /// stage (`wide` chosen it).
     #[inline(always)]
-    fn apply_any(&self, xr: &[f64], xi: &[f64], yr: &mut [f64], yi: &mut [f64]) {
-        match self.kind {
-            Kind::First4 if self.n / 4 % L == 0 => first4::<L>(self.n, &self.tw, xr, xi, yr, yi),
-            Kind::First4 => first4::<1>(self.n, &self.tw, xr, xi, yr, yi),
-            Kind::Radix4 => radix4(self.n, self.s, &self.tw, xr, xi, yr, yi),
-            Kind::Last2 if self.s % L == 0 => last2::<L>(self.s, xr, xi, yr, yi),
-            Kind::Last2 => last2::<1>(self.s, xr, xi, yr, yi),
+    unsafe fn run<V: Lanes>(&self, x: Src, y: Dst) {
+        let (n, s, tw) = (self.n, self.s, &self.tw[..]);
+        // SAFETY (all arms): the plan built `tw` for this stage with `V::W` lanes; the index
+        // bounds are derived beside each kernel.
+        unsafe {
+            match self.kind {
+                Kind::FirstPair => first_pair::<V>(n, tw, x, y),
+                Kind::Pair => pair::<V>(n, s, tw, x, y),
+                Kind::Four => four::<V>(s, tw, x, y),
+                Kind::Eight => eight::<V>(s, tw, x, y),
+                Kind::Two => two::<V>(s, x, y),
+            }
         }
     }
 }
 
-/// `K` f64 lanes, each computed with the scalar expression.
-type V<const K: usize> = [f64; K];
-
-#[inline(always)]
-fn add<const K: usize>(a: V<K>, b: V<K>) -> V<K> {
-    let mut r = [0.0; K];
-    for k in 0..K {
-        r[k] = a[k] + b[k];
+/// Twiddles of a [`Kind::FirstPair`] or [`Kind::Pair`] stage (first pass length `n`, stride
+/// `s`, q = n/16), in reading order: for each group of `width` consecutive p' < q, fifteen
+/// complex factors, each as `width` real parts then `width` imaginary parts (lane l for
+/// p' + l): first `W_n^(m·p)` with p = p' + r'·q for r' = 0..3 and m = 1..3 (the first pass),
+/// then `W_(n/4)^(m'·p')` for m' = 1..3 (the second pass). `W_n^k = W_N^(k·s)`.
+fn pair_twiddles(n: usize, s: usize, width: usize, cos: &[f64], sin: &[f64]) -> Vec<f64> {
+    let q = n / 16;
+    let mut tw = Vec::with_capacity(30 * q);
+    for g in (0..q).step_by(width) {
+        for i in 0..15 {
+            let k = |l: usize| {
+                let pp = g + l;
+                if i < 12 {
+                    let (r, m) = (i / 3, i % 3 + 1);
+                    m * (pp + r * q) * s
+                } else {
+                    (i - 11) * pp * 4 * s
+                }
+            };
+            tw.extend((0..width).map(|l| cos[k(l)]));
+            tw.extend((0..width).map(|l| -sin[k(l)]));
+        }
     }
-    r
+    tw
 }
 
-#[inline(always)]
-fn sub<const K: usize>(a: V<K>, b: V<K>) -> V<K> {
-    let mut r = [0.0; K];
-    for k in 0..K {
-        r[k] = a[k] - b[k];
+/// A group of `W` f64 lanes; every operation works lane by lane with the scalar IEEE
+/// operation, so a result never depends on `W` or on the implementation.
+///
+/// The implementations' safe operations need the CPU features of the type; a value can only
+/// be made by the `unsafe` constructors, whose callers promise those features.
+trait Lanes: Copy {
+    /// Number of lanes.
+    const W: usize;
+    /// # Safety
+    /// `p` valid for reading `W` f64; the CPU has the type's features.
+    unsafe fn load(p: *const f64) -> Self;
+    /// `*p` in every lane.
+    /// # Safety
+    /// As [`Lanes::load`], for one f64.
+    unsafe fn splat(p: *const f64) -> Self;
+    /// # Safety
+    /// `p` valid for writing `W` f64.
+    unsafe fn store(self, p: *mut f64);
+    /// For each lane l, `(v[0][l], v[1][l], v[2][l], v[3][l])` to `p + l·stride ..`.
+    /// # Safety
+    /// Those `4·W` f64 valid for writing.
+    unsafe fn store_columns(v: [Self; 4], p: *mut f64, stride: usize);
+    fn add(self, b: Self) -> Self;
+    fn sub(self, b: Self) -> Self;
+    fn mul(self, b: Self) -> Self;
+    /// Lane 0 of `first`, the other lanes of `self`.
+    fn with_first_lane_of(self, first: Self) -> Self;
+}
+
+/// One lane: plain scalar code (short lengths).
+impl Lanes for f64 {
+    const W: usize = 1;
+    #[inline(always)]
+    unsafe fn load(p: *const f64) -> Self {
+        // SAFETY: as required of the caller.
+        unsafe { *p }
     }
-    r
-}
-
-#[inline(always)]
-fn mul<const K: usize>(a: V<K>, b: V<K>) -> V<K> {
-    let mut r = [0.0; K];
-    for k in 0..K {
-        r[k] = a[k] * b[k];
+    #[inline(always)]
+    unsafe fn splat(p: *const f64) -> Self {
+        // SAFETY: as required of the caller.
+        unsafe { *p }
     }
-    r
+    #[inline(always)]
+    unsafe fn store(self, p: *mut f64) {
+        // SAFETY: as required of the caller.
+        unsafe { *p = self }
+    }
+    #[inline(always)]
+    unsafe fn store_columns(v: [Self; 4], p: *mut f64, _stride: usize) {
+        // SAFETY: as required of the caller.
+        unsafe { p.cast::<[f64; 4]>().write_unaligned(v) }
+    }
+    #[inline(always)]
+    fn add(self, b: Self) -> Self {
+        self + b
+    }
+    #[inline(always)]
+    fn sub(self, b: Self) -> Self {
+        self - b
+    }
+    #[inline(always)]
+    fn mul(self, b: Self) -> Self {
+        self * b
+    }
+    #[inline(always)]
+    fn with_first_lane_of(self, first: Self) -> Self {
+        first
+    }
 }
 
-/// Complex product `(wr + i·wi)(xr + i·xi)` lane by lane, in one fixed order.
-#[inline(always)]
-fn cmul<const K: usize>(wr: V<K>, wi: V<K>, xr: V<K>, xi: V<K>) -> (V<K>, V<K>) {
-    (sub(mul(wr, xr), mul(wi, xi)), add(mul(wr, xi), mul(wi, xr)))
+/// `K` lanes in portable code (the baseline copy; the compiler picks SSE2 or scalars).
+#[derive(Clone, Copy)]
+struct Portable<const K: usize>([f64; K]);
+
+impl<const K: usize> Portable<K> {
+    #[inline(always)]
+    fn map(a: Self, b: Self, f: impl Fn(f64, f64) -> f64) -> Self {
+        Portable(std::array::from_fn(|l| f(a.0[l], b.0[l])))
+    }
 }
 
-/// `x` as whole groups of `K` lanes.
-#[inline(always)]
-fn lanes<const K: usize>(x: &[f64]) -> &[[f64; K]] {
-    assert!(x.len() % K == 0);
-    // SAFETY: `[f64; K]` has the size of K f64 and the alignment of f64, and the length is a
-    // whole number of groups, so the new slice covers exactly the same memory.
-    unsafe { std::slice::from_raw_parts(x.as_ptr().cast(), x.len() / K) }
+impl<const K: usize> Lanes for Portable<K> {
+    const W: usize = K;
+    #[inline(always)]
+    unsafe fn load(p: *const f64) -> Self {
+        // SAFETY: as required of the caller.
+        Portable(unsafe { p.cast::<[f64; K]>().read_unaligned() })
+    }
+    #[inline(always)]
+    unsafe fn splat(p: *const f64) -> Self {
+        // SAFETY: as required of the caller.
+        Portable([unsafe { *p }; K])
+    }
+    #[inline(always)]
+    unsafe fn store(self, p: *mut f64) {
+        // SAFETY: as required of the caller.
+        unsafe { p.cast::<[f64; K]>().write_unaligned(self.0) }
+    }
+    #[inline(always)]
+    unsafe fn store_columns(v: [Self; 4], p: *mut f64, stride: usize) {
+        for l in 0..K {
+            let column = [v[0].0[l], v[1].0[l], v[2].0[l], v[3].0[l]];
+            // SAFETY: as required of the caller.
+            unsafe { p.add(l * stride).cast::<[f64; 4]>().write_unaligned(column) }
+        }
+    }
+    #[inline(always)]
+    fn add(self, b: Self) -> Self {
+        Portable::map(self, b, |x, y| x + y)
+    }
+    #[inline(always)]
+    fn sub(self, b: Self) -> Self {
+        Portable::map(self, b, |x, y| x - y)
+    }
+    #[inline(always)]
+    fn mul(self, b: Self) -> Self {
+        Portable::map(self, b, |x, y| x * y)
+    }
+    #[inline(always)]
+    fn with_first_lane_of(self, first: Self) -> Self {
+        let mut v = self.0;
+        v[0] = first.0[0];
+        Portable(v)
+    }
 }
 
-/// `x` as whole groups of `K` lanes, mutable.
-#[inline(always)]
-fn lanes_mut<const K: usize>(x: &mut [f64]) -> &mut [[f64; K]] {
-    assert!(x.len() % K == 0);
-    // SAFETY: as in `lanes`; the borrow of `x` is moved into the result.
-    unsafe { std::slice::from_raw_parts_mut(x.as_mut_ptr().cast(), x.len() / K) }
+/// Two groups of lanes side by side: the [`L`] lanes of the AVX2 copy from two four-lane
+/// registers.
+#[derive(Clone, Copy)]
+struct Twice<V>([V; 2]);
+
+impl<V: Lanes> Lanes for Twice<V> {
+    const W: usize = 2 * V::W;
+    #[inline(always)]
+    unsafe fn load(p: *const f64) -> Self {
+        // SAFETY: as required of the caller.
+        unsafe { Twice([V::load(p), V::load(p.add(V::W))]) }
+    }
+    #[inline(always)]
+    unsafe fn splat(p: *const f64) -> Self {
+        // SAFETY: as required of the caller.
+        let v = unsafe { V::splat(p) };
+        Twice([v, v])
+    }
+    #[inline(always)]
+    unsafe fn store(self, p: *mut f64) {
+        // SAFETY: as required of the caller.
+        unsafe {
+            self.0[0].store(p);
+            self.0[1].store(p.add(V::W));
+        }
+    }
+    #[inline(always)]
+    unsafe fn store_columns(v: [Self; 4], p: *mut f64, stride: usize) {
+        // SAFETY: as required of the caller.
+        unsafe {
+            V::store_columns([v[0].0[0], v[1].0[0], v[2].0[0], v[3].0[0]], p, stride);
+            let p = p.add(V::W * stride);
+            V::store_columns([v[0].0[1], v[1].0[1], v[2].0[1], v[3].0[1]], p, stride);
+        }
+    }
+    #[inline(always)]
+    fn add(self, b: Self) -> Self {
+        Twice([self.0[0].add(b.0[0]), self.0[1].add(b.0[1])])
+    }
+    #[inline(always)]
+    fn sub(self, b: Self) -> Self {
+        Twice([self.0[0].sub(b.0[0]), self.0[1].sub(b.0[1])])
+    }
+    #[inline(always)]
+    fn mul(self, b: Self) -> Self {
+        Twice([self.0[0].mul(b.0[0]), self.0[1].mul(b.0[1])])
+    }
+    #[inline(always)]
+    fn with_first_lane_of(self, first: Self) -> Self {
+        Twice([self.0[0].with_first_lane_of(first.0[0]), self.0[1]])
+    }
 }
 
-/// The radix-4 butterfly of a forward DFT without twiddles: inputs a, b, c, d (re, im) give
-/// the four outputs `a + b + c + d`, `a − ib − c + id`, `a − b + c − d`, `a + ib − c − id`.
+#[cfg(target_arch = "x86_64")]
+mod avx {
+    use super::Lanes;
+    use std::arch::x86_64::*;
+
+    /// Four lanes in one AVX register. Only made by `load` and `splat`, whose callers promise
+    /// AVX2, so holding one proves the CPU has it; that makes the arithmetic safe.
+    #[derive(Clone, Copy)]
+    pub(super) struct Avx(__m256d);
+
+    impl Lanes for Avx {
+        const W: usize = 4;
+        #[inline(always)]
+        unsafe fn load(p: *const f64) -> Self {
+            // SAFETY: as required of the caller.
+            Avx(unsafe { _mm256_loadu_pd(p) })
+        }
+        #[inline(always)]
+        unsafe fn splat(p: *const f64) -> Self {
+            // SAFETY: as required of the caller.
+            Avx(unsafe { _mm256_broadcast_sd(&*p) })
+        }
+        #[inline(always)]
+        unsafe fn store(self, p: *mut f64) {
+            // SAFETY: as required of the caller.
+            unsafe { _mm256_storeu_pd(p, self.0) }
+        }
+        #[inline(always)]
+        unsafe fn store_columns(v: [Self; 4], p: *mut f64, stride: usize) {
+            // SAFETY: as required of the caller; the shuffles only move lanes.
+            unsafe {
+                let t0 = _mm256_unpacklo_pd(v[0].0, v[1].0); // a0 b0 a2 b2
+                let t1 = _mm256_unpackhi_pd(v[0].0, v[1].0); // a1 b1 a3 b3
+                let t2 = _mm256_unpacklo_pd(v[2].0, v[3].0); // c0 d0 c2 d2
+                let t3 = _mm256_unpackhi_pd(v[2].0, v[3].0); // c1 d1 c3 d3
+                _mm256_storeu_pd(p, _mm256_permute2f128_pd::<0x20>(t0, t2));
+                _mm256_storeu_pd(p.add(stride), _mm256_permute2f128_pd::<0x20>(t1, t3));
+                _mm256_storeu_pd(p.add(2 * stride), _mm256_permute2f128_pd::<0x31>(t0, t2));
+                _mm256_storeu_pd(p.add(3 * stride), _mm256_permute2f128_pd::<0x31>(t1, t3));
+            }
+        }
+        #[inline(always)]
+        fn add(self, b: Self) -> Self {
+            // SAFETY: a value of `Avx` exists only where the CPU has AVX2 (type docs).
+            Avx(unsafe { _mm256_add_pd(self.0, b.0) })
+        }
+        #[inline(always)]
+        fn sub(self, b: Self) -> Self {
+            // SAFETY: as in `add`.
+            Avx(unsafe { _mm256_sub_pd(self.0, b.0) })
+        }
+        #[inline(always)]
+        fn mul(self, b: Self) -> Self {
+            // SAFETY: as in `add`.
+            Avx(unsafe { _mm256_mul_pd(self.0, b.0) })
+        }
+        #[inline(always)]
+        fn with_first_lane_of(self, first: Self) -> Self {
+            // SAFETY: as in `add`.
+            Avx(unsafe { _mm256_blend_pd::<0b0001>(self.0, first.0) })
+        }
+    }
+}
+
+/// A complex value per lane.
+#[derive(Clone, Copy)]
+struct Cx<V> {
+    re: V,
+    im: V,
+}
+
+impl<V: Lanes> Cx<V> {
+    /// # Safety
+    /// Sample `k` (and the `V::W − 1` after it) inside `x`'s N samples; CPU features of `V`.
+    #[inline(always)]
+    unsafe fn load(x: Src, k: usize) -> Self {
+        // SAFETY: as required of the caller.
+        unsafe {
+            Cx {
+                re: V::load(x.re.add(k)),
+                im: V::load(x.im.add(k)),
+            }
+        }
+    }
+
+    /// Twiddle `i` of a table with scalar entries (re, im at 2i, 2i + 1), in every lane.
+    /// # Safety
+    /// `w` valid for 2i + 2 reads; CPU features of `V`.
+    #[inline(always)]
+    unsafe fn splat(w: *const f64, i: usize) -> Self {
+        // SAFETY: as required of the caller.
+        unsafe {
+            Cx {
+                re: V::splat(w.add(2 * i)),
+                im: V::splat(w.add(2 * i + 1)),
+            }
+        }
+    }
+
+    /// Twiddle `i` of a table with lane entries (`W` re, then `W` im).
+    /// # Safety
+    /// `w` valid for (2i + 2)·W reads; CPU features of `V`.
+    #[inline(always)]
+    unsafe fn lanes(w: *const f64, i: usize) -> Self {
+        // SAFETY: as required of the caller.
+        unsafe {
+            Cx {
+                re: V::load(w.add(2 * i * V::W)),
+                im: V::load(w.add((2 * i + 1) * V::W)),
+            }
+        }
+    }
+
+    /// # Safety
+    /// Sample `k` (and the `V::W − 1` after it) inside `y`'s N samples.
+    #[inline(always)]
+    unsafe fn store(self, y: Dst, k: usize) {
+        // SAFETY: as required of the caller.
+        unsafe {
+            self.re.store(y.re.add(k));
+            self.im.store(y.im.add(k));
+        }
+    }
+
+    #[inline(always)]
+    fn add(self, b: Self) -> Self {
+        Cx {
+            re: self.re.add(b.re),
+            im: self.im.add(b.im),
+        }
+    }
+
+    #[inline(always)]
+    fn sub(self, b: Self) -> Self {
+        Cx {
+            re: self.re.sub(b.re),
+            im: self.im.sub(b.im),
+        }
+    }
+
+    /// Complex product `w·self = (wr + i·wi)(xr + i·xi)`, in one fixed order.
+    #[inline(always)]
+    fn times(self, w: Self) -> Self {
+        Cx {
+            re: w.re.mul(self.re).sub(w.im.mul(self.im)),
+            im: w.re.mul(self.im).add(w.im.mul(self.re)),
+        }
+    }
+}
+
+/// The radix-4 butterfly of a forward DFT without twiddles: inputs a, b, c, d give the four
+/// outputs `a + b + c + d`, `a − ib − c + id`, `a − b + c − d`, `a + ib − c − id`, each from
+/// `a ± c` and `b ± d`.
 #[inline(always)]
-#[allow(clippy::type_complexity)]
-fn butterfly4<const K: usize>(x: [(V<K>, V<K>); 4]) -> [(V<K>, V<K>); 4] {
-    let [(ar, ai), (br, bi), (cr, ci), (dr, di)] = x;
-    let (apc_r, apc_i) = (add(ar, cr), add(ai, ci));
-    let (amc_r, amc_i) = (sub(ar, cr), sub(ai, ci));
-    let (bpd_r, bpd_i) = (add(br, dr), add(bi, di));
-    let (bmd_r, bmd_i) = (sub(br, dr), sub(bi, di));
+fn butterfly4<V: Lanes>([a, b, c, d]: [Cx<V>; 4]) -> [Cx<V>; 4] {
+    let apc = a.add(c);
+    let amc = a.sub(c);
+    let bpd = b.add(d);
+    let bmd = b.sub(d);
     [
-        (add(apc_r, bpd_r), add(apc_i, bpd_i)),
-        (add(amc_r, bmd_i), sub(amc_i, bmd_r)),
-        (sub(apc_r, bpd_r), sub(apc_i, bpd_i)),
-        (sub(amc_r, bmd_i), add(amc_i, bmd_r)),
+        apc.add(bpd),
+        Cx {
+            re: amc.re.add(bmd.im),
+            im: amc.im.sub(bmd.re),
+        },
+        apc.sub(bpd),
+        Cx {
+            re: amc.re.sub(bmd.im),
+            im: amc.im.add(bmd.re),
+        },
     ]
 }
 
-/// First radix-4 pass (stride 1) over length `n`: `y[4p + m] = W^(mp)·B_m(x[p + j·n/4])`,
-/// K butterflies (consecutive p) at a time.
+/// Four complex samples `x[k], x[k + step], x[k + 2·step], x[k + 3·step]`.
+///
+/// # Safety
+/// All four (and the `V::W − 1` samples after each) inside `x`'s N samples; CPU features of
+/// `V`.
 #[inline(always)]
-fn first4<const K: usize>(
-    n: usize,
-    tw: &[f64],
-    xr: &[f64],
-    xi: &[f64],
-    yr: &mut [f64],
-    yi: &mut [f64],
-) {
-    let q = n / 4;
-    let (xr0, xr1, xr2, xr3) = quarters(xr, q);
-    let (xi0, xi1, xi2, xi3) = quarters(xi, q);
-    let (w1r, w1i, w2r, w2i, w3r, w3i) = sixths(tw, q);
-    let inputs = lanes::<K>(xr0)
-        .iter()
-        .zip(lanes::<K>(xi0).iter())
-        .zip(lanes::<K>(xr1).iter())
-        .zip(lanes::<K>(xi1).iter())
-        .zip(lanes::<K>(xr2).iter())
-        .zip(lanes::<K>(xi2).iter())
-        .zip(lanes::<K>(xr3).iter())
-        .zip(lanes::<K>(xi3).iter());
-    let twiddles = lanes::<K>(w1r)
-        .iter()
-        .zip(lanes::<K>(w1i).iter())
-        .zip(lanes::<K>(w2r).iter())
-        .zip(lanes::<K>(w2i).iter())
-        .zip(lanes::<K>(w3r).iter())
-        .zip(lanes::<K>(w3i).iter());
-    let outputs = lanes_mut::<4>(yr)
-        .chunks_exact_mut(K)
-        .zip(lanes_mut::<4>(yi).chunks_exact_mut(K));
-    for ((x, tw), (or, oi)) in inputs.zip(twiddles).zip(outputs) {
-        let (((((((ar, ai), br), bi), cr), ci), dr), di) = x;
-        let (((((w1r, w1i), w2r), w2i), w3r), w3i) = tw;
-        let [y0, y1, y2, y3] = butterfly4([(*ar, *ai), (*br, *bi), (*cr, *ci), (*dr, *di)]);
-        let y1 = cmul(*w1r, *w1i, y1.0, y1.1);
-        let y2 = cmul(*w2r, *w2i, y2.0, y2.1);
-        let y3 = cmul(*w3r, *w3i, y3.0, y3.1);
-        for l in 0..K {
-            or[l] = [y0.0[l], y1.0[l], y2.0[l], y3.0[l]];
-            oi[l] = [y0.1[l], y1.1[l], y2.1[l], y3.1[l]];
-        }
+unsafe fn load4<V: Lanes>(x: Src, k: usize, step: usize) -> [Cx<V>; 4] {
+    // SAFETY: as required of the caller.
+    unsafe {
+        [
+            Cx::load(x, k),
+            Cx::load(x, k + step),
+            Cx::load(x, k + 2 * step),
+            Cx::load(x, k + 3 * step),
+        ]
     }
 }
 
-/// A radix-4 pass with stride `s ≥ L` over sub-transforms of length `n`:
-/// `y[s·(4p + m) + j] = W^(mp)·B_m(x[s·(p + r·n/4) + j])`, L values of j at a time.
+/// Scalar twiddles `i, i + 1, i + 2` of `w`, each in every lane.
+///
+/// # Safety
+/// As [`Cx::splat`] for i + 2.
 #[inline(always)]
-fn radix4(n: usize, s: usize, tw: &[f64], xr: &[f64], xi: &[f64], yr: &mut [f64], yi: &mut [f64]) {
-    let q = n / 4;
-    let (xr0, xr1, xr2, xr3) = quarters(xr, q * s);
-    let (xi0, xi1, xi2, xi3) = quarters(xi, q * s);
-    let (w1r, w1i, w2r, w2i, w3r, w3i) = sixths(tw, q);
-    let rows = yr
-        .chunks_exact_mut(4 * s)
-        .zip(yi.chunks_exact_mut(4 * s))
-        .enumerate();
-    for (p, (or, oi)) in rows {
-        let at = s * p..s * p + s;
-        let x = [
-            (&xr0[at.clone()], &xi0[at.clone()]),
-            (&xr1[at.clone()], &xi1[at.clone()]),
-            (&xr2[at.clone()], &xi2[at.clone()]),
-            (&xr3[at.clone()], &xi3[at]),
+unsafe fn splat3<V: Lanes>(w: *const f64, i: usize) -> [Cx<V>; 3] {
+    // SAFETY: as required of the caller.
+    unsafe { [Cx::splat(w, i), Cx::splat(w, i + 1), Cx::splat(w, i + 2)] }
+}
+
+/// Lane twiddles `i, i + 1, i + 2` of `w`.
+///
+/// # Safety
+/// As [`Cx::lanes`] for i + 2.
+#[inline(always)]
+unsafe fn lanes3<V: Lanes>(w: *const f64, i: usize) -> [Cx<V>; 3] {
+    // SAFETY: as required of the caller.
+    unsafe { [Cx::lanes(w, i), Cx::lanes(w, i + 1), Cx::lanes(w, i + 2)] }
+}
+
+/// Butterfly outputs 1..3 multiplied by `w[0..3]`, output 0 as it is.
+#[inline(always)]
+fn twiddle3<V: Lanes>(b: [Cx<V>; 4], w: [Cx<V>; 3]) -> [Cx<V>; 4] {
+    [b[0], b[1].times(w[0]), b[2].times(w[1]), b[3].times(w[2])]
+}
+
+/// [`twiddle3`] in every lane but lane 0, which keeps `b` (the p = 0 that is not multiplied).
+#[inline(always)]
+fn twiddle3_but_lane0<V: Lanes>(b: [Cx<V>; 4], w: [Cx<V>; 3]) -> [Cx<V>; 4] {
+    let t = twiddle3(b, w);
+    let keep = |t: Cx<V>, b: Cx<V>| Cx {
+        re: t.re.with_first_lane_of(b.re),
+        im: t.im.with_first_lane_of(b.im),
+    };
+    [b[0], keep(t[1], b[1]), keep(t[2], b[2]), keep(t[3], b[3])]
+}
+
+/// `b[i]` to `y[k + i·step]`.
+///
+/// # Safety
+/// As [`Cx::store`] for the four samples.
+#[inline(always)]
+unsafe fn store4<V: Lanes>(b: [Cx<V>; 4], y: Dst, k: usize, step: usize) {
+    // SAFETY: as required of the caller.
+    unsafe {
+        b[0].store(y, k);
+        b[1].store(y, k + step);
+        b[2].store(y, k + 2 * step);
+        b[3].store(y, k + 3 * step);
+    }
+}
+
+/// Lane l of `a, b, c, d` to `y[k + 16·l .. k + 16·l + 4]`.
+///
+/// # Safety
+/// As [`Lanes::store_columns`] for both parts.
+#[inline(always)]
+unsafe fn store_columns16<V: Lanes>(a: Cx<V>, b: Cx<V>, c: Cx<V>, d: Cx<V>, y: Dst, k: usize) {
+    // SAFETY: as required of the caller.
+    unsafe {
+        V::store_columns([a.re, b.re, c.re, d.re], y.re.add(k), 16);
+        V::store_columns([a.im, b.im, c.im, d.im], y.im.add(k), 16);
+    }
+}
+
+/// The first two radix-4 passes over length n (strides 1 and 4), `V::W` consecutive p' < n/16
+/// per step. Pass 1: `t[4p + m] = W_n^(mp)·B_m(x[p + r·n/4])` for every p (the first pass
+/// multiplies at p = 0 too); pass 2: `y[4(4p' + m') + m] = W_(n/4)^(m'p')·B_m'(t[4(p' +
+/// r'·n/16) + m])` except at p' = 0; t lives in registers: for p = p' + r'·n/16 the samples
+/// read are `x[p' + (r' + 4r)·n/16]`, and the outputs of one p' are 16 consecutive samples.
+///
+/// # Safety
+/// As [`Stage::apply`]; n/16 a multiple of `V::W`, `tw` from [`pair_twiddles`] with width
+/// `V::W`. Indices: read p' + 15·n/16 + V::W − 1 < n, written 16p' + 15 + 16(V::W − 1) < n.
+#[inline(always)]
+unsafe fn first_pair<V: Lanes>(n: usize, tw: &[f64], x: Src, y: Dst) {
+    let q = n / 16;
+    debug_assert!(q % V::W == 0 && tw.len() == 30 * q);
+    let mut g = 0;
+    while g < q {
+        let w = tw[30 * g..30 * (g + V::W)].as_ptr();
+        // SAFETY: the bounds above.
+        unsafe {
+            if g == 0 {
+                first_pair_step::<V, true>(q, w, x, y, g);
+            } else {
+                first_pair_step::<V, false>(q, w, x, y, g);
+            }
+        }
+        g += V::W;
+    }
+}
+
+/// One step of [`first_pair`]: p' = g .. g + V::W; `ZERO` when p' = 0 is lane 0.
+///
+/// # Safety
+/// As [`first_pair`], `w` the step's 30·V::W twiddles.
+#[inline(always)]
+unsafe fn first_pair_step<V: Lanes, const ZERO: bool>(
+    q: usize,
+    w: *const f64,
+    x: Src,
+    y: Dst,
+    g: usize,
+) {
+    // SAFETY: as required of the caller.
+    unsafe {
+        let t = [
+            twiddle3(butterfly4(load4(x, g, 4 * q)), lanes3(w, 0)),
+            twiddle3(butterfly4(load4(x, g + q, 4 * q)), lanes3(w, 3)),
+            twiddle3(butterfly4(load4(x, g + 2 * q, 4 * q)), lanes3(w, 6)),
+            twiddle3(butterfly4(load4(x, g + 3 * q, 4 * q)), lanes3(w, 9)),
         ];
-        let (or0, or1, or2, or3) = quarters_mut(or, s);
-        let (oi0, oi1, oi2, oi3) = quarters_mut(oi, s);
-        let y = [(or0, oi0), (or1, oi1), (or2, oi2), (or3, oi3)];
-        if p == 0 {
-            radix4_row(x, y, None);
-        } else {
-            let w = [
-                ([w1r[p]; L], [w1i[p]; L]),
-                ([w2r[p]; L], [w2i[p]; L]),
-                ([w3r[p]; L], [w3i[p]; L]),
-            ];
-            radix4_row(x, y, Some(w));
+        let wb = lanes3(w, 12);
+        let second = |b: [Cx<V>; 4]| {
+            if ZERO {
+                twiddle3_but_lane0(b, wb)
+            } else {
+                twiddle3(b, wb)
+            }
+        };
+        let [t0, t1, t2, t3] = t;
+        let z0 = second(butterfly4([t0[0], t1[0], t2[0], t3[0]]));
+        let z1 = second(butterfly4([t0[1], t1[1], t2[1], t3[1]]));
+        let z2 = second(butterfly4([t0[2], t1[2], t2[2], t3[2]]));
+        let z3 = second(butterfly4([t0[3], t1[3], t2[3], t3[3]]));
+        let at = 16 * g;
+        store_columns16(z0[0], z1[0], z2[0], z3[0], y, at);
+        store_columns16(z0[1], z1[1], z2[1], z3[1], y, at + 4);
+        store_columns16(z0[2], z1[2], z2[2], z3[2], y, at + 8);
+        store_columns16(z0[3], z1[3], z2[3], z3[3], y, at + 12);
+    }
+}
+
+/// Two radix-4 passes of strides s ≥ 16 and 4s over first length n, `V::W` consecutive j < s
+/// per step. With q = n/16 and p = p' + r'·q: pass 1 reads `x[s·(p' + (r' + 4r)·q) + j]` and
+/// multiplies output m by `W_n^(mp)` except at p = 0; pass 2 combines the four r' for each m,
+/// multiplies output m' by `W_(n/4)^(m'p')` except at p' = 0, and writes
+/// `y[4s·(4p' + m') + s·m + j]`.
+///
+/// # Safety
+/// As [`Stage::apply`]; s a multiple of `V::W`, `tw` from [`pair_twiddles`] with width 1.
+/// Indices: read below s·q + 15·q·s = N, written below 16·s·q = N.
+#[inline(always)]
+unsafe fn pair<V: Lanes>(n: usize, s: usize, tw: &[f64], x: Src, y: Dst) {
+    let q = n / 16;
+    debug_assert!(s % V::W == 0 && tw.len() == 30 * q);
+    for p in 0..q {
+        let w = tw[30 * p..30 * p + 30].as_ptr();
+        // SAFETY: the bounds above.
+        unsafe {
+            if p == 0 {
+                pair_row::<V, true>(s, q * s, w, x, y, 0);
+            } else {
+                pair_row::<V, false>(s, q * s, w, x, y, p);
+            }
         }
     }
 }
 
+/// One p' of [`pair`]; `ZERO` when p' = 0.
+///
+/// # Safety
+/// As [`pair`]; `u` = q·s, `w` the row's 30 twiddles.
 #[inline(always)]
-#[allow(clippy::type_complexity)]
-fn radix4_row(
-    x: [(&[f64], &[f64]); 4],
-    y: [(&mut [f64], &mut [f64]); 4],
-    w: Option<[(V<L>, V<L>); 3]>,
+unsafe fn pair_row<V: Lanes, const ZERO: bool>(
+    s: usize,
+    u: usize,
+    w: *const f64,
+    x: Src,
+    y: Dst,
+    p: usize,
 ) {
-    let [(ar, ai), (br, bi), (cr, ci), (dr, di)] = x;
-    let [(y0r, y0i), (y1r, y1i), (y2r, y2i), (y3r, y3i)] = y;
-    let inputs = lanes::<L>(ar)
-        .iter()
-        .zip(lanes::<L>(ai).iter())
-        .zip(lanes::<L>(br).iter())
-        .zip(lanes::<L>(bi).iter())
-        .zip(lanes::<L>(cr).iter())
-        .zip(lanes::<L>(ci).iter())
-        .zip(lanes::<L>(dr).iter())
-        .zip(lanes::<L>(di).iter());
-    let outputs = lanes_mut::<L>(y0r)
-        .iter_mut()
-        .zip(lanes_mut::<L>(y0i).iter_mut())
-        .zip(lanes_mut::<L>(y1r).iter_mut())
-        .zip(lanes_mut::<L>(y1i).iter_mut())
-        .zip(lanes_mut::<L>(y2r).iter_mut())
-        .zip(lanes_mut::<L>(y2i).iter_mut())
-        .zip(lanes_mut::<L>(y3r).iter_mut())
-        .zip(lanes_mut::<L>(y3i).iter_mut());
-    for ((((((((ar, ai), br), bi), cr), ci), dr), di), o) in inputs.zip(outputs) {
-        let (((((((o0r, o0i), o1r), o1i), o2r), o2i), o3r), o3i) = o;
-        let [z0, z1, z2, z3] = butterfly4([(*ar, *ai), (*br, *bi), (*cr, *ci), (*dr, *di)]);
-        let (z1, z2, z3) = match w {
-            None => (z1, z2, z3),
-            Some([w1, w2, w3]) => (
-                cmul(w1.0, w1.1, z1.0, z1.1),
-                cmul(w2.0, w2.1, z2.0, z2.1),
-                cmul(w3.0, w3.1, z3.0, z3.1),
-            ),
-        };
-        *o0r = z0.0;
-        *o0i = z0.1;
-        *o1r = z1.0;
-        *o1i = z1.1;
-        *o2r = z2.0;
-        *o2i = z2.1;
-        *o3r = z3.0;
-        *o3i = z3.1;
+    // SAFETY: as required of the caller.
+    unsafe {
+        let wa: [[Cx<V>; 3]; 4] = [splat3(w, 0), splat3(w, 3), splat3(w, 6), splat3(w, 9)];
+        let wb = splat3(w, 12);
+        let (xo, yo) = (s * p, 16 * s * p);
+        let mut j = 0;
+        while j < s {
+            let k = xo + j;
+            let b0 = butterfly4(load4(x, k, 4 * u));
+            let t0 = if ZERO { b0 } else { twiddle3(b0, wa[0]) };
+            let t1 = twiddle3(butterfly4(load4(x, k + u, 4 * u)), wa[1]);
+            let t2 = twiddle3(butterfly4(load4(x, k + 2 * u, 4 * u)), wa[2]);
+            let t3 = twiddle3(butterfly4(load4(x, k + 3 * u, 4 * u)), wa[3]);
+            let second = |b: [Cx<V>; 4]| if ZERO { b } else { twiddle3(b, wb) };
+            let k = yo + j;
+            store4(
+                second(butterfly4([t0[0], t1[0], t2[0], t3[0]])),
+                y,
+                k,
+                4 * s,
+            );
+            store4(
+                second(butterfly4([t0[1], t1[1], t2[1], t3[1]])),
+                y,
+                k + s,
+                4 * s,
+            );
+            store4(
+                second(butterfly4([t0[2], t1[2], t2[2], t3[2]])),
+                y,
+                k + 2 * s,
+                4 * s,
+            );
+            store4(
+                second(butterfly4([t0[3], t1[3], t2[3], t3[3]])),
+                y,
+                k + 3 * s,
+                4 * s,
+            );
+            j += V::W;
+        }
     }
 }
 
-/// The radix-2 last pass (sub-transforms of length 2, stride `s = N/2`, no twiddles):
-/// `y[j] = x[j] + x[j + s]`, `y[j + s] = x[j] − x[j + s]`.
+/// The radix-4 pass of length 4 (stride s = N/4), the last: `y[s·m + j] = B_m(x[s·r + j])`,
+/// multiplied by `W^0` when it is also the first pass (N = 4, as every first pass does).
+///
+/// # Safety
+/// As [`Stage::apply`]; s a multiple of `V::W`, `tw` of 6 entries.
 #[inline(always)]
-fn last2<const K: usize>(s: usize, xr: &[f64], xi: &[f64], yr: &mut [f64], yi: &mut [f64]) {
-    let (ar, br) = xr.split_at(s);
-    let (ai, bi) = xi.split_at(s);
-    let (y0r, y1r) = yr.split_at_mut(s);
-    let (y0i, y1i) = yi.split_at_mut(s);
-    let inputs = lanes::<K>(ar)
-        .iter()
-        .zip(lanes::<K>(ai).iter())
-        .zip(lanes::<K>(br).iter())
-        .zip(lanes::<K>(bi).iter());
-    let outputs = lanes_mut::<K>(y0r)
-        .iter_mut()
-        .zip(lanes_mut::<K>(y0i).iter_mut())
-        .zip(lanes_mut::<K>(y1r).iter_mut())
-        .zip(lanes_mut::<K>(y1i).iter_mut());
-    for ((((ar, ai), br), bi), (((o0r, o0i), o1r), o1i)) in inputs.zip(outputs) {
-        let (ar, ai, br, bi) = (*ar, *ai, *br, *bi);
-        *o0r = add(ar, br);
-        *o0i = add(ai, bi);
-        *o1r = sub(ar, br);
-        *o1i = sub(ai, bi);
+unsafe fn four<V: Lanes>(s: usize, tw: &[f64], x: Src, y: Dst) {
+    assert!(tw.len() == 6);
+    let mut j = 0;
+    while j < s {
+        // SAFETY: indices below 4s = N; `tw` has 6 entries.
+        unsafe {
+            let mut b = butterfly4(load4::<V>(x, j, s));
+            if s == 1 {
+                b = twiddle3(b, splat3(tw.as_ptr(), 0));
+            }
+            store4(b, y, j, s);
+        }
+        j += V::W;
     }
 }
 
-/// [`last2`] in place: each output pair overwrites the input pair it comes from.
+/// The radix-4 pass of length 8 (stride s = N/8, p = 0, 1) and the radix-2 pass after it:
+/// `t_p[m] = W_8^(mp)·B_m(x[s·(p + 2r) + j])` (at p = 0 only on the first pass, N = 8), then
+/// `y[s·m + j] = t_0[m] + t_1[m]`, `y[4s + s·m + j] = t_0[m] − t_1[m]`.
+///
+/// # Safety
+/// As [`Stage::apply`]; s a multiple of `V::W`, `tw` of 12 entries. Indices below 8s = N.
 #[inline(always)]
-fn last2_in_place<const K: usize>(s: usize, re: &mut [f64], im: &mut [f64]) {
-    let (ar, br) = re.split_at_mut(s);
-    let (ai, bi) = im.split_at_mut(s);
-    let pairs = lanes_mut::<K>(ar)
-        .iter_mut()
-        .zip(lanes_mut::<K>(ai).iter_mut())
-        .zip(lanes_mut::<K>(br).iter_mut())
-        .zip(lanes_mut::<K>(bi).iter_mut());
-    for (((ar, ai), br), bi) in pairs {
-        let (a, b, c, d) = (*ar, *ai, *br, *bi);
-        *ar = add(a, c);
-        *ai = add(b, d);
-        *br = sub(a, c);
-        *bi = sub(b, d);
+unsafe fn eight<V: Lanes>(s: usize, tw: &[f64], x: Src, y: Dst) {
+    assert!(tw.len() == 12);
+    // SAFETY: `tw` has 12 entries.
+    let (w0, w1) = unsafe { (splat3::<V>(tw.as_ptr(), 0), splat3::<V>(tw.as_ptr(), 3)) };
+    let mut j = 0;
+    while j < s {
+        // SAFETY: the bounds above.
+        unsafe {
+            let b0 = butterfly4(load4::<V>(x, j, 2 * s));
+            let t0 = if s == 1 { twiddle3(b0, w0) } else { b0 };
+            let t1 = twiddle3(butterfly4(load4::<V>(x, j + s, 2 * s)), w1);
+            let sum = [
+                t0[0].add(t1[0]),
+                t0[1].add(t1[1]),
+                t0[2].add(t1[2]),
+                t0[3].add(t1[3]),
+            ];
+            let dif = [
+                t0[0].sub(t1[0]),
+                t0[1].sub(t1[1]),
+                t0[2].sub(t1[2]),
+                t0[3].sub(t1[3]),
+            ];
+            store4(sum, y, j, s);
+            store4(dif, y, j + 4 * s, s);
+        }
+        j += V::W;
     }
 }
 
-fn quarters(x: &[f64], q: usize) -> (&[f64], &[f64], &[f64], &[f64]) {
-    let (a, rest) = x.split_at(q);
-    let (b, rest) = rest.split_at(q);
-    let (c, d) = rest.split_at(q);
-    (a, b, c, &d[..q])
-}
-
-#[allow(clippy::type_complexity)]
-fn quarters_mut(x: &mut [f64], q: usize) -> (&mut [f64], &mut [f64], &mut [f64], &mut [f64]) {
-    let (a, rest) = x.split_at_mut(q);
-    let (b, rest) = rest.split_at_mut(q);
-    let (c, d) = rest.split_at_mut(q);
-    (a, b, c, &mut d[..q])
-}
-
-#[allow(clippy::type_complexity)]
-fn sixths(x: &[f64], q: usize) -> (&[f64], &[f64], &[f64], &[f64], &[f64], &[f64]) {
-    let (a, rest) = x.split_at(q);
-    let (b, rest) = rest.split_at(q);
-    let (c, rest) = rest.split_at(q);
-    let (d, rest) = rest.split_at(q);
-    let (e, f) = rest.split_at(q);
-    (a, b, c, d, e, &f[..q])
+/// The radix-2 pass alone (stride s = N/2), the last: `y[j] = x[j] + x[j + s]`,
+/// `y[j + s] = x[j] − x[j + s]`.
+///
+/// # Safety
+/// As [`Stage::apply`]; s a multiple of `V::W`. Indices below 2s = N.
+#[inline(always)]
+unsafe fn two<V: Lanes>(s: usize, x: Src, y: Dst) {
+    let mut j = 0;
+    while j < s {
+        // SAFETY: the bounds above.
+        unsafe {
+            let (a, b) = (Cx::<V>::load(x, j), Cx::<V>::load(x, j + s));
+            a.add(b).store(y, j);
+            a.sub(b).store(y, j + s);
+        }
+        j += V::W;
+    }
 }
 
 /// `cos(2πk/N)` and `sin(2πk/N)` for k in 0..N (N a power of two), from IEEE basic
@@ -921,6 +1383,111 @@ mod tests {
 
     fn bits(x: &[f64]) -> Vec<u64> {
         x.iter().map(|v| v.to_bits()).collect()
+    }
+
+    /// The defining sequence of operations, one scalar at a time: for every pass (length n,
+    /// stride s, q = n/4), every p < q and j < s, the butterfly of
+    /// `x[s·(p + r·q) + j]` (r = 0..3), outputs m = 1..3 multiplied by `W_n^(mp)` (always on
+    /// the first pass, only for p > 0 on the others), stored at `y[s·(4p + m) + j]`; then the
+    /// radix-2 pass of an odd log2 N. Every optimised path must give exactly these bits.
+    fn oracle_forward(x: &(Vec<f64>, Vec<f64>)) -> (Vec<f64>, Vec<f64>) {
+        let len = x.0.len();
+        let (cos, sin) = unit_circle(len);
+        let (mut xr, mut xi) = x.clone();
+        let (mut yr, mut yi) = (vec![0.0; len], vec![0.0; len]);
+        let mut n = len;
+        while n >= 4 {
+            let (s, q) = (len / n, n / 4);
+            for p in 0..q {
+                for j in 0..s {
+                    let at = |r: usize| s * (p + r * q) + j;
+                    let (ar, ai, br, bi) = (xr[at(0)], xi[at(0)], xr[at(1)], xi[at(1)]);
+                    let (cr, ci, dr, di) = (xr[at(2)], xi[at(2)], xr[at(3)], xi[at(3)]);
+                    let (apc_r, apc_i, amc_r, amc_i) = (ar + cr, ai + ci, ar - cr, ai - ci);
+                    let (bpd_r, bpd_i, bmd_r, bmd_i) = (br + dr, bi + di, br - dr, bi - di);
+                    let y = [
+                        (apc_r + bpd_r, apc_i + bpd_i),
+                        (amc_r + bmd_i, amc_i - bmd_r),
+                        (apc_r - bpd_r, apc_i - bpd_i),
+                        (amc_r - bmd_i, amc_i + bmd_r),
+                    ];
+                    for (m, (zr, zi)) in y.into_iter().enumerate() {
+                        let (zr, zi) = if m > 0 && (s == 1 || p > 0) {
+                            let (wr, wi) = (cos[m * p * s], -sin[m * p * s]);
+                            (wr * zr - wi * zi, wr * zi + wi * zr)
+                        } else {
+                            (zr, zi)
+                        };
+                        yr[s * (4 * p + m) + j] = zr;
+                        yi[s * (4 * p + m) + j] = zi;
+                    }
+                }
+            }
+            std::mem::swap(&mut xr, &mut yr);
+            std::mem::swap(&mut xi, &mut yi);
+            n /= 4;
+        }
+        if n == 2 {
+            let h = len / 2;
+            for j in 0..h {
+                let (ar, ai, br, bi) = (xr[j], xi[j], xr[j + h], xi[j + h]);
+                (xr[j], xi[j], xr[j + h], xi[j + h]) = (ar + br, ai + bi, ar - br, ai - bi);
+            }
+        }
+        (xr, xi)
+    }
+
+    /// Inputs for the bit tests: Gaussian, and a sparse one of signed zeros and a few values
+    /// (so that the signs of zero results are checked too).
+    fn bit_test_inputs(n: usize, seed: u64) -> Vec<(Vec<f64>, Vec<f64>)> {
+        let gauss = random(n, seed);
+        let mut sparse = (vec![0.0; n], vec![-0.0; n]);
+        for k in (0..n).step_by(7) {
+            sparse.0[k] = if k % 2 == 0 { -0.0 } else { 1.5 };
+            sparse.1[k] = gauss.0[k];
+        }
+        let real = (gauss.0.clone(), vec![0.0; n]);
+        vec![gauss, sparse, real]
+    }
+
+    #[test]
+    fn every_path_gives_the_bits_of_the_defining_scalar_sequence() {
+        for log2 in 0..=16 {
+            let n = 1usize << log2;
+            let plans = [Fft::new(n), Fft::baseline(n)];
+            for (t, x) in bit_test_inputs(n, SEED + 300 + log2 as u64)
+                .iter()
+                .enumerate()
+            {
+                let want = oracle_forward(x);
+                // The inverse is the forward transform of the exchanged parts, exchanged back.
+                let swapped = (x.1.clone(), x.0.clone());
+                let want_inv = oracle_forward(&swapped);
+                for fft in &plans {
+                    let what = format!("N = {n}, input {t}, {:?}", fft.isa);
+                    let y = forward(fft, x);
+                    assert!(
+                        bits(&y.0) == bits(&want.0) && bits(&y.1) == bits(&want.1),
+                        "{what}"
+                    );
+                    let (mut re, mut im) = x.clone();
+                    let (mut tr, mut ti) = (vec![0.0; n], vec![0.0; n]);
+                    fft.forward((&mut re, &mut im), (&mut tr, &mut ti));
+                    assert!(
+                        bits(&re) == bits(&want.0) && bits(&im) == bits(&want.1),
+                        "{what}"
+                    );
+                    let (mut re, mut im) = x.clone();
+                    fft.inverse((&mut re, &mut im), (&mut tr, &mut ti));
+                    let ok = bits(&re) == bits(&want_inv.1) && bits(&im) == bits(&want_inv.0);
+                    assert!(ok, "{what}, inverse");
+                    let (mut yr, mut yi) = (vec![0.0; n], vec![0.0; n]);
+                    fft.inverse_into((&x.0, &x.1), (&mut yr, &mut yi), (&mut tr, &mut ti));
+                    let ok = bits(&yr) == bits(&want_inv.1) && bits(&yi) == bits(&want_inv.0);
+                    assert!(ok, "{what}, inverse_into");
+                }
+            }
+        }
     }
 
     #[test]
