@@ -250,6 +250,40 @@ impl Fft {
         self.run(None, (data.1, data.0), (scratch.1, scratch.0));
     }
 
+    /// Inverse (unnormalised) transform of `data`, of which only samples `skip..N` are
+    /// wanted: they go to `tail` (real parts, imaginary parts, N − `skip` each), bit for bit
+    /// what [`Fft::inverse`] leaves in `data[skip..]`. `data` and `scratch` are overwritten.
+    /// Where the plan's last stage can store the tail itself ([`Fft::tail_fits`]) this saves
+    /// the copy; otherwise it transforms in place and copies.
+    ///
+    /// # Panics
+    /// If `data` or `scratch` is not [`Fft::len`] long, `skip` > N or `tail` not N − `skip`.
+    pub fn inverse_tail(
+        &self,
+        data: (&mut [f64], &mut [f64]),
+        scratch: (&mut [f64], &mut [f64]),
+        skip: usize,
+        tail: (&mut [f64], &mut [f64]),
+    ) {
+        if self.tail_fits(skip) {
+            let tail = Some((skip, tail.1, tail.0));
+            self.run_tail(None, (data.1, data.0), (scratch.1, scratch.0), tail);
+        } else {
+            self.inverse((&mut *data.0, &mut *data.1), scratch);
+            tail.0.copy_from_slice(&data.0[skip..]);
+            tail.1.copy_from_slice(&data.1[skip..]);
+        }
+    }
+
+    /// Whether the last stage can store outputs `skip..N` directly: a radix-2 last stage
+    /// (N = 2^(4k+1): 2, 32, 512, 8192, …) and `skip` ≤ N/2 a multiple of its lanes.
+    fn tail_fits(&self, skip: usize) -> bool {
+        self.stages.last().is_some_and(|st| {
+            let lanes = if st.wide { L } else { 1 };
+            st.kind == Kind::Two && skip <= st.s && skip % lanes == 0
+        })
+    }
+
     /// Run the stages. Every stage but the last reads one buffer and writes the other; the last
     /// writes `out`, in place if the data is already there (it completes the transform, so it
     /// reads exactly the samples it writes). Out of place, stage k writes `out` when an even
@@ -260,6 +294,19 @@ impl Fft {
         input: Option<(&[f64], &[f64])>,
         out: (&mut [f64], &mut [f64]),
         tmp: (&mut [f64], &mut [f64]),
+    ) {
+        self.run_tail(input, out, tmp, None);
+    }
+
+    /// [`Fft::run`], but with `tail` = (skip, re, im) the last stage, which must be a
+    /// [`Kind::Two`] that allows `skip` ([`Fft::tail_fits`]), writes outputs skip..N there
+    /// instead of into `out`.
+    fn run_tail(
+        &self,
+        input: Option<(&[f64], &[f64])>,
+        out: (&mut [f64], &mut [f64]),
+        tmp: (&mut [f64], &mut [f64]),
+        tail: Option<(usize, &mut [f64], &mut [f64])>,
     ) {
         let n = self.len;
         let (out_re, out_im) = out;
@@ -290,6 +337,20 @@ impl Fft {
             re: tmp_re.as_mut_ptr(),
             im: tmp_im.as_mut_ptr(),
         };
+        let (skip, tail) = match tail {
+            Some((skip, re, im)) => {
+                assert!(
+                    self.tail_fits(skip) && re.len() == n - skip && im.len() == n - skip,
+                    "FFT of length {n}: no direct tail from {skip}, or tail slices not N − skip"
+                );
+                let to = Dst {
+                    re: re.as_mut_ptr(),
+                    im: im.as_mut_ptr(),
+                };
+                (skip, Some(to))
+            }
+            None => (0, None),
+        };
         let mut from = match input {
             Some((r, i)) => Src {
                 re: r.as_ptr(),
@@ -298,17 +359,23 @@ impl Fft {
             None => out.src(),
         };
         for (k, stage) in self.stages.iter().enumerate() {
-            let to_out = k + 1 == count
+            let last = k + 1 == count;
+            let to_out = last
                 || if input.is_some() {
                     (count - 1 - k) % 2 == 0
                 } else {
                     k % 2 == 1
                 };
-            let to = if to_out { out } else { tmp };
-            // SAFETY: all four pointers come from slices of N samples checked above; `from`
-            // and `to` are different buffers except for the last stage in place, which
-            // `Stage::apply` allows; the input is only read.
-            unsafe { stage.apply(self.isa, from, to) };
+            let to = match tail {
+                Some(t) if last => t,
+                _ if to_out => out,
+                _ => tmp,
+            };
+            let skip = if last { skip } else { 0 };
+            // SAFETY: all pointers come from slices checked above (N samples, the tail
+            // N − skip with `tail_fits`); `from` and `to` are different buffers except for
+            // the last stage in place, which `Stage::apply` allows; the input is only read.
+            unsafe { stage.apply(self.isa, from, to, skip) };
             from = to.src();
         }
     }
@@ -338,17 +405,21 @@ impl Dst {
 }
 
 impl Stage {
+    /// Runs the stage from `x` into `y`. `skip` is 0, except on a [`Kind::Two`] stage that
+    /// writes only outputs `skip..N`, `y` pointing at output `skip` (see [`Fft::inverse_tail`]).
+    ///
     /// # Safety
-    /// `x` must be valid for reading and `y` for writing N samples per part; they either do
-    /// not overlap or, for the last stage only, are equal (in place).
-    unsafe fn apply(&self, isa: Isa, x: Src, y: Dst) {
+    /// `x` must be valid for reading N samples per part and `y` for writing N − `skip`; they
+    /// either do not overlap or, for the last stage only, are equal (in place). A nonzero
+    /// `skip` is at most N/2 and a multiple of the stage's lanes.
+    unsafe fn apply(&self, isa: Isa, x: Src, y: Dst, skip: usize) {
         match isa {
             // SAFETY: as required of the caller; the portable lanes need no CPU feature.
-            Isa::Baseline if self.wide => unsafe { self.run::<Portable<L>>(x, y) },
-            Isa::Baseline => unsafe { self.run::<f64>(x, y) },
+            Isa::Baseline if self.wide => unsafe { self.run::<Portable<L>>(x, y, skip) },
+            Isa::Baseline => unsafe { self.run::<f64>(x, y, skip) },
             // SAFETY: `Isa::Avx2` is only chosen after `is_x86_feature_detected!("avx2")`.
             #[cfg(target_arch = "x86_64")]
-            Isa::Avx2 => unsafe { self.apply_avx2(x, y) },
+            Isa::Avx2 => unsafe { self.apply_avx2(x, y, skip) },
         }
     }
 
@@ -359,13 +430,13 @@ impl Stage {
     /// As [`Stage::apply`], and the CPU must have AVX2.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2")]
-    unsafe fn apply_avx2(&self, x: Src, y: Dst) {
+    unsafe fn apply_avx2(&self, x: Src, y: Dst, skip: usize) {
         if self.wide {
             // SAFETY: as required of the caller, who promises the AVX2 that `Avx` needs.
-            unsafe { self.run::<Twice<avx::Avx>>(x, y) }
+            unsafe { self.run::<Twice<avx::Avx>>(x, y, skip) }
         } else {
             // SAFETY: as required of the caller.
-            unsafe { self.run::<f64>(x, y) }
+            unsafe { self.run::<f64>(x, y, skip) }
         }
     }
 
@@ -373,8 +444,9 @@ impl Stage {
     /// As [`Stage::apply`], the CPU having `V`'s features, and `V::W` lanes fitting the
     /// stage (`wide` chosen it).
     #[inline(always)]
-    unsafe fn run<V: Lanes>(&self, x: Src, y: Dst) {
+    unsafe fn run<V: Lanes>(&self, x: Src, y: Dst, skip: usize) {
         let (n, s, tw) = (self.n, self.s, &self.tw[..]);
+        debug_assert!(skip == 0 || (self.kind == Kind::Two && skip <= s && skip % V::W == 0));
         // SAFETY (all arms): the plan built `tw` for this stage with `V::W` lanes; the index
         // bounds are derived beside each kernel.
         unsafe {
@@ -383,7 +455,7 @@ impl Stage {
                 Kind::Pair => pair::<V>(n, s, tw, x, y),
                 Kind::Four => four::<V>(s, tw, x, y),
                 Kind::Eight => eight::<V>(s, tw, x, y),
-                Kind::Two => two::<V>(s, x, y),
+                Kind::Two => two::<V>(s, skip, x, y),
             }
         }
     }
@@ -1061,20 +1133,24 @@ unsafe fn eight<V: Lanes>(s: usize, tw: &[f64], x: Src, y: Dst) {
     }
 }
 
-/// The radix-2 pass alone (stride s = N/2), the last: `y[j] = x[j] + x[j + s]`,
-/// `y[j + s] = x[j] − x[j + s]`.
+/// The radix-2 pass alone (stride s = N/2), the last: output `j` is `x[j] + x[j + s]`,
+/// output `j + s` is `x[j] − x[j + s]`; only outputs `skip..N` are stored, output k at
+/// `y[k − skip]`.
 ///
 /// # Safety
-/// As [`Stage::apply`]; s a multiple of `V::W`. Indices below 2s = N.
+/// As [`Stage::apply`]; s and `skip` ≤ s multiples of `V::W`. Reads below 2s = N, writes below
+/// N − `skip`.
 #[inline(always)]
-unsafe fn two<V: Lanes>(s: usize, x: Src, y: Dst) {
+unsafe fn two<V: Lanes>(s: usize, skip: usize, x: Src, y: Dst) {
     let mut j = 0;
     while j < s {
-        // SAFETY: the bounds above.
+        // SAFETY: the bounds above (j ≥ skip before the first store, j + s ≥ skip always).
         unsafe {
             let (a, b) = (Cx::<V>::load(x, j), Cx::<V>::load(x, j + s));
-            a.add(b).store(y, j);
-            a.sub(b).store(y, j + s);
+            if j >= skip {
+                a.add(b).store(y, j - skip);
+            }
+            a.sub(b).store(y, j + s - skip);
         }
         j += V::W;
     }
@@ -1362,6 +1438,42 @@ mod tests {
             // Exchanging re and im equals i·conj(·): the bits agree up to the sign of zeros.
             assert!(yr == f.0 && yi == expected, "N = {n}");
         }
+    }
+
+    #[test]
+    fn the_inverse_tail_is_the_tail_of_the_inverse_bit_for_bit() {
+        let mut direct = 0;
+        for log2 in 0..=14 {
+            let n = 1usize << log2;
+            for fft in [Fft::new(n), Fft::baseline(n)] {
+                // Skips the last stage can store itself and ones that need the copy.
+                for skip in [0, 1, L, n / 4, n / 2, n / 2 + L, n - 1, n] {
+                    if skip > n {
+                        continue;
+                    }
+                    direct += usize::from(fft.tail_fits(skip));
+                    let x = random(n, SEED + 400 + log2 as u64);
+                    let (mut re, mut im) = x.clone();
+                    let (mut tr, mut ti) = (vec![0.0; n], vec![0.0; n]);
+                    fft.inverse((&mut re, &mut im), (&mut tr, &mut ti));
+                    let (mut dr, mut di) = x.clone();
+                    let (mut ar, mut ai) = (vec![0.0; n - skip], vec![0.0; n - skip]);
+                    fft.inverse_tail(
+                        (&mut dr, &mut di),
+                        (&mut tr, &mut ti),
+                        skip,
+                        (&mut ar, &mut ai),
+                    );
+                    assert!(
+                        bits(&ar) == bits(&re[skip..]) && bits(&ai) == bits(&im[skip..]),
+                        "N = {n}, skip {skip}, {:?}",
+                        fft.isa
+                    );
+                }
+            }
+        }
+        // N = 2, 32, 512 and 8192 end in the radix-2 stage, so the direct path ran.
+        assert!(direct >= 4 * 2 * 3, "direct tails: {direct}");
     }
 
     #[test]

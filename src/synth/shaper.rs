@@ -358,10 +358,10 @@ fn pair(
             }
         }
     }
-    tx.full.inverse(s.spec.parts(), s.fft.parts());
+    // Block A's valid outputs are the real parts from HISTORY on, block B's the imaginary.
     let (a, b) = out.split_at_mut(HOP);
-    a.copy_from_slice(&s.spec.re[HISTORY..]);
-    b.copy_from_slice(&s.spec.im[HISTORY..]);
+    tx.full
+        .inverse_tail(s.spec.parts(), s.fft.parts(), HISTORY, (a, b));
 }
 
 #[cfg(test)]
