@@ -253,8 +253,9 @@ impl Fft {
     /// Inverse (unnormalised) transform of `data`, of which only samples `skip..N` are
     /// wanted: they go to `tail` (real parts, imaginary parts, N − `skip` each), bit for bit
     /// what [`Fft::inverse`] leaves in `data[skip..]`. `data` and `scratch` are overwritten.
-    /// Where the plan's last stage can store the tail itself ([`Fft::tail_fits`]) this saves
-    /// the copy; otherwise it transforms in place and copies.
+    /// Where the plan's last stage can store the tail itself (the radix-2 last stage of
+    /// N = 2^(4k+1), such as 8192, with `skip` ≤ N/2 a multiple of eight) this saves the copy;
+    /// otherwise it transforms in place and copies.
     ///
     /// # Panics
     /// If `data` or `scratch` is not [`Fft::len`] long, `skip` > N or `tail` not N − `skip`.
