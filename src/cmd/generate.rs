@@ -6,7 +6,7 @@ use std::io::{self, BufWriter, IsTerminal};
 use std::path::{Path, PathBuf};
 use std::rc::Rc;
 use std::sync::atomic::{AtomicBool, Ordering};
-use std::sync::{Arc, Mutex, mpsc};
+use std::sync::{Arc, Mutex};
 
 use super::pending::{PendingFile, commit_all};
 use crate::adc::{Adc, Coding, Container, Dither, parse_range};
@@ -986,9 +986,10 @@ fn naming_output(e: Error, target: &str) -> Error {
 /// `channel_stats.len()` interleaved channels; `stats` over every sample, `channel_stats`
 /// per channel (only kept for more than one channel).
 ///
-/// With `overlap`, a writer thread takes the statistics, the encoding and the writing of
-/// each block while this thread makes the next one (the engine stays on the calling thread,
-/// inside its rayon pool). The blocks, their order and so the bytes are the same either way.
+/// With `overlap` (a pool of two or more threads), the statistics, the encoding and the
+/// writing of each block run as a job on the rayon pool while this thread makes the next
+/// block (the engine stays on the calling thread, inside the pool). The blocks, their order
+/// and so the bytes are the same either way.
 #[allow(clippy::too_many_arguments)]
 fn pump(
     engine: &mut dyn FnMut(&mut [f64]),
@@ -1025,56 +1026,42 @@ fn pump(
         }
         return Ok(());
     }
-    std::thread::scope(|scope| {
-        let (full_tx, full_rx) = mpsc::sync_channel::<Vec<f64>>(IN_FLIGHT);
-        let (empty_tx, empty_rx) = mpsc::channel::<Vec<f64>>();
-        let writer = scope.spawn(move || -> Result<()> {
-            for block in full_rx {
-                if interrupted.load(Ordering::Relaxed) {
-                    return Err(Error::Interrupted);
-                }
-                tally.take(&block, sink)?;
-                // The engine may have stopped already; then the buffer is simply dropped.
-                let _ = empty_tx.send(block);
+    // Two buffers: while this thread makes the next block (its FFTs and draws spread over
+    // the pool), the previous one is tallied and written as a job of the same pool, which
+    // an idle worker takes; no extra thread competes with the engine for the cores.
+    let mut fill = vec![0.0; blocks.frames * ch];
+    let mut full = vec![0.0; blocks.frames * ch];
+    let mut pending = 0;
+    loop {
+        if interrupted.load(Ordering::Relaxed) {
+            return Err(Error::Interrupted);
+        }
+        let next = blocks.next_len();
+        if next.is_none() && pending == 0 {
+            return Ok(());
+        }
+        let mut written = Ok(());
+        rayon::in_place_scope(|scope| {
+            if pending > 0 {
+                let (block, tally, sink, written) =
+                    (&full[..pending], &mut tally, &mut *sink, &mut written);
+                scope.spawn(move |_| *written = tally.take(block, sink));
             }
-            Ok(())
+            if let Some(n) = next {
+                engine(&mut fill[..n * ch]);
+            }
         });
-        let mut unallocated = IN_FLIGHT + 1;
-        let produced = (|| {
-            while let Some(n) = blocks.next_len() {
-                if interrupted.load(Ordering::Relaxed) {
-                    return Err(Error::Interrupted);
-                }
-                let mut buf = match empty_rx.try_recv() {
-                    Ok(b) => b,
-                    Err(_) if unallocated > 0 => {
-                        unallocated -= 1;
-                        Vec::with_capacity(blocks.frames * ch)
-                    }
-                    Err(_) => match empty_rx.recv() {
-                        Ok(b) => b,
-                        // The writer stopped on an error; it reports it below.
-                        Err(_) => break,
-                    },
-                };
-                buf.resize(n * ch, 0.0);
-                engine(&mut buf);
-                if full_tx.send(buf).is_err() {
-                    break;
-                }
+        written?;
+        match next {
+            Some(n) => {
+                std::mem::swap(&mut fill, &mut full);
+                pending = n * ch;
             }
-            Ok(())
-        })();
-        drop(full_tx);
-        let written = writer
-            .join()
-            .unwrap_or_else(|panic| std::panic::resume_unwind(panic));
-        written.and(produced)
-    })
+            None => return Ok(()),
+        }
+    }
 }
 
-/// Blocks handed from the engine to the writer thread at a time, besides the one being made.
-const IN_FLIGHT: usize = 2;
 /// Fewest frames per block, however many channels (a block holds about [`CHUNK`] samples).
 const MIN_BLOCK_FRAMES: usize = 1024;
 
