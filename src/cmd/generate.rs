@@ -656,8 +656,8 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     let mut stats = RunningStats::new();
     let mut channel_stats = vec![RunningStats::new(); usize::from(channels)];
     let progress = progress_bar(samples);
-    // A writer thread pays off with a second core; per-source CSV columns are written from
-    // buffers the engine refills, so that path stays in step.
+    // Writing beside the engine pays off with a second core; per-source CSV columns are
+    // written from buffers the engine refills, so that path stays in step.
     let overlap = !per_source && rayon::current_num_threads() > 1;
     let report;
     match &target {

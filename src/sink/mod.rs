@@ -411,8 +411,8 @@ pub struct SinkReport {
 ///
 /// Call [`write`](Sink::write) with consecutive blocks, then [`finish`](Sink::finish) exactly
 /// once. Output is buffered: dropping a sink without `finish` loses the buffered tail.
-/// Sinks are `Send`, so that a writer thread can encode and write while the engine makes the
-/// next block.
+/// Sinks are `Send`, so that another thread of the pool can encode and write while the engine
+/// makes the next block.
 pub trait Sink: Send {
     /// Scales, clips, quantises and writes a block of physical samples (in the spec's unit).
     fn write(&mut self, samples: &[f64]) -> Result<()>;
