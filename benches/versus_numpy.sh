@@ -13,7 +13,8 @@
 #
 # Method: for each size the three programs run REPS times, alternating (noisewright, numpy,
 # floor, noisewright, ...), each under GNU time (`%M` peak RSS); wall time from bash's
-# $EPOCHREALTIME around the same call. The table gives medians. Needs python3 with numpy and
+# $EPOCHREALTIME around the same call, after a `sync` so that no run pays for the previous
+# one's writeback. The table gives medians. Needs python3 with numpy and
 # scipy (pip install -r tests/python/requirements.txt).
 set -euo pipefail
 export LC_ALL=C
@@ -50,6 +51,9 @@ TOML
 run() {
     local name=$1; shift
     local t0 t1
+    # Flush the previous run's dirty pages first, so that no program pays for another's
+    # writeback inside its timing.
+    sync
     t0=$EPOCHREALTIME
     $GNU_TIME -f '%M' -o "$WORK/mem" "$@" >/dev/null 2>"$WORK/err" || { cat "$WORK/err" >&2; exit 1; }
     t1=$EPOCHREALTIME
