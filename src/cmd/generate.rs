@@ -142,19 +142,15 @@ struct Scale {
 /// Run `generate`; returns the summary text (empty when a reader closed the output pipe).
 /// `interrupted` is polled between chunks: when it becomes true the run stops, and no file is
 /// left under the target name.
+/// The run happens on a worker of a rayon pool of `--threads` threads ([`super::on_pool`]).
 pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
-    match args.threads {
-        None => run_here(args, interrupted),
-        Some(0) => Err(Error::option(
+    if args.threads == Some(0) {
+        return Err(Error::option(
             "--threads",
             "expected a whole number of threads of at least 1, got 0",
-        )),
-        Some(n) => rayon::ThreadPoolBuilder::new()
-            .num_threads(n)
-            .build()
-            .map_err(|e| Error::option("--threads", format!("cannot start {n} threads: {e}")))?
-            .install(|| run_here(args, interrupted)),
+        ));
     }
+    super::on_pool(args.threads, || run_here(args, interrupted))
 }
 
 /// [`run`] on the current rayon pool.
