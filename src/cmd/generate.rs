@@ -142,7 +142,9 @@ struct Scale {
 /// Run `generate`; returns the summary text (empty when a reader closed the output pipe).
 /// `interrupted` is polled between chunks: when it becomes true the run stops, and no file is
 /// left under the target name.
-/// The run happens on a worker of a rayon pool of `--threads` threads ([`super::on_pool`]).
+///
+/// The run happens on a worker of a rayon pool of `--threads` threads (by default the
+/// global pool's size); from outside any pool every parallel step would be a hand-off.
 pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
     if args.threads == Some(0) {
         return Err(Error::option(
