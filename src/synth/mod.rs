@@ -13,6 +13,7 @@ mod channels;
 mod design;
 mod periodic;
 mod shaper;
+mod team;
 pub mod tone;
 mod white;
 mod ziggurat;

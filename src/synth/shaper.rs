@@ -7,10 +7,11 @@
 //! FIR over i.i.d. input, so the output is stationary from its first sample; memory is a few
 //! FFT blocks per level and does not grow with duration.
 //!
-//! Work is done in batches of [`BATCH_PAIRS`] block pairs per level. Within a batch the white
-//! chunks (each its own random stream) and the block pairs (each a pure function of its input
-//! windows) are computed in parallel on rayon's pool; the result does not depend on the number
-//! of threads or on how they share the work.
+//! Work is done in batches of [`BATCH_PAIRS`] block pairs per level. Each batch is one
+//! parallel step on rayon's pool (through [`super::team`], whose waiting threads poll instead
+//! of sleeping): its block pairs (each a pure function of its input windows) and, beside
+//! them, the white chunks of the level's next batch (each its own random stream). The result
+//! does not depend on the number of threads or on how they share the work.
 //!
 //! The FFTs are [`crate::fft::Fft`]s: vectorised, yet bit-identical on every machine, so the
 //! output is too. Spectra are kept as split arrays (real parts, imaginary parts), the layout
@@ -23,6 +24,7 @@ use rayon::prelude::*;
 use crate::fft::Fft;
 
 use super::design::{Design, FFT_LEN, HISTORY, HOP, RATIO};
+use super::team;
 use super::white::{Domain, WhiteStreams};
 
 const LOW_HOP: usize = HOP / RATIO;
@@ -30,6 +32,8 @@ const LOW_HISTORY: usize = HISTORY / RATIO;
 const LOW_LEN: usize = FFT_LEN / RATIO;
 /// White samples per random stream.
 const CHUNK: usize = 2048;
+/// New white chunks per block pair.
+const STEP_CHUNKS: usize = 2 * HOP / CHUNK;
 /// Block pairs (2·HOP output samples each) computed per batch and level: one per core of
 /// the two-core machine it was tuned on (2^24 samples, two threads: 1 pair 0.31 s, 2 pairs
 /// 0.21 s, 4 pairs 0.23 s, 8 pairs 0.25 s). The output does not depend on it.
@@ -44,6 +48,10 @@ struct LevelState {
     interp: Spectrum,
     /// White input of the batch: HISTORY samples shared with the last batch, then BATCH_OUT new.
     white: Vec<f64>,
+    /// The next batch's white input: its BATCH_OUT new samples are drawn while this batch's
+    /// pairs are filtered (HISTORY is copied in after); empty if inactive.
+    white_next: Vec<f64>,
+    /// Index of the next white chunk to draw.
     next_chunk: u64,
     /// Samples from the level below: LOW_HISTORY shared with the last batch, then
     /// BATCH_OUT / RATIO new.
@@ -151,6 +159,7 @@ impl Shaper {
                     Spectrum::default()
                 },
                 white: vec![0.0; HISTORY + BATCH_OUT],
+                white_next: vec![0.0; if level.active { HISTORY + BATCH_OUT } else { 0 }],
                 next_chunk: 0,
                 low: vec![0.0; LOW_HISTORY + BATCH_OUT / RATIO],
                 ready: vec![0.0; BATCH_OUT],
@@ -196,7 +205,8 @@ impl Shaper {
         while self.scratch.len() < workers {
             self.scratch.push(Mutex::new(Scratch::new()));
         }
-        pull(&mut self.levels, &self.tx, &self.scratch, out);
+        let (levels, tx, scratch) = (&mut self.levels, &self.tx, &self.scratch);
+        team::with_helpers(|| pull(levels, tx, scratch, out));
     }
 }
 
@@ -252,17 +262,26 @@ fn pull(levels: &mut [LevelState], tx: &Transforms, scratch: &[Mutex<Scratch>], 
     }
 }
 
-/// Draw the white samples `range` (whole chunks) of `level`'s batch buffer, in parallel.
-fn draw(level: &mut LevelState, tx: &Transforms, range: std::ops::Range<usize>) {
+/// Draw the whole white input of `level`'s first batch, in parallel.
+fn draw_first(level: &mut LevelState, tx: &Transforms) {
     let (index, first) = (level.index, level.next_chunk);
-    level.white[range.clone()]
+    level
+        .white
         .par_chunks_mut(CHUNK)
         .enumerate()
         .for_each(|(c, chunk)| {
             let stream = WhiteStreams::stream_id(Domain::Shaper, index, first + c as u64);
             tx.white.fill(stream, chunk);
         });
-    level.next_chunk += (range.len() / CHUNK) as u64;
+    level.next_chunk += (level.white.len() / CHUNK) as u64;
+}
+
+/// The work of one batch, run in parallel: a block pair, or a white chunk of the next batch.
+enum Task<'a> {
+    /// Pair index in the batch, its output.
+    Pair(usize, &'a mut [f64]),
+    /// Stream id, the chunk's place in the next batch's input.
+    Chunk(u64, &'a mut [f64]),
 }
 
 /// Produce the next BATCH_PAIRS block pairs (BATCH_OUT samples) of `level`: the first
@@ -281,16 +300,12 @@ fn batch(
     let has_below = !level.interp.is_empty();
     if !level.primed {
         if active {
-            draw(level, tx, 0..HISTORY);
+            draw_first(level, tx);
         }
         if has_below {
             pull(below, tx, scratch, &mut level.low[..LOW_HISTORY]);
         }
         level.primed = true;
-    }
-    if active {
-        let end = level.white.len();
-        draw(level, tx, HISTORY..end);
     }
     if has_below {
         pull(below, tx, scratch, &mut level.low[LOW_HISTORY..]);
@@ -298,20 +313,42 @@ fn batch(
     let (white, low) = (&level.white, &level.low);
     let (shaper, interp) = (&level.shaper, &level.interp);
     let room = direct.len();
-    let mut outs: Vec<&mut [f64]> = direct.chunks_mut(2 * HOP).collect();
-    outs.extend(level.ready[room..].chunks_mut(2 * HOP));
-    outs.par_iter_mut().enumerate().for_each(|(p, out)| {
-        // Only this worker uses its slot (the pool cannot outgrow `scratch`, see `fill`).
-        let slot = rayon::current_thread_index().unwrap_or(0) % scratch.len();
-        let mut s = scratch[slot].lock().unwrap_or_else(PoisonError::into_inner);
-        let w = &white[2 * p * HOP..2 * p * HOP + HOP + FFT_LEN];
-        let l = &low[2 * p * LOW_HOP..2 * p * LOW_HOP + LOW_HOP + LOW_LEN];
-        pair(tx, &mut s, shaper, interp, w, l, out);
+    let outs = direct
+        .chunks_mut(2 * HOP)
+        .chain(level.ready[room..].chunks_mut(2 * HOP));
+    // One parallel step per batch: the pairs, and the next batch's chunks drawn beside them.
+    // Each pair is followed by its share of the chunks. The calling worker starts with the
+    // first pair and then works back from the end, an idle worker takes tasks from the
+    // front, so on two threads each gets one pair and half the chunks.
+    let next_new = level.white_next.get_mut(HISTORY..).unwrap_or_default();
+    let mut chunks = next_new.chunks_mut(CHUNK);
+    let mut tasks = Vec::with_capacity(BATCH_PAIRS * (1 + STEP_CHUNKS));
+    for (p, out) in outs.enumerate() {
+        tasks.push(Task::Pair(p, out));
+        for chunk in chunks.by_ref().take(STEP_CHUNKS) {
+            let stream = WhiteStreams::stream_id(Domain::Shaper, level.index, level.next_chunk);
+            level.next_chunk += 1;
+            tasks.push(Task::Chunk(stream, chunk));
+        }
+    }
+    team::each(&mut tasks, |_, task| match task {
+        Task::Pair(p, out) => {
+            let p = *p;
+            // Only this worker uses its slot (the pool cannot outgrow `scratch`, see `fill`).
+            let slot = rayon::current_thread_index().unwrap_or(0) % scratch.len();
+            let mut s = scratch[slot].lock().unwrap_or_else(PoisonError::into_inner);
+            let w = &white[2 * p * HOP..2 * p * HOP + HOP + FFT_LEN];
+            let l = &low[2 * p * LOW_HOP..2 * p * LOW_HOP + LOW_HOP + LOW_LEN];
+            pair(tx, &mut s, shaper, interp, w, l, out);
+        }
+        Task::Chunk(stream, chunk) => tx.white.fill(*stream, chunk),
     });
+    drop(tasks);
     level.ready_pos = std::mem::take(&mut level.skip).max(room);
     if active {
         let end = level.white.len();
-        level.white.copy_within(end - HISTORY.., 0);
+        level.white_next[..HISTORY].copy_from_slice(&level.white[end - HISTORY..]);
+        std::mem::swap(&mut level.white, &mut level.white_next);
     }
     if has_below {
         let end = level.low.len();
