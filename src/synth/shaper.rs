@@ -35,8 +35,9 @@ const CHUNK: usize = 2048;
 /// New white chunks per block pair.
 const STEP_CHUNKS: usize = 2 * HOP / CHUNK;
 /// Block pairs (2·HOP output samples each) computed per batch and level: one per core of
-/// the two-core machine it was tuned on (2^24 samples, two threads: 1 pair 0.31 s, 2 pairs
-/// 0.21 s, 4 pairs 0.23 s, 8 pairs 0.25 s). The output does not depend on it.
+/// the two-core machine it was tuned on (`generate`, 2^24 samples to /dev/null, medians of 7,
+/// 2026-12-03, one / two threads: 1 pair 256 / 168 ms, 2 pairs 259 / 152 ms, 4 pairs
+/// 267 / 153 ms). The output does not depend on it.
 pub const BATCH_PAIRS: usize = 2;
 const BATCH_OUT: usize = 2 * HOP * BATCH_PAIRS;
 
