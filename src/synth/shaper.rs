@@ -471,6 +471,31 @@ mod tests {
     }
 
     #[test]
+    fn shapers_filled_at_once_on_one_pool_finish_and_match_one_at_a_time() {
+        // Library callers may fill several shapers from tasks of the same pool; each fill's
+        // polling helpers must then never hold up another fill for good.
+        let d = Design::new(&flat, 48_000.0, 1.0).unwrap();
+        let make = |seed: u64| {
+            let mut s = Shaper::new(&d, seed);
+            let mut x = vec![0.0; 2 * BATCH_OUT + 5];
+            s.fill(&mut x);
+            x
+        };
+        let alone: Vec<Vec<f64>> = (0..6).map(make).collect();
+        for threads in [2, 3] {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap();
+            for round in 0..40 {
+                let together: Vec<Vec<f64>> =
+                    pool.install(|| (0..6u64).into_par_iter().map(make).collect());
+                assert!(together == alone, "{threads} threads, round {round}");
+            }
+        }
+    }
+
+    #[test]
     fn a_run_started_anywhere_equals_the_run_from_zero_from_there_on() {
         // band.low = 0.05 Hz at 48 kHz: a deep pyramid, so boundaries of several levels.
         let d = Design::new(&flat, 48_000.0, 0.05).unwrap();

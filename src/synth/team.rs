@@ -8,10 +8,35 @@
 //! way; with both threads polling, under 1 µs (measured 2026-12-03).
 //!
 //! [`each`] runs tasks with the calling worker polling for them to finish; [`with_helpers`]
-//! keeps the pool's other workers polling for jobs while a closure runs. Which thread runs
-//! which task never changes a result: tasks write only their own outputs.
+//! keeps the pool's other workers polling for jobs while a closure runs. A thread that has
+//! polled for [`PATIENCE`] without finding a job goes back to rayon's own waiting, so that
+//! fills running at once on one pool (a library caller's tasks) never hold each other up for
+//! long. Which thread runs which task never changes a result: tasks write only their own
+//! outputs.
 
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::time::{Duration, Instant};
+
+/// How long a polling thread goes on without finding a job before it falls back to rayon's
+/// own waiting (which sleeps). Far above the gaps inside a fill (a few µs to tens of µs), so
+/// it does not end in the middle of one; it bounds what polling can cost when a thread is
+/// held elsewhere, and makes sure no helper outlives the work it is meant for.
+const PATIENCE: Duration = Duration::from_micros(500);
+
+/// Runs jobs of the pool on this thread while `more()` holds, until none has turned up for
+/// [`PATIENCE`].
+fn poll_while(more: impl Fn() -> bool) {
+    let mut last_job = Instant::now();
+    while more() {
+        if rayon::yield_now() == Some(rayon::Yield::Executed) {
+            last_job = Instant::now();
+        } else if last_job.elapsed() > PATIENCE {
+            return;
+        } else {
+            std::hint::spin_loop();
+        }
+    }
+}
 
 /// Runs `f(i, &mut tasks[i])` for every task, in parallel on the current rayon pool, and
 /// returns when all have run. The calling worker runs task 0, then whatever is left from the
@@ -42,18 +67,14 @@ pub fn each<T: Send>(tasks: &mut [T], f: impl Fn(usize, &mut T) + Sync) {
             let _done = Countdown(&left);
             f(0, first);
         }
-        // The scope would wait for the rest too, but may sleep while it does.
-        while left.load(Ordering::Acquire) > 0 {
-            if rayon::yield_now() != Some(rayon::Yield::Executed) {
-                std::hint::spin_loop();
-            }
-        }
+        // The scope waits for the rest too, but may sleep while it does: poll first.
+        poll_while(|| left.load(Ordering::Acquire) > 0);
     });
 }
 
 /// Runs `f` on this worker while the pool's other workers poll for jobs (and run them at
-/// once) instead of sleeping; they stop when `f` returns or panics. Off a worker, or on a
-/// pool of one thread, `f` just runs.
+/// once) instead of sleeping; they stop when `f` returns or panics, or after [`PATIENCE`]
+/// without a job. Off a worker, or on a pool of one thread, `f` just runs.
 pub fn with_helpers<R>(f: impl FnOnce() -> R) -> R {
     let me = rayon::current_thread_index();
     let others = rayon::current_num_threads().saturating_sub(1);
@@ -70,11 +91,7 @@ pub fn with_helpers<R>(f: impl FnOnce() -> R) -> R {
                 if rayon::current_thread_index() == me {
                     return;
                 }
-                while running.load(Ordering::Acquire) {
-                    if rayon::yield_now() != Some(rayon::Yield::Executed) {
-                        std::hint::spin_loop();
-                    }
-                }
+                poll_while(|| running.load(Ordering::Acquire));
             });
         }
         let _stop = Lowered(&running);
