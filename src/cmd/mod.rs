@@ -63,8 +63,8 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
 /// `threads` is `None`.
 ///
 /// From a thread outside any pool, every parallel step is handed to the pool and waited for
-/// (a wake-up across threads each time); `generate` makes two such steps per batch, and at
-/// 2^24 samples on two cores that cost about a quarter of its wall time (0.24 s against
+/// (a wake-up across threads each time); `generate` made two such steps per batch then, and
+/// at 2^24 samples on two cores that cost about a quarter of its wall time (0.24 s against
 /// 0.18 s, measured 2026-12-03).
 fn on_pool<T: Send>(threads: Option<usize>, f: impl FnOnce() -> Result<T> + Send) -> Result<T> {
     let n = match threads {
