@@ -333,3 +333,41 @@ corner = "100 Hz"
     assert_eq!(files[0], files[1], "1 vs 2 threads (seed 1)");
     assert_eq!(files[0], files[2], "1 vs 3 threads (seed 1)");
 }
+
+#[test]
+fn a_named_pipe_gets_the_samples_in_place_and_no_manifest_beside_it() {
+    // A rig reading from a FIFO (or /dev/null, a device) must keep its pipe: renaming a
+    // finished temporary file over it would replace the pipe with a plain file.
+    use std::os::unix::fs::FileTypeExt;
+    let dir = scratch("fifo");
+    let p = write_profile(&dir, "w.toml", WHITE);
+    let fifo = dir.join("rig.raw");
+    let made = Command::new("mkfifo").arg(&fifo).status();
+    if !made.is_ok_and(|s| s.success()) {
+        eprintln!("skipped: mkfifo is not available here");
+        return;
+    }
+    let reader = {
+        let fifo = fifo.clone();
+        std::thread::spawn(move || std::fs::read(fifo).unwrap())
+    };
+    let ps = p.to_str().unwrap();
+    let args = ["--samples", "20000", "--seed", "4"];
+    let out = run(
+        &[&["generate", ps, "-o", "rig.raw"][..], &args[..]].concat(),
+        &dir,
+    );
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    // Before joining the reader: had the pipe been replaced, it would wait for good.
+    assert!(std::fs::metadata(&fifo).unwrap().file_type().is_fifo());
+    let piped = reader.join().unwrap();
+    assert!(text(&out.stdout).contains("no manifest: rig.raw is a device or pipe"));
+    assert_eq!(outputs(&dir), ["rig.raw"], "nothing beside the pipe");
+    let file = run(
+        &[&["generate", ps, "-o", "file.raw"][..], &args[..]].concat(),
+        &dir,
+    );
+    assert!(file.status.success(), "{}", text(&file.stderr));
+    assert_eq!(piped.len(), 20000 * 4, "f32 raw");
+    assert!(piped == std::fs::read(dir.join("file.raw")).unwrap());
+}

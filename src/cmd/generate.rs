@@ -690,7 +690,17 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
             // Both files are made before the run, so a folder that cannot take them fails
             // before the work, and neither lands unless both were written (commit_all).
             let pending = PendingFile::create(path)?;
-            let mp = PendingFile::create(&manifest_path)?;
+            // A device or a named pipe is written in place, and has no folder of its own
+            // for a manifest beside it.
+            let mp = if pending.is_direct() {
+                notes.push(format!(
+                    "no manifest: {shown} is a device or pipe, not a file, so nothing was \
+                     written beside it"
+                ));
+                None
+            } else {
+                Some(PendingFile::create(&manifest_path)?)
+            };
             {
                 let writer = BufWriter::with_capacity(FLUSH_BYTES, pending.file()?);
                 let mut sink = make_sink(&spec, Box::new(writer))?;
@@ -744,37 +754,43 @@ fn run_here(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<String> {
                     ),
                 });
             }
-            let mut manifest = Manifest::new(&spec, args.seed, &report, &stats, expected_rms);
-            manifest.profile = profile.to_json();
-            manifest.level_dbfs = scale.level_dbfs;
-            manifest.looped = args.loop_buffer;
-            manifest.start_sample = start;
-            manifest.start_s = start as f64 / fs;
-            manifest.notes = notes.clone();
-            manifest.extra.extend(container_keys);
-            if let Some(a) = &adc {
-                manifest.extra.insert("adc".into(), a.to_json(fs));
+            match mp {
+                None => commit_all(vec![pending])?,
+                Some(mp) => {
+                    let mut manifest =
+                        Manifest::new(&spec, args.seed, &report, &stats, expected_rms);
+                    manifest.profile = profile.to_json();
+                    manifest.level_dbfs = scale.level_dbfs;
+                    manifest.looped = args.loop_buffer;
+                    manifest.start_sample = start;
+                    manifest.start_s = start as f64 / fs;
+                    manifest.notes = notes.clone();
+                    manifest.extra.extend(container_keys);
+                    if let Some(a) = &adc {
+                        manifest.extra.insert("adc".into(), a.to_json(fs));
+                    }
+                    if let Some(g) = &generator {
+                        burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
+                    }
+                    if let Some(fg) = &figures {
+                        tone_manifest(&mut manifest, &profile, fg, adc.as_ref());
+                    }
+                    if let Some(m) = &multi {
+                        burst_manifest(
+                            &mut manifest,
+                            m.borrow().generator(),
+                            &profile,
+                            false,
+                            &spec,
+                        );
+                        channel_manifest(&mut manifest, &profile, expected_rms, &channel_stats);
+                    }
+                    write_manifest(&manifest, BufWriter::new(mp.file()?))
+                        .map_err(|e| naming_output(e, &manifest_path.display().to_string()))?;
+                    // The noise file last: where it exists, its manifest does too.
+                    commit_all(vec![mp, pending])?;
+                }
             }
-            if let Some(g) = &generator {
-                burst_manifest(&mut manifest, &g.borrow(), &profile, per_source, &spec);
-            }
-            if let Some(fg) = &figures {
-                tone_manifest(&mut manifest, &profile, fg, adc.as_ref());
-            }
-            if let Some(m) = &multi {
-                burst_manifest(
-                    &mut manifest,
-                    m.borrow().generator(),
-                    &profile,
-                    false,
-                    &spec,
-                );
-                channel_manifest(&mut manifest, &profile, expected_rms, &channel_stats);
-            }
-            write_manifest(&manifest, BufWriter::new(mp.file()?))
-                .map_err(|e| naming_output(e, &manifest_path.display().to_string()))?;
-            // The noise file last: where it exists, its manifest does too.
-            commit_all(vec![mp, pending])?;
         }
     }
     progress.finish_and_clear();

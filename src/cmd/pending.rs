@@ -4,6 +4,10 @@
 //! Every file a subcommand writes goes through [`PendingFile`]; files that belong together
 //! (a noise file and its manifest, the outputs of one `analyze`) are renamed together by
 //! [`commit_all`], so either all of them land or none.
+//!
+//! A target that exists and is not a regular file (a device such as `/dev/null`, a named
+//! pipe, a socket, also behind a symbolic link) is written directly: renaming a file over it
+//! would replace the device or pipe with a plain file.
 
 use std::fs;
 use std::io::{self, Write};
@@ -17,9 +21,13 @@ use crate::error::{Error, Result};
 /// dropped before that (an error or an interruption).
 #[derive(Debug)]
 pub(crate) struct PendingFile {
+    /// Where the bytes go: the temporary file, or the target itself when `direct`.
     tmp: PathBuf,
     target: PathBuf,
     committed: bool,
+    /// The target is a device, pipe or socket, written in place (nothing to rename or
+    /// remove).
+    direct: bool,
 }
 
 impl PendingFile {
@@ -37,6 +45,15 @@ impl PendingFile {
                 ),
             ));
         }
+        // Not opened here: a named pipe would see its writer come and go before the run.
+        if fs::metadata(target).is_ok_and(|m| !m.is_file() && !m.is_dir()) {
+            return Ok(PendingFile {
+                tmp: target.to_path_buf(),
+                target: target.to_path_buf(),
+                committed: false,
+                direct: true,
+            });
+        }
         let dir = folder_of(target);
         // A path that exists but is not a folder (a file in the way) is left to the OS,
         // whose "Not a directory" names the problem.
@@ -53,7 +70,15 @@ impl PendingFile {
             tmp,
             target: target.to_path_buf(),
             committed: false,
+            direct: false,
         })
+    }
+
+    /// Whether the target is a device, pipe or socket written in place (see the module
+    /// documentation): its bytes are not held back until [`commit_all`], and a file meant
+    /// to sit beside it (a manifest) has no folder of its own to go to.
+    pub(crate) fn is_direct(&self) -> bool {
+        self.direct
     }
 
     /// The temporary file, opened for writing from its start.
@@ -72,8 +97,12 @@ impl PendingFile {
             .map_err(|e| Error::io(format!("writing {}", self.target.display()), e))
     }
 
-    /// Renames the temporary file into place.
+    /// Renames the temporary file into place (nothing to do for a direct target).
     pub(crate) fn commit(mut self) -> Result<()> {
+        if self.direct {
+            self.committed = true;
+            return Ok(());
+        }
         fs::rename(&self.tmp, &self.target)
             .map_err(|e| Error::io(format!("renaming into {}", self.target.display()), e))?;
         self.committed = true;
@@ -83,7 +112,7 @@ impl PendingFile {
 
 impl Drop for PendingFile {
     fn drop(&mut self) {
-        if !self.committed {
+        if !self.committed && !self.direct {
             let _ = fs::remove_file(&self.tmp);
         }
     }
@@ -119,6 +148,35 @@ fn folder_of(target: &Path) -> PathBuf {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn a_named_pipe_is_written_in_place_and_stays_a_pipe() {
+        use std::os::unix::fs::FileTypeExt;
+        let d = scratch("fifo");
+        let fifo = d.join("rig.raw");
+        let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+        if !made.is_ok_and(|s| s.success()) {
+            eprintln!("skipped: mkfifo is not available here");
+            return;
+        }
+        let reader = {
+            let fifo = fifo.clone();
+            std::thread::spawn(move || fs::read(fifo).unwrap())
+        };
+        let p = PendingFile::create(&fifo).unwrap();
+        assert!(p.is_direct());
+        p.write_all(b"abc").unwrap();
+        commit_all(vec![p]).unwrap();
+        assert_eq!(reader.join().unwrap(), b"abc");
+        assert!(fs::metadata(&fifo).unwrap().file_type().is_fifo());
+        assert_eq!(names(&d), ["rig.raw"], "no temporary file beside the pipe");
+        // A regular file is still written under a temporary name first.
+        assert!(
+            !PendingFile::create(&d.join("plain.raw"))
+                .unwrap()
+                .is_direct()
+        );
+    }
 
     fn scratch(tag: &str) -> PathBuf {
         let d =
