@@ -60,7 +60,7 @@ use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 use serde_json::json;
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::profile::{Dimension, format_quantity, parse_quantity};
 use crate::synth::{Domain, WhiteStreams};
 
@@ -105,8 +105,8 @@ impl FromStr for Coding {
         match s.trim() {
             "twos" => Ok(Coding::Twos),
             "offset" => Ok(Coding::Offset),
-            _ => Err(Error::option(
-                "--code",
+            _ => Err(Error::setting(
+                Setting::Code,
                 format!(
                     "expected twos (two's complement, signed) or offset (offset binary, \
                      unsigned), got {s:?}"
@@ -143,8 +143,8 @@ impl FromStr for Dither {
         match s.trim() {
             "none" => Ok(Dither::None),
             "tpdf" => Ok(Dither::Tpdf),
-            _ => Err(Error::option(
-                "--dither",
+            _ => Err(Error::setting(
+                Setting::Dither,
                 format!("expected tpdf (triangular, ±1 LSB peak) or none, got {s:?}"),
             )),
         }
@@ -278,8 +278,8 @@ impl Adc {
     /// 0 until [`Adc::with_seed`] and [`Adc::starting_at`] say otherwise.
     pub fn new(bits: u32, lo: f64, hi: f64, coding: Option<Coding>, dither: Dither) -> Result<Adc> {
         if !(1..=MAX_BITS).contains(&bits) {
-            return Err(Error::option(
-                "--bits",
+            return Err(Error::setting(
+                Setting::Bits,
                 format!(
                     "expected 1 to {MAX_BITS} bits (codes are stored in 8-, 16- or 32-bit \
                      integers), got {bits}"
@@ -287,15 +287,15 @@ impl Adc {
             ));
         }
         if !(lo.is_finite() && hi.is_finite() && lo < hi) {
-            return Err(Error::option(
-                "--range",
+            return Err(Error::setting(
+                Setting::Range,
                 format!("expected finite ends with low < high, got {lo} .. {hi}"),
             ));
         }
         let q = (hi - lo) / 2f64.powi(bits as i32);
         if !(q.is_finite() && q >= f64::MIN_POSITIVE) {
-            return Err(Error::option(
-                "--range",
+            return Err(Error::setting(
+                Setting::Range,
                 format!("the range {lo} .. {hi} gives an LSB of {q}, which an f64 cannot hold"),
             ));
         }
@@ -740,9 +740,10 @@ mod tests {
     #[test]
     fn bad_settings_are_refused_with_the_option() {
         let opt = |r: Result<Adc>| match r {
-            Err(Error::Option { option, message }) => format!("{option}: {message}"),
+            Err(e @ Error::Setting { .. }) => e.describe("", &|s| format!("--{}", s.name())),
             other => panic!("expected an option error, got {other:?}"),
         };
+        let opt = |r: Result<Adc>| opt(r).trim_start().to_string();
         assert!(opt(Adc::new(0, -1.0, 1.0, None, Dither::None)).starts_with("--bits"));
         assert!(opt(Adc::new(33, -1.0, 1.0, None, Dither::None)).contains("got 33"));
         assert!(opt(Adc::new(8, 1.0, -1.0, None, Dither::None)).starts_with("--range"));
@@ -754,7 +755,10 @@ mod tests {
         assert!("tpdf".parse::<Dither>().is_ok() && "rect".parse::<Dither>().is_err());
         assert!("twos".parse::<Coding>().is_ok());
         let e = "unsigned".parse::<Coding>().unwrap_err().to_string();
-        assert!(e.contains("--code") && e.contains("offset"), "{e}");
+        assert!(
+            e.starts_with("setting code:") && e.contains("offset"),
+            "{e}"
+        );
     }
 
     #[test]

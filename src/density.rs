@@ -407,6 +407,7 @@ mod tests {
 
     fn profile(unit: Unit, band: Band, fs: f64, kinds: Vec<SourceKind>) -> Profile {
         Profile {
+            label: Default::default(),
             channels: 1,
             correlation: vec![vec![1.0]],
             name: None,

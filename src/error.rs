@@ -1,8 +1,13 @@
 //! The library's one error type.
 //!
 //! Every variant carries the facts a user needs to fix the problem: the file, the key or
-//! option, the value given and what was expected. [`Error::exit_code`] maps each variant to
+//! setting, the value given and what was expected. [`Error::exit_code`] maps each variant to
 //! the command-line convention: 2 for bad input, 1 for a job that ran and failed.
+//!
+//! A message that names a setting of a run (the length, the rate, the ADC's range …) does not
+//! spell it: it holds a [`Setting`] mark, which [`Error::describe`] writes as the caller
+//! wants (the `Display` text writes the library's name, e.g. `full_scale`; a command line
+//! writes its own flag).
 
 use std::fmt;
 
@@ -10,10 +15,9 @@ use std::fmt;
 pub type Result<T> = std::result::Result<T, Error>;
 
 /// Everything that can go wrong in noisewright.
-#[derive(Debug, thiserror::Error)]
+#[derive(Debug)]
 pub enum Error {
     /// A profile file is malformed or holds a value outside what is allowed.
-    #[error("{file}{}: {key}: {message}", line_suffix(*line))]
     Profile {
         /// The profile's file name as the user gave it (or `<string>`).
         file: String,
@@ -24,29 +28,21 @@ pub enum Error {
         /// What was wrong and what is expected, e.g. "expected a density such as \"4 nV/rtHz\"".
         message: String,
     },
-    /// A command-line option has a value that cannot be used.
-    #[error("option {option}: {message}")]
-    Option {
-        /// The option as spelled on the command line, e.g. `--duration`.
-        option: String,
-        /// What was wrong and what is expected.
+    /// A setting of a run has a value that cannot be used, alone or with the others.
+    Setting {
+        /// The setting whose value is refused.
+        setting: Setting,
+        /// What was wrong and what is expected (may hold marks of other settings).
         message: String,
     },
     /// Reading or writing failed; `context` says what was being done (e.g. the file name).
-    #[error("{context}: {source}")]
     Io {
         /// What was being read or written.
         context: String,
         /// The underlying error.
-        #[source]
         source: std::io::Error,
     },
     /// Samples exceeded digital full scale and clipping was not allowed.
-    #[error(
-        "{count} of {total} samples exceeded digital full scale ({full_scale}); \
-         a full scale of at least {suggested} would hold this noise \
-         (use --full-scale, a lower --level, or --allow-clipping)"
-    )]
     Clipped {
         /// Number of samples that were clipped.
         count: u64,
@@ -57,13 +53,8 @@ pub enum Error {
         /// A full scale that would have held every sample, formatted with its unit.
         suggested: String,
     },
-    /// Samples fell outside an ADC's input range (`--bits`/`--range`) and clipping was not
+    /// Samples fell outside an ADC's input range (its bits and range) and clipping was not
     /// allowed.
-    #[error(
-        "{count} of {total} samples fell outside the ADC range {range} and would be clamped to \
-         the end codes; a range of {suggested} would hold this noise \
-         (use a wider --range, or --allow-clipping)"
-    )]
     ClippedRange {
         /// Number of samples outside the range.
         count: u64,
@@ -77,13 +68,10 @@ pub enum Error {
     /// The run was stopped by SIGINT, SIGTERM or SIGHUP; nothing was left under the target
     /// name. Its exit code is 130 (128 + SIGINT); the binary instead ends by the signal that
     /// came, once its partial files are gone.
-    #[error("interrupted: no output was written under the target name")]
     Interrupted,
     /// The requested output cannot be produced in the chosen format (e.g. a WAV past 4 GiB).
-    #[error("{0}")]
     Unsupported(String),
     /// An input file (a capture to analyse) is malformed, truncated or cannot be interpreted.
-    #[error("{file}: {message}")]
     Input {
         /// The file's name as the user gave it (or `<input>`).
         file: String,
@@ -93,8 +81,187 @@ pub enum Error {
     },
     /// A measurement ran and does not meet what was asked of it (e.g. a capture outside its
     /// profile's limits).
-    #[error("{0}")]
     Mismatch(String),
+}
+
+/// A setting of a run, named in errors about its value or about how it combines with others.
+///
+/// [`Setting::name`] is the library's name (the builder method that sets it); a command line
+/// maps each to its own flag.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[non_exhaustive]
+pub enum Setting {
+    /// The profile file.
+    Profile,
+    /// Where the output goes.
+    Output,
+    /// The length of a run as a time.
+    Duration,
+    /// The length of a run in samples.
+    Samples,
+    /// The start of a segment as a time.
+    Start,
+    /// The start of a segment as a sample index.
+    StartSample,
+    /// The sample rate.
+    Rate,
+    /// One periodic buffer instead of a stream.
+    Loop,
+    /// The file format.
+    Format,
+    /// The name of a C array.
+    Name,
+    /// The sample format (f32, i24 …).
+    SampleFormat,
+    /// The physical value of digital 1.0.
+    FullScale,
+    /// The expected RMS relative to full scale, dBFS.
+    Level,
+    /// Writing although samples clip.
+    AllowClipping,
+    /// Which CSV columns are written.
+    Columns,
+    /// The number of worker threads.
+    Threads,
+    /// The resolution of ADC codes, bits.
+    Bits,
+    /// The input range of ADC codes.
+    Range,
+    /// The numbering of ADC codes.
+    Code,
+    /// The dither added before rounding.
+    Dither,
+    /// The bin width of a density estimate.
+    Resolution,
+    /// The engineering tolerance of a verdict, dB.
+    Tolerance,
+    /// A fitted profile's output file.
+    Fit,
+    /// A picture's output file.
+    Plot,
+    /// An HTML report's output file.
+    Report,
+    /// A band of a budget.
+    Band,
+    /// The filter order of a budget's band edges.
+    Order,
+}
+
+/// Every setting, for mapping names back.
+const SETTINGS: [Setting; 27] = [
+    Setting::Profile,
+    Setting::Output,
+    Setting::Duration,
+    Setting::Samples,
+    Setting::Start,
+    Setting::StartSample,
+    Setting::Rate,
+    Setting::Loop,
+    Setting::Format,
+    Setting::Name,
+    Setting::SampleFormat,
+    Setting::FullScale,
+    Setting::Level,
+    Setting::AllowClipping,
+    Setting::Columns,
+    Setting::Threads,
+    Setting::Bits,
+    Setting::Range,
+    Setting::Code,
+    Setting::Dither,
+    Setting::Resolution,
+    Setting::Tolerance,
+    Setting::Fit,
+    Setting::Plot,
+    Setting::Report,
+    Setting::Band,
+    Setting::Order,
+];
+
+/// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
+/// U+0001 characters, written `\\u{1}name\\u{1}` inside a string literal.
+const MARK: char = '\u{1}';
+
+impl Setting {
+    /// The library's name of the setting, e.g. `full_scale`.
+    pub fn name(self) -> &'static str {
+        match self {
+            Setting::Profile => "profile",
+            Setting::Output => "output",
+            Setting::Duration => "duration",
+            Setting::Samples => "samples",
+            Setting::Start => "start",
+            Setting::StartSample => "start_sample",
+            Setting::Rate => "rate",
+            Setting::Loop => "loop",
+            Setting::Format => "format",
+            Setting::Name => "name",
+            Setting::SampleFormat => "sample_format",
+            Setting::FullScale => "full_scale",
+            Setting::Level => "level",
+            Setting::AllowClipping => "allow_clipping",
+            Setting::Columns => "columns",
+            Setting::Threads => "threads",
+            Setting::Bits => "bits",
+            Setting::Range => "range",
+            Setting::Code => "code",
+            Setting::Dither => "dither",
+            Setting::Resolution => "resolution",
+            Setting::Tolerance => "tolerance",
+            Setting::Fit => "fit",
+            Setting::Plot => "plot",
+            Setting::Report => "report",
+            Setting::Band => "band",
+            Setting::Order => "order",
+        }
+    }
+
+    /// The setting's mark, to write inside an error message where the setting is named:
+    /// [`Error::describe`] replaces it by the name its caller gives the setting.
+    pub fn mark(self) -> impl fmt::Display {
+        Mark(self)
+    }
+}
+
+impl fmt::Display for Setting {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+struct Mark(Setting);
+
+impl fmt::Display for Mark {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{MARK}{}{MARK}", self.0.name())
+    }
+}
+
+/// `text` with each mark replaced by `name` of its setting (an unknown mark keeps its text).
+fn unmark(text: &str, name: &dyn Fn(Setting) -> String) -> String {
+    let mut out = String::with_capacity(text.len());
+    for (i, part) in text.split(MARK).enumerate() {
+        match SETTINGS.iter().find(|s| s.name() == part) {
+            Some(s) if i % 2 == 1 => out.push_str(&name(*s)),
+            _ => out.push_str(part),
+        }
+    }
+    out
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.describe("setting", &|s| s.name().to_string()))
+    }
+}
+
+impl std::error::Error for Error {
+    fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
+        match self {
+            Error::Io { source, .. } => Some(source),
+            _ => None,
+        }
+    }
 }
 
 fn line_suffix(line: Option<usize>) -> String {
@@ -111,7 +278,7 @@ impl Error {
     pub fn exit_code(&self) -> i32 {
         match self {
             Error::Profile { .. }
-            | Error::Option { .. }
+            | Error::Setting { .. }
             | Error::Unsupported(_)
             | Error::Input { .. } => 2,
             Error::Io { .. }
@@ -122,12 +289,71 @@ impl Error {
         }
     }
 
-    /// Shorthand for an [`Error::Option`].
-    pub fn option(option: impl Into<String>, message: impl fmt::Display) -> Error {
-        Error::Option {
-            option: option.into(),
+    /// The message, its marks still in (see [`Setting::mark`]); a [`Error::Setting`] starts
+    /// with `prefix` and its setting's mark.
+    fn marked(&self, prefix: &str) -> String {
+        match self {
+            Error::Profile {
+                file,
+                line,
+                key,
+                message,
+            } => format!("{file}{}: {key}: {message}", line_suffix(*line)),
+            Error::Setting { setting, message } => {
+                format!("{prefix} {}: {message}", setting.mark())
+            }
+            Error::Io { context, source } => format!("{context}: {source}"),
+            Error::Clipped {
+                count,
+                total,
+                full_scale,
+                suggested,
+            } => format!(
+                "{count} of {total} samples exceeded digital full scale ({full_scale}); a full \
+                 scale of at least {suggested} would hold this noise (use {}, a lower {}, or {})",
+                Setting::FullScale.mark(),
+                Setting::Level.mark(),
+                Setting::AllowClipping.mark()
+            ),
+            Error::ClippedRange {
+                count,
+                total,
+                range,
+                suggested,
+            } => format!(
+                "{count} of {total} samples fell outside the ADC range {range} and would be \
+                 clamped to the end codes; a range of {suggested} would hold this noise (use a \
+                 wider {}, or {})",
+                Setting::Range.mark(),
+                Setting::AllowClipping.mark()
+            ),
+            Error::Interrupted => {
+                "interrupted: no output was written under the target name".to_string()
+            }
+            Error::Unsupported(m) | Error::Mismatch(m) => m.clone(),
+            Error::Input { file, message } => format!("{file}: {message}"),
+        }
+    }
+
+    /// The message as the command line words it (flags for settings), for unit tests.
+    #[cfg(test)]
+    pub(crate) fn cli_text(&self) -> String {
+        self.describe("option", &|s| format!("--{}", s.name().replace('_', "-")))
+    }
+
+    /// Shorthand for an [`Error::Setting`].
+    pub fn setting(setting: Setting, message: impl fmt::Display) -> Error {
+        Error::Setting {
+            setting,
             message: message.to_string(),
         }
+    }
+
+    /// The message with every setting named by `name` (the `Display` text names them as the
+    /// library does; a command line passes its flags). A [`Error::Setting`] starts with
+    /// `prefix` and the setting's name instead of `setting NAME`.
+    pub fn describe(&self, prefix: &str, name: &dyn Fn(Setting) -> String) -> String {
+        unmark(&self.marked(prefix), name)
     }
 
     /// Shorthand for an [`Error::Input`].

@@ -42,11 +42,15 @@ pub mod fft;
 pub mod figure;
 pub mod plot;
 pub mod profile;
+pub mod run;
 pub mod sink;
 pub mod source;
 pub mod synth;
 
-pub use error::{Error, Result};
+pub use error::{Error, Result, Setting};
+pub use profile::Profile;
+pub use run::{Render, RenderReport};
+pub use synth::Generator;
 
 /// The README's Rust example, compiled and run as a doctest.
 #[doc = include_str!("../README.md")]

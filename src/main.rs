@@ -7,8 +7,8 @@ use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
 use clap::Parser;
-use noisewright::Error;
 use noisewright::cmd::{Cli, run};
+use noisewright::{Error, Setting};
 use signal_hook::consts::{SIGINT, SIGTERM};
 
 #[cfg(unix)]
@@ -32,7 +32,10 @@ fn main() -> ExitCode {
     match run(&cli, &interrupted) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("noisewright: error: {e}");
+            eprintln!(
+                "noisewright: error: {}",
+                e.describe("option", &|s| flag(&cli, s))
+            );
             if let (Error::Interrupted, s @ 1..) = (&e, signal.load(Ordering::SeqCst)) {
                 // Ending by the signal (its default action) rather than by exit lets a
                 // shell loop or a make stop as it does for any program killed by it.
@@ -40,5 +43,16 @@ fn main() -> ExitCode {
             }
             ExitCode::from(e.exit_code() as u8)
         }
+    }
+}
+
+/// The command line's name of a setting: its flag, or `PROFILE`, the positional argument of
+/// `generate` and `budget`.
+fn flag(cli: &Cli, setting: Setting) -> String {
+    match setting {
+        Setting::Profile if !matches!(cli.command, noisewright::cmd::Command::Analyze(_)) => {
+            "PROFILE".into()
+        }
+        s => format!("--{}", s.name().replace('_', "-")),
     }
 }

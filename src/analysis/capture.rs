@@ -16,7 +16,7 @@ use super::levels::{LevelTrace, Levels};
 use super::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
 use super::stats::RunningStats;
 use super::welch::{BandEstimate, Spectrum, Welch};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 
 /// Longest default segment, in samples.
 pub const MAX_DEFAULT_SEGMENT: usize = 1 << 20;
@@ -49,15 +49,15 @@ pub fn segment_length(
     }
     if let Some(r) = resolution_hz {
         if !(r.is_finite() && r > 0.0) {
-            return Err(Error::option(
-                "--resolution",
+            return Err(Error::setting(
+                Setting::Resolution,
                 "expected a positive frequency such as 0.1Hz",
             ));
         }
         let l = 2 * (sample_rate_hz / (2.0 * r)).round().max(8.0) as usize;
         if l > n {
-            return Err(Error::option(
-                "--resolution",
+            return Err(Error::setting(
+                Setting::Resolution,
                 format!(
                     "a resolution of {r} Hz needs segments of {l} samples, but the capture has \
                      only {n}; ask for at least {:.4} Hz",

@@ -253,7 +253,7 @@ pub fn fit_floor(r: &CaptureReport, options: &FitOptions) -> Result<FloorFit> {
     if bands.len() < 4 {
         return Err(Error::Unsupported(format!(
             "only {} bands of the density lie in the fitted range {}..{}; a fit needs at least \
-             4 (use a longer capture or a finer --resolution)",
+             4 (use a longer capture or a finer \u{1}resolution\u{1})",
             bands.len(),
             format_quantity(lo, "Hz"),
             format_quantity(hi, "Hz")

@@ -7,8 +7,6 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc;
 
-use super::generate::manifest_path;
-use super::pending::{PendingFile, commit_all};
 use crate::analysis::capture::{
     BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
 };
@@ -17,10 +15,11 @@ use crate::analysis::fit::{FitOptions, fit_floor};
 use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
 use crate::analysis::tones::{ToneFit, without_tones};
 use crate::burst::BurstModel;
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::figure;
 use crate::profile::{Burst, BurstSampling};
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
+use crate::run::{PendingFile, commit_all, manifest_path};
 use crate::sink::{Format, SampleFormat};
 use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
 use crate::synth::Generator;
@@ -122,8 +121,8 @@ fn parse_db(text: &str) -> Result<f64> {
         .trim();
     match n.parse::<f64>() {
         Ok(v) if v.is_finite() && v >= 0.0 => Ok(v),
-        _ => Err(Error::option(
-            "--tolerance",
+        _ => Err(Error::setting(
+            Setting::Tolerance,
             format!("expected a non-negative level such as 1dB, got {text:?}"),
         )),
     }
@@ -263,7 +262,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         Some(p) => {
             let f = p.display().to_string();
             let text = fs::read_to_string(p)
-                .map_err(|e| Error::option("--profile", format!("cannot read {f}: {e}")))?;
+                .map_err(|e| Error::setting(Setting::Profile, format!("cannot read {f}: {e}")))?;
             Some(parse_profile(&text, &f)?)
         }
         None => None,
@@ -290,7 +289,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
                         mpath.display().to_string(),
                         format!(
                             "sample_format: says {m}, but the name of {name} (.{n}) says {n}; \
-                             give --sample-format to say which is right"
+                             give \u{1}sample_format\u{1} to say which is right"
                         ),
                     ));
                 }
@@ -301,17 +300,17 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     let rate = match &args.rate {
         Some(r) => Some(
             parse_quantity(r, Dimension::Frequency, unit_hint)
-                .map_err(|m| Error::option("--rate", m))?,
+                .map_err(|m| Error::setting(Setting::Rate, m))?,
         ),
         None => None,
     };
     let full_scale = match &args.full_scale {
         Some(q) => {
             let v = parse_quantity(q, Dimension::Amplitude, unit_hint)
-                .map_err(|m| Error::option("--full-scale", m))?;
+                .map_err(|m| Error::setting(Setting::FullScale, m))?;
             if !(v.is_finite() && v > 0.0) {
-                return Err(Error::option(
-                    "--full-scale",
+                return Err(Error::setting(
+                    Setting::FullScale,
                     format!("expected a positive value such as 2V, got {q:?}"),
                 ));
             }
@@ -322,7 +321,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     let resolution = match &args.resolution {
         Some(r) => Some(
             parse_quantity(r, Dimension::Frequency, unit_hint)
-                .map_err(|m| Error::option("--resolution", m))?,
+                .map_err(|m| Error::setting(Setting::Resolution, m))?,
         ),
         None => None,
     };
@@ -369,18 +368,18 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
         None => None,
         Some(p) => {
             if !scale.is_physical() {
-                return Err(Error::option(
-                    "--full-scale",
+                return Err(Error::setting(
+                    Setting::FullScale,
                     format!(
                         "{name} holds digital values and no manifest gives their scale: say \
-                         which physical value digital 1.0 is, e.g. --full-scale 2V"
+                         which physical value digital 1.0 is, e.g. \u{1}full_scale\u{1} 2V"
                     ),
                 ));
             }
             if fs != p.sample_rate_hz {
                 if p.band.high_hz > fs / 2.0 {
-                    return Err(Error::option(
-                        "--profile",
+                    return Err(Error::setting(
+                        Setting::Profile,
                         format!(
                             "band.high = {} in {profile_name} is above half the rate of {name} \
                              ({} at {}): the capture cannot hold that band; judge it against a \
@@ -441,12 +440,8 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     // One LSB of an integer file, in the capture's unit: codes of a coarsely quantised signal
     // are not burst levels.
     let quantum = match (info.sample_format, scale.full_scale) {
-        (Some(sf), Some(fsc)) if sf.is_integer() => {
-            Some(fsc / f64::from(sf.full_scale_code().expect("integer")))
-        }
-        (Some(sf), None) if sf.is_integer() => {
-            Some(1.0 / f64::from(sf.full_scale_code().expect("integer")))
-        }
+        (Some(sf), Some(fsc)) => sf.lsb(fsc),
+        (Some(sf), None) if sf.is_integer() => sf.lsb(1.0),
         _ => None,
     };
     // The burst-level search needs only pass 1's trace: it runs on the pool while pass 2 reads
@@ -466,7 +461,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     if spectrum.segments == 0 {
         return Err(Error::Unsupported(format!(
             "{name} has {} samples, fewer than one {seg_len}-sample segment; ask for a coarser \
-             --resolution",
+             \u{1}resolution\u{1}",
             st.count()
         )));
     }
@@ -480,7 +475,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
     // error model, Q/√(6·fs) per √Hz with Q one LSB; REFERENCES §9, IEEE Std 1241).
     let q_psd = match (info.sample_format, scale.full_scale) {
         (Some(sf), Some(fsc)) if sf.is_integer() => {
-            let lsb = fsc / f64::from(sf.full_scale_code().expect("integer"));
+            let lsb = sf.lsb(fsc).expect("integer");
             lsb * lsb / (6.0 * fs)
         }
         _ => 0.0,
@@ -555,7 +550,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             if c.bands.is_empty() {
                 notes.push(
                     "no band of the estimate lies inside the profile's band: use a finer \
-                     --resolution or a longer capture"
+                     \u{1}resolution\u{1} or a longer capture"
                         .to_string(),
                 );
             }
@@ -635,7 +630,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalyzeOutcom
             None => fit_floor(&report, &options),
         }
         .map_err(|e| match e {
-            Error::Unsupported(m) => Error::option("--fit", format!("{name}: {m}")),
+            Error::Unsupported(m) => Error::setting(Setting::Fit, format!("{name}: {m}")),
             e => e,
         })?;
         let toml = fit.to_profile_toml(&report, &name);

@@ -4,11 +4,11 @@
 use std::fs;
 use std::path::PathBuf;
 
-use super::pending::PendingFile;
 use crate::budget::{BandSpec, budget, chart, parse_band, to_json, write_text};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::plot::write_density_svg;
 use crate::profile::{MAX_ORDER, parse_profile};
+use crate::run::PendingFile;
 
 /// Options of `noisewright budget`.
 #[derive(Debug, Clone, clap::Args)]
@@ -36,12 +36,12 @@ pub struct BudgetArgs {
 pub fn run(args: &BudgetArgs) -> Result<String> {
     let file = args.profile.display().to_string();
     let text = fs::read_to_string(&args.profile)
-        .map_err(|e| Error::option("PROFILE", format!("cannot read {file}: {e}")))?;
+        .map_err(|e| Error::setting(Setting::Profile, format!("cannot read {file}: {e}")))?;
     let profile = parse_profile(&text, &file)?;
     let order = match args.order {
         Some(n) if n > MAX_ORDER => {
-            return Err(Error::option(
-                "--order",
+            return Err(Error::setting(
+                Setting::Order,
                 format!("expected 0 (brick wall) to {MAX_ORDER}, got {n}"),
             ));
         }
@@ -52,7 +52,7 @@ pub fn run(args: &BudgetArgs) -> Result<String> {
         .bands
         .iter()
         .map(|b| {
-            let (low_hz, high_hz) = parse_band(b).map_err(|m| Error::option("--band", m))?;
+            let (low_hz, high_hz) = parse_band(b).map_err(|m| Error::setting(Setting::Band, m))?;
             Ok(BandSpec {
                 low_hz,
                 high_hz,

@@ -3,7 +3,6 @@
 pub mod analyze;
 pub mod budget;
 pub mod generate;
-mod pending;
 
 use std::io::{self, Write};
 use std::sync::atomic::AtomicBool;
@@ -36,19 +35,20 @@ pub enum Command {
 pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
     match &cli.command {
         Command::Generate(args) => {
-            let summary = generate::run(args, interrupted)?;
+            let report = generate::run(args, interrupted)?;
+            let summary = &report.summary;
             if !args.quiet && !summary.is_empty() {
                 if args.output.as_deref() == Some("-") {
                     eprint!("{summary}");
                 } else {
-                    print_out(&summary)?;
+                    print_out(summary)?;
                 }
             }
             Ok(())
         }
         Command::Budget(args) => print_out(&budget::run(args)?),
         Command::Analyze(args) => {
-            let outcome = on_pool(None, || analyze::run(args, interrupted))?;
+            let outcome = crate::run::on_pool(None, || analyze::run(args, interrupted))?;
             print_out(&outcome.output)?;
             match outcome.failure {
                 Some(e) => Err(e),
@@ -56,33 +56,6 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
             }
         }
     }
-}
-
-/// Runs `f` on a worker of a rayon pool of `threads` threads (`None`: the global pool's size,
-/// all cores or `RAYON_NUM_THREADS`). A caller already on a worker keeps its pool when
-/// `threads` is `None`.
-///
-/// From a thread outside any pool, every parallel step is handed to the pool and waited for
-/// (a wake-up across threads each time); `generate` made two such steps per batch then, and
-/// at 2^24 samples on two cores that cost about a quarter of its wall time (0.24 s against
-/// 0.18 s, measured 2026-12-03).
-fn on_pool<T: Send>(threads: Option<usize>, f: impl FnOnce() -> Result<T> + Send) -> Result<T> {
-    let n = match threads {
-        None if rayon::current_thread_index().is_some() => return f(),
-        None => rayon::current_num_threads(),
-        Some(n) => n,
-    };
-    rayon::ThreadPoolBuilder::new()
-        .num_threads(n)
-        .build()
-        .map_err(|e| match threads {
-            Some(_) => Error::option("--threads", format!("cannot start {n} threads: {e}")),
-            None => Error::io(
-                format!("starting {n} worker threads"),
-                io::Error::other(e.to_string()),
-            ),
-        })?
-        .install(f)
 }
 
 /// Writes `text` to standard output. A reader that closed the pipe (`| head`) ends the

@@ -20,6 +20,8 @@ pub use tone::{AmplitudeConvention, Tone};
 
 use serde::Serialize;
 
+use crate::error::Result;
+
 use crate::amplifier::{Refer, StagePart};
 
 /// What one unit of output means.
@@ -111,9 +113,23 @@ pub enum SourceKind {
     },
 }
 
+/// How messages name a profile. Two profiles that differ only in their labels are equal.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Label(pub(crate) String);
+
+impl PartialEq for Label {
+    fn eq(&self, _: &Label) -> bool {
+        true
+    }
+}
+
 /// A validated profile.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Profile {
+    /// How messages name the profile: the file as the caller gave it, or the label given to
+    /// [`Profile::from_toml_str`].
+    #[serde(skip)]
+    pub(crate) label: Label,
     /// Optional display name.
     pub name: Option<String>,
     /// What one unit of output means.
@@ -141,7 +157,33 @@ pub struct Profile {
     pub correlation: Vec<Vec<f64>>,
 }
 
+/// The largest profile file read, bytes: far beyond any real profile (a few KiB; a table of
+/// thousands of points is well under 1 MiB), small enough that a wrong path such as a device
+/// or a capture is refused at once instead of read whole.
+pub const MAX_PROFILE_BYTES: u64 = 16 << 20;
+
 impl Profile {
+    /// Reads and validates the profile (TOML) at `path`; errors name the file as given.
+    pub fn from_path(path: impl AsRef<std::path::Path>) -> Result<Profile> {
+        let path = path.as_ref();
+        let file = path.display().to_string();
+        let text = read_limited(path, MAX_PROFILE_BYTES).map_err(|e| {
+            crate::Error::setting(crate::Setting::Profile, format!("cannot read {file}: {e}"))
+        })?;
+        parse_profile(&text, &file)
+    }
+
+    /// Validates a profile given as TOML text; `label` names it in messages (a file name, or
+    /// something like `inline`).
+    pub fn from_toml_str(text: &str, label: &str) -> Result<Profile> {
+        parse_profile(text, label)
+    }
+
+    /// How messages name the profile: its file as given, or the label it was parsed with.
+    pub fn label(&self) -> &str {
+        &self.label.0
+    }
+
     /// The resolved profile as JSON, for output manifests. Every value is in SI base units and
     /// the key names carry the unit:
     ///
@@ -249,6 +291,23 @@ impl Profile {
             "correlation": self.correlation,
         })
     }
+}
+
+/// The file at `path` as UTF-8 text, refused when it holds more than `limit` bytes (read
+/// through a bounded reader, so a device or an endless pipe cannot fill memory).
+pub(crate) fn read_limited(path: &std::path::Path, limit: u64) -> std::io::Result<String> {
+    use std::io::Read;
+    let mut text = String::new();
+    std::fs::File::open(path)?
+        .take(limit + 1)
+        .read_to_string(&mut text)?;
+    if text.len() as u64 > limit {
+        return Err(std::io::Error::other(format!(
+            "larger than {} MiB; a profile is a short TOML text",
+            limit >> 20
+        )));
+    }
+    Ok(text)
 }
 
 #[cfg(test)]

@@ -27,7 +27,7 @@
 use std::io::Write;
 
 use super::{Buffered, CHUNK_SAMPLES, Format, SampleFormat, Scaler, Sink, SinkReport, SinkSpec};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::profile::format_quantity;
 
 /// Values per line of the array initialiser.
@@ -116,8 +116,8 @@ pub fn c_spec_type(spec: &SinkSpec) -> &'static str {
 /// not a name from `<stdint.h>` (`…_t`, `INT…`/`UINT…`). Errors name `--name`.
 pub fn validate_array_name(name: &str) -> Result<()> {
     let bad = |why: &str| {
-        Err(Error::option(
-            "--name",
+        Err(Error::setting(
+            Setting::Name,
             format!(
                 "{name:?} cannot name a C array: {why}; expected a C identifier such as \
                  noise_table (letters, digits and _, not starting with a digit)"
@@ -496,7 +496,7 @@ mod tests {
             "a b",
         ] {
             let e = validate_array_name(bad).unwrap_err();
-            assert!(e.to_string().contains("--name"), "{bad}: {e}");
+            assert!(e.cli_text().contains("--name"), "{bad}: {e}");
             assert_eq!(e.exit_code(), 2);
         }
         assert_eq!(default_array_name("mic-preamp"), "mic_preamp");

@@ -59,7 +59,7 @@ use std::str::FromStr;
 use serde::Serialize;
 
 use crate::adc::{Adc, Container, Quantiser};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::profile::Unit;
 
 /// Samples encoded per inner loop; keeps the byte buffer near [`FLUSH_BYTES`].
@@ -149,8 +149,8 @@ impl FromStr for Format {
             .into_iter()
             .find(|f| f.name() == l)
             .ok_or_else(|| {
-                Error::option(
-                    "--format",
+                Error::setting(
+                    Setting::Format,
                     format!("unknown format \"{s}\"; expected wav, csv, raw, npy or c"),
                 )
             })
@@ -224,6 +224,13 @@ impl SampleFormat {
         }
     }
 
+    /// One LSB of this integer format in physical units (the unit of `full_scale`, the value
+    /// of digital 1.0): `full_scale / (2^(b−1) − 1)`, the step between codes as the writers
+    /// round; `None` for floats. The one definition of a file's LSB in the crate.
+    pub fn lsb(self, full_scale: f64) -> Option<f64> {
+        self.full_scale_code().map(|c| full_scale / f64::from(c))
+    }
+
     /// The sample format named by a raw file extension (`f32`, `f64`, `i16`, `i24`, `i32`,
     /// with or without the dot, any case); `None` for any other extension.
     pub fn from_extension(ext: &str) -> Option<SampleFormat> {
@@ -248,8 +255,8 @@ impl FromStr for SampleFormat {
             .into_iter()
             .find(|f| f.name() == l)
             .ok_or_else(|| {
-                Error::option(
-                    "--sample-format",
+                Error::setting(
+                    Setting::SampleFormat,
                     format!("unknown sample format \"{s}\"; expected f32, f64, i16, i24 or i32"),
                 )
             })
@@ -296,7 +303,7 @@ impl SinkSpec {
     pub fn announced_samples(&self) -> Result<u64> {
         let frames = self.frames.ok_or_else(|| {
             Error::Unsupported(format!(
-                "{} output states its length first: give --samples or --duration",
+                "{} output states its length first: give \u{1}samples\u{1} or \u{1}duration\u{1}",
                 self.format
             ))
         })?;
@@ -313,8 +320,8 @@ impl SinkSpec {
     /// WAV: no f64, a whole sample rate, a known sample count, the 4 GiB size limit).
     pub fn validate(&self) -> Result<()> {
         if !(self.sample_rate_hz.is_finite() && self.sample_rate_hz > 0.0) {
-            return Err(Error::option(
-                "--sample-rate",
+            return Err(Error::setting(
+                Setting::Rate,
                 format!(
                     "sample rate {} Hz must be a positive number of samples per second",
                     self.sample_rate_hz
@@ -323,18 +330,18 @@ impl SinkSpec {
         }
         if self.adc.is_some() {
             if let Some(fs) = self.full_scale {
-                return Err(Error::option(
-                    "--full-scale",
+                return Err(Error::setting(
+                    Setting::FullScale,
                     format!(
-                        "ADC codes (--bits) are scaled by their --range; a full scale ({fs} {}) \
+                        "ADC codes (\u{1}bits\u{1}) are scaled by their \u{1}range\u{1}; a full scale ({fs} {}) \
                          cannot apply as well",
                         self.unit.symbol()
                     ),
                 ));
             }
             if self.format == Format::Wav {
-                return Err(Error::option(
-                    "--bits",
+                return Err(Error::setting(
+                    Setting::Bits,
                     "WAV cannot carry ADC codes as they are (WAV PCM is left-justified, signed \
                      audio at full scale); write CSV (.csv), raw (.raw, .bin, .u16, .i16, …), .npy \
                      or a C header (.h)",
@@ -344,8 +351,8 @@ impl SinkSpec {
         match self.full_scale {
             _ if self.adc.is_some() => {}
             Some(fs) if !(fs.is_finite() && fs > 0.0) => {
-                return Err(Error::option(
-                    "--full-scale",
+                return Err(Error::setting(
+                    Setting::FullScale,
                     format!(
                         "full scale {fs} {} must be a positive physical value (the value of digital 1.0)",
                         self.unit.symbol()
@@ -360,8 +367,8 @@ impl SinkSpec {
                     } else {
                         "WAV output stores digital values (float WAV is nominally ±1.0)".to_string()
                     };
-                    return Err(Error::option(
-                        "--full-scale",
+                    return Err(Error::setting(
+                        Setting::FullScale,
                         format!(
                             "{what} and needs a full scale: the physical value in {} that maps \
                              to digital 1.0 (only float raw or CSV output can hold physical values)",
@@ -372,7 +379,9 @@ impl SinkSpec {
             }
         }
         if self.channels == 0 {
-            return Err(Error::option("channels", "expected at least 1 channel"));
+            return Err(Error::Unsupported(
+                "channels: expected at least 1 channel".into(),
+            ));
         }
         match self.format {
             Format::Wav => wav::validate(self)?,
@@ -381,7 +390,7 @@ impl SinkSpec {
                     return Err(Error::Unsupported(format!(
                         "{} output states its length in its header, so the sample count must \
                          be known before the first sample; give a duration (not inf) or \
-                         --samples",
+                         \u{1}samples\u{1}",
                         self.format
                     )));
                 }
@@ -424,7 +433,8 @@ pub trait Sink: Send {
     fn write_sources(&mut self, total: &[f64], sources: &[&[f64]]) -> Result<()> {
         let _ = (total, sources);
         Err(Error::Unsupported(
-            "per-source columns need CSV output (--columns sources with a .csv file)".into(),
+            "per-source columns need CSV output (\u{1}columns\u{1} sources with a .csv file)"
+                .into(),
         ))
     }
 }
@@ -827,7 +837,13 @@ mod tests {
             );
         }
         let e = "mp3".parse::<Format>().unwrap_err();
-        assert!(matches!(e, Error::Option { ref option, .. } if option == "--format"));
+        assert!(matches!(
+            e,
+            Error::Setting {
+                setting: Setting::Format,
+                ..
+            }
+        ));
         let e = "u8".parse::<SampleFormat>().unwrap_err();
         assert!(e.to_string().contains("i24"), "{e}");
     }
@@ -852,7 +868,13 @@ mod tests {
                     .err()
                     .unwrap();
                 assert!(
-                    matches!(e, Error::Option { ref option, .. } if option == "--full-scale"),
+                    matches!(
+                        e,
+                        Error::Setting {
+                            setting: Setting::FullScale,
+                            ..
+                        }
+                    ),
                     "{f} {sf}: {e}"
                 );
             }
@@ -875,13 +897,21 @@ mod tests {
     fn bad_rate_and_full_scale_are_refused() {
         let mut s = spec(Format::Raw, SampleFormat::F32, Some(1.0), None);
         s.sample_rate_hz = 0.0;
-        assert!(
-            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--sample-rate")
-        );
+        assert!(matches!(
+            s.validate(),
+            Err(Error::Setting {
+                setting: Setting::Rate,
+                ..
+            })
+        ));
         let mut s = spec(Format::Raw, SampleFormat::F32, Some(-1.0), None);
-        assert!(
-            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--full-scale")
-        );
+        assert!(matches!(
+            s.validate(),
+            Err(Error::Setting {
+                setting: Setting::FullScale,
+                ..
+            })
+        ));
         s.full_scale = Some(f64::NAN);
         assert!(s.validate().is_err());
     }
@@ -1023,14 +1053,24 @@ mod tests {
         let adc = Adc::new(12, 0.0, 3.3, None, Dither::None).unwrap();
         let mut s = spec(Format::Raw, SampleFormat::I16, Some(1.0), None);
         s.adc = Some(adc.clone());
-        assert!(
-            matches!(s.validate(), Err(Error::Option { ref option, .. }) if option == "--full-scale")
-        );
+        assert!(matches!(
+            s.validate(),
+            Err(Error::Setting {
+                setting: Setting::FullScale,
+                ..
+            })
+        ));
         let mut s = spec(Format::Wav, SampleFormat::I16, None, Some(10));
         s.adc = Some(adc);
         let e = s.validate().unwrap_err();
         assert!(
-            matches!(e, Error::Option { ref option, .. } if option == "--bits"),
+            matches!(
+                e,
+                Error::Setting {
+                    setting: Setting::Bits,
+                    ..
+                }
+            ),
             "{e}"
         );
         assert!(e.to_string().contains("CSV"), "{e}");

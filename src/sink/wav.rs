@@ -39,7 +39,7 @@ use std::io::Write;
 use serde::Serialize;
 
 use super::{Buffered, CHUNK_SAMPLES, SampleFormat, Scaler, Sink, SinkReport, SinkSpec};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 
 /// WAVE format tag for integer PCM (RIFF/WAVE 1.0).
 const TAG_PCM: u16 = 1;
@@ -147,8 +147,8 @@ fn riff_header_bytes(sample_format: SampleFormat, channels: u16) -> Result<u64> 
 }
 
 fn f64_refused() -> Error {
-    Error::option(
-        "--sample-format",
+    Error::setting(
+        Setting::SampleFormat,
         "64-bit float WAV is not offered: the format allows it, but many WAV readers and audio \
          tools cannot open it; use f32 WAV (24-bit significand), i32 WAV, or raw f64 output",
     )
@@ -157,8 +157,8 @@ fn f64_refused() -> Error {
 fn too_large(frames: u64, channels: u16, sample_format: SampleFormat) -> Error {
     Error::Unsupported(format!(
         "a WAV of {frames} frames of {channels} {sample_format} channel(s) would be larger \
-         than 2^64 bytes, beyond even RF64's 64-bit sizes; ask for a shorter --duration or \
-         fewer --samples"
+         than 2^64 bytes, beyond even RF64's 64-bit sizes; ask for a shorter \u{1}duration\u{1} or \
+         fewer \u{1}samples\u{1}"
     ))
 }
 
@@ -169,7 +169,9 @@ fn too_large(frames: u64, channels: u16, sample_format: SampleFormat) -> Error {
 pub fn wav_plan(frames: u64, channels: u16, sample_format: SampleFormat) -> Result<WavPlan> {
     let riff_header = riff_header_bytes(sample_format, channels)?;
     if channels == 0 {
-        return Err(Error::option("channels", "expected at least 1 channel"));
+        return Err(Error::Unsupported(
+            "channels: expected at least 1 channel".into(),
+        ));
     }
     let frame_bytes = u64::from(channels) * sample_format.bytes() as u64;
     let data_bytes = frames
@@ -241,14 +243,14 @@ pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
     if rate.fract() != 0.0 || bytes_per_second > f64::from(u32::MAX) {
         return Err(Error::Unsupported(format!(
             "WAV stores the sample rate and byte rate as 32-bit whole numbers; {rate} Hz cannot \
-             be written: use a whole number of Hz (the profile's sample_rate or --rate), or raw \
+             be written: use a whole number of Hz (the profile's sample_rate or \u{1}rate\u{1}), or raw \
              output"
         )));
     }
     let Some(frames) = spec.frames else {
         return Err(Error::Unsupported(
             "WAV output needs the total sample count before the first sample (its header \
-             comes first); give --duration (not inf) or --samples, or use raw or CSV output"
+             comes first); give \u{1}duration\u{1} (not inf) or \u{1}samples\u{1}, or use raw or CSV output"
                 .to_string(),
         ));
     };
@@ -610,7 +612,13 @@ mod tests {
         )
         .err()
         .unwrap();
-        assert!(matches!(e, Error::Option { ref option, .. } if option == "--sample-format"));
+        assert!(matches!(
+            e,
+            Error::Setting {
+                setting: Setting::SampleFormat,
+                ..
+            }
+        ));
         let m = e.to_string();
         assert!(m.contains("readers") && m.contains("raw f64"), "{m}");
         assert!(wav_bytes(1, SampleFormat::F64).is_err());

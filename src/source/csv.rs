@@ -17,7 +17,7 @@
 use std::io::{BufRead, BufReader, Read};
 
 use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::profile::Unit;
 use crate::sink::{Format, SampleFormat};
 
@@ -153,15 +153,15 @@ impl<R: Read> CsvSource<R> {
         src.value_div = div;
 
         let rate = match (options.rate_hz, src.time_col) {
-            (Some(r), _) => Some(check_rate(r, "--rate", &src.name)?),
+            (Some(r), _) => Some(check_rate(r, "\u{1}rate\u{1}", &src.name)?),
             (None, None) => Some(
                 options
                     .fallback_rate_hz
                     .ok_or_else(|| {
-                        Error::option(
-                            "--rate",
+                        Error::setting(
+                            Setting::Rate,
                             format!(
-                                "{} has no time column: give its sample rate, e.g. --rate 48kHz",
+                                "{} has no time column: give its sample rate, e.g. \u{1}rate\u{1} 48kHz",
                                 src.name
                             ),
                         )
@@ -245,11 +245,11 @@ impl<R: Read> CsvSource<R> {
                 t
             }
             (None, None) => {
-                return Err(Error::option(
-                    "--rate",
+                return Err(Error::setting(
+                    Setting::Rate,
                     format!(
                         "{} has fewer than two rows: its time column cannot give a sample rate; \
-                         give --rate",
+                         give \u{1}rate\u{1}",
                         src.name
                     ),
                 ));
@@ -444,7 +444,7 @@ mod tests {
         let e = read("1,2\n3,4\n", None).unwrap_err();
         assert!(e.to_string().contains("header"), "{e}");
         let e = read("value_V\n1\n2\n", None).unwrap_err();
-        assert!(e.to_string().contains("--rate"), "{e}");
+        assert!(e.cli_text().contains("--rate"), "{e}");
         let e = read("time_s,value_V\n0,1\n0.001,1\n0.002,1\n0.01,1\n", None).unwrap_err();
         assert!(e.to_string().contains("evenly spaced"), "{e}");
         let e = read("", None).unwrap_err();

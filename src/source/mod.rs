@@ -27,7 +27,7 @@ pub use wav::WavSource;
 
 use std::io::Read;
 
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::profile::{Band, Unit};
 use crate::sink::{Format, SampleFormat};
 
@@ -150,8 +150,8 @@ impl SideManifest {
             // them back yet, and reading them as digital or physical values would be wrong.
             return Err(Error::input(
                 name,
-                "the file holds ADC codes (generate --bits, see extra.adc); analyze does not \
-                 read ADC code files yet: generate the same profile and seed without --bits \
+                "the file holds ADC codes (generate \u{1}bits\u{1}, see extra.adc); analyze does not \
+                 read ADC code files yet: generate the same profile and seed without \u{1}bits\u{1} \
                  to analyse the noise",
             ));
         }
@@ -259,12 +259,12 @@ impl Scale {
                     // The third side is the profile (or, without one, --full-scale's unit);
                     // otherwise the manifest disagrees with the capture.
                     return Err(if i == 2 {
-                        let option = if said_by == "--full-scale" {
-                            "--full-scale"
+                        let setting = if said_by == "--full-scale" {
+                            Setting::FullScale
                         } else {
-                            "--profile"
+                            Setting::Profile
                         };
-                        Error::option(option, message)
+                        Error::setting(setting, message)
                     } else {
                         Error::input(&said_by, message)
                     });

@@ -4,7 +4,7 @@
 use std::io::Read;
 
 use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate, decode_le, read_full};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 use crate::sink::{Format, SampleFormat};
 
 /// Bytes read per block (a multiple of 2, 3, 4 and 8).
@@ -28,8 +28,8 @@ impl<R: Read> RawSource<R> {
     pub fn new(input: R, options: &SourceOptions) -> Result<RawSource<R>> {
         let name = options.name.clone();
         let sample_format = options.sample_format.ok_or_else(|| {
-            Error::option(
-                "--sample-format",
+            Error::setting(
+                Setting::SampleFormat,
                 format!(
                     "{name} is a raw file: say how its samples are stored (f32, f64, i16, i24 \
                      or i32), or keep its manifest beside it"
@@ -37,10 +37,10 @@ impl<R: Read> RawSource<R> {
             )
         })?;
         let rate = options.rate_hz.or(options.fallback_rate_hz).ok_or_else(|| {
-            Error::option(
-                "--rate",
+            Error::setting(
+                Setting::Rate,
                 format!(
-                    "{name} is a raw file: give its sample rate, e.g. --rate 48kHz, or keep its \
+                    "{name} is a raw file: give its sample rate, e.g. \u{1}rate\u{1} 48kHz, or keep its \
                      manifest beside it"
                 ),
             )
@@ -48,7 +48,7 @@ impl<R: Read> RawSource<R> {
         let info = StreamInfo {
             format: Format::Raw,
             sample_format: Some(sample_format),
-            sample_rate_hz: check_rate(rate, "--rate", &name)?,
+            sample_rate_hz: check_rate(rate, "\u{1}rate\u{1}", &name)?,
             frames: None,
             channels: 1,
             values: if sample_format.is_integer() {
@@ -85,7 +85,7 @@ impl<R: Read> SampleSource for RawSource<R> {
                 &self.name,
                 format!(
                     "truncated: the file ends at byte {end}, inside a {b}-byte {} sample at byte \
-                     {} (its length is not a whole number of samples; is --sample-format right?)",
+                     {} (its length is not a whole number of samples; is \u{1}sample_format\u{1} right?)",
                     self.sample_format,
                     end - end % b as u64
                 ),
@@ -126,7 +126,7 @@ mod tests {
             },
         )
         .unwrap_err();
-        assert!(e.to_string().contains("--rate"), "{e}");
+        assert!(e.cli_text().contains("--rate"), "{e}");
         let e = RawSource::new(
             &bytes[..],
             &SourceOptions {
@@ -135,6 +135,6 @@ mod tests {
             },
         )
         .unwrap_err();
-        assert!(e.to_string().contains("--sample-format"), "{e}");
+        assert!(e.cli_text().contains("--sample-format"), "{e}");
     }
 }

@@ -188,7 +188,7 @@ impl<R: Read> WavSource<R> {
                     }
                     let mut sample_rate_hz = f64::from(rate);
                     if let Some(r) = options.rate_hz {
-                        let r = check_rate(r, "--rate", &name)?;
+                        let r = check_rate(r, "\u{1}rate\u{1}", &name)?;
                         if r != sample_rate_hz {
                             notes.push(format!(
                                 "sample rate {r} Hz from --rate replaces the header's {rate} Hz"

@@ -106,7 +106,7 @@ impl Design {
             if count > MAX_LEVELS {
                 return Err(Error::Unsupported(format!(
                     "band.low / sample rate = {:e} is below the engine's limit of {:e}: raise \
-                     band.low or lower the sample rate (the profile's sample_rate or --rate)",
+                     band.low or lower the sample rate (the profile's sample_rate or \u{1}rate\u{1})",
                     low_hz / sample_rate_hz,
                     crate::profile::MIN_LOW_TO_RATE
                 )));

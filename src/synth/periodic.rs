@@ -12,7 +12,7 @@ use rustfft::FftPlannerScalar;
 use rustfft::num_complex::Complex;
 
 use super::white::{Domain, WhiteStreams};
-use crate::error::{Error, Result};
+use crate::error::{Error, Result, Setting};
 
 /// Longest loop buffer, in samples (2^24: 256 MiB of working memory).
 pub const MAX_PERIODIC_SAMPLES: usize = 1 << 24;
@@ -39,11 +39,11 @@ pub fn periodic_buffer(
     seed: u64,
 ) -> Result<Vec<f64>> {
     if !(2..=MAX_PERIODIC_SAMPLES).contains(&len) {
-        return Err(Error::option(
-            "--loop",
+        return Err(Error::setting(
+            Setting::Loop,
             format!(
                 "a loop buffer holds 2 to {MAX_PERIODIC_SAMPLES} samples (it is made in memory \
-                 in one piece); {len} were asked for: choose a shorter --duration"
+                 in one piece); {len} were asked for: choose a shorter \u{1}duration\u{1}"
             ),
         ));
     }

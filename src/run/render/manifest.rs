@@ -2,7 +2,7 @@
 //! correlation, RMS per channel), bursts (expected std and mean, each burst's model and
 //! measured occupancy, the `--columns sources` names) and tones and offset (SNR, ENOB).
 
-use super::source_names;
+use super::pump::source_names;
 use super::summary::tone_figures;
 use crate::adc::Adc;
 use crate::analysis::stats::RunningStats;

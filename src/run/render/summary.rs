@@ -2,7 +2,8 @@
 //! measured levels, scale, seed, notes), the converter's lines with `--bits`, the lines for
 //! several channels, tones and offset, and bursts, and the wording of the quantisation note.
 
-use super::{GenerateArgs, Scale, Target};
+use super::Settings;
+use super::engine::Scale;
 use crate::adc::{Adc, Coding, Dither};
 use crate::analysis::stats::RunningStats;
 use crate::density;
@@ -102,8 +103,8 @@ pub(super) fn quantisation_note(
 #[allow(clippy::too_many_arguments)]
 pub(super) fn summary_text(
     profile: &Profile,
-    target: &Target,
-    args: &GenerateArgs,
+    out: &str,
+    s: &Settings,
     scale: &Scale,
     band_rms: f64,
     expected_rms: f64,
@@ -114,12 +115,9 @@ pub(super) fn summary_text(
 ) -> String {
     let u = profile.unit.symbol();
     let q = |v: f64| format_quantity(v, u);
+    let settings = s;
     let mut s = String::new();
     let name = profile.name.as_deref().unwrap_or("(unnamed profile)");
-    let out = match target {
-        Target::Stdout => "standard output".to_string(),
-        Target::File(p) => p.display().to_string(),
-    };
     s += &format!(
         "noisewright {}: {name} -> {out}\n",
         env!("CARGO_PKG_VERSION")
@@ -131,7 +129,7 @@ pub(super) fn summary_text(
         profile.band.order,
         stats.count() / profile.channels.max(1) as u64,
         format_quantity_exact(profile.sample_rate_hz, "Hz"),
-        if args.loop_buffer {
+        if settings.loop_buffer {
             ", loop buffer"
         } else {
             ""
@@ -173,7 +171,7 @@ pub(super) fn summary_text(
         _ => s += &format!("  scale           physical units ({u})\n"),
     }
     s += &format!("  clipped         {clipped}\n");
-    s += &format!("  seed            {}\n", args.seed);
+    s += &format!("  seed            {}\n", settings.seed);
     for n in notes {
         s += &format!("  note: {n}\n");
     }

@@ -1,0 +1,277 @@
+//! The synthesiser a run needs (a loop buffer, one channel, or several), what it is expected
+//! to put out, the scale from physical values to digital ones, and the sink's specification.
+
+use std::cell::RefCell;
+use std::rc::Rc;
+use std::sync::{Arc, Mutex};
+
+use super::Settings;
+use super::plan::Plan;
+use super::pump::lock;
+use super::summary::quantisation_note;
+use crate::adc::Dither;
+use crate::density;
+use crate::error::{Error, Result, Setting};
+use crate::profile::{Dimension, Profile, parse_quantity};
+use crate::sink::{Format, SinkSpec, rms_digital_from_dbfs, wav_plan};
+use crate::synth::tone;
+use crate::synth::{ChannelGenerator, Generator, periodic_buffer, periodic_variance};
+
+/// Whatever produces the next samples (unit) into a slice.
+pub(super) type Engine = Box<dyn FnMut(&mut [f64])>;
+
+/// How the physical values map to digital ones.
+pub(super) struct Scale {
+    /// The physical value (unit) of digital 1.0, when the output is scaled.
+    pub(super) full_scale: Option<f64>,
+    /// The level it was chosen for, dBFS.
+    pub(super) level_dbfs: Option<f64>,
+}
+
+/// The engine of a run with everything the summary and manifest say about it.
+pub(super) struct Built {
+    pub(super) engine: Engine,
+    /// Expected variance (unit²) and mean (unit) of the output.
+    pub(super) expected_variance: f64,
+    pub(super) expected_mean: f64,
+    /// Expected RMS (unit), AC + DC.
+    pub(super) expected_rms: f64,
+    /// The target density integrated over the band (unit²).
+    pub(super) band_variance: f64,
+    /// The one-channel streaming generator (its bursts' models), when that is the engine.
+    pub(super) generator: Option<Rc<RefCell<Generator>>>,
+    /// The several-channel generator, when that is the engine.
+    pub(super) multi: Option<Rc<RefCell<ChannelGenerator>>>,
+    /// The per-source parts of the last block (CSV columns per source).
+    pub(super) parts: Arc<Mutex<Vec<Vec<f64>>>>,
+    /// A design for the tones' figures (only with tones or an offset).
+    pub(super) figures: Option<Generator>,
+    pub(super) scale: Scale,
+    pub(super) spec: SinkSpec,
+    /// The container's keys for the manifest.
+    pub(super) container_keys: serde_json::Map<String, serde_json::Value>,
+}
+
+/// Builds the engine and the scale for `plan`; notes go to `plan.notes`. Refuses what the
+/// format cannot hold before any file or folder is made.
+pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
+    let profile = &plan.profile;
+    let fs = profile.sample_rate_hz;
+    let target_psd = |f: f64| density::target_psd(profile, f);
+    let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
+    let parts: Arc<Mutex<Vec<Vec<f64>>>> = Arc::default();
+    let (engine, expected_variance, generator, multi) = engine(plan, s, &parts)?;
+    // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
+    let expected_mean = match (&generator, &multi) {
+        (Some(g), _) => g.borrow().mean(),
+        (_, Some(m)) => m.borrow().generator().mean(),
+        _ => profile.offset,
+    };
+    let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
+    // The tones' figures need the designed noise density (also in loop mode, which has no
+    // streaming generator): one design, only when there are tones or an offset.
+    let figures = (!profile.tones.is_empty() || profile.offset != 0.0)
+        .then(|| Generator::new(profile, 0))
+        .transpose()?;
+    let scale = scale(plan, s, expected_rms)?;
+    let profile = &plan.profile;
+    if let Some(note) = floor_note(plan, &scale, fs) {
+        plan.notes.push(note);
+    }
+    if let (Format::Wav, Some(n)) = (plan.format, plan.samples) {
+        wav_plan(n, profile.channels as u16, plan.sample_format)?;
+    }
+    let spec = SinkSpec {
+        format: plan.format,
+        sample_format: plan.sample_format,
+        sample_rate_hz: fs,
+        full_scale: scale.full_scale,
+        frames: plan.samples,
+        channels: profile.channels as u16,
+        start_frame: plan.start,
+        unit: profile.unit,
+        adc: plan.adc.clone(),
+        name: plan.array_name.clone(),
+        provenance: vec![
+            format!(
+                "profile: {} ({})",
+                profile.name.as_deref().unwrap_or("(unnamed profile)"),
+                plan.file
+            ),
+            format!("seed: {}", s.seed),
+        ],
+    };
+    spec.validate()?;
+    let (container_keys, container_notes) = crate::sink::container_facts(&spec)?;
+    plan.notes.extend(container_notes);
+    Ok(Built {
+        engine,
+        expected_variance,
+        expected_mean,
+        expected_rms,
+        band_variance,
+        generator,
+        multi,
+        parts,
+        figures,
+        scale,
+        spec,
+        container_keys,
+    })
+}
+
+type Engines = (
+    Engine,
+    f64,
+    Option<Rc<RefCell<Generator>>>,
+    Option<Rc<RefCell<ChannelGenerator>>>,
+);
+
+/// The engine and its expected variance (unit²): a loop buffer, several channels, or one
+/// channel (writing its per-source parts into `parts` when CSV columns per source are asked).
+fn engine(plan: &Plan, s: &Settings, parts: &Arc<Mutex<Vec<Vec<f64>>>>) -> Result<Engines> {
+    let profile = &plan.profile;
+    let fs = profile.sample_rate_hz;
+    let target_psd = |f: f64| density::target_psd(profile, f);
+    if s.loop_buffer {
+        let n = plan.samples.unwrap_or(0) as usize;
+        let mut buffer = periodic_buffer(&target_psd, fs, n, s.seed)?;
+        // Tones (whole cycles, checked by the plan) and the offset, from sample index 0.
+        tone::add_deterministic(&profile.tones, profile.offset, fs, 0, &mut buffer);
+        let var = periodic_variance(&target_psd, fs, n)
+            + profile.tones.iter().map(|t| t.power()).sum::<f64>();
+        let mut pos = 0;
+        let engine: Engine = Box::new(move |out: &mut [f64]| {
+            for x in out {
+                *x = buffer[pos % buffer.len()];
+                pos += 1;
+            }
+        });
+        return Ok((engine, var, None, None));
+    }
+    if profile.channels > 1 {
+        let m = Rc::new(RefCell::new(ChannelGenerator::starting_at(
+            profile, s.seed, plan.start,
+        )?));
+        let var = m.borrow().generator().variance();
+        let engine_m = m.clone();
+        let engine: Engine =
+            Box::new(move |out: &mut [f64]| engine_m.borrow_mut().fill_frames(out));
+        return Ok((engine, var, None, Some(m)));
+    }
+    let g = Rc::new(RefCell::new(Generator::starting_at(
+        profile, s.seed, plan.start,
+    )?));
+    let var = g.borrow().variance();
+    let engine_g = g.clone();
+    let engine: Engine = if plan.per_source {
+        let parts = parts.clone();
+        lock(&parts).resize(g.borrow().part_count(), Vec::new());
+        Box::new(move |out: &mut [f64]| engine_g.borrow_mut().fill_sources(out, &mut lock(&parts)))
+    } else {
+        Box::new(move |out: &mut [f64]| engine_g.borrow_mut().fill(out))
+    };
+    Ok((engine, var, Some(g), None))
+}
+
+/// The scale: by the ADC's range (none here), a full scale as given, or one that puts the
+/// expected RMS at the level (WAV and integer formats default to −20 dBFS).
+fn scale(plan: &Plan, s: &Settings, expected_rms: f64) -> Result<Scale> {
+    let unscaled = Scale {
+        full_scale: None,
+        level_dbfs: None,
+    };
+    let needs_scale = plan.format == Format::Wav || plan.sample_format.is_integer();
+    if plan.adc.is_some() {
+        // ADC codes are scaled by their range (the plan refuses a full scale or level).
+        return Ok(unscaled);
+    }
+    if let Some(q) = &s.full_scale {
+        let v = parse_quantity(q, Dimension::Amplitude, plan.profile.unit.symbol())
+            .map_err(|m| Error::setting(Setting::FullScale, m))?;
+        if !(v > 0.0 && v.is_finite()) {
+            return Err(Error::setting(
+                Setting::FullScale,
+                format!("expected a positive value such as 10uV, got {q:?}"),
+            ));
+        }
+        return Ok(Scale {
+            full_scale: Some(v),
+            level_dbfs: None,
+        });
+    }
+    if s.level.is_none() && !needs_scale {
+        return Ok(unscaled);
+    }
+    let level = match &s.level {
+        Some(l) => parse_dbfs(l)?,
+        None => super::DEFAULT_LEVEL_DBFS,
+    };
+    Ok(Scale {
+        full_scale: Some(expected_rms / rms_digital_from_dbfs(level)),
+        level_dbfs: Some(level),
+    })
+}
+
+/// The note on the stored codes' quantisation noise density when it comes near the profile's
+/// floor: Q/√(6·fs) for integer formats and undithered ADC codes, Q/√(2·fs) with TPDF dither
+/// (REFERENCES §9). Bursts alone have no density floor to compare it with.
+fn floor_note(plan: &Plan, scale: &Scale, fs: f64) -> Option<String> {
+    let profile: &Profile = &plan.profile;
+    if profile.sources.is_empty() {
+        return None;
+    }
+    let (what, density, advice) = match (&plan.adc, scale.full_scale) {
+        (Some(a), _) => (
+            match a.dither() {
+                Dither::None => format!("{}-bit ADC's quantisation noise", a.bits()),
+                Dither::Tpdf => {
+                    format!("{}-bit ADC's added noise (TPDF dither included)", a.bits())
+                }
+            },
+            a.added_noise_psd(fs).sqrt(),
+            "more bits or a narrower --range",
+        ),
+        (None, Some(fsc)) if plan.sample_format.is_integer() => (
+            format!("{}-bit quantisation noise", plan.sample_format.bytes() * 8),
+            plan.sample_format.lsb(fsc).expect("integer") / (6.0 * fs).sqrt(),
+            "more bits or a smaller full scale",
+        ),
+        _ => return None,
+    };
+    quantisation_note(profile, &what, density, advice)
+}
+
+/// A level such as `-20dBFS` or `-6.5`, at most 0 dBFS.
+pub(crate) fn parse_dbfs(text: &str) -> Result<f64> {
+    let t = text.trim();
+    let number = t
+        .strip_suffix("dBFS")
+        .or_else(|| t.strip_suffix("dbfs"))
+        .unwrap_or(t)
+        .trim();
+    match number.parse::<f64>() {
+        Ok(v) if v.is_finite() && v <= 0.0 => Ok(v),
+        Ok(v) if v.is_finite() => Err(Error::setting(
+            Setting::Level,
+            format!("{v} dBFS is above full scale: expected 0 dBFS or less, e.g. -20dBFS"),
+        )),
+        _ => Err(Error::setting(
+            Setting::Level,
+            format!("expected a level such as -20dBFS, got {text:?}"),
+        )),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn levels_parse() {
+        assert_eq!(parse_dbfs("-20dBFS").unwrap(), -20.0);
+        assert_eq!(parse_dbfs("-6.5").unwrap(), -6.5);
+        assert!(parse_dbfs("3dBFS").is_err());
+        assert!(parse_dbfs("loud").is_err());
+    }
+}
