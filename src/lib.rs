@@ -1,33 +1,61 @@
-//! noisewright turns a noise density profile into real, reproducible noise.
+//! noisewright turns a noise density profile into real, reproducible noise, and measures
+//! captures against it.
 //!
-//! Data flows one way: a profile file becomes a [`profile::Profile`]; [`density`] gives its
-//! one-sided target density S(f) in unit²/Hz (unit = V or A); [`synth`] designs and runs the
-//! engine that synthesises noise with that density (and computes the density it actually
-//! makes); [`sink`] scales, quantises and writes the samples with a manifest (or, through
-//! [`adc`], the integer codes of an ideal N-bit converter over a physical range); [`analysis`]
-//! measures samples. [`source`] reads captures (WAV, CSV, raw) back as physical samples, and
-//! [`figure`] draws an analysis as SVG and HTML. [`cmd`] holds the subcommands the binary
-//! calls.
+//! # The facade
+//!
+//! - [`Profile`]: a validated profile, from a file ([`Profile::from_path`]) or TOML text
+//!   ([`Profile::from_toml_str`]).
+//! - [`Generator`]: the profile's samples pulled into your buffers, in its unit (V or A),
+//!   the same values `generate --format raw --sample-format f64` writes for the same seed.
+//! - [`Render`]: everything `generate` does (formats, sample formats, full scale or dBFS
+//!   level, ADC codes, tones, channels, loop buffers, segments, CSV columns, clipping policy,
+//!   the manifest), writing to a path or any [`std::io::Write`]; it returns a
+//!   [`RenderReport`].
+//! - [`Error`]: the one error type; [`Error::exit_code`] gives the command line's convention
+//!   and [`Error::describe`] names settings as a caller wants.
 //!
 //! ```
-//! use noisewright::profile::parse_profile;
-//! use noisewright::synth::Generator;
+//! use noisewright::{Generator, Profile, Render};
 //!
-//! let profile = parse_profile(
+//! let profile = Profile::from_toml_str(
 //!     "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n\
 //!      [[floor]]\ndensity = \"4 nV/rtHz\"\ncorner = \"100 Hz\"\n",
 //!     "inline",
 //! )?;
+//!
+//! // Pull samples (volts) into a buffer.
 //! let mut noise = Generator::new(&profile, 42)?;
 //! let mut block = vec![0.0; 4800];
-//! noise.fill(&mut block); // the next 0.1 s, in volts
-//! // Designed density at 1 kHz (V²/Hz) and the expected RMS (V) of the output.
-//! let d = noise.design().density(1000.0);
-//! assert!((d.sqrt() / (4e-9 * 1.1f64.sqrt()) - 1.0).abs() < 1e-3); // 4 nV/√Hz·√(1 + 100/1000)
-//! let rms = noise.design().variance().sqrt();
-//! assert!(rms > 4e-9 * 20_000f64.sqrt());
+//! noise.fill(&mut block); // the next 0.1 s
+//! // The designed density at 1 kHz (V²/Hz): 4 nV/√Hz·√(1 + 100/1000).
+//! let d = noise.engine().density(1000.0);
+//! assert!((d.sqrt() / (4e-9 * 1.1f64.sqrt()) - 1.0).abs() < 1e-3);
+//!
+//! // Or write a file with its manifest, as `generate` does: seed 7, one second, -20 dBFS.
+//! let path = std::env::temp_dir().join(format!("nw-crate-doc-{}.wav", std::process::id()));
+//! let report = Render::new(&profile)
+//!     .seed(7)
+//!     .samples(48_000)
+//!     .level_dbfs(-20.0)
+//!     .to_path(&path)?;
+//! assert_eq!(report.clipped, 0);
+//! assert!(report.expected_rms > 4e-9 * 20_000f64.sqrt()); // volts RMS, AC + DC
+//! print!("{report}"); // the summary `generate` prints
+//! # std::fs::remove_file(&path).unwrap();
+//! # std::fs::remove_file(noisewright::run::manifest_path(&path)).unwrap();
 //! # Ok::<(), noisewright::Error>(())
 //! ```
+//!
+//! # The parts behind it
+//!
+//! Data flows one way: a profile file becomes a [`Profile`]; [`density`] gives its one-sided
+//! target density S(f) in unit²/Hz; [`synth`] designs and runs the engine that synthesises
+//! noise with that density (and computes the density it actually makes); [`sink`] scales,
+//! quantises and writes the samples with a manifest (or, through [`adc`], the integer codes of
+//! an ideal N-bit converter over a physical range); [`analysis`] measures samples. [`source`]
+//! reads captures (WAV, CSV, raw) back as physical samples, and [`figure`] draws an analysis
+//! as SVG and HTML. [`run`] holds whole runs as library calls; [`cmd`] holds the subcommands
+//! the binary calls.
 #![deny(missing_docs)]
 
 pub mod adc;
@@ -49,8 +77,7 @@ pub mod synth;
 
 pub use error::{Error, Result, Setting};
 pub use profile::Profile;
-pub use run::{Render, RenderReport};
-pub use synth::Generator;
+pub use run::{Generator, Render, RenderReport};
 
 /// The README's Rust example, compiled and run as a doctest.
 #[doc = include_str!("../README.md")]

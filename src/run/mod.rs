@@ -1,7 +1,9 @@
-//! Whole runs as library calls: [`Render`] does everything `generate` does (engine, scale,
+//! Whole runs as library calls: [`Generator`] pulls a profile's samples into the caller's
+//! buffers, [`Render`] does everything `generate` does (engine, scale,
 //! ADC codes, formats, manifest, summary). The command line only turns its flags into these
 //! calls.
 
+mod generator;
 mod pending;
 pub mod render;
 
@@ -10,6 +12,7 @@ use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result, Setting};
 
+pub use generator::Generator;
 pub(crate) use pending::{PendingFile, commit_all};
 pub use render::{Render, RenderReport};
 

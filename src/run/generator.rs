@@ -1,0 +1,101 @@
+//! [`Generator`]: a profile's samples pulled into the caller's buffers, one channel or several
+//! interleaved, exactly the values `generate` writes as raw f64.
+
+use crate::error::Result;
+use crate::profile::Profile;
+use crate::synth::{self, ChannelGenerator};
+
+/// A profile's noise (with its bursts, tones and offset) as a pull stream in physical units
+/// (the profile's unit, V or A): the same values, bit for bit, that a [`crate::Render`] (and
+/// `generate --format raw --sample-format f64`) writes for the same profile and seed, however
+/// the caller sizes its buffers. Several channels come as interleaved frames.
+///
+/// ```
+/// use noisewright::{Generator, Profile};
+///
+/// let profile = Profile::from_toml_str(
+///     "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n\
+///      [[floor]]\ndensity = \"4 nV/rtHz\"\n",
+///     "inline",
+/// )?;
+/// let mut noise = Generator::new(&profile, 42)?;
+/// let mut block = vec![0.0; 4800];
+/// noise.fill(&mut block); // the first 0.1 s, volts
+///
+/// // A generator started at sample 4000 continues the same run.
+/// let mut later = Generator::starting_at(&profile, 42, 4000)?;
+/// let mut tail = vec![0.0; 800];
+/// later.fill(&mut tail);
+/// assert_eq!(tail[..], block[4000..]);
+/// # Ok::<(), noisewright::Error>(())
+/// ```
+pub struct Generator {
+    inner: Inner,
+}
+
+enum Inner {
+    One(Box<synth::Generator>),
+    Many(Box<ChannelGenerator>),
+}
+
+impl Generator {
+    /// The run of `profile` from sample 0, with every random number drawn from `seed`.
+    pub fn new(profile: &Profile, seed: u64) -> Result<Generator> {
+        Generator::starting_at(profile, seed, 0)
+    }
+
+    /// The run of `profile` and `seed` from frame `start_sample` on (0-based): its samples
+    /// are those the run from 0 makes from there.
+    pub fn starting_at(profile: &Profile, seed: u64, start_sample: u64) -> Result<Generator> {
+        let inner = if profile.channels > 1 {
+            Inner::Many(Box::new(ChannelGenerator::starting_at(
+                profile,
+                seed,
+                start_sample,
+            )?))
+        } else {
+            Inner::One(Box::new(synth::Generator::starting_at(
+                profile,
+                seed,
+                start_sample,
+            )?))
+        };
+        Ok(Generator { inner })
+    }
+
+    /// Channels per frame (the profile's `channels`).
+    pub fn channels(&self) -> usize {
+        match &self.inner {
+            Inner::One(_) => 1,
+            Inner::Many(m) => m.channels(),
+        }
+    }
+
+    /// Fills `out` with the next samples, in the profile's unit; with several channels,
+    /// `out.len() / channels` interleaved frames.
+    ///
+    /// # Panics
+    /// With several channels, if `out.len()` is not a whole number of frames.
+    pub fn fill(&mut self, out: &mut [f64]) {
+        match &mut self.inner {
+            Inner::One(g) => g.fill(out),
+            Inner::Many(m) => m.fill_frames(out),
+        }
+    }
+
+    /// The expected RMS of each channel's output, in the profile's unit (AC + DC: noise,
+    /// bursts, tones and offset).
+    pub fn expected_rms(&self) -> f64 {
+        let g = self.engine();
+        (g.variance() + g.mean() * g.mean()).sqrt()
+    }
+
+    /// One channel's engine: its designed density ([`synth::Generator::density`], unit²/Hz),
+    /// design, bursts and tones.
+    pub fn engine(&self) -> &synth::Generator {
+        match &self.inner {
+            Inner::One(g) => g,
+            Inner::Many(m) => m.generator(),
+        }
+    }
+}
