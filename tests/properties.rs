@@ -17,7 +17,7 @@
 //!   digits and is stable.
 //! - **C.** The target density and the designed density are positive and finite across the
 //!   band (edges, corners, Nyquist included), and the design is within 0.1 dB of the target
-//!   inside the band, as the README promises.
+//!   inside the band, as docs/profiles.md ("Band edges") promises.
 //!
 //! The generator is hand-rolled over `rand_chacha` (already a dependency) rather than the
 //! proptest crate: proptest 1.12 needs rustc 1.88, above the crate's `rust-version` 1.85, it
@@ -53,10 +53,10 @@ const MAX_FRAMES: usize = 1 << 22;
 /// Bursts get dwell times that give at least this many expected jumps in the record, so their
 /// realised step power is close to its expectation (see [`burst_tolerance_db`]).
 const MIN_BURST_JUMPS: f64 = 2.0e4;
-/// The design's stated accuracy inside the band (README, "Band edges"; DEVELOPERS.md), dB.
+/// The design's stated accuracy inside the band (docs/profiles.md "Band edges"; docs/methods.md), dB.
 const DESIGN_ACCURACY_DB: f64 = 0.1;
 /// What the design's FIRs cost at a table's kink, in dB per unit change of the log-log
-/// slope of the power density there (README, "Band edges": about 0.01 dB per unit, measured
+/// slope of the power density there (docs/profiles.md, "Band edges": about 0.01 dB per unit, measured
 /// up to 0.0098 at 48 kHz … 4 MHz and kinks at 3 Hz … 7 kHz).
 const KINK_DB_PER_SLOPE: f64 = 0.0105;
 
@@ -680,7 +680,7 @@ fn failure(case: &Case, what: &str) -> String {
 /// Welch's χ² intervals assume Gaussian noise. A burst's density above its corners is set by
 /// its steps, and the record's realised sum of squared steps S = Σ Δ² over N jumps scales
 /// every such bin together, a fluctuation that averaging over bins does not remove
-/// (DEVELOPERS.md, "Testing bursts"). With N̄ the expected jumps, M the largest squared step
+/// (docs/testing.md, "Testing bursts"). With N̄ the expected jumps, M the largest squared step
 /// and E the mean squared step per jump, Var(S)/E[S]² ≤ (M/E + Var(N)/N̄)/N̄ (a renewal-reward
 /// sum with Var(Δ²) ≤ M·E; common practice); Var(N) ≤ 2·N̄ holds for an alternating
 /// exponential renewal, and the bound below takes 4·N̄ and doubles the whole for correlations
@@ -1063,7 +1063,7 @@ fn formatted_quantities_parse_back_exactly() {
 /// Regression (found by property C, case seed 805330897720388065): a table whose log-log
 /// slope (power) turns from −9.0 to +2.5 at 2.94 Hz, the point of a V. The design rounds the
 /// corner over a few of its FIR's bins, 0.109 dB off the target there, above the plain 0.1 dB
-/// the README promised; the README now states the kink term (≈ 0.01 dB per unit of slope
+/// the docs promised; docs/profiles.md ("Band edges") now states the kink term (≈ 0.01 dB per unit of slope
 /// change) and this case pins both sides of it.
 #[test]
 fn a_sharp_table_kink_costs_what_the_readme_states() {
