@@ -48,32 +48,27 @@
 //!
 //! # The parts behind it
 //!
-//! Data flows one way: a profile file becomes a [`Profile`]; [`density`] gives its one-sided
-//! target density S(f) in unit²/Hz; [`synth`] designs and runs the engine that synthesises
-//! noise with that density (and computes the density it actually makes); [`sink`] scales,
-//! quantises and writes the samples with a manifest (or, through [`adc`], the integer codes of
-//! an ideal N-bit converter over a physical range); [`analysis`] measures samples. [`source`]
-//! reads captures (WAV, CSV, raw) back as physical samples, and [`figure`] draws an analysis
-//! as SVG and HTML. [`run`] holds whole runs as library calls; [`cmd`] holds the subcommands
-//! the binary calls.
+//! Data flows one way: a profile file becomes a [`Profile`] (quantities in [`units`]);
+//! [`model`] gives its one-sided target density S(f) in unit²/Hz and the other closed forms;
+//! [`synth`] designs and runs the engine that synthesises noise with that density (and
+//! computes the density it actually makes); [`io`] scales, quantises and writes the samples
+//! with a manifest (or the integer codes of an ideal N-bit converter) and reads captures back
+//! as physical samples; [`analysis`] measures samples; [`report`] draws pictures and the HTML
+//! report. [`run`] holds whole runs as library calls; [`cmd`] holds the subcommands the
+//! binary calls.
 #![deny(missing_docs)]
 
-pub mod adc;
-pub mod amplifier;
 pub mod analysis;
-pub mod budget;
-pub mod burst;
 pub mod cmd;
-pub mod density;
 pub mod error;
 pub mod fft;
-pub mod figure;
-pub mod plot;
+pub mod io;
+pub mod model;
 pub mod profile;
+pub mod report;
 pub mod run;
-pub mod sink;
-pub mod source;
 pub mod synth;
+pub mod units;
 
 pub use error::{Error, Result, Setting};
 pub use profile::Profile;

@@ -6,8 +6,8 @@ mod common;
 
 use common::check_bands_against;
 use noisewright::analysis::welch::Welch;
-use noisewright::budget::{BandSpec, budget, total_psd};
-use noisewright::density::band_gain;
+use noisewright::model::budget::{BandSpec, budget, total_psd};
+use noisewright::model::density::band_gain;
 use noisewright::profile::{Profile, SourceKind, parse_profile};
 use noisewright::synth::Generator;
 

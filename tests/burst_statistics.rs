@@ -10,7 +10,7 @@ mod common;
 
 use common::{check_bands_against, chi2_band};
 use noisewright::analysis::welch::{BandEstimate, Spectrum, welch};
-use noisewright::burst::BurstModel;
+use noisewright::model::burst::BurstModel;
 use noisewright::profile::{Burst, BurstSampling, Profile, parse_profile};
 use noisewright::synth::Generator;
 use statrs::distribution::{ContinuousCDF, Normal};

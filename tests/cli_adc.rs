@@ -8,7 +8,7 @@ use std::path::Path;
 use std::process::{Command, Output};
 
 use common::{Scratch, run, text};
-use noisewright::adc::{Adc, Coding, Dither};
+use noisewright::io::adc::{Adc, Coding, Dither};
 
 /// White noise of 2 mV/√Hz over 10 Hz – 20 kHz: about 0.3 V RMS, so ±1.65 V holds it (5.6σ)
 /// and 12-bit codes are busy (σ ≈ 360 LSB).

@@ -10,7 +10,7 @@ mod common;
 use common::{check_bands_against, chi2_band, db};
 use noisewright::analysis::compare::expected_band_psd;
 use noisewright::analysis::welch::Welch;
-use noisewright::density;
+use noisewright::model::density;
 use noisewright::profile::{Profile, parse_profile};
 use noisewright::synth::{Generator, HOP, RATIO, Shaper, design_profile, periodic_buffer};
 

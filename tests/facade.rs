@@ -5,7 +5,7 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use noisewright::sink::SampleFormat;
+use noisewright::io::sink::SampleFormat;
 use noisewright::{Error, Generator, Profile, Render, Setting};
 
 /// Seed of every run here.
@@ -200,7 +200,7 @@ const CASES: [Case; 9] = [
         ],
         |r| {
             r.adc(12, -2e-3, 2e-3)
-                .dither(noisewright::adc::Dither::Tpdf)
+                .dither(noisewright::io::adc::Dither::Tpdf)
                 .allow_clipping(true)
         },
     ),

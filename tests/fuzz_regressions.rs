@@ -10,12 +10,12 @@ use std::fs;
 use std::io::Read;
 use std::path::{Path, PathBuf};
 
-use noisewright::budget::{budget, to_json, write_text};
-use noisewright::burst::BurstModel;
-use noisewright::density::target_psd;
+use noisewright::io::sink::{Format, SampleFormat};
+use noisewright::io::source::{SideManifest, SourceOptions, open_source};
+use noisewright::model::budget::{budget, to_json, write_text};
+use noisewright::model::burst::BurstModel;
+use noisewright::model::density::target_psd;
 use noisewright::profile::{Dimension, Profile, parse_profile, parse_quantity};
-use noisewright::sink::{Format, SampleFormat};
-use noisewright::source::{SideManifest, SourceOptions, open_source};
 use noisewright::synth::{BurstChain, ChannelGenerator, MAX_START, WhiteStreams, mixing_matrix};
 
 fn fixtures(kind: &str) -> Vec<PathBuf> {

@@ -33,7 +33,7 @@ use noisewright::analysis::compare::{bands_inside, compare_with_design};
 use noisewright::analysis::tones::without_tones;
 use noisewright::analysis::welch::Welch;
 use noisewright::cmd::analyze::{FALSE_ALARM, TONE_LEAKAGE};
-use noisewright::density::{self, target_psd};
+use noisewright::model::density::{self, target_psd};
 use noisewright::profile::{
     Dimension, Profile, SourceKind, format_quantity, format_quantity_exact, parse_profile,
     parse_quantity,

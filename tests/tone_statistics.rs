@@ -5,10 +5,10 @@
 mod common;
 
 use noisewright::analysis::tones::ToneFit;
-use noisewright::density;
+use noisewright::model::density;
+use noisewright::model::tone::{enob, snr_db};
 use noisewright::profile::parse_profile;
 use noisewright::synth::Generator;
-use noisewright::synth::tone::{enob, snr_db};
 
 const SEED: u64 = 1241;
 

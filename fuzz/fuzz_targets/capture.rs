@@ -9,8 +9,8 @@
 use std::io::Read;
 
 use libfuzzer_sys::fuzz_target;
-use noisewright::sink::{Format, SampleFormat};
-use noisewright::source::{SideManifest, SourceOptions, open_source};
+use noisewright::io::sink::{Format, SampleFormat};
+use noisewright::io::source::{SideManifest, SourceOptions, open_source};
 
 const FORMATS: [SampleFormat; 5] = [
     SampleFormat::F32,

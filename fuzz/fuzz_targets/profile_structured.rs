@@ -12,9 +12,9 @@
 
 use arbitrary::Arbitrary;
 use libfuzzer_sys::fuzz_target;
-use noisewright::budget::{budget, to_json, write_text};
-use noisewright::burst::BurstModel;
-use noisewright::density::target_psd;
+use noisewright::model::budget::{budget, to_json, write_text};
+use noisewright::model::burst::BurstModel;
+use noisewright::model::density::target_psd;
 use noisewright::profile::Profile;
 use noisewright::synth::{BurstChain, ChannelGenerator, MAX_START, WhiteStreams, mixing_matrix};
 

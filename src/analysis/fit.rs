@@ -25,8 +25,8 @@ use statrs::function::gamma::digamma;
 use super::capture::CaptureReport;
 use super::compare::expected_band_psd;
 use super::welch::BandEstimate;
-use crate::density::band_gain;
 use crate::error::{Error, Result};
+use crate::model::density::band_gain;
 use crate::profile::{Band, format_quantity};
 
 /// What the fit may know beyond the measurement.

@@ -14,16 +14,16 @@ use crate::analysis::compare::{Comparison, compare_with_design, expected_band_ps
 use crate::analysis::fit::{FitOptions, fit_floor};
 use crate::analysis::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
 use crate::analysis::tones::{ToneFit, without_tones};
-use crate::burst::BurstModel;
 use crate::error::{Error, Result, Setting};
-use crate::figure;
+use crate::io::sink::{Format, SampleFormat};
+use crate::io::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
+use crate::model::burst::BurstModel;
+use crate::model::tone::enob;
 use crate::profile::{Burst, BurstSampling};
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
+use crate::report::figure;
 use crate::run::{PendingFile, commit_all, manifest_path};
-use crate::sink::{Format, SampleFormat};
-use crate::source::{Scale, SideManifest, SourceOptions, StreamInfo, open_source};
 use crate::synth::Generator;
-use crate::synth::tone::enob;
 
 /// Samples read per block.
 const BLOCK: usize = 1 << 16;

@@ -4,10 +4,10 @@
 use std::fs;
 use std::path::PathBuf;
 
-use crate::budget::{BandSpec, budget, chart, parse_band, to_json, write_text};
 use crate::error::{Error, Result, Setting};
-use crate::plot::write_density_svg;
+use crate::model::budget::{BandSpec, budget, parse_band, to_json, write_text};
 use crate::profile::{MAX_ORDER, parse_profile};
+use crate::report::chart::{budget_chart, write_density_svg};
 use crate::run::PendingFile;
 
 /// Options of `noisewright budget`.
@@ -69,7 +69,7 @@ pub fn run(args: &BudgetArgs) -> Result<String> {
     let b = budget(&profile, &bands);
     if let Some(path) = &args.plot {
         let mut svg = Vec::new();
-        write_density_svg(&chart(&profile, &b), 1000, 640, &mut svg)?;
+        write_density_svg(&budget_chart(&profile, &b), 1000, 640, &mut svg)?;
         // Written beside the target and renamed, so a failure leaves no half-written chart.
         let out = PendingFile::create(path)?;
         out.write_all(&svg)?;

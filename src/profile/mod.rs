@@ -6,15 +6,14 @@
 
 mod burst;
 mod channels;
-mod quantity;
 mod schema;
 mod tone;
 
+pub use crate::units::{Dimension, format_quantity, format_quantity_exact, parse_quantity};
 pub use burst::{Burst, BurstSampling, MIN_DWELL_SAMPLES, NEXT_ROW_TOLERANCE, describe_levels};
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
-pub use quantity::{Dimension, format_quantity, format_quantity_exact, parse_quantity};
 pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, MIN_LOW_TO_RATE, parse_profile};
 pub use tone::{AmplitudeConvention, Tone};
 
@@ -22,7 +21,7 @@ use serde::Serialize;
 
 use crate::error::Result;
 
-use crate::amplifier::{Refer, StagePart};
+use crate::model::amplifier::{Refer, StagePart};
 
 /// What one unit of output means.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -49,7 +48,7 @@ impl Unit {
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Band {
     /// Lower edge in Hz (> 0). Below it the density falls to zero within one octave
-    /// (see [`crate::density`]).
+    /// (see [`crate::model::density`]).
     pub low_hz: f64,
     /// Upper edge in Hz (≤ sample_rate / 2).
     pub high_hz: f64,
@@ -96,7 +95,7 @@ pub enum SourceKind {
     },
     /// One part of an `[[amplifier]]` stage's noise (voltage noise, a current noise times a
     /// resistance, or a resistor's thermal noise), already carried through its gain (see
-    /// [`crate::amplifier`]): S(f) = density²·(1 + corner/f)/(1 + (f/pole)²).
+    /// [`crate::model::amplifier`]): S(f) = density²·(1 + corner/f)/(1 + (f/pole)²).
     AmplifierPart {
         /// The stage's name (the `name` key or `amplifier N`).
         stage: String,

@@ -41,10 +41,10 @@ use toml::de::{DeTable, DeValue};
 use toml::{Spanned, Value};
 
 use super::burst::{BURST_KEYS, RawBurst, validate_bursts};
-use super::quantity::expectation;
 use super::tone::{RawTone, TONE_KEYS, validate_offset, validate_tones};
 use super::{Band, Dimension, Profile, Source, SourceKind, Unit, format_quantity, parse_quantity};
 use crate::error::{Error, Result};
+use crate::units::expectation;
 
 mod amplifier;
 

@@ -13,7 +13,7 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::Exp1;
 
 use super::white::{Domain, WhiteStreams};
-use crate::burst::BurstModel;
+use crate::model::burst::BurstModel;
 use crate::profile::BurstSampling;
 
 /// What a chain did so far: completed visits and the exact time spent per level.

@@ -25,9 +25,9 @@ pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
 pub use white::{Domain, WhiteStreams};
 
-use crate::burst::BurstModel;
-use crate::density::target_psd;
 use crate::error::{Error, Result};
+use crate::model::burst::BurstModel;
+use crate::model::density::target_psd;
 use crate::profile::{MIN_DWELL_SAMPLES, Profile, Tone, format_quantity};
 
 /// The streaming engine for a profile: the Gaussian part (its [`Design`] and a seeded
@@ -300,12 +300,12 @@ impl Generator {
     /// ([`Generator::density`], Gaussian design plus bursts) integrated over band.low..band.high.
     /// This is the noise a tone's SNR is quoted against.
     pub fn band_noise_power(&self, band_low_hz: f64, band_high_hz: f64) -> f64 {
-        crate::density::integrate(&|f| self.density(f), band_low_hz, band_high_hz)
+        crate::model::density::integrate(&|f| self.density(f), band_low_hz, band_high_hz)
     }
 
     /// Per tone, its expected SNR in dB against the band's noise power
     /// ([`Generator::band_noise_power`]) plus `extra_noise_power` (unit², e.g. quantisation
-    /// noise; 0 for none), and the matching ENOB in bits ([`tone::enob`] with SINAD = SNR:
+    /// noise; 0 for none), and the matching ENOB in bits ([`crate::model::tone::enob`] with SINAD = SNR:
     /// no distortion is modelled).
     pub fn tone_snr(
         &self,
@@ -317,8 +317,8 @@ impl Generator {
         self.tones
             .iter()
             .map(|t| {
-                let snr = tone::snr_db(t.power(), noise, extra_noise_power);
-                (snr, tone::enob(snr))
+                let snr = crate::model::tone::snr_db(t.power(), noise, extra_noise_power);
+                (snr, crate::model::tone::enob(snr))
             })
             .collect()
     }

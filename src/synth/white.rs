@@ -16,7 +16,7 @@ pub enum Domain {
     Periodic = 1,
     /// Burst sources: one stream per burst (the stream id's chunk field is the burst's index).
     Burst = 2,
-    /// ADC dither: one stream per chunk of 2048 samples of the output (see [`crate::adc`]).
+    /// ADC dither: one stream per chunk of 2048 samples of the output (see [`crate::io::adc`]).
     Dither = 3,
 }
 

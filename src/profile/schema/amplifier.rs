@@ -20,11 +20,11 @@
 //! ```
 //!
 //! The stage becomes one [`SourceKind::AmplifierPart`] per non-zero part, named
-//! `"<stage>: <part>"` (see [`crate::amplifier::StagePart::label`]). A profile with an
+//! `"<stage>: <part>"` (see [`crate::model::amplifier::StagePart::label`]). A profile with an
 //! amplifier must have `unit = "V"`.
 
 use super::*;
-use crate::amplifier::{Refer, Stage, Topology};
+use crate::model::amplifier::{Refer, Stage, Topology};
 
 /// Keys allowed in an `[[amplifier]]` table.
 pub(super) const KEYS: &[&str] = &[

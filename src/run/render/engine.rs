@@ -9,11 +9,11 @@ use super::Settings;
 use super::plan::Plan;
 use super::pump::lock;
 use super::summary::quantisation_note;
-use crate::adc::Dither;
-use crate::density;
 use crate::error::{Error, Result, Setting};
+use crate::io::adc::Dither;
+use crate::io::sink::{Format, SinkSpec, rms_digital_from_dbfs, wav_plan};
+use crate::model::density;
 use crate::profile::{Dimension, Profile, parse_quantity};
-use crate::sink::{Format, SinkSpec, rms_digital_from_dbfs, wav_plan};
 use crate::synth::tone;
 use crate::synth::{ChannelGenerator, Generator, periodic_buffer, periodic_variance};
 
@@ -102,7 +102,7 @@ pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
         ],
     };
     spec.validate()?;
-    let (container_keys, container_notes) = crate::sink::container_facts(&spec)?;
+    let (container_keys, container_notes) = crate::io::sink::container_facts(&spec)?;
     plan.notes.extend(container_notes);
     Ok(Built {
         engine,

@@ -4,10 +4,10 @@
 
 use super::pump::source_names;
 use super::summary::tone_figures;
-use crate::adc::Adc;
 use crate::analysis::stats::RunningStats;
+use crate::io::adc::Adc;
+use crate::io::sink::{Manifest, SinkSpec};
 use crate::profile::Profile;
-use crate::sink::{Manifest, SinkSpec};
 use crate::synth::Generator;
 
 /// The manifest's channel keys, under `extra`: `channels`, `correlation` (the N×N matrix),
@@ -79,7 +79,7 @@ pub(super) fn burst_manifest(
         let names = source_names(profile);
         extra.insert(
             "source_columns".into(),
-            json!(crate::sink::source_column_names(&names, spec.unit)),
+            json!(crate::io::sink::source_column_names(&names, spec.unit)),
         );
     }
 }

@@ -20,10 +20,10 @@ use std::io;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 
-use crate::adc::{Coding, Dither};
 use crate::error::{Error, Result, Setting};
+use crate::io::adc::{Coding, Dither};
+use crate::io::sink::{Format, SampleFormat};
 use crate::profile::{Profile, format_quantity_exact};
-use crate::sink::{Format, SampleFormat};
 
 /// The WAV and integer formats' default level, dBFS (AES17 convention: 0 dBFS is the RMS of a
 /// full-scale sine).
@@ -79,7 +79,7 @@ struct Settings {
 ///     .seed(7)
 ///     .samples(48_000)
 ///     .level_dbfs(-20.0)
-///     .sample_format(noisewright::sink::SampleFormat::I24)
+///     .sample_format(noisewright::io::sink::SampleFormat::I24)
 ///     .to_path(dir.join("floor.wav"))?;
 /// // 4 nV/√Hz over 10 Hz – 20 kHz: about 0.57 µV RMS expected; one second measures close.
 /// assert!((report.measured_rms / report.expected_rms - 1.0).abs() < 0.05);

@@ -13,11 +13,11 @@ use super::summary::{burst_summary, channel_summary, range_text, summary_text, t
 use super::{RenderReport, Settings, Target};
 use crate::analysis::stats::RunningStats;
 use crate::error::{Error, Result};
-use crate::profile::format_quantity;
-use crate::run::{PendingFile, commit_all, manifest_path};
-use crate::sink::{
+use crate::io::sink::{
     CsvSink, FLUSH_BYTES, Manifest, Sink, SinkReport, SinkSpec, open_sink, write_manifest,
 };
+use crate::profile::format_quantity;
+use crate::run::{PendingFile, commit_all, manifest_path};
 
 /// The statistics of what was written: over every sample, and per channel (only kept for more
 /// than one channel).

@@ -6,10 +6,10 @@ use std::path::Path;
 
 use super::summary::coding_words;
 use super::{DEFAULT_DURATION_S, Settings, Target};
-use crate::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::error::{Error, Result, Setting};
+use crate::io::adc::{Adc, Coding, Container, Dither, parse_range};
+use crate::io::sink::{Format, SampleFormat};
 use crate::profile::{Dimension, Profile, format_quantity, parse_quantity};
-use crate::sink::{Format, SampleFormat};
 use crate::synth::tone;
 
 /// What a run will do, every setting resolved and checked.
@@ -254,7 +254,7 @@ fn array_name(s: &Settings, format: Format, target: &Target) -> Result<Option<St
     }
     match (&s.name, format, target) {
         (Some(n), Format::C, _) => {
-            crate::sink::validate_array_name(n)?;
+            crate::io::sink::validate_array_name(n)?;
             Ok(Some(n.clone()))
         }
         (Some(_), _, _) => Err(Error::setting(
@@ -264,7 +264,7 @@ fn array_name(s: &Settings, format: Format, target: &Target) -> Result<Option<St
                  give \u{1}format\u{1} c"
             ),
         )),
-        (None, Format::C, Target::File(p)) => Ok(Some(crate::sink::default_array_name(
+        (None, Format::C, Target::File(p)) => Ok(Some(crate::io::sink::default_array_name(
             &p.file_stem()
                 .map_or(String::new(), |s| s.to_string_lossy().into_owned()),
         ))),

@@ -7,8 +7,8 @@ use std::sync::{Arc, Mutex};
 
 use crate::analysis::stats::RunningStats;
 use crate::error::{Error, Result};
+use crate::io::sink::Sink;
 use crate::profile::Profile;
-use crate::sink::Sink;
 
 /// Samples produced and written per step.
 const CHUNK: usize = 1 << 16;
@@ -184,7 +184,7 @@ impl Sink for SourcesSink {
         self.inner.write_sources(samples, &slices)
     }
 
-    fn finish(&mut self) -> Result<crate::sink::SinkReport> {
+    fn finish(&mut self) -> Result<crate::io::sink::SinkReport> {
         self.inner.finish()
     }
 }

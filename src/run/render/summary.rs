@@ -4,9 +4,9 @@
 
 use super::Settings;
 use super::engine::Scale;
-use crate::adc::{Adc, Coding, Dither};
 use crate::analysis::stats::RunningStats;
-use crate::density;
+use crate::io::adc::{Adc, Coding, Dither};
+use crate::model::density;
 use crate::profile::{Profile, format_quantity, format_quantity_exact};
 use crate::synth::Generator;
 

@@ -9,7 +9,9 @@ use std::io::Write;
 use plotters::prelude::*;
 
 use crate::error::{Error, Result};
-use crate::profile::format_quantity;
+use crate::model::budget::{Budget, burst_models, total_with_bursts};
+use crate::model::density::source_psd;
+use crate::profile::{Profile, format_quantity};
 
 /// One curve: a name for the legend and (frequency in Hz, density in unit/√Hz) points.
 #[derive(Debug, Clone, PartialEq)]
@@ -161,6 +163,81 @@ pub fn write_density_svg(
     }
     out.write_all(svg.as_bytes())
         .map_err(|e| Error::io("writing the plot", e))
+}
+
+/// A log-log chart of every source's density and the total (unit/√Hz) from half the lowest
+/// band edge to twice the highest, 50 points per decade, with every band's edges marked.
+pub fn budget_chart(profile: &Profile, budget: &Budget) -> DensityChart {
+    let lo = budget
+        .bands
+        .iter()
+        .map(|b| b.low_hz)
+        .fold(f64::INFINITY, f64::min);
+    let hi = budget.bands.iter().map(|b| b.high_hz).fold(0.0, f64::max);
+    let grid = log_grid(lo / 2.0, hi * 2.0, 50);
+    let mut series: Vec<Series> = profile
+        .sources
+        .iter()
+        .map(|s| Series {
+            name: s.name.clone(),
+            points: grid
+                .iter()
+                .map(|&f| (f, source_psd(s, profile, f).sqrt()))
+                .collect(),
+            emphasis: false,
+        })
+        .collect();
+    let bursts = burst_models(profile);
+    series.extend(bursts.iter().map(|m| {
+        Series {
+            name: m.burst().name.clone(),
+            points: grid
+                .iter()
+                .map(|&f| (f, m.continuous_density(f).sqrt()))
+                .collect(),
+            emphasis: false,
+        }
+    }));
+    series.push(Series {
+        name: "total".into(),
+        points: grid
+            .iter()
+            .map(|&f| (f, total_with_bursts(profile, &bursts, f).sqrt()))
+            .collect(),
+        emphasis: true,
+    });
+    let many = budget.bands.len() > 1;
+    let markers = budget
+        .bands
+        .iter()
+        .enumerate()
+        .flat_map(|(i, b)| {
+            let tag = if many {
+                format!(" {}", i + 1)
+            } else {
+                String::new()
+            };
+            [
+                Marker {
+                    frequency_hz: b.low_hz,
+                    label: format!("low{tag}"),
+                },
+                Marker {
+                    frequency_hz: b.high_hz,
+                    label: format!("high{tag}"),
+                },
+            ]
+        })
+        .collect();
+    DensityChart {
+        title: format!(
+            "{}: noise density by source",
+            budget.name.as_deref().unwrap_or("profile")
+        ),
+        density_unit: format!("{}/\u{221a}Hz", budget.unit),
+        series,
+        markers,
+    }
 }
 
 #[cfg(test)]

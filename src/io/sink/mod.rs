@@ -21,7 +21,7 @@
 //!   §9) by the factor `2^b/(2^b − 2)` (3·10⁻⁵ for 16 bits). Common practice; chosen so
 //!   clipping is exactly `|d| > 1.0` for every format.
 //! * ADC codes: with [`SinkSpec::adc`] every writer stores the codes of that ideal converter
-//!   instead ([`crate::adc`]: offset binary or two's complement over a physical range, in the
+//!   instead ([`crate::io::adc`]: offset binary or two's complement over a physical range, in the
 //!   smallest u8/u16/u32 or i8/i16/i32 container); `full_scale` is then `None` and
 //!   `sample_format` is not used. Clipping is a sample outside the range, counted the same way.
 //! * Non-finite samples (NaN, ±∞) are refused with an error before any of the block is
@@ -58,8 +58,8 @@ use std::str::FromStr;
 
 use serde::Serialize;
 
-use crate::adc::{Adc, Container, Quantiser};
 use crate::error::{Error, Result, Setting};
+use crate::io::adc::{Adc, Container, Quantiser};
 use crate::profile::Unit;
 
 /// Samples encoded per inner loop; keeps the byte buffer near [`FLUSH_BYTES`].
@@ -287,7 +287,7 @@ pub struct SinkSpec {
     /// later): CSV's time column starts at `start_frame / sample_rate_hz` seconds.
     pub start_frame: u64,
     /// Store the integer codes of this ideal converter instead of scaled samples (see
-    /// [`crate::adc`]); needs `full_scale: None`, ignores `sample_format`, not for WAV.
+    /// [`crate::io::adc`]); needs `full_scale: None`, ignores `sample_format`, not for WAV.
     pub adc: Option<Adc>,
     /// The identifier of the data, for formats that name it (the C array; its macros are the
     /// name in capitals). `None`: [`default_array_name`] of nothing, `noise`.
@@ -996,7 +996,7 @@ mod tests {
     /// names, with samples outside the range counted as clipped.
     #[test]
     fn adc_codes_reach_every_writer_alike() {
-        use crate::adc::{Adc, Coding, Dither};
+        use crate::io::adc::{Adc, Coding, Dither};
         let x = gaussian(40_000, 0.6, SEED);
         for (bits, coding, bytes) in [
             (12, Coding::Twos, 2),
@@ -1049,7 +1049,7 @@ mod tests {
 
     #[test]
     fn adc_specs_refuse_a_full_scale_and_wav() {
-        use crate::adc::{Adc, Dither};
+        use crate::io::adc::{Adc, Dither};
         let adc = Adc::new(12, 0.0, 3.3, None, Dither::None).unwrap();
         let mut s = spec(Format::Raw, SampleFormat::I16, Some(1.0), None);
         s.adc = Some(adc.clone());

@@ -14,7 +14,7 @@ use std::io::Read;
 
 use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate, decode_le, read_full};
 use crate::error::{Error, Result};
-use crate::sink::{Format, SampleFormat};
+use crate::io::sink::{Format, SampleFormat};
 
 /// WAVE format tag for integer PCM.
 const TAG_PCM: u16 = 1;
@@ -375,8 +375,8 @@ impl<R: Read> SampleSource for WavSource<R> {
 mod tests {
     use super::super::open_source;
     use super::*;
+    use crate::io::sink::{SinkSpec, open_sink};
     use crate::profile::Unit;
-    use crate::sink::{SinkSpec, open_sink};
 
     fn opts() -> SourceOptions {
         SourceOptions {
@@ -539,7 +539,7 @@ mod tests {
     #[test]
     fn our_rf64_header_reads_its_64_bit_sizes() {
         let frames = (1u64 << 31) + 3; // i16: 4 GiB + 6 bytes of data
-        let mut b = crate::sink::wav_header(frames, 1, SampleFormat::I16, 48_000).unwrap();
+        let mut b = crate::io::sink::wav_header(frames, 1, SampleFormat::I16, 48_000).unwrap();
         assert_eq!(&b[0..4], b"RF64");
         b.extend_from_slice(&[0u8; 64]);
         let mut src = open_source(&b[..], &opts()).unwrap();

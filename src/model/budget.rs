@@ -13,7 +13,7 @@
 //! so a band beyond the profile's reports what the design would give there (with a note).
 //!
 //! **Totals.** Every source's variance is integrated numerically
-//! ([`crate::density::integrate_pieces`]) and, where a closed form exists, also in closed
+//! ([`crate::model::density::integrate_pieces`]) and, where a closed form exists, also in closed
 //! form (REFERENCES §6): white and 1/f^α floors, resistors and amplifier parts in a brick-wall
 //! band; white and 1/f parts through a one-pole closed loop or a first-order band. The band's
 //! RMS is the closed form when every source has one, else the numeric integral; both are
@@ -23,8 +23,8 @@ use std::io::{self, Write};
 
 use serde::Serialize;
 
-use crate::burst::BurstModel;
-use crate::density::{
+use crate::model::burst::BurstModel;
+use crate::model::density::{
     BOLTZMANN, butterworth_enbw_ratio, floor_band_variance, integrate_pieces,
     resistance_for_density, source_kinks, source_psd,
 };
@@ -415,13 +415,13 @@ fn decade_points(lo: f64, hi: f64) -> Vec<f64> {
 }
 
 /// The Gaussian sources' summed density plus the bursts' AC densities, unit²/Hz at `f` Hz.
-fn total_with_bursts(profile: &Profile, bursts: &[BurstModel], f: f64) -> f64 {
+pub(crate) fn total_with_bursts(profile: &Profile, bursts: &[BurstModel], f: f64) -> f64 {
     total_psd(profile, f) + bursts.iter().map(|m| m.continuous_density(f)).sum::<f64>()
 }
 
 /// The burst sources' chain models (continuous densities); bursts that cannot be modelled
 /// at the profile's rate were already refused when the profile was read.
-fn burst_models(profile: &Profile) -> Vec<BurstModel> {
+pub(crate) fn burst_models(profile: &Profile) -> Vec<BurstModel> {
     profile
         .bursts
         .iter()
@@ -596,7 +596,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         .tones
         .iter()
         .map(|t| {
-            let snr_db = crate::synth::tone::snr_db(t.power(), total, 0.0);
+            let snr_db = crate::model::tone::snr_db(t.power(), total, 0.0);
             ToneBudget {
                 name: t.name.clone(),
                 frequency_hz: t.frequency_hz,
@@ -604,7 +604,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
                 rms: t.rms(),
                 in_band: t.frequency_hz >= band.low_hz && t.frequency_hz <= band.high_hz,
                 snr_db,
-                enob_bits: crate::synth::tone::enob(snr_db),
+                enob_bits: crate::model::tone::enob(snr_db),
             }
         })
         .collect();
@@ -789,82 +789,6 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
 /// are in `unit`, densities in `unit`/√Hz, frequencies in Hz, shares 0..1.
 pub fn to_json(budget: &Budget) -> serde_json::Value {
     serde_json::to_value(budget).expect("a budget holds only numbers and strings")
-}
-
-/// A log-log chart of every source's density and the total (unit/√Hz) from half the lowest
-/// band edge to twice the highest, 50 points per decade, with every band's edges marked.
-pub fn chart(profile: &Profile, budget: &Budget) -> crate::plot::DensityChart {
-    use crate::plot::{DensityChart, Marker, Series, log_grid};
-    let lo = budget
-        .bands
-        .iter()
-        .map(|b| b.low_hz)
-        .fold(f64::INFINITY, f64::min);
-    let hi = budget.bands.iter().map(|b| b.high_hz).fold(0.0, f64::max);
-    let grid = log_grid(lo / 2.0, hi * 2.0, 50);
-    let mut series: Vec<Series> = profile
-        .sources
-        .iter()
-        .map(|s| Series {
-            name: s.name.clone(),
-            points: grid
-                .iter()
-                .map(|&f| (f, source_psd(s, profile, f).sqrt()))
-                .collect(),
-            emphasis: false,
-        })
-        .collect();
-    let bursts = burst_models(profile);
-    series.extend(bursts.iter().map(|m| {
-        Series {
-            name: m.burst().name.clone(),
-            points: grid
-                .iter()
-                .map(|&f| (f, m.continuous_density(f).sqrt()))
-                .collect(),
-            emphasis: false,
-        }
-    }));
-    series.push(Series {
-        name: "total".into(),
-        points: grid
-            .iter()
-            .map(|&f| (f, total_with_bursts(profile, &bursts, f).sqrt()))
-            .collect(),
-        emphasis: true,
-    });
-    let many = budget.bands.len() > 1;
-    let markers = budget
-        .bands
-        .iter()
-        .enumerate()
-        .flat_map(|(i, b)| {
-            let tag = if many {
-                format!(" {}", i + 1)
-            } else {
-                String::new()
-            };
-            [
-                Marker {
-                    frequency_hz: b.low_hz,
-                    label: format!("low{tag}"),
-                },
-                Marker {
-                    frequency_hz: b.high_hz,
-                    label: format!("high{tag}"),
-                },
-            ]
-        })
-        .collect();
-    DensityChart {
-        title: format!(
-            "{}: noise density by source",
-            budget.name.as_deref().unwrap_or("profile")
-        ),
-        density_unit: format!("{}/\u{221a}Hz", budget.unit),
-        series,
-        markers,
-    }
 }
 
 #[cfg(test)]

@@ -13,7 +13,7 @@ use plotters::prelude::*;
 use statrs::function::erf::erf;
 
 use crate::analysis::capture::CaptureReport;
-use crate::density::{band_gain, source_psd};
+use crate::model::density::{band_gain, source_psd};
 use crate::profile::{Profile, format_quantity};
 use crate::synth::Generator;
 

@@ -4,7 +4,7 @@
 //! A reader yields **stored values** as `f64`, with one rule for every format:
 //!
 //! * integer codes become digital values `code / (2^(b−1) − 1)`, the inverse of the writers'
-//!   rule in [`crate::sink`] (so ±32767 ↔ ±1.0 for 16 bits; the code −2^(b−1), which
+//!   rule in [`crate::io::sink`] (so ±32767 ↔ ±1.0 for 16 bits; the code −2^(b−1), which
 //!   noisewright never writes, reads as slightly below −1.0);
 //! * floats are returned as stored.
 //!
@@ -28,8 +28,8 @@ pub use wav::WavSource;
 use std::io::Read;
 
 use crate::error::{Error, Result, Setting};
+use crate::io::sink::{Format, SampleFormat};
 use crate::profile::{Band, Unit};
-use crate::sink::{Format, SampleFormat};
 
 /// What the values a reader yields mean.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -14,9 +14,7 @@
 //! - nothing at f ≤ 0 or above fs/2.
 
 use crate::profile::{Band, Profile, Source, SourceKind, Unit};
-
-/// Boltzmann constant in J/K (SI 2019, exact; BIPM SI Brochure, 9th ed.).
-pub const BOLTZMANN: f64 = 1.380649e-23;
+pub use crate::units::BOLTZMANN;
 
 /// Width of the brick-wall (order 0) taper above `band.high`, in octaves.
 pub const BRICK_WALL_TAPER_OCTAVES: f64 = 0.25;
@@ -27,7 +25,7 @@ pub const BRICK_WALL_TAPER_OCTAVES: f64 = 0.25;
 /// - resistor: 4kTR in V²/Hz in a volt profile, 4kT/R in A²/Hz in an ampere profile
 ///   (Johnson–Nyquist, valid for hf ≪ kT);
 /// - amplifier part: density²·(1 + corner/f)/(1 + (f/pole)²) in V²/Hz (see
-///   [`crate::amplifier::part_psd`]);
+///   [`crate::model::amplifier::part_psd`]);
 /// - table: the density interpolated linearly in log f–log density between points, held at
 ///   the first/last point's density outside them; the power is its square.
 ///
@@ -67,7 +65,7 @@ pub fn source_psd(source: &Source, profile: &Profile, f: f64) -> f64 {
             corner_hz,
             pole_hz,
             ..
-        } => crate::amplifier::part_psd(*density, *corner_hz, *pole_hz, f),
+        } => crate::model::amplifier::part_psd(*density, *corner_hz, *pole_hz, f),
     }
 }
 

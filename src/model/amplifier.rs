@@ -23,7 +23,7 @@
 
 use serde::Serialize;
 
-use crate::density::BOLTZMANN;
+use crate::units::BOLTZMANN;
 
 /// Where the signal enters the stage.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -117,7 +117,7 @@ impl StagePart {
 
     /// A short label such as `voltage noise`, `i_n+ × Rs (1 kΩ)` or `Rf thermal (9 kΩ)`.
     pub fn label(&self) -> String {
-        let ohms = |r: f64| crate::profile::format_quantity(r, "\u{3a9}");
+        let ohms = |r: f64| crate::units::format_quantity(r, "\u{3a9}");
         match self {
             StagePart::VoltageNoise => "voltage noise".into(),
             StagePart::CurrentNoise {

@@ -1,4 +1,5 @@
-//! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s".
+//! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s"; the
+//! physical constants the models use.
 //!
 //! A quantity is a decimal number (optional sign, optional fraction, optional exponent such as
 //! `4e-9`), optional whitespace, then a unit made of an optional SI prefix and a unit symbol.
@@ -11,6 +12,9 @@
 //! `"4.7 kOhm"` the same as `4700.0`.
 
 use serde::Serialize;
+
+/// Boltzmann constant in J/K (SI 2019, exact; BIPM SI Brochure, 9th ed.).
+pub const BOLTZMANN: f64 = 1.380649e-23;
 
 /// The physical dimension a value is expected to have.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]

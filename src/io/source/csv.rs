@@ -18,8 +18,8 @@ use std::io::{BufRead, BufReader, Read};
 
 use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate};
 use crate::error::{Error, Result, Setting};
+use crate::io::sink::{Format, SampleFormat};
 use crate::profile::Unit;
-use crate::sink::{Format, SampleFormat};
 
 /// Rows used to estimate the rate from the time column.
 const RATE_ROWS: usize = 4096;

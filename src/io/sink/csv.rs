@@ -20,7 +20,7 @@ const CSV_CHUNK: usize = 2048;
 ///   * full scale, integer format → `code_i16` / `code_i24` / `code_i32`: the integer code
 ///     (digital ±1.0 ↔ ±(2^(b−1) − 1), see the module docs);
 ///   * ADC codes ([`SinkSpec::adc`]) → `code_twos_<N>bit` / `code_offset_<N>bit`, e.g.
-///     `code_twos_12bit`: the converter's integer code (see [`crate::adc`]).
+///     `code_twos_12bit`: the converter's integer code (see [`crate::io::adc`]).
 ///
 /// * With [`CsvSink::with_sources`], one more column per source follows (e.g. `gaussian_V`,
 ///   `input_trap_V`): the physical value of that source's part of the sample, in the unit,

@@ -5,7 +5,7 @@ use std::io::Read;
 
 use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate, decode_le, read_full};
 use crate::error::{Error, Result, Setting};
-use crate::sink::{Format, SampleFormat};
+use crate::io::sink::{Format, SampleFormat};
 
 /// Bytes read per block (a multiple of 2, 3, 4 and 8).
 const READ_BYTES: usize = 3 << 18;
