@@ -84,9 +84,21 @@ impl ChannelGenerator {
     /// frames are bit for bit those the run from 0 makes from `start` on
     /// ([`Generator::starting_at`] for every channel's engine).
     pub fn starting_at(profile: &Profile, seed: u64, start: u64) -> Result<ChannelGenerator> {
+        let design = std::sync::Arc::new(super::design_profile(profile)?);
+        ChannelGenerator::from_design(profile, design, seed, start)
+    }
+
+    /// [`ChannelGenerator::starting_at`] with the design given ([`super::design_profile`] of
+    /// this profile): every channel's engine shares it.
+    pub fn from_design(
+        profile: &Profile,
+        design: std::sync::Arc<super::Design>,
+        seed: u64,
+        start: u64,
+    ) -> Result<ChannelGenerator> {
         let n = profile.channels;
         let engines = (0..n)
-            .map(|k| Generator::starting_at(profile, channel_seed(seed, k), start))
+            .map(|k| Generator::from_design(profile, design.clone(), channel_seed(seed, k), start))
             .collect::<Result<Vec<_>>>()?;
         let mean = engines[0].noise_mean();
         Ok(ChannelGenerator {

@@ -25,8 +25,11 @@ pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
 pub use white::{Domain, WhiteStreams};
 
+use std::sync::Arc;
+
 use crate::error::{Error, Result};
 use crate::model::burst::BurstModel;
+
 use crate::model::density::target_psd;
 use crate::profile::{MIN_DWELL_SAMPLES, Profile, Tone, format_quantity};
 
@@ -45,7 +48,8 @@ use crate::profile::{MIN_DWELL_SAMPLES, Profile, Tone, format_quantity};
 /// ([`Generator::variance`], [`Generator::mean`], [`Generator::expected_rms`]), where a tone of
 /// peak A adds its mean power A²/2 to the variance and the offset adds to the mean.
 pub struct Generator {
-    design: Design,
+    /// Shared by every channel of a profile (designed once).
+    design: Arc<Design>,
     /// `None` when the profile has no Gaussian source (that part is exactly 0).
     shaper: Option<Shaper>,
     bursts: Vec<BurstModel>,
@@ -74,7 +78,18 @@ impl Generator {
     /// ([`BurstChain::skip`]); tones and offset take the absolute index `start`. Burst
     /// tallies count from `start`.
     pub fn starting_at(profile: &Profile, seed: u64, start: u64) -> Result<Generator> {
-        let design = design_profile(profile)?;
+        Generator::from_design(profile, Arc::new(design_profile(profile)?), seed, start)
+    }
+
+    /// [`Generator::starting_at`] with the Gaussian part's design given: `design` must be
+    /// [`design_profile`] of this profile at its sample rate. Engines of several channels (or
+    /// a second engine for the same profile) share one design instead of each designing it.
+    pub fn from_design(
+        profile: &Profile,
+        design: Arc<Design>,
+        seed: u64,
+        start: u64,
+    ) -> Result<Generator> {
         let shaper =
             (!profile.sources.is_empty()).then(|| Shaper::starting_at(&design, seed, start));
         let fs = profile.sample_rate_hz;

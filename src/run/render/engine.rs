@@ -15,7 +15,9 @@ use crate::io::sink::{Format, SinkSpec, rms_digital_from_dbfs, wav_plan};
 use crate::model::density;
 use crate::profile::{Dimension, Profile, parse_quantity};
 use crate::synth::tone;
-use crate::synth::{ChannelGenerator, Generator, periodic_buffer, periodic_variance};
+use crate::synth::{
+    ChannelGenerator, Design, Generator, design_profile, periodic_buffer, periodic_variance,
+};
 
 /// Whatever produces the next samples (unit) into a slice.
 pub(super) type Engine = Box<dyn FnMut(&mut [f64])>;
@@ -60,7 +62,13 @@ pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
     let target_psd = |f: f64| density::target_psd(profile, f);
     let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
     let parts: Arc<Mutex<Vec<Vec<f64>>>> = Arc::default();
-    let (engine, expected_variance, generator, multi) = engine(plan, s, &parts)?;
+    // One design for the run: every channel's engine and the tones' figures share it (a loop
+    // buffer is made from the target density and needs it only for the figures).
+    let has_figures = !profile.tones.is_empty() || profile.offset != 0.0;
+    let design = (!s.loop_buffer || has_figures)
+        .then(|| design_profile(profile).map(Arc::new))
+        .transpose()?;
+    let (engine, expected_variance, generator, multi) = engine(plan, s, design.clone(), &parts)?;
     // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
     let expected_mean = match (&generator, &multi) {
         (Some(g), _) => g.borrow().mean(),
@@ -70,9 +78,10 @@ pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
     let expected_rms = (expected_variance + expected_mean * expected_mean).sqrt();
     // The tones' figures need the designed noise density (also in loop mode, which has no
     // streaming generator): one design, only when there are tones or an offset.
-    let figures = (!profile.tones.is_empty() || profile.offset != 0.0)
-        .then(|| Generator::new(profile, 0))
-        .transpose()?;
+    let figures = match (has_figures, design) {
+        (true, Some(d)) => Some(Generator::from_design(profile, d, 0, 0)?),
+        _ => None,
+    };
     let scale = scale(plan, s, expected_rms)?;
     let profile = &plan.profile;
     if let Some(note) = floor_note(plan, &scale, fs) {
@@ -129,7 +138,12 @@ type Engines = (
 
 /// The engine and its expected variance (unit²): a loop buffer, several channels, or one
 /// channel (writing its per-source parts into `parts` when CSV columns per source are asked).
-fn engine(plan: &Plan, s: &Settings, parts: &Arc<Mutex<Vec<Vec<f64>>>>) -> Result<Engines> {
+fn engine(
+    plan: &Plan,
+    s: &Settings,
+    design: Option<Arc<Design>>,
+    parts: &Arc<Mutex<Vec<Vec<f64>>>>,
+) -> Result<Engines> {
     let profile = &plan.profile;
     let fs = profile.sample_rate_hz;
     let target_psd = |f: f64| density::target_psd(profile, f);
@@ -149,9 +163,10 @@ fn engine(plan: &Plan, s: &Settings, parts: &Arc<Mutex<Vec<Vec<f64>>>>) -> Resul
         });
         return Ok((engine, var, None, None));
     }
+    let design = design.expect("a stream's design is made before its engine");
     if profile.channels > 1 {
-        let m = Rc::new(RefCell::new(ChannelGenerator::starting_at(
-            profile, s.seed, plan.start,
+        let m = Rc::new(RefCell::new(ChannelGenerator::from_design(
+            profile, design, s.seed, plan.start,
         )?));
         let var = m.borrow().generator().variance();
         let engine_m = m.clone();
@@ -159,8 +174,8 @@ fn engine(plan: &Plan, s: &Settings, parts: &Arc<Mutex<Vec<Vec<f64>>>>) -> Resul
             Box::new(move |out: &mut [f64]| engine_m.borrow_mut().fill_frames(out));
         return Ok((engine, var, None, Some(m)));
     }
-    let g = Rc::new(RefCell::new(Generator::starting_at(
-        profile, s.seed, plan.start,
+    let g = Rc::new(RefCell::new(Generator::from_design(
+        profile, design, s.seed, plan.start,
     )?));
     let var = g.borrow().variance();
     let engine_g = g.clone();
