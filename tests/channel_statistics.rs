@@ -171,7 +171,7 @@ fn coherence_of_each_pair_is_the_coefficient_squared_and_matches_scipy() {
     let segments = 256;
     let n = seg / 2 * (segments + 1);
     let x = frames(&mut g, n);
-    let dir = Scratch::new("coherence", "white3");
+    let dir = Scratch::new("white3");
     let inp = dir.path("x.f64");
     let out = dir.path("c.f64");
     let bytes: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();

@@ -72,7 +72,7 @@ fn codes_of(adc: &Adc, x: &[f64]) -> Vec<i64> {
 /// noise density Q/√(6·fs) (REFERENCES §9).
 #[test]
 fn csv_holds_twos_codes_and_the_manifest_records_the_converter() {
-    let s = Scratch::new("adc", "csv");
+    let s = Scratch::new("csv");
     let x = physical(&s);
     let o = generate(&s, "a.csv", &["--bits", "12", "--range", "-1.65V..1.65V"]);
     assert!(o.status.success(), "{}", text(&o.stderr));
@@ -113,7 +113,7 @@ fn csv_holds_twos_codes_and_the_manifest_records_the_converter() {
 /// 8 bits), and offset codes are the twos codes plus 2^(N−1), sample for sample.
 #[test]
 fn raw_codes_use_the_smallest_container_and_offset_is_twos_plus_half() {
-    let s = Scratch::new("adc", "raw");
+    let s = Scratch::new("raw");
     let range = ["--range", "-1.65V..1.65V"];
     let twos = generate(&s, "t.i16", &[&["--bits", "12"][..], &range].concat());
     assert!(twos.status.success(), "{}", text(&twos.stderr));
@@ -154,7 +154,7 @@ fn raw_codes_use_the_smallest_container_and_offset_is_twos_plus_half() {
 
 #[test]
 fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
-    let s = Scratch::new("adc", "default");
+    let s = Scratch::new("default");
     let p = s.file("bench.toml", WHITE);
     let o = run(
         &[
@@ -184,7 +184,7 @@ fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
 /// noise Q/2 RMS, density Q/√(2·fs) (REFERENCES §9).
 #[test]
 fn dithered_codes_are_reproducible_and_within_one_code_of_the_plain_ones() {
-    let s = Scratch::new("adc", "dither");
+    let s = Scratch::new("dither");
     let args = ["--bits", "12", "--range", "-1.65V..1.65V"];
     let d = [&args[..], &["--dither", "tpdf"]].concat();
     for (name, extra) in [("a.i16", &d), ("b.i16", &d), ("c.i16", &args.to_vec())] {
@@ -216,7 +216,7 @@ fn dithered_codes_are_reproducible_and_within_one_code_of_the_plain_ones() {
 /// outside the range) is in the manifest and the summary.
 #[test]
 fn samples_outside_the_range_are_counted_and_refused_unless_allowed() {
-    let s = Scratch::new("adc", "clip");
+    let s = Scratch::new("clip");
     let x = physical(&s);
     let outside = x.iter().filter(|v| v.abs() > 0.5).count();
     assert!(outside > 100, "seed {SEED}");
@@ -260,7 +260,7 @@ fn samples_outside_the_range_are_counted_and_refused_unless_allowed() {
 /// 665 µV/√Hz with TPDF dither (9.6 dB: a note), REFERENCES §9.
 #[test]
 fn the_floor_note_counts_the_dither() {
-    let s = Scratch::new("adc", "note");
+    let s = Scratch::new("note");
     let args = ["--bits", "4", "--range", "-1.65V..1.65V"];
     let plain = generate(&s, "p.csv", &args);
     assert!(plain.status.success(), "{}", text(&plain.stderr));
@@ -287,7 +287,7 @@ fn the_floor_note_counts_the_dither() {
 /// within the uniform error's 1e−6 bound (REFERENCES §9).
 #[test]
 fn numpy_reads_the_codes_and_agrees_with_the_documented_rule() {
-    let s = Scratch::new("adc", "numpy");
+    let s = Scratch::new("numpy");
     physical(&s);
     for (out, extra) in [
         ("t.i16", &["--bits", "12"][..]),
@@ -324,7 +324,7 @@ fn numpy_reads_the_codes_and_agrees_with_the_documented_rule() {
 /// holds the same numbers with the container's `<stdint.h>` type and the level macros.
 #[test]
 fn npy_and_c_arrays_hold_the_raw_codes() {
-    let s = Scratch::new("adc", "arrays");
+    let s = Scratch::new("arrays");
     for (bits, coding, raw, descr, ctype) in [
         ("12", "twos", "a.i16", "'<i2'", "int16_t"),
         ("8", "offset", "a.u8", "'|u1'", "uint8_t"),
@@ -382,7 +382,7 @@ fn adc_c_header_compiles_and_holds_the_codes() {
         println!("skipped: no C compiler (cc or $CC) was found to compile the header");
         return;
     }
-    let s = Scratch::new("adc", "cc");
+    let s = Scratch::new("cc");
     for (i, (bits, coding, raw, ctype)) in [
         ("32", "twos", "r.i32", "int32_t"),
         ("32", "offset", "r.u32", "uint32_t"),

@@ -6,9 +6,8 @@ mod common;
 
 use std::ffi::OsString;
 use std::path::Path;
-use std::process::{Command, Output};
 
-use common::{Scratch, text};
+use common::{Scratch, run, text};
 use noisewright::profile::parse_profile;
 use noisewright::synth::Generator;
 use rand::{RngExt, SeedableRng};
@@ -49,22 +48,12 @@ corner = "300 Hz"
 slope = 1.4
 "#;
 
-fn scratch(tag: &str) -> Scratch {
-    Scratch::new("analyze", tag)
-}
-
-fn nw(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .output()
-        .expect("the noisewright binary runs")
-}
-
 fn os(s: &str) -> OsString {
     OsString::from(s)
 }
 
-/// `generate PROFILE -o OUT --seed SEED -q EXTRA…`; panics with stderr on failure.
+/// `generate PROFILE -o OUT --seed SEED -q EXTRA…` in OUT's folder; panics with stderr on
+/// failure.
 fn generate(profile: &Path, out: &Path, extra: &[&str]) {
     let mut a: Vec<OsString> = vec![
         os("generate"),
@@ -76,8 +65,7 @@ fn generate(profile: &Path, out: &Path, extra: &[&str]) {
         os("-q"),
     ];
     a.extend(extra.iter().map(|s| os(s)));
-    let refs: Vec<&std::ffi::OsStr> = a.iter().map(|s| s.as_os_str()).collect();
-    let o = nw(&refs);
+    let o = run(&a, out.parent().expect("OUT is in a folder"));
     assert!(
         o.status.success(),
         "generate {extra:?}: {} (seed {SEED})",
@@ -85,12 +73,11 @@ fn generate(profile: &Path, out: &Path, extra: &[&str]) {
     );
 }
 
-/// `analyze FILE --json EXTRA…` → (exit code, JSON, stderr).
+/// `analyze FILE --json EXTRA…` in FILE's folder → (exit code, JSON, stderr).
 fn analyze(file: &Path, extra: &[&str]) -> (i32, serde_json::Value, String) {
     let mut a: Vec<OsString> = vec![os("analyze"), file.into(), os("--json")];
     a.extend(extra.iter().map(|s| os(s)));
-    let refs: Vec<&std::ffi::OsStr> = a.iter().map(|s| s.as_os_str()).collect();
-    let o = nw(&refs);
+    let o = run(&a, file.parent().expect("FILE is in a folder"));
     let code = o.status.code().unwrap_or(-1);
     let v = serde_json::from_slice(&o.stdout).unwrap_or(serde_json::Value::Null);
     (code, v, text(&o.stderr))
@@ -128,7 +115,7 @@ fn engine_noise(profile: &str, n: usize, seed: u64) -> Vec<f64> {
 /// (REFERENCES §8, common practice) holds with a DC offset of 3σ.
 #[test]
 fn density_and_statistics_equal_scipy_and_numpy() {
-    let s = scratch("ref");
+    let s = Scratch::new("ref");
     let mut x = engine_noise(FLICKER, 1 << 18, SEED);
     let dc = 3.0 * 1.5e-6;
     x.iter_mut().for_each(|v| *v += dc);
@@ -209,7 +196,7 @@ fn density_and_statistics_equal_scipy_and_numpy() {
 /// REFERENCES §3), −2 dB is outside them.
 #[test]
 fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
-    let s = scratch("verdict");
+    let s = Scratch::new("verdict");
     for (name, body) in [("white", WHITE), ("flicker", FLICKER)] {
         let prof = s.file(&format!("{name}.toml"), body);
         let higher = body.replace(
@@ -248,12 +235,10 @@ fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
         let (code, _, _) = analyze(&wav, &["--profile", hi_path, "--tolerance", "1.5 dB"]);
         assert_eq!(code, 1, "{name}: 1.5 dB tolerance (seed {SEED})");
         // The text form says the same.
-        let o = nw(&[
-            os("analyze").as_os_str(),
-            wav.as_os_str(),
-            os("--profile").as_os_str(),
-            prof.as_os_str(),
-        ]);
+        let o = run(
+            &[os("analyze"), wav.into(), os("--profile"), prof.into()],
+            &s,
+        );
         assert!(o.status.success());
         assert!(
             text(&o.stdout).contains("verdict         PASS"),
@@ -268,7 +253,7 @@ fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
 /// against the same profile without the burst (negative control).
 #[test]
 fn a_burst_profile_is_judged_against_its_whole_design() {
-    let s = scratch("burst-verdict");
+    let s = Scratch::new("burst-verdict");
     let body = std::fs::read_to_string(concat!(
         env!("CARGO_MANIFEST_DIR"),
         "/profiles/popcorn-opamp.toml"
@@ -294,7 +279,7 @@ fn a_burst_profile_is_judged_against_its_whole_design() {
 /// corner near 1 kHz.
 #[test]
 fn the_fit_sees_the_floor_under_detected_bursts() {
-    let s = scratch("fit-burst");
+    let s = Scratch::new("fit-burst");
     let prof = s.file(
         "bb.toml",
         "sample_rate = \"10 kHz\"\n[band]\nlow = 1\nhigh = 4000\n[[floor]]\n\
@@ -328,7 +313,7 @@ fn the_fit_sees_the_floor_under_detected_bursts() {
 /// `generate` accepts the written profile.
 #[test]
 fn fit_recovers_floor_corner_and_slope_and_generate_accepts_it() {
-    let s = scratch("fit");
+    let s = Scratch::new("fit");
     let prof = s.file("flicker.toml", FLICKER);
     let rec = s.path("rec.f32");
     generate(&prof, &rec, &["--samples", "4194304", "--format", "raw"]);
@@ -434,7 +419,7 @@ fn markov_chain(n: usize, fs: f64, levels: &[f64], tau_s: &[f64], seed: u64) -> 
 /// writes them as a `[[burst]]` source. Negative controls: white and 1/f noise have none.
 #[test]
 fn burst_levels_and_dwell_times_are_recovered() {
-    let s = scratch("burst");
+    let s = Scratch::new("burst");
     let fs = 48_000.0;
     let n = 1 << 22;
     let cases: [(&[f64], &[f64]); 2] = [
@@ -535,7 +520,7 @@ fn check_stats(what: &str, j: &serde_json::Value, want: (f64, f64, usize)) {
 /// columns (checked against the bytes and text decoded here), all scaled by the manifest.
 #[test]
 fn every_generated_format_reads_back() {
-    let s = scratch("formats");
+    let s = Scratch::new("formats");
     let prof = s.file("white.toml", WHITE);
     let n = 20_000usize;
     let ns = n.to_string();
@@ -659,7 +644,7 @@ fn every_generated_format_reads_back() {
 /// read back bit for bit (mean and RMS of the values exactly as computed here).
 #[test]
 fn hand_written_64_bit_float_wav_reads_back() {
-    let s = scratch("f64wav");
+    let s = Scratch::new("f64wav");
     let x: Vec<f64> = (0..5000)
         .map(|i| 0.3 * ((i as f64) * 0.37).sin() + 0.01)
         .collect();
@@ -724,7 +709,7 @@ fn hand_written_64_bit_float_wav_reads_back() {
 /// the tables and no scripts or external files (readable offline).
 #[test]
 fn plot_and_report_are_self_contained() {
-    let s = scratch("pictures");
+    let s = Scratch::new("pictures");
     let prof = s.file("flicker.toml", FLICKER);
     let wav = s.path("f.wav");
     generate(&prof, &wav, &["--duration", "5s"]);

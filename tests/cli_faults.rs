@@ -19,11 +19,7 @@ use std::path::Path;
 use std::process::{Child, Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
-use common::{Scratch, WHITE, run, text};
-
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-}
+use common::{Scratch, WHITE, bin, run, text};
 
 /// Names in `dir` other than the profiles and the names in `keep`, sorted.
 fn left_in(dir: &Path, keep: &[&str]) -> Vec<String> {
@@ -124,7 +120,7 @@ fn a_signal_during_generate_leaves_no_file_under_the_target_name() {
         (libc::SIGTERM, "SIGTERM"),
         (libc::SIGHUP, "SIGHUP"),
     ] {
-        let s = Scratch::new("faults", "signal");
+        let s = Scratch::new("signal");
         let p = s.file("w.toml", WHITE);
         let mut child = bin()
             .args(["generate", p.to_str().unwrap(), "-o", "long.raw"])
@@ -158,7 +154,7 @@ fn a_signal_during_generate_leaves_no_file_under_the_target_name() {
 /// killed by it, and nothing is left in the folder.
 #[test]
 fn a_shell_reports_143_for_sigterm() {
-    let s = Scratch::new("faults", "shell");
+    let s = Scratch::new("shell");
     let p = s.file("w.toml", WHITE);
     let script = r#"
         "$0" generate "$1" -o long.raw --duration 2h 2>/dev/null &
@@ -188,7 +184,7 @@ fn a_shell_reports_143_for_sigterm() {
 /// is a sparse file of zeros (1 GiB of f32: 268 M samples, many seconds of analysis).
 #[test]
 fn sigint_during_analyze_leaves_none_of_its_outputs() {
-    let s = Scratch::new("faults", "analyze-int");
+    let s = Scratch::new("analyze-int");
     let capture = s.path("long.f32");
     std::fs::File::create(&capture)
         .unwrap()
@@ -225,7 +221,7 @@ fn sigint_during_analyze_leaves_none_of_its_outputs() {
 /// permission one fails for root too.
 #[test]
 fn unwritable_outputs_fail_with_the_path_and_the_reason() {
-    let s = Scratch::new("faults", "unwritable");
+    let s = Scratch::new("unwritable");
     let p = s.file("w.toml", WHITE);
     std::fs::write(s.path("notes.txt"), "a file, not a folder\n").unwrap();
     std::fs::create_dir(s.path("taken.wav")).unwrap();
@@ -292,7 +288,7 @@ fn unwritable_outputs_fail_with_the_path_and_the_reason() {
 /// `budget --plot` into a file that is in the way: exit 1, the path and the reason.
 #[test]
 fn budget_plot_into_a_file_in_the_way_fails_cleanly() {
-    let s = Scratch::new("faults", "budget-way");
+    let s = Scratch::new("budget-way");
     let p = s.file("w.toml", WHITE);
     std::fs::write(s.path("notes.txt"), "x").unwrap();
     let o = run(
@@ -350,7 +346,7 @@ fn in_tmpfs(mnt: &Path, options: &str, args: &[&str]) -> Option<(Output, String)
 /// written.
 #[test]
 fn a_read_only_mount_fails_cleanly() {
-    let s = Scratch::new("faults", "ro");
+    let s = Scratch::new("ro");
     let p = s.file("w.toml", WHITE);
     let mnt = s.path("mnt");
     std::fs::create_dir(&mnt).unwrap();
@@ -375,7 +371,7 @@ fn a_read_only_mount_fails_cleanly() {
 /// and "No space left on device", and nothing left on the mount.
 #[test]
 fn a_full_tmpfs_leaves_no_output() {
-    let s = Scratch::new("faults", "tmpfs");
+    let s = Scratch::new("tmpfs");
     let p = s.file("w.toml", WHITE);
     let mnt = s.path("mnt");
     std::fs::create_dir(&mnt).unwrap();
@@ -403,7 +399,7 @@ fn a_full_tmpfs_leaves_no_output() {
 /// manifest, no partial file.
 #[test]
 fn a_file_size_limit_stops_every_format_cleanly() {
-    let s = Scratch::new("faults", "fsize");
+    let s = Scratch::new("fsize");
     let p = s.file("w.toml", WHITE);
     for out in ["x.wav", "x.csv", "x.raw", "x.npy", "x.h"] {
         let o = limit_file_size(&mut bin(), 64 << 10)
@@ -435,7 +431,7 @@ fn sizes(dir: &Path, names: &[&str]) -> Vec<u64> {
 /// manifest is not, and the noise file must not land without it.
 #[test]
 fn a_manifest_that_cannot_be_written_takes_its_noise_file_with_it() {
-    let s = Scratch::new("faults", "manifest");
+    let s = Scratch::new("manifest");
     let p = s.file("w.toml", WHITE);
     let args = [
         "generate",
@@ -469,7 +465,7 @@ fn a_manifest_that_cannot_be_written_takes_its_noise_file_with_it() {
 /// largest fails the job and leaves none of them (they land together or not at all).
 #[test]
 fn analyze_outputs_land_together_or_not_at_all() {
-    let s = Scratch::new("faults", "analyze-fsize");
+    let s = Scratch::new("analyze-fsize");
     let p = s.file("w.toml", WHITE);
     let o = run(
         &[
@@ -516,7 +512,7 @@ fn analyze_outputs_land_together_or_not_at_all() {
 /// nothing left.
 #[test]
 fn budget_plot_under_a_file_size_limit_fails_cleanly() {
-    let s = Scratch::new("faults", "budget-fsize");
+    let s = Scratch::new("budget-fsize");
     let p = s.file("w.toml", WHITE);
     let o = limit_file_size(&mut bin(), 1 << 10)
         .args(["budget", p.to_str().unwrap(), "--plot", "b.svg"])
@@ -541,7 +537,7 @@ fn standard_output_on_dev_full_is_a_clear_error() {
         println!("skipped: this system has no /dev/full");
         return;
     }
-    let s = Scratch::new("faults", "devfull");
+    let s = Scratch::new("devfull");
     let p = s.file("w.toml", WHITE);
     let p = p.to_str().unwrap();
     let rows: &[(&str, &[&str])] = &[
@@ -568,7 +564,7 @@ fn standard_output_on_dev_full_is_a_clear_error() {
 /// Streaming samples to a reader that closes the pipe ends quietly with exit 0.
 #[test]
 fn streaming_to_a_closed_pipe_ends_quietly() {
-    let s = Scratch::new("faults", "pipe");
+    let s = Scratch::new("pipe");
     let p = s.file("w.toml", WHITE);
     let mut child = bin()
         .args([
@@ -600,7 +596,7 @@ fn streaming_to_a_closed_pipe_ends_quietly() {
 /// leaves its complete file and manifest.
 #[test]
 fn a_summary_to_a_closed_pipe_ends_quietly() {
-    let s = Scratch::new("faults", "closed");
+    let s = Scratch::new("closed");
     let p = s.file("w.toml", WHITE);
     let p = p.to_str().unwrap();
     let rows: &[(&str, &[&str])] = &[

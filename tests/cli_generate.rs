@@ -5,29 +5,9 @@
 mod common;
 
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Command;
 
-use common::WHITE;
-
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-}
-
-/// A fresh, empty folder for one test.
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("noisewright-cli-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    bin().args(args).current_dir(cwd).output().unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::{Scratch, WHITE, run, text};
 
 fn write_profile(dir: &Path, name: &str, body: &str) -> PathBuf {
     let p = dir.join(name);
@@ -48,7 +28,7 @@ fn outputs(dir: &Path) -> Vec<String> {
 
 #[test]
 fn every_bundled_profile_generates_a_wav_and_its_manifest() {
-    let dir = scratch("bundled");
+    let dir = Scratch::new("bundled");
     let profiles = Path::new(env!("CARGO_MANIFEST_DIR")).join("profiles");
     let mut count = 0;
     for entry in std::fs::read_dir(&profiles).unwrap() {
@@ -88,7 +68,7 @@ fn every_bundled_profile_generates_a_wav_and_its_manifest() {
 
 #[test]
 fn default_output_goes_to_out_folder_named_after_the_profile() {
-    let dir = scratch("default-out");
+    let dir = Scratch::new("default-out");
     let p = write_profile(&dir, "bench.toml", WHITE);
     let o = run(
         &["generate", p.to_str().unwrap(), "--duration", "0.1s"],
@@ -101,7 +81,7 @@ fn default_output_goes_to_out_folder_named_after_the_profile() {
 
 #[test]
 fn same_seed_same_bytes_other_seed_other_bytes() {
-    let dir = scratch("determinism");
+    let dir = Scratch::new("determinism");
     let p = write_profile(&dir, "w.toml", WHITE);
     let mut files = Vec::new();
     for (name, seed) in [("a.raw", "5"), ("b.raw", "5"), ("c.raw", "6")] {
@@ -128,7 +108,7 @@ fn same_seed_same_bytes_other_seed_other_bytes() {
 
 #[test]
 fn csv_and_raw_carry_physical_units_by_default() {
-    let dir = scratch("physical");
+    let dir = Scratch::new("physical");
     let p = write_profile(&dir, "w.toml", WHITE);
     let o = run(
         &[
@@ -160,7 +140,7 @@ fn csv_and_raw_carry_physical_units_by_default() {
 
 #[test]
 fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
-    let dir = scratch("clip");
+    let dir = Scratch::new("clip");
     let p = write_profile(&dir, "w.toml", WHITE);
     let o = run(
         &[
@@ -203,7 +183,7 @@ fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
 
 #[test]
 fn a_rate_change_is_reported_not_silent() {
-    let dir = scratch("rate");
+    let dir = Scratch::new("rate");
     let p = write_profile(&dir, "w.toml", WHITE);
     let o = run(
         &[
@@ -230,7 +210,7 @@ fn a_rate_change_is_reported_not_silent() {
 fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
     // 16 bits at a full scale of 1 V: Q/√(6 fs) ≈ 62 nV/√Hz, far above 10 nV/√Hz
     // (uniform quantisation error model, IEEE Std 1241; REFERENCES §9).
-    let dir = scratch("quant");
+    let dir = Scratch::new("quant");
     let p = write_profile(&dir, "w.toml", WHITE);
     let o = run(
         &[
@@ -257,7 +237,7 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
 
 #[test]
 fn loop_writes_one_period_and_says_so() {
-    let dir = scratch("loop");
+    let dir = Scratch::new("loop");
     let p = write_profile(&dir, "w.toml", WHITE);
     let o = run(
         &[
@@ -293,7 +273,7 @@ fn loop_writes_one_period_and_says_so() {
 fn thread_count_does_not_change_the_bytes() {
     // Several pyramid levels (1/f down to 0.5 Hz) and several batches of the top level, so
     // every level's work is split between threads.
-    let dir = scratch("threads");
+    let dir = Scratch::new("threads");
     let p = write_profile(
         &dir,
         "f.toml",
@@ -339,7 +319,7 @@ fn a_named_pipe_gets_the_samples_in_place_and_no_manifest_beside_it() {
     // A rig reading from a FIFO (or /dev/null, a device) must keep its pipe: renaming a
     // finished temporary file over it would replace the pipe with a plain file.
     use std::os::unix::fs::FileTypeExt;
-    let dir = scratch("fifo");
+    let dir = Scratch::new("fifo");
     let p = write_profile(&dir, "w.toml", WHITE);
     let fifo = dir.join("rig.raw");
     let made = Command::new("mkfifo").arg(&fifo).status();

@@ -14,7 +14,7 @@ const TONES: &str = "[[tone]]\nname = \"pilot\"\nfrequency = \"1 kHz\"\npeak = \
 
 #[test]
 fn manifest_lists_each_tone_with_its_snr_and_enob() {
-    let s = Scratch::new("cli-tone", "manifest");
+    let s = Scratch::new("manifest");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
     let o = run(
         &[
@@ -57,7 +57,7 @@ fn manifest_lists_each_tone_with_its_snr_and_enob() {
 
 #[test]
 fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
-    let s = Scratch::new("cli-tone", "loop");
+    let s = Scratch::new("loop");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
     let o = run(
         &[
@@ -100,7 +100,7 @@ fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
 /// exact sines from sample 0 (pilot starts at its peak, 90 deg), the offset column constant.
 #[test]
 fn source_columns_hold_each_tone_and_the_offset() {
-    let s = Scratch::new("cli-tone", "columns");
+    let s = Scratch::new("columns");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
     let o = run(
         &[
@@ -137,7 +137,7 @@ fn source_columns_hold_each_tone_and_the_offset() {
 /// design, σ_A = σ·√(2/N) for white noise (least-squares sine fit, IEEE Std 1057/1241).
 #[test]
 fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
-    let s = Scratch::new("cli-tone", "analyze");
+    let s = Scratch::new("analyze");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
     let o = run(
         &[
@@ -202,7 +202,7 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
 /// 10·log10(0.5e−6 / 4.999e−9) dB.
 #[test]
 fn budget_lists_each_tone_with_its_snr_and_enob() {
-    let s = Scratch::new("cli-tone", "budget");
+    let s = Scratch::new("budget");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
     let o = run(&["budget", p.to_str().unwrap(), "--json"], &s.dir);
     assert!(o.status.success(), "{}", text(&o.stderr));
@@ -226,7 +226,7 @@ fn budget_lists_each_tone_with_its_snr_and_enob() {
 /// 2^12 here, so the in-band part is Q²/12·(f_H − f_L)/(fs/2).
 #[test]
 fn adc_codes_add_the_quantisation_noise_to_the_snr() {
-    let s = Scratch::new("cli-tone", "adc");
+    let s = Scratch::new("adc");
     let body = format!("{HEAD}{TONES}").replace("offset = \"0.5 mV\"", "offset = \"1.65 V\"");
     let p = s.file("t.toml", &body);
     let o = run(

@@ -2251,7 +2251,7 @@ fn every_error_class_exits_2_names_file_position_and_expectation_and_leaves_no_f
             case.class
         );
         assert!(!case.expect.is_empty(), "{}: no expected text", case.class);
-        let s = Scratch::new("errors", "row");
+        let s = Scratch::new("row");
         for (name, body) in &case.files {
             let p = s.path(name);
             std::fs::create_dir_all(p.parent().unwrap()).unwrap();

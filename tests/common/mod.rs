@@ -5,6 +5,11 @@
 //! Each test binary uses only some of these.
 #![allow(dead_code)]
 
+use std::ffi::OsStr;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+use std::sync::atomic::{AtomicUsize, Ordering};
+
 use noisewright::analysis::welch::BandEstimate;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
 
@@ -198,54 +203,100 @@ pub fn python_script(script: &str, args: &[std::ffi::OsString], context: &str) -
     Some(String::from_utf8_lossy(&out.stdout).into_owned())
 }
 
-/// A fresh folder under the system's temporary folder, unique per process, tag and call,
-/// removed with its contents when dropped.
+/// The folder of one test under the system's temporary folder, named
+/// `noisewright-<test binary>-<pid>-<tag>-<n>` (unique per process, tag and call). It is
+/// removed with its contents when the test passes; when the test panics it is kept for
+/// inspection and its path is printed.
+///
+/// It dereferences to its path, so `s.join(name)` and `&s` as a `&Path` work.
 pub struct Scratch {
     /// The folder.
-    pub dir: std::path::PathBuf,
+    pub dir: PathBuf,
 }
 
 impl Scratch {
-    /// Creates (empties) the folder `noisewright-<prefix>-<pid>-<tag>-<n>`.
-    pub fn new(prefix: &str, tag: &str) -> Scratch {
-        static COUNTER: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
-        let id = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    /// Creates (empties) the folder for `tag`.
+    pub fn new(tag: &str) -> Scratch {
+        static COUNTER: AtomicUsize = AtomicUsize::new(0);
+        let id = COUNTER.fetch_add(1, Ordering::Relaxed);
         let dir = std::env::temp_dir().join(format!(
-            "noisewright-{prefix}-{}-{tag}-{id}",
+            "noisewright-{}-{}-{tag}-{id}",
+            test_binary(),
             std::process::id()
         ));
         let _ = std::fs::remove_dir_all(&dir);
-        std::fs::create_dir_all(&dir).unwrap();
+        std::fs::create_dir_all(&dir)
+            .unwrap_or_else(|e| panic!("cannot create {}: {e}", dir.display()));
         Scratch { dir }
     }
 
     /// A path inside the folder.
-    pub fn path(&self, name: &str) -> std::path::PathBuf {
+    pub fn path(&self, name: &str) -> PathBuf {
         self.dir.join(name)
     }
 
     /// Writes `body` to `name` inside the folder and returns its path.
-    pub fn file(&self, name: &str, body: &str) -> std::path::PathBuf {
+    pub fn file(&self, name: &str, body: &str) -> PathBuf {
         let p = self.path(name);
-        std::fs::write(&p, body).unwrap();
+        std::fs::write(&p, body).unwrap_or_else(|e| panic!("cannot write {}: {e}", p.display()));
         p
+    }
+}
+
+impl std::ops::Deref for Scratch {
+    type Target = Path;
+
+    fn deref(&self) -> &Path {
+        &self.dir
+    }
+}
+
+impl AsRef<Path> for Scratch {
+    fn as_ref(&self) -> &Path {
+        &self.dir
     }
 }
 
 impl Drop for Scratch {
     fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.dir);
+        if std::thread::panicking() {
+            eprintln!(
+                "kept the scratch folder {} for inspection",
+                self.dir.display()
+            );
+        } else {
+            let _ = std::fs::remove_dir_all(&self.dir);
+        }
     }
+}
+
+/// The name of the running test binary without cargo's hash (`cli_generate`), or `test`.
+fn test_binary() -> String {
+    std::env::current_exe()
+        .ok()
+        .and_then(|p| {
+            let stem = p.file_stem()?.to_string_lossy().into_owned();
+            Some(
+                stem.split_once('-')
+                    .map_or(stem.clone(), |(name, _)| name.to_string()),
+            )
+        })
+        .unwrap_or_else(|| "test".into())
+}
+
+/// The noisewright binary built for these tests, ready for arguments.
+pub fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_noisewright"))
 }
 
 /// Runs the noisewright binary with `args` in the folder `cwd` and returns its exit status
 /// and output.
-pub fn run(args: &[&str], cwd: &std::path::Path) -> std::process::Output {
-    std::process::Command::new(env!("CARGO_BIN_EXE_noisewright"))
+pub fn run<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
+    bin()
         .args(args)
         .current_dir(cwd)
         .output()
-        .unwrap()
+        .expect("the noisewright binary runs")
 }
 
 /// Bytes (a program's stdout or stderr) as text, invalid UTF-8 replaced.
