@@ -6,7 +6,7 @@
 
 mod common;
 
-use common::{Scratch, check_bands_against};
+use common::{Scratch, check_bands_against, read_f64, write_f64};
 use noisewright::analysis::compare::expected_band_psd;
 use noisewright::analysis::welch::Welch;
 use noisewright::profile::{Profile, parse_profile};
@@ -174,8 +174,7 @@ fn coherence_of_each_pair_is_the_coefficient_squared_and_matches_scipy() {
     let dir = Scratch::new("white3");
     let inp = dir.path("x.f64");
     let out = dir.path("c.f64");
-    let bytes: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
-    std::fs::write(&inp, bytes).unwrap();
+    write_f64(&inp, &x);
     let args = [
         inp.clone().into_os_string(),
         out.clone().into_os_string(),
@@ -188,11 +187,7 @@ fn coherence_of_each_pair_is_the_coefficient_squared_and_matches_scipy() {
         return;
     };
     println!("{}", stdout.trim());
-    let v: Vec<f64> = std::fs::read(&out)
-        .unwrap()
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect();
+    let v = read_f64(&out);
     let bins = seg / 2 + 1;
     assert_eq!(v.len(), 4 * bins);
     let freqs = &v[..bins];

@@ -4,10 +4,9 @@
 
 mod common;
 
-use std::path::Path;
 use std::process::{Command, Output};
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, read_f64, run, text};
 use noisewright::adc::{Adc, Coding, Dither};
 
 /// White noise of 2 mV/√Hz over 10 Hz – 20 kHz: about 0.3 V RMS, so ±1.65 V holds it (5.6σ)
@@ -49,17 +48,7 @@ fn generate(s: &Scratch, out: &str, extra: &[&str]) -> Output {
 fn physical(s: &Scratch) -> Vec<f64> {
     let o = generate(s, "phys.f64", &[]);
     assert!(o.status.success(), "{}", text(&o.stderr));
-    std::fs::read(s.path("phys.f64"))
-        .unwrap()
-        .chunks_exact(8)
-        .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
-        .collect()
-}
-
-fn manifest(path: &Path) -> serde_json::Value {
-    let mut p = path.as_os_str().to_owned();
-    p.push(".json");
-    serde_json::from_slice(&std::fs::read(p).unwrap()).unwrap()
+    read_f64(&s.path("phys.f64"))
 }
 
 fn codes_of(adc: &Adc, x: &[f64]) -> Vec<i64> {

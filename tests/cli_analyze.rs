@@ -7,7 +7,7 @@ mod common;
 use std::ffi::OsString;
 use std::path::Path;
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, read_f64, run, text, write_f64};
 use noisewright::profile::parse_profile;
 use noisewright::synth::Generator;
 use rand::{RngExt, SeedableRng};
@@ -93,11 +93,6 @@ fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
 }
 
-fn write_f64(path: &Path, x: &[f64]) {
-    let b: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
-    std::fs::write(path, b).unwrap();
-}
-
 fn engine_noise(profile: &str, n: usize, seed: u64) -> Vec<f64> {
     let p = parse_profile(profile, "inline").unwrap();
     let mut g = Generator::new(&p, seed).unwrap();
@@ -163,11 +158,7 @@ fn density_and_statistics_equal_scipy_and_numpy() {
     if common::python_script("welch_ref.py", &args, &format!("seed {SEED}")).is_none() {
         return;
     }
-    let v: Vec<f64> = std::fs::read(&out_path)
-        .unwrap()
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect();
+    let v = read_f64(&out_path);
     let psd = &v[v.len() / 2..];
     let mut start = 3; // analyze's bands start at bin 3
     let bands = j["density"]["bands"].as_array().unwrap();
@@ -527,9 +518,7 @@ fn every_generated_format_reads_back() {
     for sf in ["i16", "i24", "i32", "f32"] {
         let wav = s.path(&format!("w-{sf}.wav"));
         generate(&prof, &wav, &["--samples", &ns, "--sample-format", sf]);
-        let m: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(format!("{}.json", wav.display())).unwrap())
-                .unwrap();
+        let m = manifest(&wav);
         let fsc = num(&m, "full_scale");
         let mut r = hound::WavReader::open(&wav).unwrap();
         let x: Vec<f64> = if sf == "f32" {
@@ -566,9 +555,7 @@ fn every_generated_format_reads_back() {
             extra.extend(["--level", "-20dBFS"]);
         }
         generate(&prof, &raw, &extra);
-        let m: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(format!("{}.json", raw.display())).unwrap())
-                .unwrap();
+        let m = manifest(&raw);
         let fsc = m["full_scale"].as_f64().unwrap_or(1.0);
         let b = std::fs::read(&raw).unwrap();
         let x: Vec<f64> = match sf {
@@ -608,9 +595,7 @@ fn every_generated_format_reads_back() {
         let mut e = vec!["--samples", ns.as_str()];
         e.extend(extra.iter().copied());
         generate(&prof, &csv, &e);
-        let m: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(format!("{}.json", csv.display())).unwrap())
-                .unwrap();
+        let m = manifest(&csv);
         let fsc = m["full_scale"].as_f64().unwrap_or(1.0);
         let body = std::fs::read_to_string(&csv).unwrap();
         let div = if tag == "code" { 8388607.0 } else { 1.0 };

@@ -6,7 +6,7 @@ mod common;
 use std::path::{Path, PathBuf};
 use std::process::Output;
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, read_f64, run, text};
 
 /// `noisewright generate PROFILE ARGS…` in `dir`, which must succeed.
 fn generate(dir: &Path, profile: &Path, args: &[&str]) -> Output {
@@ -87,8 +87,7 @@ fn manifest_and_summary_list_each_burst() {
         &p,
         &["-o", "m.csv", "--samples", "20000", "--columns", "sources"],
     );
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("m.csv.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("m.csv"));
     let bursts = m["extra"]["bursts"].as_array().unwrap();
     assert_eq!(bursts.len(), 2);
     assert_eq!(bursts[0]["name"], "input trap");
@@ -152,11 +151,7 @@ fn a_burst_only_profile_writes_exact_levels() {
         let mut a = vec!["-o", "b.f64"];
         a.extend_from_slice(args);
         generate(&dir, &p, &a);
-        let bytes = std::fs::read(dir.join("b.f64")).unwrap();
-        let x: Vec<f64> = bytes
-            .chunks_exact(8)
-            .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
-            .collect();
+        let x = read_f64(&dir.join("b.f64"));
         assert_eq!(x.len(), 30_000);
         assert!(x.iter().all(|v| *v == -2e-3 || *v == 5e-3));
         assert!(x.contains(&-2e-3) && x.contains(&5e-3));

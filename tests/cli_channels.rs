@@ -6,7 +6,7 @@ mod common;
 
 use std::process::Output;
 
-use common::{Scratch, run};
+use common::{Scratch, manifest, run};
 
 fn profile(channels: &str) -> String {
     format!(
@@ -116,8 +116,7 @@ fn csv_has_one_column_per_channel_and_the_manifest_names_the_channels() {
     assert_eq!(lines[0], "time_s,ch0_value_V,ch1_value_V");
     assert_eq!(lines.len(), 4);
     assert!(lines[2].starts_with("0.000125,"));
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(dir.path("x.csv.json")).unwrap()).unwrap();
+    let m = manifest(&dir.path("x.csv"));
     assert_eq!(m["samples"], 3);
     assert_eq!(m["extra"]["channels"], 2);
     assert_eq!(m["extra"]["correlation"][0][1], 0.25);

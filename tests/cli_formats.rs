@@ -9,7 +9,7 @@ use std::ffi::OsString;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, run, text};
 
 /// Fixed seed of every run in this file (printed in failure messages).
 const SEED: u64 = 20_261_206;
@@ -55,12 +55,6 @@ fn generate(dir: &Scratch, out: &str, extra: &[&str]) -> PathBuf {
         text(&o.stderr)
     );
     dir.path(out)
-}
-
-fn manifest(path: &Path) -> serde_json::Value {
-    let mut p = path.as_os_str().to_owned();
-    p.push(".json");
-    serde_json::from_slice(&std::fs::read(PathBuf::from(p)).unwrap()).unwrap()
 }
 
 /// The manifest's `full_scale` parsed from its text with Rust's correctly rounding parser

@@ -7,7 +7,7 @@ mod common;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use common::{Scratch, WHITE, run, text};
+use common::{Scratch, WHITE, manifest, read_f64, run, text};
 
 fn write_profile(dir: &Path, name: &str, body: &str) -> PathBuf {
     let p = dir.join(name);
@@ -53,9 +53,7 @@ fn every_bundled_profile_generates_a_wav_and_its_manifest() {
         assert!(o.status.success(), "{stem}: {}", text(&o.stderr));
         let reader = hound::WavReader::open(&out).unwrap();
         assert_eq!(reader.len(), 50_000, "{stem}");
-        let manifest: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(dir.join(format!("{stem}.wav.json"))).unwrap())
-                .unwrap();
+        let manifest = manifest(&dir.join(format!("{stem}.wav")));
         assert_eq!(manifest["samples"], 50_000, "{stem}");
         assert_eq!(manifest["seed"], 1, "{stem}");
         assert!(manifest["full_scale"].as_f64().unwrap() > 0.0, "{stem}");
@@ -132,8 +130,7 @@ fn csv_and_raw_carry_physical_units_by_default() {
     // 10 nV/√Hz over ~20 kHz is ~1.4 µV RMS: the values are volts, not normalised.
     let rms = (values.iter().map(|v| v * v).sum::<f64>() / 1000.0).sqrt();
     assert!(rms > 0.5e-6 && rms < 5e-6, "rms {rms}");
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("n.csv.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("n.csv"));
     assert!(m["full_scale"].is_null());
     assert_eq!(m["unit"], "V");
 }
@@ -175,8 +172,7 @@ fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
         &dir,
     );
     assert!(o.status.success(), "{}", text(&o.stderr));
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("c.wav.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("c.wav"));
     assert!(m["clipped"].as_u64().unwrap() > 0);
     assert!(text(&o.stdout).contains("clipped"));
 }
@@ -200,8 +196,7 @@ fn a_rate_change_is_reported_not_silent() {
     );
     assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(text(&o.stdout).contains("replaces the profile's 48 kHz"));
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("r.raw.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("r.raw"));
     assert_eq!(m["sample_rate_hz"], 96_000.0);
     assert!(m["notes"][0].as_str().unwrap().contains("96 kHz"));
 }
@@ -252,19 +247,14 @@ fn loop_writes_one_period_and_says_so() {
         &dir,
     );
     assert!(o.status.success(), "{}", text(&o.stderr));
-    let bytes = std::fs::read(dir.join("l.f64")).unwrap();
-    let x: Vec<f64> = bytes
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect();
+    let x = read_f64(&dir.join("l.f64"));
     assert_eq!(x.len(), 4800);
     // One period of a sum of Fourier-frequency sinusoids with no DC: the mean is zero to
     // rounding (REFERENCES §1.1).
     let mean = x.iter().sum::<f64>() / x.len() as f64;
     let rms = (x.iter().map(|v| v * v).sum::<f64>() / x.len() as f64).sqrt();
     assert!(mean.abs() < 1e-12 * rms, "mean {mean}, rms {rms}");
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("l.f64.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("l.f64"));
     assert_eq!(m["loop"], true);
     assert!(text(&o.stdout).contains("loop buffer"));
 }

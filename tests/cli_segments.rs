@@ -5,7 +5,7 @@ mod common;
 
 use std::path::Path;
 
-use common::{Scratch, run};
+use common::{Scratch, manifest, run};
 
 const SEED: &str = "17";
 
@@ -297,8 +297,7 @@ fn a_start_time_is_its_sample_and_is_recorded() {
         summary.contains("start           sample 120000 (2.5 s)"),
         "{summary}"
     );
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(s.path("t.f64.json")).unwrap()).unwrap();
+    let m = manifest(&s.path("t.f64"));
     assert_eq!(m["start_sample"], 120_000);
     assert_eq!(m["start_s"], 2.5);
     // The CSV's time column is the whole run's: it starts at T.

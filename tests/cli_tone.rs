@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, run, text};
 
 const HEAD: &str = "name = \"cli tones\"\nsample_rate = \"10 kHz\"\noffset = \"0.5 mV\"\n\
                     [band]\nlow = \"1 Hz\"\nhigh = \"5 kHz\"\n[[floor]]\ndensity = \"1 uV/rtHz\"\n";
@@ -34,8 +34,7 @@ fn manifest_lists_each_tone_with_its_snr_and_enob() {
         "{out}"
     );
     assert!(out.contains("offset          500 µV"), "{out}");
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(s.path("t.wav.json")).unwrap()).unwrap();
+    let m = manifest(&s.path("t.wav"));
     let x = &m["extra"];
     assert_eq!(x["offset"], 5e-4);
     // In-band noise of a white floor over a brick-wall band: e·√(f_H − f_L) (REFERENCES §6);
@@ -245,8 +244,7 @@ fn adc_codes_add_the_quantisation_noise_to_the_snr() {
         &s.dir,
     );
     assert!(o.status.success(), "{}", text(&o.stderr));
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(s.path("a.csv.json")).unwrap()).unwrap();
+    let m = manifest(&s.path("a.csv"));
     let x = &m["extra"];
     let noise = x["noise_band_rms"].as_f64().unwrap().powi(2);
     let q = 3.3 / 4096.0;

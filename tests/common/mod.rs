@@ -1,6 +1,7 @@
 //! Shared helpers for the integration tests: χ² acceptance bands for density and variance
 //! estimates, a band-by-band check of a Welch estimate against a designed density, the
-//! Python reference, scratch folders, running the binary, and a white test profile.
+//! Python reference, scratch folders, running the binary, raw f64 files and manifests, and a
+//! white test profile.
 //!
 //! Each test binary uses only some of these.
 #![allow(dead_code)]
@@ -302,6 +303,30 @@ pub fn run<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
 /// Bytes (a program's stdout or stderr) as text, invalid UTF-8 replaced.
 pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
+}
+
+/// Writes `x` as raw little-endian f64 (the `.f64` sample format) to `path`.
+pub fn write_f64(path: &Path, x: &[f64]) {
+    let bytes: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
+    std::fs::write(path, bytes).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
+}
+
+/// The values of a raw little-endian f64 file (the `.f64` sample format).
+pub fn read_f64(path: &Path) -> Vec<f64> {
+    std::fs::read(path)
+        .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()))
+        .chunks_exact(8)
+        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
+        .collect()
+}
+
+/// The JSON manifest written beside the output `path` (`path` + `.json`).
+pub fn manifest(path: &Path) -> serde_json::Value {
+    let mut p = path.as_os_str().to_owned();
+    p.push(".json");
+    let p = PathBuf::from(p);
+    let bytes = std::fs::read(&p).unwrap_or_else(|e| panic!("cannot read {}: {e}", p.display()));
+    serde_json::from_slice(&bytes).unwrap_or_else(|e| panic!("{} is not JSON: {e}", p.display()))
 }
 
 /// A white test profile: a 10 nV/√Hz floor in volts, band 10 Hz – 20 kHz with a brick-wall
