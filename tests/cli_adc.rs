@@ -6,7 +6,7 @@ mod common;
 
 use std::process::{Command, Output};
 
-use common::{Scratch, manifest, read_f64, run, text};
+use common::{Scratch, manifest, read_f64, run, run_ok, text};
 use noisewright::adc::{Adc, Coding, Dither};
 
 /// White noise of 2 mV/√Hz over 10 Hz – 20 kHz: about 0.3 V RMS, so ±1.65 V holds it (5.6σ)
@@ -145,7 +145,7 @@ fn raw_codes_use_the_smallest_container_and_offset_is_twos_plus_half() {
 fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
     let s = Scratch::new("default");
     let p = s.file("bench.toml", WHITE);
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -159,7 +159,6 @@ fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     // 0 V .. 3.3 V defaults to offset binary: u16.
     assert_eq!(std::fs::read(s.path("out/bench.u16")).unwrap().len(), 200);
     assert_eq!(

@@ -5,7 +5,7 @@ mod common;
 
 use std::path::Path;
 
-use common::{Scratch, run, text};
+use common::{Scratch, run_ok, text};
 
 fn bundled(name: &str) -> String {
     Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -35,8 +35,7 @@ temperature = "25 C"
 #[test]
 fn text_report_shows_every_part_the_total_and_the_notes() {
     let dir = Scratch::new("text");
-    let o = run(&["budget", &bundled("line-receiver.toml")], &dir);
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = run_ok(&["budget", &bundled("line-receiver.toml")], &dir);
     let out = text(&o.stdout);
     for needle in [
         "band 10 Hz .. 40 kHz (Butterworth order 2 at 40 kHz, ENBW 1.1107",
@@ -57,8 +56,7 @@ fn text_report_shows_every_part_the_total_and_the_notes() {
     let dir = Scratch::new("worked");
     let p = dir.join("w.toml");
     std::fs::write(&p, WORKED).unwrap();
-    let o = run(&["budget", p.to_str().unwrap()], &dir);
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = run_ok(&["budget", p.to_str().unwrap()], &dir);
     let out = text(&o.stdout);
     assert!(out.contains("  total"), "{out}");
     assert!(out.contains("7.62199 \u{b5}V"), "{out}");
@@ -71,7 +69,7 @@ fn json_has_the_stable_keys_for_every_band() {
     let dir = Scratch::new("json");
     let p = dir.join("w.toml");
     std::fs::write(&p, WORKED).unwrap();
-    let o = run(
+    let o = run_ok(
         &[
             "budget",
             p.to_str().unwrap(),
@@ -83,7 +81,6 @@ fn json_has_the_stable_keys_for_every_band() {
         ],
         &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let bands = j["bands"].as_array().unwrap();
     assert_eq!(bands.len(), 2);
@@ -123,7 +120,7 @@ fn json_has_the_stable_keys_for_every_band() {
 fn plot_writes_an_svg_with_every_source_and_the_band_edges() {
     let dir = Scratch::new("plot");
     let svg = dir.join("budget.svg");
-    let o = run(
+    run_ok(
         &[
             "budget",
             &bundled("line-receiver.toml"),
@@ -132,7 +129,6 @@ fn plot_writes_an_svg_with_every_source_and_the_band_edges() {
         ],
         &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let s = std::fs::read_to_string(&svg).unwrap();
     assert!(s.starts_with("<svg"));
     for needle in [

@@ -9,7 +9,7 @@ use std::ffi::OsString;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
-use common::{Scratch, manifest, run, text};
+use common::{Scratch, manifest, run, run_ok, text};
 
 /// Fixed seed of every run in this file (printed in failure messages).
 const SEED: u64 = 20_261_206;
@@ -372,8 +372,7 @@ fn analyze_reads_rf64_like_the_same_riff_file() {
     std::fs::write(&rf64, &r).unwrap();
     std::fs::copy(dir.path("r.wav.json"), dir.path("r64.wav.json")).unwrap();
     let json = |p: &Path| -> serde_json::Value {
-        let o = run(&["analyze", p.to_str().unwrap(), "--json"], &dir);
-        assert!(o.status.success(), "{}", text(&o.stderr));
+        let o = run_ok(&["analyze", p.to_str().unwrap(), "--json"], &dir);
         serde_json::from_slice(&o.stdout).unwrap()
     };
     let (a, b) = (json(&riff), json(&rf64));

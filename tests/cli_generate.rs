@@ -4,26 +4,18 @@
 
 mod common;
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+use std::path::Path;
+use std::process::{Command, Output};
 
-use common::{Scratch, WHITE, manifest, read_f64, run, text};
+use common::{Scratch, WHITE, manifest, outputs, read_f64, run, run_ok, text};
 
-fn write_profile(dir: &Path, name: &str, body: &str) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, body).unwrap();
-    p
-}
-
-/// Files in `dir` other than the profiles we put there.
-fn outputs(dir: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .filter(|n| !n.ends_with(".toml"))
-        .collect();
-    v.sort();
-    v
+/// `generate PROFILE ARGS…` in `dir` on [`WHITE`], written there as `w.toml`; it must
+/// succeed.
+fn generate_white(dir: &Scratch, args: &[&str]) -> Output {
+    let p = dir.file("w.toml", WHITE);
+    let mut all = vec!["generate", p.to_str().unwrap()];
+    all.extend_from_slice(args);
+    run_ok(&all, dir)
 }
 
 #[test]
@@ -67,12 +59,11 @@ fn every_bundled_profile_generates_a_wav_and_its_manifest() {
 #[test]
 fn default_output_goes_to_out_folder_named_after_the_profile() {
     let dir = Scratch::new("default-out");
-    let p = write_profile(&dir, "bench.toml", WHITE);
-    let o = run(
+    let p = dir.file("bench.toml", WHITE);
+    run_ok(
         &["generate", p.to_str().unwrap(), "--duration", "0.1s"],
         &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(dir.join("out/bench.wav").is_file());
     assert!(dir.join("out/bench.wav.json").is_file());
 }
@@ -80,23 +71,9 @@ fn default_output_goes_to_out_folder_named_after_the_profile() {
 #[test]
 fn same_seed_same_bytes_other_seed_other_bytes() {
     let dir = Scratch::new("determinism");
-    let p = write_profile(&dir, "w.toml", WHITE);
     let mut files = Vec::new();
     for (name, seed) in [("a.raw", "5"), ("b.raw", "5"), ("c.raw", "6")] {
-        let o = run(
-            &[
-                "generate",
-                p.to_str().unwrap(),
-                "-o",
-                name,
-                "--seed",
-                seed,
-                "--samples",
-                "30000",
-            ],
-            &dir,
-        );
-        assert!(o.status.success(), "{}", text(&o.stderr));
+        generate_white(&dir, &["-o", name, "--seed", seed, "--samples", "30000"]);
         files.push(std::fs::read(dir.join(name)).unwrap());
     }
     assert_eq!(files[0].len(), 30_000 * 4);
@@ -107,19 +84,7 @@ fn same_seed_same_bytes_other_seed_other_bytes() {
 #[test]
 fn csv_and_raw_carry_physical_units_by_default() {
     let dir = Scratch::new("physical");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "n.csv",
-            "--samples",
-            "1000",
-        ],
-        &dir,
-    );
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    generate_white(&dir, &["-o", "n.csv", "--samples", "1000"]);
     let csv = std::fs::read_to_string(dir.join("n.csv")).unwrap();
     let mut lines = csv.lines();
     assert!(lines.next().unwrap().contains("time_s"));
@@ -138,40 +103,28 @@ fn csv_and_raw_carry_physical_units_by_default() {
 #[test]
 fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
     let dir = Scratch::new("clip");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "c.wav",
-            "--full-scale",
-            "1uV",
-            "--samples",
-            "20000",
-        ],
-        &dir,
-    );
+    let p = dir.file("w.toml", WHITE);
+    let args = [
+        "generate",
+        p.to_str().unwrap(),
+        "-o",
+        "c.wav",
+        "--full-scale",
+        "1uV",
+        "--samples",
+        "20000",
+    ];
+    let o = run(&args, &dir);
     assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
     let err = text(&o.stderr);
     assert!(err.contains("full scale of at least"), "{err}");
-    assert!(outputs(&dir).is_empty(), "left behind: {:?}", outputs(&dir));
-
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "c.wav",
-            "--full-scale",
-            "1uV",
-            "--samples",
-            "20000",
-            "--allow-clipping",
-        ],
-        &dir,
+    assert!(
+        outputs(&dir, &[]).is_empty(),
+        "left behind: {:?}",
+        outputs(&dir, &[])
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
+
+    let o = run_ok(&[&args[..], &["--allow-clipping"]].concat(), &dir);
     let m = manifest(&dir.join("c.wav"));
     assert!(m["clipped"].as_u64().unwrap() > 0);
     assert!(text(&o.stdout).contains("clipped"));
@@ -180,21 +133,10 @@ fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
 #[test]
 fn a_rate_change_is_reported_not_silent() {
     let dir = Scratch::new("rate");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "r.raw",
-            "--rate",
-            "96 kHz",
-            "--samples",
-            "1000",
-        ],
+    let o = generate_white(
         &dir,
+        &["-o", "r.raw", "--rate", "96 kHz", "--samples", "1000"],
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(text(&o.stdout).contains("replaces the profile's 48 kHz"));
     let m = manifest(&dir.join("r.raw"));
     assert_eq!(m["sample_rate_hz"], 96_000.0);
@@ -206,11 +148,9 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
     // 16 bits at a full scale of 1 V: Q/√(6 fs) ≈ 62 nV/√Hz, far above 10 nV/√Hz
     // (uniform quantisation error model, IEEE Std 1241; REFERENCES §9).
     let dir = Scratch::new("quant");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
+    let o = generate_white(
+        &dir,
         &[
-            "generate",
-            p.to_str().unwrap(),
             "-o",
             "q.wav",
             "--sample-format",
@@ -220,9 +160,7 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
             "--samples",
             "1000",
         ],
-        &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(
         text(&o.stdout).contains("quantisation noise"),
         "{}",
@@ -233,20 +171,7 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
 #[test]
 fn loop_writes_one_period_and_says_so() {
     let dir = Scratch::new("loop");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "--loop",
-            "-o",
-            "l.f64",
-            "--samples",
-            "4800",
-        ],
-        &dir,
-    );
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = generate_white(&dir, &["--loop", "-o", "l.f64", "--samples", "4800"]);
     let x = read_f64(&dir.join("l.f64"));
     assert_eq!(x.len(), 4800);
     // One period of a sum of Fourier-frequency sinusoids with no DC: the mean is zero to
@@ -264,8 +189,7 @@ fn thread_count_does_not_change_the_bytes() {
     // Several pyramid levels (1/f down to 0.5 Hz) and several batches of the top level, so
     // every level's work is split between threads.
     let dir = Scratch::new("threads");
-    let p = write_profile(
-        &dir,
+    let p = dir.file(
         "f.toml",
         r#"
 name = "cli threads"
@@ -282,7 +206,7 @@ corner = "100 Hz"
     let mut files = Vec::new();
     for threads in ["1", "2", "3"] {
         let name = format!("t{threads}.raw");
-        let o = run(
+        run_ok(
             &[
                 "generate",
                 p.to_str().unwrap(),
@@ -296,7 +220,6 @@ corner = "100 Hz"
             ],
             &dir,
         );
-        assert!(o.status.success(), "{}", text(&o.stderr));
         files.push(std::fs::read(dir.join(&name)).unwrap());
     }
     assert_eq!(files[0].len(), 200_000 * 4);
@@ -310,7 +233,7 @@ fn a_named_pipe_gets_the_samples_in_place_and_no_manifest_beside_it() {
     // finished temporary file over it would replace the pipe with a plain file.
     use std::os::unix::fs::FileTypeExt;
     let dir = Scratch::new("fifo");
-    let p = write_profile(&dir, "w.toml", WHITE);
+    let p = dir.file("w.toml", WHITE);
     let fifo = dir.join("rig.raw");
     let made = Command::new("mkfifo").arg(&fifo).status();
     if !made.is_ok_and(|s| s.success()) {
@@ -332,7 +255,7 @@ fn a_named_pipe_gets_the_samples_in_place_and_no_manifest_beside_it() {
     assert!(std::fs::metadata(&fifo).unwrap().file_type().is_fifo());
     let piped = reader.join().unwrap();
     assert!(text(&out.stdout).contains("no manifest: rig.raw is a device or pipe"));
-    assert_eq!(outputs(&dir), ["rig.raw"], "nothing beside the pipe");
+    assert_eq!(outputs(&dir, &[]), ["rig.raw"], "nothing beside the pipe");
     let file = run(
         &[&["generate", ps, "-o", "file.raw"][..], &args[..]].concat(),
         &dir,

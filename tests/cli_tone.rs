@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{Scratch, manifest, run, text};
+use common::{Scratch, manifest, run, run_ok, text};
 
 const HEAD: &str = "name = \"cli tones\"\nsample_rate = \"10 kHz\"\noffset = \"0.5 mV\"\n\
                     [band]\nlow = \"1 Hz\"\nhigh = \"5 kHz\"\n[[floor]]\ndensity = \"1 uV/rtHz\"\n";
@@ -16,7 +16,7 @@ const TONES: &str = "[[tone]]\nname = \"pilot\"\nfrequency = \"1 kHz\"\npeak = \
 fn manifest_lists_each_tone_with_its_snr_and_enob() {
     let s = Scratch::new("manifest");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(
+    let o = run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -27,7 +27,6 @@ fn manifest_lists_each_tone_with_its_snr_and_enob() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let out = text(&o.stdout);
     assert!(
         out.contains("tone            pilot: 1 kHz, 1 mV peak"),
@@ -80,7 +79,7 @@ fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
         "{e}"
     );
     assert!(!s.path("l.wav").exists() && !s.path("l.wav.json").exists());
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -92,7 +91,6 @@ fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
 }
 
 /// The per-source CSV: a column per tone and one for the offset; the tone columns are the
@@ -101,7 +99,7 @@ fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
 fn source_columns_hold_each_tone_and_the_offset() {
     let s = Scratch::new("columns");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -114,7 +112,6 @@ fn source_columns_hold_each_tone_and_the_offset() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let csv = std::fs::read_to_string(s.path("c.csv")).unwrap();
     let mut lines = csv.lines();
     assert_eq!(
@@ -138,7 +135,7 @@ fn source_columns_hold_each_tone_and_the_offset() {
 fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
     let s = Scratch::new("analyze");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -151,7 +148,6 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let o = run(
         &[
             "analyze",
@@ -203,8 +199,7 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
 fn budget_lists_each_tone_with_its_snr_and_enob() {
     let s = Scratch::new("budget");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(&["budget", p.to_str().unwrap(), "--json"], &s.dir);
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = run_ok(&["budget", p.to_str().unwrap(), "--json"], &s.dir);
     let j: serde_json::Value = serde_json::from_str(&text(&o.stdout)).unwrap();
     let t = &j["bands"][0]["tones"][0];
     let want = 10.0 * (0.5e-6f64 / (1e-12 * 4999.0)).log10();
@@ -228,7 +223,7 @@ fn adc_codes_add_the_quantisation_noise_to_the_snr() {
     let s = Scratch::new("adc");
     let body = format!("{HEAD}{TONES}").replace("offset = \"0.5 mV\"", "offset = \"1.65 V\"");
     let p = s.file("t.toml", &body);
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -243,7 +238,6 @@ fn adc_codes_add_the_quantisation_noise_to_the_snr() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let m = manifest(&s.path("a.csv"));
     let x = &m["extra"];
     let noise = x["noise_band_rms"].as_f64().unwrap().powi(2);

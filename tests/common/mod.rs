@@ -300,9 +300,38 @@ pub fn run<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
         .expect("the noisewright binary runs")
 }
 
+/// [`run`], which must succeed: panics with the command line, the exit status and stderr
+/// otherwise.
+pub fn run_ok<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
+    let o = run(args, cwd);
+    assert!(
+        o.status.success(),
+        "noisewright {} failed ({}): {}",
+        args.iter()
+            .map(|a| a.as_ref().to_string_lossy())
+            .collect::<Vec<_>>()
+            .join(" "),
+        o.status,
+        text(&o.stderr)
+    );
+    o
+}
+
 /// Bytes (a program's stdout or stderr) as text, invalid UTF-8 replaced.
 pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
+}
+
+/// Names in the folder `dir` other than the profiles (`*.toml`) and the names in `keep`,
+/// sorted: what a run left there.
+pub fn outputs(dir: &Path, keep: &[&str]) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap_or_else(|e| panic!("cannot list {}: {e}", dir.display()))
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| !n.ends_with(".toml") && !keep.contains(&n.as_str()))
+        .collect();
+    v.sort();
+    v
 }
 
 /// Writes `x` as raw little-endian f64 (the `.f64` sample format) to `path`.
