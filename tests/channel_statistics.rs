@@ -6,18 +6,13 @@
 
 mod common;
 
-use common::{Scratch, check_bands_against, read_f64, write_f64};
+use common::{Scratch, check_bands_against, profile, read_f64, write_f64};
 use noisewright::analysis::compare::expected_band_psd;
 use noisewright::analysis::welch::Welch;
-use noisewright::profile::{Profile, parse_profile};
 use noisewright::synth::{ChannelGenerator, Generator};
 
 /// z for a two-sided normal tail probability of 1e−7 (|z| > 5.327 has p = 1e−7).
 const Z_1E7: f64 = 5.327;
-
-fn profile(text: &str) -> Profile {
-    parse_profile(text, "<test>").unwrap()
-}
 
 /// An effectively white profile: a flat floor from 0.5 Hz to fs/2 with a brick wall, so
 /// samples a lag apart are correlated by less than 1e−4 (the band misses 1e−5 of the

@@ -322,6 +322,12 @@ pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
 }
 
+/// A test profile from its TOML text, which must parse (errors name the file `<test>`).
+pub fn profile(text: &str) -> noisewright::profile::Profile {
+    noisewright::profile::parse_profile(text, "<test>")
+        .unwrap_or_else(|e| panic!("the test profile does not parse: {e}"))
+}
+
 /// Names in the folder `dir` other than the profiles (`*.toml`) and the names in `keep`,
 /// sorted: what a run left there.
 pub fn outputs(dir: &Path, keep: &[&str]) -> Vec<String> {
