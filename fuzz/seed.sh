@@ -1,7 +1,7 @@
 #!/bin/sh
 # Rebuilds the seed corpora in fuzz/corpus/ (not committed): the bundled profiles, and small
 # captures made by the project's own `generate`, each behind the selector byte the `capture`
-# target reads (0/1 WAV, 2/3 CSV, 4 manifest JSON, 21 raw i16; see fuzz_targets/capture.rs),
+# target reads (0/1 WAV, 2/3 CSV, 4 manifest JSON, 21 raw i16; see fuzz/harness.rs),
 # and the same captures behind the extension and options bytes the `analyze` target reads
 # (with and without its profile, the fit, pictures, and a manifest; see fuzz_targets/analyze.rs).
 set -e

@@ -8,16 +8,12 @@
 
 mod common;
 
-use common::{check_bands_against, chi2_band};
+use common::{check_bands_against, chi2_band, profile};
 use noisewright::analysis::welch::{BandEstimate, Spectrum, welch};
 use noisewright::model::burst::BurstModel;
-use noisewright::profile::{Burst, BurstSampling, Profile, parse_profile};
+use noisewright::profile::{Burst, BurstSampling};
 use noisewright::synth::Generator;
 use statrs::distribution::{ContinuousCDF, Normal};
-
-fn profile(text: &str) -> Profile {
-    parse_profile(text, "<test>").unwrap()
-}
 
 /// Two-sided standard-normal quantile: |Z| > z has probability `p`.
 fn z_two_sided(p: f64) -> f64 {
@@ -37,7 +33,8 @@ const THREE_LEVEL: &str = r#"
     next = [[0, 0.7, 0.3], [1, 0, 0], [0.5, 0.5, 0]]
 "#;
 
-fn run(g: &mut Generator, n: usize) -> Vec<f64> {
+/// The next `n` samples of `g`, filled in blocks of 65 536.
+fn samples(g: &mut Generator, n: usize) -> Vec<f64> {
     let mut x = vec![0.0; n];
     for chunk in x.chunks_mut(65_536) {
         g.fill(chunk);
@@ -94,7 +91,7 @@ fn occupancy_dwell_and_jumps_of_a_long_run_are_within_their_bounds() {
     let p = profile(THREE_LEVEL);
     let mut g = Generator::new(&p, SEED).unwrap();
     let n = 20_000_000; // 2000 s, about 170 000 jumps
-    let x = run(&mut g, n);
+    let x = samples(&mut g, n);
     let m = g.bursts()[0].clone();
     let b = m.burst().clone();
     let fs = p.sample_rate_hz;
@@ -168,7 +165,7 @@ const SEGMENTS: usize = 400;
 /// bin 3 (outside DC's Hann main lobe, REFERENCES §3) to below Nyquist.
 fn welch_bins(g: &mut Generator) -> (Spectrum, Vec<BandEstimate>) {
     let fs = g.design().sample_rate_hz();
-    let spec = welch(&run(g, SEG / 2 * (SEGMENTS + 1)), SEG, fs);
+    let spec = welch(&samples(g, SEG / 2 * (SEGMENTS + 1)), SEG, fs);
     assert_eq!(spec.segments, SEGMENTS);
     let bands: Vec<BandEstimate> = spec
         .bands(3, 1)
@@ -285,7 +282,7 @@ fn bursts_plus_gaussian_noise_show_a_mode_at_every_level() {
     let p = profile(text);
     let mut g = Generator::new(&p, SEED).unwrap();
     let n = 4_000_000;
-    let x = run(&mut g, n);
+    let x = samples(&mut g, n);
     let sigma = g.design().variance().sqrt(); // ≈ 0.32 µV
     let levels = p.bursts[0].levels.clone();
     let has_modes = |x: &[f64]| -> Vec<bool> {
@@ -332,7 +329,7 @@ fn bursts_plus_gaussian_noise_show_a_mode_at_every_level() {
     );
     // Negative control: Gaussian noise alone has its only mode at 0 V.
     let gauss_only = profile(&text[..text.find("[[burst]]").unwrap()]);
-    let y = run(&mut Generator::new(&gauss_only, SEED).unwrap(), n);
+    let y = samples(&mut Generator::new(&gauss_only, SEED).unwrap(), n);
     assert_eq!(has_modes(&y), [true, false, false], "seed {SEED}");
     // Mean: the burst's DC level within the CLT bound √(S(0)·fs/2N) of the burst (common
     // practice, as for the occupancy); the Gaussian part has no density at DC (the band starts
@@ -381,7 +378,7 @@ fn bursts_are_deterministic_split_independent_and_pinned() {
     ) + "    [[burst]]\n    levels = [\"-1 uV\", \"1 uV\"]\n    dwell = [\"1 ms\", \"3 ms\"]\n    sampling = \"mean\"\n";
     let p = profile(&text);
     let n = 300_000;
-    let a = run(&mut Generator::new(&p, 7).unwrap(), n);
+    let a = samples(&mut Generator::new(&p, 7).unwrap(), n);
     let mut g = Generator::new(&p, 7).unwrap();
     let mut b = vec![0.0; n];
     let mut parts = vec![Vec::new(); 3];
@@ -402,11 +399,11 @@ fn bursts_are_deterministic_split_independent_and_pinned() {
         a, b,
         "split or per-source filling changed the output (seed 7)"
     );
-    let c = run(&mut Generator::new(&p, 8).unwrap(), n);
+    let c = samples(&mut Generator::new(&p, 8).unwrap(), n);
     assert_ne!(a, c);
     // FNV-1a over the f64 bits of a burst-only stream.
     let only = profile(THREE_LEVEL);
-    let x = run(&mut Generator::new(&only, 7).unwrap(), 1_000_000);
+    let x = samples(&mut Generator::new(&only, 7).unwrap(), 1_000_000);
     let mut h: u64 = 0xcbf2_9ce4_8422_2325;
     for v in &x {
         for byte in v.to_bits().to_le_bytes() {

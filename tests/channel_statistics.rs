@@ -6,18 +6,13 @@
 
 mod common;
 
-use common::{Scratch, check_bands_against};
+use common::{Scratch, check_bands_against, profile, read_f64, write_f64};
 use noisewright::analysis::compare::expected_band_psd;
 use noisewright::analysis::welch::Welch;
-use noisewright::profile::{Profile, parse_profile};
 use noisewright::synth::{ChannelGenerator, Generator};
 
 /// z for a two-sided normal tail probability of 1e−7 (|z| > 5.327 has p = 1e−7).
 const Z_1E7: f64 = 5.327;
-
-fn profile(text: &str) -> Profile {
-    parse_profile(text, "<test>").unwrap()
-}
 
 /// An effectively white profile: a flat floor from 0.5 Hz to fs/2 with a brick wall, so
 /// samples a lag apart are correlated by less than 1e−4 (the band misses 1e−5 of the
@@ -171,11 +166,10 @@ fn coherence_of_each_pair_is_the_coefficient_squared_and_matches_scipy() {
     let segments = 256;
     let n = seg / 2 * (segments + 1);
     let x = frames(&mut g, n);
-    let dir = Scratch::new("coherence", "white3");
+    let dir = Scratch::new("white3");
     let inp = dir.path("x.f64");
     let out = dir.path("c.f64");
-    let bytes: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
-    std::fs::write(&inp, bytes).unwrap();
+    write_f64(&inp, &x);
     let args = [
         inp.clone().into_os_string(),
         out.clone().into_os_string(),
@@ -188,11 +182,7 @@ fn coherence_of_each_pair_is_the_coefficient_squared_and_matches_scipy() {
         return;
     };
     println!("{}", stdout.trim());
-    let v: Vec<f64> = std::fs::read(&out)
-        .unwrap()
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect();
+    let v = read_f64(&out);
     let bins = seg / 2 + 1;
     assert_eq!(v.len(), 4 * bins);
     let freqs = &v[..bins];

@@ -4,10 +4,9 @@
 
 mod common;
 
-use std::path::Path;
 use std::process::{Command, Output};
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, read_f64, run, run_ok, text};
 use noisewright::io::adc::{Adc, Coding, Dither};
 
 /// White noise of 2 mV/√Hz over 10 Hz – 20 kHz: about 0.3 V RMS, so ±1.65 V holds it (5.6σ)
@@ -49,17 +48,7 @@ fn generate(s: &Scratch, out: &str, extra: &[&str]) -> Output {
 fn physical(s: &Scratch) -> Vec<f64> {
     let o = generate(s, "phys.f64", &[]);
     assert!(o.status.success(), "{}", text(&o.stderr));
-    std::fs::read(s.path("phys.f64"))
-        .unwrap()
-        .chunks_exact(8)
-        .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
-        .collect()
-}
-
-fn manifest(path: &Path) -> serde_json::Value {
-    let mut p = path.as_os_str().to_owned();
-    p.push(".json");
-    serde_json::from_slice(&std::fs::read(p).unwrap()).unwrap()
+    read_f64(&s.path("phys.f64"))
 }
 
 fn codes_of(adc: &Adc, x: &[f64]) -> Vec<i64> {
@@ -72,7 +61,7 @@ fn codes_of(adc: &Adc, x: &[f64]) -> Vec<i64> {
 /// noise density Q/√(6·fs) (REFERENCES §9).
 #[test]
 fn csv_holds_twos_codes_and_the_manifest_records_the_converter() {
-    let s = Scratch::new("adc", "csv");
+    let s = Scratch::new("csv");
     let x = physical(&s);
     let o = generate(&s, "a.csv", &["--bits", "12", "--range", "-1.65V..1.65V"]);
     assert!(o.status.success(), "{}", text(&o.stderr));
@@ -113,7 +102,7 @@ fn csv_holds_twos_codes_and_the_manifest_records_the_converter() {
 /// 8 bits), and offset codes are the twos codes plus 2^(N−1), sample for sample.
 #[test]
 fn raw_codes_use_the_smallest_container_and_offset_is_twos_plus_half() {
-    let s = Scratch::new("adc", "raw");
+    let s = Scratch::new("raw");
     let range = ["--range", "-1.65V..1.65V"];
     let twos = generate(&s, "t.i16", &[&["--bits", "12"][..], &range].concat());
     assert!(twos.status.success(), "{}", text(&twos.stderr));
@@ -154,9 +143,9 @@ fn raw_codes_use_the_smallest_container_and_offset_is_twos_plus_half() {
 
 #[test]
 fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
-    let s = Scratch::new("adc", "default");
+    let s = Scratch::new("default");
     let p = s.file("bench.toml", WHITE);
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -170,7 +159,6 @@ fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     // 0 V .. 3.3 V defaults to offset binary: u16.
     assert_eq!(std::fs::read(s.path("out/bench.u16")).unwrap().len(), 200);
     assert_eq!(
@@ -184,7 +172,7 @@ fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
 /// noise Q/2 RMS, density Q/√(2·fs) (REFERENCES §9).
 #[test]
 fn dithered_codes_are_reproducible_and_within_one_code_of_the_plain_ones() {
-    let s = Scratch::new("adc", "dither");
+    let s = Scratch::new("dither");
     let args = ["--bits", "12", "--range", "-1.65V..1.65V"];
     let d = [&args[..], &["--dither", "tpdf"]].concat();
     for (name, extra) in [("a.i16", &d), ("b.i16", &d), ("c.i16", &args.to_vec())] {
@@ -216,7 +204,7 @@ fn dithered_codes_are_reproducible_and_within_one_code_of_the_plain_ones() {
 /// outside the range) is in the manifest and the summary.
 #[test]
 fn samples_outside_the_range_are_counted_and_refused_unless_allowed() {
-    let s = Scratch::new("adc", "clip");
+    let s = Scratch::new("clip");
     let x = physical(&s);
     let outside = x.iter().filter(|v| v.abs() > 0.5).count();
     assert!(outside > 100, "seed {SEED}");
@@ -260,7 +248,7 @@ fn samples_outside_the_range_are_counted_and_refused_unless_allowed() {
 /// 665 µV/√Hz with TPDF dither (9.6 dB: a note), REFERENCES §9.
 #[test]
 fn the_floor_note_counts_the_dither() {
-    let s = Scratch::new("adc", "note");
+    let s = Scratch::new("note");
     let args = ["--bits", "4", "--range", "-1.65V..1.65V"];
     let plain = generate(&s, "p.csv", &args);
     assert!(plain.status.success(), "{}", text(&plain.stderr));
@@ -287,7 +275,7 @@ fn the_floor_note_counts_the_dither() {
 /// within the uniform error's 1e−6 bound (REFERENCES §9).
 #[test]
 fn numpy_reads_the_codes_and_agrees_with_the_documented_rule() {
-    let s = Scratch::new("adc", "numpy");
+    let s = Scratch::new("numpy");
     physical(&s);
     for (out, extra) in [
         ("t.i16", &["--bits", "12"][..]),
@@ -324,7 +312,7 @@ fn numpy_reads_the_codes_and_agrees_with_the_documented_rule() {
 /// holds the same numbers with the container's `<stdint.h>` type and the level macros.
 #[test]
 fn npy_and_c_arrays_hold_the_raw_codes() {
-    let s = Scratch::new("adc", "arrays");
+    let s = Scratch::new("arrays");
     for (bits, coding, raw, descr, ctype) in [
         ("12", "twos", "a.i16", "'<i2'", "int16_t"),
         ("8", "offset", "a.u8", "'|u1'", "uint8_t"),
@@ -382,7 +370,7 @@ fn adc_c_header_compiles_and_holds_the_codes() {
         println!("skipped: no C compiler (cc or $CC) was found to compile the header");
         return;
     }
-    let s = Scratch::new("adc", "cc");
+    let s = Scratch::new("cc");
     for (i, (bits, coding, raw, ctype)) in [
         ("32", "twos", "r.i32", "int32_t"),
         ("32", "offset", "r.u32", "uint32_t"),

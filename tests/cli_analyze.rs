@@ -6,9 +6,8 @@ mod common;
 
 use std::ffi::OsString;
 use std::path::Path;
-use std::process::{Command, Output};
 
-use common::{Scratch, text};
+use common::{Scratch, manifest, read_f64, run, text, write_f64};
 use noisewright::profile::parse_profile;
 use noisewright::synth::Generator;
 use rand::{RngExt, SeedableRng};
@@ -49,22 +48,12 @@ corner = "300 Hz"
 slope = 1.4
 "#;
 
-fn scratch(tag: &str) -> Scratch {
-    Scratch::new("analyze", tag)
-}
-
-fn nw(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .output()
-        .expect("the noisewright binary runs")
-}
-
 fn os(s: &str) -> OsString {
     OsString::from(s)
 }
 
-/// `generate PROFILE -o OUT --seed SEED -q EXTRA…`; panics with stderr on failure.
+/// `generate PROFILE -o OUT --seed SEED -q EXTRA…` in OUT's folder; panics with stderr on
+/// failure.
 fn generate(profile: &Path, out: &Path, extra: &[&str]) {
     let mut a: Vec<OsString> = vec![
         os("generate"),
@@ -76,8 +65,7 @@ fn generate(profile: &Path, out: &Path, extra: &[&str]) {
         os("-q"),
     ];
     a.extend(extra.iter().map(|s| os(s)));
-    let refs: Vec<&std::ffi::OsStr> = a.iter().map(|s| s.as_os_str()).collect();
-    let o = nw(&refs);
+    let o = run(&a, out.parent().expect("OUT is in a folder"));
     assert!(
         o.status.success(),
         "generate {extra:?}: {} (seed {SEED})",
@@ -85,12 +73,11 @@ fn generate(profile: &Path, out: &Path, extra: &[&str]) {
     );
 }
 
-/// `analyze FILE --json EXTRA…` → (exit code, JSON, stderr).
+/// `analyze FILE --json EXTRA…` in FILE's folder → (exit code, JSON, stderr).
 fn analyze(file: &Path, extra: &[&str]) -> (i32, serde_json::Value, String) {
     let mut a: Vec<OsString> = vec![os("analyze"), file.into(), os("--json")];
     a.extend(extra.iter().map(|s| os(s)));
-    let refs: Vec<&std::ffi::OsStr> = a.iter().map(|s| s.as_os_str()).collect();
-    let o = nw(&refs);
+    let o = run(&a, file.parent().expect("FILE is in a folder"));
     let code = o.status.code().unwrap_or(-1);
     let v = serde_json::from_slice(&o.stdout).unwrap_or(serde_json::Value::Null);
     (code, v, text(&o.stderr))
@@ -104,11 +91,6 @@ fn num(v: &serde_json::Value, key: &str) -> f64 {
 
 fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
-}
-
-fn write_f64(path: &Path, x: &[f64]) {
-    let b: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
-    std::fs::write(path, b).unwrap();
 }
 
 fn engine_noise(profile: &str, n: usize, seed: u64) -> Vec<f64> {
@@ -128,7 +110,7 @@ fn engine_noise(profile: &str, n: usize, seed: u64) -> Vec<f64> {
 /// (REFERENCES §8, common practice) holds with a DC offset of 3σ.
 #[test]
 fn density_and_statistics_equal_scipy_and_numpy() {
-    let s = scratch("ref");
+    let s = Scratch::new("ref");
     let mut x = engine_noise(FLICKER, 1 << 18, SEED);
     let dc = 3.0 * 1.5e-6;
     x.iter_mut().for_each(|v| *v += dc);
@@ -176,11 +158,7 @@ fn density_and_statistics_equal_scipy_and_numpy() {
     if common::python_script("welch_ref.py", &args, &format!("seed {SEED}")).is_none() {
         return;
     }
-    let v: Vec<f64> = std::fs::read(&out_path)
-        .unwrap()
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect();
+    let v = read_f64(&out_path);
     let psd = &v[v.len() / 2..];
     let mut start = 3; // analyze's bands start at bin 3
     let bands = j["density"]["bands"].as_array().unwrap();
@@ -209,7 +187,7 @@ fn density_and_statistics_equal_scipy_and_numpy() {
 /// REFERENCES §3), −2 dB is outside them.
 #[test]
 fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
-    let s = scratch("verdict");
+    let s = Scratch::new("verdict");
     for (name, body) in [("white", WHITE), ("flicker", FLICKER)] {
         let prof = s.file(&format!("{name}.toml"), body);
         let higher = body.replace(
@@ -248,12 +226,10 @@ fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
         let (code, _, _) = analyze(&wav, &["--profile", hi_path, "--tolerance", "1.5 dB"]);
         assert_eq!(code, 1, "{name}: 1.5 dB tolerance (seed {SEED})");
         // The text form says the same.
-        let o = nw(&[
-            os("analyze").as_os_str(),
-            wav.as_os_str(),
-            os("--profile").as_os_str(),
-            prof.as_os_str(),
-        ]);
+        let o = run(
+            &[os("analyze"), wav.into(), os("--profile"), prof.into()],
+            &s,
+        );
         assert!(o.status.success());
         assert!(
             text(&o.stdout).contains("verdict         PASS"),
@@ -268,7 +244,7 @@ fn generated_files_pass_their_profile_and_fail_one_2_db_higher() {
 /// against the same profile without the burst (negative control).
 #[test]
 fn a_burst_profile_is_judged_against_its_whole_design() {
-    let s = scratch("burst-verdict");
+    let s = Scratch::new("burst-verdict");
     let body = std::fs::read_to_string(concat!(
         env!("CARGO_MANIFEST_DIR"),
         "/profiles/popcorn-opamp.toml"
@@ -294,7 +270,7 @@ fn a_burst_profile_is_judged_against_its_whole_design() {
 /// corner near 1 kHz.
 #[test]
 fn the_fit_sees_the_floor_under_detected_bursts() {
-    let s = scratch("fit-burst");
+    let s = Scratch::new("fit-burst");
     let prof = s.file(
         "bb.toml",
         "sample_rate = \"10 kHz\"\n[band]\nlow = 1\nhigh = 4000\n[[floor]]\n\
@@ -328,7 +304,7 @@ fn the_fit_sees_the_floor_under_detected_bursts() {
 /// `generate` accepts the written profile.
 #[test]
 fn fit_recovers_floor_corner_and_slope_and_generate_accepts_it() {
-    let s = scratch("fit");
+    let s = Scratch::new("fit");
     let prof = s.file("flicker.toml", FLICKER);
     let rec = s.path("rec.f32");
     generate(&prof, &rec, &["--samples", "4194304", "--format", "raw"]);
@@ -434,7 +410,7 @@ fn markov_chain(n: usize, fs: f64, levels: &[f64], tau_s: &[f64], seed: u64) -> 
 /// writes them as a `[[burst]]` source. Negative controls: white and 1/f noise have none.
 #[test]
 fn burst_levels_and_dwell_times_are_recovered() {
-    let s = scratch("burst");
+    let s = Scratch::new("burst");
     let fs = 48_000.0;
     let n = 1 << 22;
     let cases: [(&[f64], &[f64]); 2] = [
@@ -535,16 +511,14 @@ fn check_stats(what: &str, j: &serde_json::Value, want: (f64, f64, usize)) {
 /// columns (checked against the bytes and text decoded here), all scaled by the manifest.
 #[test]
 fn every_generated_format_reads_back() {
-    let s = scratch("formats");
+    let s = Scratch::new("formats");
     let prof = s.file("white.toml", WHITE);
     let n = 20_000usize;
     let ns = n.to_string();
     for sf in ["i16", "i24", "i32", "f32"] {
         let wav = s.path(&format!("w-{sf}.wav"));
         generate(&prof, &wav, &["--samples", &ns, "--sample-format", sf]);
-        let m: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(format!("{}.json", wav.display())).unwrap())
-                .unwrap();
+        let m = manifest(&wav);
         let fsc = num(&m, "full_scale");
         let mut r = hound::WavReader::open(&wav).unwrap();
         let x: Vec<f64> = if sf == "f32" {
@@ -581,9 +555,7 @@ fn every_generated_format_reads_back() {
             extra.extend(["--level", "-20dBFS"]);
         }
         generate(&prof, &raw, &extra);
-        let m: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(format!("{}.json", raw.display())).unwrap())
-                .unwrap();
+        let m = manifest(&raw);
         let fsc = m["full_scale"].as_f64().unwrap_or(1.0);
         let b = std::fs::read(&raw).unwrap();
         let x: Vec<f64> = match sf {
@@ -623,9 +595,7 @@ fn every_generated_format_reads_back() {
         let mut e = vec!["--samples", ns.as_str()];
         e.extend(extra.iter().copied());
         generate(&prof, &csv, &e);
-        let m: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(format!("{}.json", csv.display())).unwrap())
-                .unwrap();
+        let m = manifest(&csv);
         let fsc = m["full_scale"].as_f64().unwrap_or(1.0);
         let body = std::fs::read_to_string(&csv).unwrap();
         let div = if tag == "code" { 8388607.0 } else { 1.0 };
@@ -659,7 +629,7 @@ fn every_generated_format_reads_back() {
 /// read back bit for bit (mean and RMS of the values exactly as computed here).
 #[test]
 fn hand_written_64_bit_float_wav_reads_back() {
-    let s = scratch("f64wav");
+    let s = Scratch::new("f64wav");
     let x: Vec<f64> = (0..5000)
         .map(|i| 0.3 * ((i as f64) * 0.37).sin() + 0.01)
         .collect();
@@ -724,7 +694,7 @@ fn hand_written_64_bit_float_wav_reads_back() {
 /// the tables and no scripts or external files (readable offline).
 #[test]
 fn plot_and_report_are_self_contained() {
-    let s = scratch("pictures");
+    let s = Scratch::new("pictures");
     let prof = s.file("flicker.toml", FLICKER);
     let wav = s.path("f.wav");
     generate(&prof, &wav, &["--duration", "5s"]);

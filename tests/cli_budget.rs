@@ -1,29 +1,11 @@
 //! CLI tests of `noisewright budget`: the text report, the JSON keys and the SVG chart. Bad
 //! input is in tests/error_classes.rs.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-}
+use std::path::Path;
 
-/// A fresh, empty folder for one test.
-fn scratch(name: &str) -> PathBuf {
-    let dir =
-        std::env::temp_dir().join(format!("noisewright-budget-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    bin().args(args).current_dir(cwd).output().unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use common::{Scratch, run_ok, text};
 
 fn bundled(name: &str) -> String {
     Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -52,9 +34,8 @@ temperature = "25 C"
 
 #[test]
 fn text_report_shows_every_part_the_total_and_the_notes() {
-    let dir = scratch("text");
-    let o = run(&["budget", &bundled("line-receiver.toml")], &dir);
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let dir = Scratch::new("text");
+    let o = run_ok(&["budget", &bundled("line-receiver.toml")], &dir);
     let out = text(&o.stdout);
     for needle in [
         "band 10 Hz .. 40 kHz (Butterworth order 2 at 40 kHz, ENBW 1.1107",
@@ -72,11 +53,10 @@ fn text_report_shows_every_part_the_total_and_the_notes() {
     }
     // REFERENCES §7 worked stage: 10 kHz of 76.22 nV/√Hz is 7.622 µV RMS; resistors
     // (40.58, 12.17, 36.52) outweigh the amplifier (50, 10, 9): the note fires.
-    let dir = scratch("worked");
+    let dir = Scratch::new("worked");
     let p = dir.join("w.toml");
     std::fs::write(&p, WORKED).unwrap();
-    let o = run(&["budget", p.to_str().unwrap()], &dir);
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = run_ok(&["budget", p.to_str().unwrap()], &dir);
     let out = text(&o.stdout);
     assert!(out.contains("  total"), "{out}");
     assert!(out.contains("7.62199 \u{b5}V"), "{out}");
@@ -86,10 +66,10 @@ fn text_report_shows_every_part_the_total_and_the_notes() {
 
 #[test]
 fn json_has_the_stable_keys_for_every_band() {
-    let dir = scratch("json");
+    let dir = Scratch::new("json");
     let p = dir.join("w.toml");
     std::fs::write(&p, WORKED).unwrap();
-    let o = run(
+    let o = run_ok(
         &[
             "budget",
             p.to_str().unwrap(),
@@ -101,7 +81,6 @@ fn json_has_the_stable_keys_for_every_band() {
         ],
         &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     let bands = j["bands"].as_array().unwrap();
     assert_eq!(bands.len(), 2);
@@ -139,9 +118,9 @@ fn json_has_the_stable_keys_for_every_band() {
 
 #[test]
 fn plot_writes_an_svg_with_every_source_and_the_band_edges() {
-    let dir = scratch("plot");
+    let dir = Scratch::new("plot");
     let svg = dir.join("budget.svg");
-    let o = run(
+    run_ok(
         &[
             "budget",
             &bundled("line-receiver.toml"),
@@ -150,7 +129,6 @@ fn plot_writes_an_svg_with_every_source_and_the_band_edges() {
         ],
         &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let s = std::fs::read_to_string(&svg).unwrap();
     assert!(s.starts_with("<svg"));
     for needle in [

@@ -1,26 +1,12 @@
 //! CLI tests of burst sources in `noisewright generate`: per-source CSV columns, the manifest's
 //! burst keys and the summary. Bad burst input is in tests/error_classes.rs.
 
+mod common;
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Output;
 
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!(
-        "noisewright-cli-burst-{}-{name}",
-        std::process::id()
-    ));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .current_dir(cwd)
-        .output()
-        .unwrap()
-}
+use common::{Scratch, manifest, read_f64, run, text};
 
 /// `noisewright generate PROFILE ARGS…` in `dir`, which must succeed.
 fn generate(dir: &Path, profile: &Path, args: &[&str]) -> Output {
@@ -29,10 +15,6 @@ fn generate(dir: &Path, profile: &Path, args: &[&str]) -> Output {
     let o = run(&a, dir);
     assert!(o.status.success(), "{args:?}: {}", text(&o.stderr));
     o
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
 }
 
 const HEAD: &str =
@@ -58,7 +40,7 @@ fn write(dir: &Path, name: &str, body: &str) -> PathBuf {
 
 #[test]
 fn csv_with_source_columns_shows_the_truth_behind_every_sample() {
-    let dir = scratch("columns");
+    let dir = Scratch::new("columns");
     let p = write(&dir, "mixed.toml", MIXED);
     generate(
         &dir,
@@ -98,15 +80,14 @@ fn csv_with_source_columns_shows_the_truth_behind_every_sample() {
 
 #[test]
 fn manifest_and_summary_list_each_burst() {
-    let dir = scratch("manifest");
+    let dir = Scratch::new("manifest");
     let p = write(&dir, "mixed.toml", MIXED);
     let o = generate(
         &dir,
         &p,
         &["-o", "m.csv", "--samples", "20000", "--columns", "sources"],
     );
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("m.csv.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("m.csv"));
     let bursts = m["extra"]["bursts"].as_array().unwrap();
     assert_eq!(bursts.len(), 2);
     assert_eq!(bursts[0]["name"], "input trap");
@@ -157,7 +138,7 @@ fn manifest_and_summary_list_each_burst() {
 
 #[test]
 fn a_burst_only_profile_writes_exact_levels() {
-    let dir = scratch("only");
+    let dir = Scratch::new("only");
     let p = write(
         &dir,
         "only.toml",
@@ -170,11 +151,7 @@ fn a_burst_only_profile_writes_exact_levels() {
         let mut a = vec!["-o", "b.f64"];
         a.extend_from_slice(args);
         generate(&dir, &p, &a);
-        let bytes = std::fs::read(dir.join("b.f64")).unwrap();
-        let x: Vec<f64> = bytes
-            .chunks_exact(8)
-            .map(|c| f64::from_le_bytes(c.try_into().unwrap()))
-            .collect();
+        let x = read_f64(&dir.join("b.f64"));
         assert_eq!(x.len(), 30_000);
         assert!(x.iter().all(|v| *v == -2e-3 || *v == 5e-3));
         assert!(x.contains(&-2e-3) && x.contains(&5e-3));

@@ -4,15 +4,9 @@
 
 mod common;
 
-use common::Scratch;
-use std::process::{Command, Output};
+use std::process::Output;
 
-fn run(args: &[&std::ffi::OsStr]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .output()
-        .unwrap()
-}
+use common::{Scratch, manifest, run};
 
 fn profile(channels: &str) -> String {
     format!(
@@ -33,7 +27,7 @@ fn generate(dir: &Scratch, keys: &str, out: &str, extra: &[&str]) -> Output {
         "3".as_ref(),
     ];
     args.extend(extra.iter().map(|s| std::ffi::OsStr::new(*s)));
-    run(&args)
+    run(&args, dir)
 }
 
 /// The WAVE header of a 3-channel 16-bit file, field by field against WAVEFORMATEXTENSIBLE
@@ -43,7 +37,7 @@ fn generate(dir: &Scratch, keys: &str, out: &str, extra: &[&str]) -> Output {
 /// same interleaved frames as 3-channel raw i16 output.
 #[test]
 fn three_channel_wav_has_an_extensible_header_byte_by_byte() {
-    let dir = Scratch::new("channels", "wav");
+    let dir = Scratch::new("wav");
     let keys = "channels = 3\ncorrelation = 0.5";
     let args = [
         "--samples",
@@ -89,7 +83,7 @@ fn three_channel_wav_has_an_extensible_header_byte_by_byte() {
 /// 16-bit PCM exactly (REFERENCES §10).
 #[test]
 fn two_channel_16_bit_wav_keeps_the_pcm_header() {
-    let dir = Scratch::new("channels", "wav2");
+    let dir = Scratch::new("wav2");
     let args = ["--samples", "4", "--sample-format", "i16"];
     assert!(
         generate(&dir, "channels = 2", "x.wav", &args)
@@ -105,7 +99,7 @@ fn two_channel_16_bit_wav_keeps_the_pcm_header() {
 
 #[test]
 fn csv_has_one_column_per_channel_and_the_manifest_names_the_channels() {
-    let dir = Scratch::new("channels", "csv");
+    let dir = Scratch::new("csv");
     let out = generate(
         &dir,
         "channels = 2\ncorrelation = 0.25",
@@ -122,8 +116,7 @@ fn csv_has_one_column_per_channel_and_the_manifest_names_the_channels() {
     assert_eq!(lines[0], "time_s,ch0_value_V,ch1_value_V");
     assert_eq!(lines.len(), 4);
     assert!(lines[2].starts_with("0.000125,"));
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(dir.path("x.csv.json")).unwrap()).unwrap();
+    let m = manifest(&dir.path("x.csv"));
     assert_eq!(m["samples"], 3);
     assert_eq!(m["extra"]["channels"], 2);
     assert_eq!(m["extra"]["correlation"][0][1], 0.25);

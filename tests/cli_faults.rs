@@ -19,22 +19,7 @@ use std::path::Path;
 use std::process::{Child, Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
-use common::{Scratch, WHITE, run, text};
-
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-}
-
-/// Names in `dir` other than the profiles and the names in `keep`, sorted.
-fn left_in(dir: &Path, keep: &[&str]) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .filter(|n| !n.ends_with(".toml") && !keep.contains(&n.as_str()))
-        .collect();
-    v.sort();
-    v
-}
+use common::{Scratch, WHITE, bin, outputs, run, run_ok, text};
 
 fn is_root() -> bool {
     // SAFETY: geteuid has no preconditions and cannot fail.
@@ -62,6 +47,26 @@ fn limit_file_size(cmd: &mut Command, bytes: u64) -> &mut Command {
             Ok(())
         })
     }
+}
+
+/// [`run`] under a file-size limit of `bytes` (see [`limit_file_size`]).
+fn run_limited<S: AsRef<std::ffi::OsStr>>(bytes: u64, args: &[S], cwd: &Path) -> Output {
+    limit_file_size(&mut bin(), bytes)
+        .args(args)
+        .current_dir(cwd)
+        .output()
+        .expect("the noisewright binary runs")
+}
+
+/// Starts the binary with `args` in `cwd`, its stdout discarded and its stderr captured.
+fn start(args: &[&str], cwd: &Path) -> Child {
+    bin()
+        .args(args)
+        .current_dir(cwd)
+        .stdout(Stdio::null())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("the noisewright binary starts")
 }
 
 /// Waits until a file whose name starts with `prefix` appears in `dir` (the run has got past
@@ -124,16 +129,10 @@ fn a_signal_during_generate_leaves_no_file_under_the_target_name() {
         (libc::SIGTERM, "SIGTERM"),
         (libc::SIGHUP, "SIGHUP"),
     ] {
-        let s = Scratch::new("faults", "signal");
+        let s = Scratch::new("signal");
         let p = s.file("w.toml", WHITE);
-        let mut child = bin()
-            .args(["generate", p.to_str().unwrap(), "-o", "long.raw"])
-            .args(["--duration", "2h"])
-            .current_dir(&s.dir)
-            .stdout(Stdio::null())
-            .stderr(Stdio::piped())
-            .spawn()
-            .unwrap();
+        let args = ["generate", p.to_str().unwrap(), "-o", "long.raw"];
+        let mut child = start(&[&args[..], &["--duration", "2h"]].concat(), &s);
         wait_for_file(&s.dir, ".long.raw.partial-", &mut child);
         // Some samples are written before the signal.
         std::thread::sleep(Duration::from_millis(200));
@@ -147,9 +146,9 @@ fn a_signal_during_generate_leaves_no_file_under_the_target_name() {
         );
         assert!(err.contains("interrupted"), "{name}: {err}");
         assert!(
-            left_in(&s.dir, &[]).is_empty(),
+            outputs(&s.dir, &[]).is_empty(),
             "{name}: left behind {:?}",
-            left_in(&s.dir, &[])
+            outputs(&s.dir, &[])
         );
     }
 }
@@ -158,7 +157,7 @@ fn a_signal_during_generate_leaves_no_file_under_the_target_name() {
 /// killed by it, and nothing is left in the folder.
 #[test]
 fn a_shell_reports_143_for_sigterm() {
-    let s = Scratch::new("faults", "shell");
+    let s = Scratch::new("shell");
     let p = s.file("w.toml", WHITE);
     let script = r#"
         "$0" generate "$1" -o long.raw --duration 2h 2>/dev/null &
@@ -188,20 +187,19 @@ fn a_shell_reports_143_for_sigterm() {
 /// is a sparse file of zeros (1 GiB of f32: 268 M samples, many seconds of analysis).
 #[test]
 fn sigint_during_analyze_leaves_none_of_its_outputs() {
-    let s = Scratch::new("faults", "analyze-int");
+    let s = Scratch::new("analyze-int");
     let capture = s.path("long.f32");
     std::fs::File::create(&capture)
         .unwrap()
         .set_len(1 << 30)
         .unwrap();
-    let mut child = bin()
-        .args(["analyze", "long.f32", "--rate", "48kHz"])
-        .args(["--fit", "f.toml", "--plot", "p.svg", "--report", "r.html"])
-        .current_dir(&s.dir)
-        .stdout(Stdio::null())
-        .stderr(Stdio::piped())
-        .spawn()
-        .unwrap();
+    let mut child = start(
+        &[
+            "analyze", "long.f32", "--rate", "48kHz", "--fit", "f.toml", "--plot", "p.svg",
+            "--report", "r.html",
+        ],
+        &s,
+    );
     wait_for_file(&s.dir, ".r.html.partial-", &mut child);
     std::thread::sleep(Duration::from_millis(100));
     let o = signal_and_wait(child, libc::SIGINT);
@@ -214,7 +212,7 @@ fn sigint_during_analyze_leaves_none_of_its_outputs() {
     );
     // left_in passes over .toml files, so the fit is looked for by name.
     assert!(!s.path("f.toml").exists(), "the fit was left behind");
-    assert_eq!(left_in(&s.dir, &["long.f32"]), Vec::<String>::new());
+    assert_eq!(outputs(&s.dir, &["long.f32"]), Vec::<String>::new());
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -225,7 +223,7 @@ fn sigint_during_analyze_leaves_none_of_its_outputs() {
 /// permission one fails for root too.
 #[test]
 fn unwritable_outputs_fail_with_the_path_and_the_reason() {
-    let s = Scratch::new("faults", "unwritable");
+    let s = Scratch::new("unwritable");
     let p = s.file("w.toml", WHITE);
     std::fs::write(s.path("notes.txt"), "a file, not a folder\n").unwrap();
     std::fs::create_dir(s.path("taken.wav")).unwrap();
@@ -266,7 +264,7 @@ fn unwritable_outputs_fail_with_the_path_and_the_reason() {
             &s.dir,
         );
         assert_failed_with(&o, words, row);
-        assert_eq!(left_in(&s.dir, &keep), Vec::<String>::new(), "{row}");
+        assert_eq!(outputs(&s.dir, &keep), Vec::<String>::new(), "{row}");
         assert!(s.path("taken.wav").read_dir().unwrap().next().is_none());
         assert!(s.path("m.raw.json").read_dir().unwrap().next().is_none());
     }
@@ -292,7 +290,7 @@ fn unwritable_outputs_fail_with_the_path_and_the_reason() {
 /// `budget --plot` into a file that is in the way: exit 1, the path and the reason.
 #[test]
 fn budget_plot_into_a_file_in_the_way_fails_cleanly() {
-    let s = Scratch::new("faults", "budget-way");
+    let s = Scratch::new("budget-way");
     let p = s.file("w.toml", WHITE);
     std::fs::write(s.path("notes.txt"), "x").unwrap();
     let o = run(
@@ -300,7 +298,7 @@ fn budget_plot_into_a_file_in_the_way_fails_cleanly() {
         &s.dir,
     );
     assert_failed_with(&o, &["notes.txt/b.svg", "Not a directory"], "budget");
-    assert_eq!(left_in(&s.dir, &["notes.txt"]), Vec::<String>::new());
+    assert_eq!(outputs(&s.dir, &["notes.txt"]), Vec::<String>::new());
 }
 
 /// Runs `args` (the noisewright binary's) in a private mount namespace with a tmpfs of
@@ -346,56 +344,45 @@ fn in_tmpfs(mnt: &Path, options: &str, args: &[&str]) -> Option<(Output, String)
     }
 }
 
+/// `generate -o MNT/NAME EXTRA…` onto a tmpfs of `options` mounted on MNT: exit 1 with
+/// NAME and `reason` in the message, and nothing left on the mount.
+fn fails_cleanly_on_a_tmpfs(options: &str, name: &str, extra: &[&str], reason: &str) {
+    let s = Scratch::new("tmpfs");
+    let p = s.file("w.toml", WHITE);
+    let mnt = s.path("mnt");
+    std::fs::create_dir(&mnt).unwrap();
+    let target = mnt.join(name);
+    let mut args = vec![
+        "generate",
+        p.to_str().unwrap(),
+        "-o",
+        target.to_str().unwrap(),
+    ];
+    args.extend_from_slice(extra);
+    let Some((o, listing)) = in_tmpfs(&mnt, options, &args) else {
+        return;
+    };
+    assert_failed_with(&o, &[name, reason], options);
+    assert_eq!(listing, "", "left on the mount");
+}
+
 /// A read-only mount refuses root too: exit 1, the path, "Read-only file system", nothing
 /// written.
 #[test]
 fn a_read_only_mount_fails_cleanly() {
-    let s = Scratch::new("faults", "ro");
-    let p = s.file("w.toml", WHITE);
-    let mnt = s.path("mnt");
-    std::fs::create_dir(&mnt).unwrap();
-    let target = mnt.join("x.wav");
-    let Some((o, listing)) = in_tmpfs(
-        &mnt,
-        "ro,size=64k",
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            target.to_str().unwrap(),
-        ],
-    ) else {
-        return;
-    };
-    assert_failed_with(&o, &["x.wav", "Read-only file system"], "read-only mount");
-    assert_eq!(listing, "", "left on the mount");
+    fails_cleanly_on_a_tmpfs("ro,size=64k", "x.wav", &[], "Read-only file system");
 }
 
 /// A full disk: 10 s of f32 WAV (1.9 MB) into a 256 KiB tmpfs. Exit 1, the output's name
 /// and "No space left on device", and nothing left on the mount.
 #[test]
 fn a_full_tmpfs_leaves_no_output() {
-    let s = Scratch::new("faults", "tmpfs");
-    let p = s.file("w.toml", WHITE);
-    let mnt = s.path("mnt");
-    std::fs::create_dir(&mnt).unwrap();
-    let target = mnt.join("full.wav");
-    let Some((o, listing)) = in_tmpfs(
-        &mnt,
+    fails_cleanly_on_a_tmpfs(
         "size=256k",
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            target.to_str().unwrap(),
-            "--duration",
-            "10s",
-        ],
-    ) else {
-        return;
-    };
-    assert_failed_with(&o, &["full.wav", "No space left on device"], "full tmpfs");
-    assert_eq!(listing, "", "left on the mount");
+        "full.wav",
+        &["--duration", "10s"],
+        "No space left on device",
+    );
 }
 
 /// The full-disk equivalent that runs anywhere: a 64 KiB file-size limit under 1 s of every
@@ -403,23 +390,23 @@ fn a_full_tmpfs_leaves_no_output() {
 /// manifest, no partial file.
 #[test]
 fn a_file_size_limit_stops_every_format_cleanly() {
-    let s = Scratch::new("faults", "fsize");
+    let s = Scratch::new("fsize");
     let p = s.file("w.toml", WHITE);
     for out in ["x.wav", "x.csv", "x.raw", "x.npy", "x.h"] {
-        let o = limit_file_size(&mut bin(), 64 << 10)
-            .args([
+        let o = run_limited(
+            64 << 10,
+            &[
                 "generate",
                 p.to_str().unwrap(),
                 "-o",
                 out,
                 "--duration",
                 "1s",
-            ])
-            .current_dir(&s.dir)
-            .output()
-            .unwrap();
+            ],
+            &s,
+        );
         assert_failed_with(&o, &[out, "File too large"], out);
-        assert_eq!(left_in(&s.dir, &[]), Vec::<String>::new(), "{out}");
+        assert_eq!(outputs(&s.dir, &[]), Vec::<String>::new(), "{out}");
     }
 }
 
@@ -435,7 +422,7 @@ fn sizes(dir: &Path, names: &[&str]) -> Vec<u64> {
 /// manifest is not, and the noise file must not land without it.
 #[test]
 fn a_manifest_that_cannot_be_written_takes_its_noise_file_with_it() {
-    let s = Scratch::new("faults", "manifest");
+    let s = Scratch::new("manifest");
     let p = s.file("w.toml", WHITE);
     let args = [
         "generate",
@@ -445,8 +432,7 @@ fn a_manifest_that_cannot_be_written_takes_its_noise_file_with_it() {
         "--samples",
         "100",
     ];
-    let o = run(&args, &s.dir);
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    run_ok(&args, &s.dir);
     let v = sizes(&s.dir, &["x.raw", "x.raw.json"]);
     let (data, manifest) = (v[0], v[1]);
     assert!(
@@ -456,22 +442,18 @@ fn a_manifest_that_cannot_be_written_takes_its_noise_file_with_it() {
     std::fs::remove_file(s.path("x.raw")).unwrap();
     std::fs::remove_file(s.path("x.raw.json")).unwrap();
 
-    let o = limit_file_size(&mut bin(), (data + manifest) / 2)
-        .args(args)
-        .current_dir(&s.dir)
-        .output()
-        .unwrap();
+    let o = run_limited((data + manifest) / 2, &args, &s);
     assert_failed_with(&o, &["x.raw.json", "File too large"], "manifest");
-    assert_eq!(left_in(&s.dir, &[]), Vec::<String>::new());
+    assert_eq!(outputs(&s.dir, &[]), Vec::<String>::new());
 }
 
 /// `analyze --fit --plot --report`: a limit that holds the smallest of the three but not the
 /// largest fails the job and leaves none of them (they land together or not at all).
 #[test]
 fn analyze_outputs_land_together_or_not_at_all() {
-    let s = Scratch::new("faults", "analyze-fsize");
+    let s = Scratch::new("analyze-fsize");
     let p = s.file("w.toml", WHITE);
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -482,32 +464,26 @@ fn analyze_outputs_land_together_or_not_at_all() {
         ],
         &s.dir,
     );
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
-    let outputs = ["f.toml", "p.svg", "r.html"];
+    let made = ["f.toml", "p.svg", "r.html"];
     let args = [
         "analyze", "c.wav", "--fit", "f.toml", "--plot", "p.svg", "--report", "r.html",
     ];
-    let o = run(&args, &s.dir);
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
-    let v = sizes(&s.dir, &outputs);
+    run_ok(&args, &s.dir);
+    let v = sizes(&s.dir, &made);
     let (small, large) = (*v.iter().min().unwrap(), *v.iter().max().unwrap());
     assert!(small < large, "sizes {v:?}");
-    let largest = outputs[v.iter().position(|&x| x == large).unwrap()];
-    for n in outputs {
+    let largest = made[v.iter().position(|&x| x == large).unwrap()];
+    for n in made {
         std::fs::remove_file(s.path(n)).unwrap();
     }
 
-    let o = limit_file_size(&mut bin(), (small + large) / 2)
-        .args(args)
-        .current_dir(&s.dir)
-        .output()
-        .unwrap();
+    let o = run_limited((small + large) / 2, &args, &s);
     assert_failed_with(&o, &[largest, "File too large"], "analyze");
-    for n in outputs {
+    for n in made {
         assert!(!s.path(n).exists(), "{n} was left behind");
     }
     assert_eq!(
-        left_in(&s.dir, &["c.wav", "c.wav.json"]),
+        outputs(&s.dir, &["c.wav", "c.wav.json"]),
         Vec::<String>::new()
     );
 }
@@ -516,15 +492,15 @@ fn analyze_outputs_land_together_or_not_at_all() {
 /// nothing left.
 #[test]
 fn budget_plot_under_a_file_size_limit_fails_cleanly() {
-    let s = Scratch::new("faults", "budget-fsize");
+    let s = Scratch::new("budget-fsize");
     let p = s.file("w.toml", WHITE);
-    let o = limit_file_size(&mut bin(), 1 << 10)
-        .args(["budget", p.to_str().unwrap(), "--plot", "b.svg"])
-        .current_dir(&s.dir)
-        .output()
-        .unwrap();
+    let o = run_limited(
+        1 << 10,
+        &["budget", p.to_str().unwrap(), "--plot", "b.svg"],
+        &s,
+    );
     assert_failed_with(&o, &["b.svg", "File too large"], "budget");
-    assert_eq!(left_in(&s.dir, &[]), Vec::<String>::new());
+    assert_eq!(outputs(&s.dir, &[]), Vec::<String>::new());
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -541,7 +517,7 @@ fn standard_output_on_dev_full_is_a_clear_error() {
         println!("skipped: this system has no /dev/full");
         return;
     }
-    let s = Scratch::new("faults", "devfull");
+    let s = Scratch::new("devfull");
     let p = s.file("w.toml", WHITE);
     let p = p.to_str().unwrap();
     let rows: &[(&str, &[&str])] = &[
@@ -562,13 +538,13 @@ fn standard_output_on_dev_full_is_a_clear_error() {
         assert_failed_with(&o, &["standard output", "No space left on device"], row);
         assert!(!text(&o.stderr).contains("panicked"), "{row}");
     }
-    assert_eq!(left_in(&s.dir, &[]), ["x.raw", "x.raw.json"]);
+    assert_eq!(outputs(&s.dir, &[]), ["x.raw", "x.raw.json"]);
 }
 
 /// Streaming samples to a reader that closes the pipe ends quietly with exit 0.
 #[test]
 fn streaming_to_a_closed_pipe_ends_quietly() {
-    let s = Scratch::new("faults", "pipe");
+    let s = Scratch::new("pipe");
     let p = s.file("w.toml", WHITE);
     let mut child = bin()
         .args([
@@ -600,7 +576,7 @@ fn streaming_to_a_closed_pipe_ends_quietly() {
 /// leaves its complete file and manifest.
 #[test]
 fn a_summary_to_a_closed_pipe_ends_quietly() {
-    let s = Scratch::new("faults", "closed");
+    let s = Scratch::new("closed");
     let p = s.file("w.toml", WHITE);
     let p = p.to_str().unwrap();
     let rows: &[(&str, &[&str])] = &[
@@ -621,7 +597,7 @@ fn a_summary_to_a_closed_pipe_ends_quietly() {
         assert_eq!(o.status.code(), Some(0), "{row}: {}", text(&o.stderr));
         assert!(o.stderr.is_empty(), "{row}: {}", text(&o.stderr));
     }
-    assert_eq!(left_in(&s.dir, &[]), ["x.raw", "x.raw.json"]);
+    assert_eq!(outputs(&s.dir, &[]), ["x.raw", "x.raw.json"]);
 }
 
 /// The write end of a pipe whose read end is already closed: every write gets EPIPE.

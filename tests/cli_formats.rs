@@ -7,9 +7,9 @@ mod common;
 
 use std::ffi::OsString;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::process::Command;
 
-use common::{Scratch, text};
+use common::{Scratch, manifest, run, run_ok, text};
 
 /// Fixed seed of every run in this file (printed in failure messages).
 const SEED: u64 = 20_261_206;
@@ -30,14 +30,6 @@ density = "10 nV/rtHz"
 corner = "100 Hz"
 "#;
 
-fn nw(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .args(args)
-        .current_dir(cwd)
-        .output()
-        .expect("the noisewright binary runs")
-}
-
 /// Runs `generate` on the demo profile with the fixed seed and length, writing `out`;
 /// panics with stderr unless it succeeds.
 fn generate(dir: &Scratch, out: &str, extra: &[&str]) -> PathBuf {
@@ -56,19 +48,13 @@ fn generate(dir: &Scratch, out: &str, extra: &[&str]) -> PathBuf {
         "--quiet",
     ];
     args.extend_from_slice(extra);
-    let o = nw(&args, &dir.dir);
+    let o = run(&args, dir);
     assert!(
         o.status.success(),
         "generate {out} {extra:?}: {} (seed {SEED})",
         text(&o.stderr)
     );
     dir.path(out)
-}
-
-fn manifest(path: &Path) -> serde_json::Value {
-    let mut p = path.as_os_str().to_owned();
-    p.push(".json");
-    serde_json::from_slice(&std::fs::read(PathBuf::from(p)).unwrap()).unwrap()
 }
 
 /// The manifest's `full_scale` parsed from its text with Rust's correctly rounding parser
@@ -132,7 +118,7 @@ fn decode(bytes: &[u8], sample_format: &str) -> Values {
 /// format docs: i24 codes as '<i4').
 #[test]
 fn npy_loads_in_numpy_with_the_values_of_the_raw_output() {
-    let dir = Scratch::new("formats", "npy");
+    let dir = Scratch::new("npy");
     let cases = [
         ("f32", "<f4", &[][..]),
         ("f64", "<f8", &[][..]),
@@ -237,7 +223,7 @@ fn c_header_compiles_and_holds_the_values_of_the_raw_output() {
         println!("skipped: no C compiler (cc or $CC) was found to compile the header");
         return;
     };
-    let dir = Scratch::new("formats", "c");
+    let dir = Scratch::new("c");
     let cases = [
         ("i16", "int16_t", &[][..]),
         ("i24", "int32_t", &[][..]),
@@ -331,7 +317,7 @@ fn c_header_compiles_and_holds_the_values_of_the_raw_output() {
 /// Without --name the array is named after the output file's stem, made an identifier.
 #[test]
 fn c_array_name_defaults_to_the_sanitised_stem() {
-    let dir = Scratch::new("formats", "cname");
+    let dir = Scratch::new("cname");
     let h = generate(&dir, "2-mic preamp.h", &[]);
     let m = manifest(&h);
     assert_eq!(m["extra"]["c_name"], "noise_2_mic_preamp");
@@ -351,7 +337,7 @@ fn c_array_name_defaults_to_the_sanitised_stem() {
 /// Every WAV's manifest names its container; below 4 GiB it is plain RIFF.
 #[test]
 fn wav_manifest_names_the_riff_container() {
-    let dir = Scratch::new("formats", "wav");
+    let dir = Scratch::new("wav");
     let w = generate(&dir, "w.wav", &[]);
     assert_eq!(manifest(&w)["extra"]["container"], "RIFF");
     assert_eq!(&std::fs::read(&w).unwrap()[..4], b"RIFF");
@@ -362,7 +348,7 @@ fn wav_manifest_names_the_riff_container() {
 /// density as the RIFF file itself.
 #[test]
 fn analyze_reads_rf64_like_the_same_riff_file() {
-    let dir = Scratch::new("formats", "rf64");
+    let dir = Scratch::new("rf64");
     let riff = generate(&dir, "r.wav", &["--sample-format", "i16"]);
     let b = std::fs::read(&riff).unwrap();
     assert_eq!(&b[..4], b"RIFF");
@@ -386,8 +372,7 @@ fn analyze_reads_rf64_like_the_same_riff_file() {
     std::fs::write(&rf64, &r).unwrap();
     std::fs::copy(dir.path("r.wav.json"), dir.path("r64.wav.json")).unwrap();
     let json = |p: &Path| -> serde_json::Value {
-        let o = nw(&["analyze", p.to_str().unwrap(), "--json"], &dir.dir);
-        assert!(o.status.success(), "{}", text(&o.stderr));
+        let o = run_ok(&["analyze", p.to_str().unwrap(), "--json"], &dir);
         serde_json::from_slice(&o.stdout).unwrap()
     };
     let (a, b) = (json(&riff), json(&rf64));

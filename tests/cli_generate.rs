@@ -4,51 +4,23 @@
 
 mod common;
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::process::{Command, Output};
 
-use common::WHITE;
+use common::{Scratch, WHITE, manifest, outputs, read_f64, run, run_ok, text};
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_noisewright"))
-}
-
-/// A fresh, empty folder for one test.
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("noisewright-cli-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&dir);
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-fn run(args: &[&str], cwd: &Path) -> Output {
-    bin().args(args).current_dir(cwd).output().unwrap()
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
-
-fn write_profile(dir: &Path, name: &str, body: &str) -> PathBuf {
-    let p = dir.join(name);
-    std::fs::write(&p, body).unwrap();
-    p
-}
-
-/// Files in `dir` other than the profiles we put there.
-fn outputs(dir: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .filter(|n| !n.ends_with(".toml"))
-        .collect();
-    v.sort();
-    v
+/// `generate PROFILE ARGS…` in `dir` on [`WHITE`], written there as `w.toml`; it must
+/// succeed.
+fn generate_white(dir: &Scratch, args: &[&str]) -> Output {
+    let p = dir.file("w.toml", WHITE);
+    let mut all = vec!["generate", p.to_str().unwrap()];
+    all.extend_from_slice(args);
+    run_ok(&all, dir)
 }
 
 #[test]
 fn every_bundled_profile_generates_a_wav_and_its_manifest() {
-    let dir = scratch("bundled");
+    let dir = Scratch::new("bundled");
     let profiles = Path::new(env!("CARGO_MANIFEST_DIR")).join("profiles");
     let mut count = 0;
     for entry in std::fs::read_dir(&profiles).unwrap() {
@@ -73,9 +45,7 @@ fn every_bundled_profile_generates_a_wav_and_its_manifest() {
         assert!(o.status.success(), "{stem}: {}", text(&o.stderr));
         let reader = hound::WavReader::open(&out).unwrap();
         assert_eq!(reader.len(), 50_000, "{stem}");
-        let manifest: serde_json::Value =
-            serde_json::from_slice(&std::fs::read(dir.join(format!("{stem}.wav.json"))).unwrap())
-                .unwrap();
+        let manifest = manifest(&dir.join(format!("{stem}.wav")));
         assert_eq!(manifest["samples"], 50_000, "{stem}");
         assert_eq!(manifest["seed"], 1, "{stem}");
         assert!(manifest["full_scale"].as_f64().unwrap() > 0.0, "{stem}");
@@ -88,37 +58,22 @@ fn every_bundled_profile_generates_a_wav_and_its_manifest() {
 
 #[test]
 fn default_output_goes_to_out_folder_named_after_the_profile() {
-    let dir = scratch("default-out");
-    let p = write_profile(&dir, "bench.toml", WHITE);
-    let o = run(
+    let dir = Scratch::new("default-out");
+    let p = dir.file("bench.toml", WHITE);
+    run_ok(
         &["generate", p.to_str().unwrap(), "--duration", "0.1s"],
         &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(dir.join("out/bench.wav").is_file());
     assert!(dir.join("out/bench.wav.json").is_file());
 }
 
 #[test]
 fn same_seed_same_bytes_other_seed_other_bytes() {
-    let dir = scratch("determinism");
-    let p = write_profile(&dir, "w.toml", WHITE);
+    let dir = Scratch::new("determinism");
     let mut files = Vec::new();
     for (name, seed) in [("a.raw", "5"), ("b.raw", "5"), ("c.raw", "6")] {
-        let o = run(
-            &[
-                "generate",
-                p.to_str().unwrap(),
-                "-o",
-                name,
-                "--seed",
-                seed,
-                "--samples",
-                "30000",
-            ],
-            &dir,
-        );
-        assert!(o.status.success(), "{}", text(&o.stderr));
+        generate_white(&dir, &["-o", name, "--seed", seed, "--samples", "30000"]);
         files.push(std::fs::read(dir.join(name)).unwrap());
     }
     assert_eq!(files[0].len(), 30_000 * 4);
@@ -128,20 +83,8 @@ fn same_seed_same_bytes_other_seed_other_bytes() {
 
 #[test]
 fn csv_and_raw_carry_physical_units_by_default() {
-    let dir = scratch("physical");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "n.csv",
-            "--samples",
-            "1000",
-        ],
-        &dir,
-    );
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let dir = Scratch::new("physical");
+    generate_white(&dir, &["-o", "n.csv", "--samples", "1000"]);
     let csv = std::fs::read_to_string(dir.join("n.csv")).unwrap();
     let mut lines = csv.lines();
     assert!(lines.next().unwrap().contains("time_s"));
@@ -152,76 +95,50 @@ fn csv_and_raw_carry_physical_units_by_default() {
     // 10 nV/√Hz over ~20 kHz is ~1.4 µV RMS: the values are volts, not normalised.
     let rms = (values.iter().map(|v| v * v).sum::<f64>() / 1000.0).sqrt();
     assert!(rms > 0.5e-6 && rms < 5e-6, "rms {rms}");
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("n.csv.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("n.csv"));
     assert!(m["full_scale"].is_null());
     assert_eq!(m["unit"], "V");
 }
 
 #[test]
 fn clipping_is_an_error_naming_a_full_scale_that_holds_the_noise() {
-    let dir = scratch("clip");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "c.wav",
-            "--full-scale",
-            "1uV",
-            "--samples",
-            "20000",
-        ],
-        &dir,
-    );
+    let dir = Scratch::new("clip");
+    let p = dir.file("w.toml", WHITE);
+    let args = [
+        "generate",
+        p.to_str().unwrap(),
+        "-o",
+        "c.wav",
+        "--full-scale",
+        "1uV",
+        "--samples",
+        "20000",
+    ];
+    let o = run(&args, &dir);
     assert_eq!(o.status.code(), Some(1), "{}", text(&o.stderr));
     let err = text(&o.stderr);
     assert!(err.contains("full scale of at least"), "{err}");
-    assert!(outputs(&dir).is_empty(), "left behind: {:?}", outputs(&dir));
-
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "c.wav",
-            "--full-scale",
-            "1uV",
-            "--samples",
-            "20000",
-            "--allow-clipping",
-        ],
-        &dir,
+    assert!(
+        outputs(&dir, &[]).is_empty(),
+        "left behind: {:?}",
+        outputs(&dir, &[])
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("c.wav.json")).unwrap()).unwrap();
+
+    let o = run_ok(&[&args[..], &["--allow-clipping"]].concat(), &dir);
+    let m = manifest(&dir.join("c.wav"));
     assert!(m["clipped"].as_u64().unwrap() > 0);
     assert!(text(&o.stdout).contains("clipped"));
 }
 
 #[test]
 fn a_rate_change_is_reported_not_silent() {
-    let dir = scratch("rate");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "-o",
-            "r.raw",
-            "--rate",
-            "96 kHz",
-            "--samples",
-            "1000",
-        ],
+    let dir = Scratch::new("rate");
+    let o = generate_white(
         &dir,
+        &["-o", "r.raw", "--rate", "96 kHz", "--samples", "1000"],
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(text(&o.stdout).contains("replaces the profile's 48 kHz"));
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("r.raw.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("r.raw"));
     assert_eq!(m["sample_rate_hz"], 96_000.0);
     assert!(m["notes"][0].as_str().unwrap().contains("96 kHz"));
 }
@@ -230,12 +147,10 @@ fn a_rate_change_is_reported_not_silent() {
 fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
     // 16 bits at a full scale of 1 V: Q/√(6 fs) ≈ 62 nV/√Hz, far above 10 nV/√Hz
     // (uniform quantisation error model, IEEE Std 1241; REFERENCES §9).
-    let dir = scratch("quant");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
+    let dir = Scratch::new("quant");
+    let o = generate_white(
+        &dir,
         &[
-            "generate",
-            p.to_str().unwrap(),
             "-o",
             "q.wav",
             "--sample-format",
@@ -245,9 +160,7 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
             "--samples",
             "1000",
         ],
-        &dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     assert!(
         text(&o.stdout).contains("quantisation noise"),
         "{}",
@@ -257,34 +170,16 @@ fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
 
 #[test]
 fn loop_writes_one_period_and_says_so() {
-    let dir = scratch("loop");
-    let p = write_profile(&dir, "w.toml", WHITE);
-    let o = run(
-        &[
-            "generate",
-            p.to_str().unwrap(),
-            "--loop",
-            "-o",
-            "l.f64",
-            "--samples",
-            "4800",
-        ],
-        &dir,
-    );
-    assert!(o.status.success(), "{}", text(&o.stderr));
-    let bytes = std::fs::read(dir.join("l.f64")).unwrap();
-    let x: Vec<f64> = bytes
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect();
+    let dir = Scratch::new("loop");
+    let o = generate_white(&dir, &["--loop", "-o", "l.f64", "--samples", "4800"]);
+    let x = read_f64(&dir.join("l.f64"));
     assert_eq!(x.len(), 4800);
     // One period of a sum of Fourier-frequency sinusoids with no DC: the mean is zero to
     // rounding (REFERENCES §1.1).
     let mean = x.iter().sum::<f64>() / x.len() as f64;
     let rms = (x.iter().map(|v| v * v).sum::<f64>() / x.len() as f64).sqrt();
     assert!(mean.abs() < 1e-12 * rms, "mean {mean}, rms {rms}");
-    let m: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(dir.join("l.f64.json")).unwrap()).unwrap();
+    let m = manifest(&dir.join("l.f64"));
     assert_eq!(m["loop"], true);
     assert!(text(&o.stdout).contains("loop buffer"));
 }
@@ -293,9 +188,8 @@ fn loop_writes_one_period_and_says_so() {
 fn thread_count_does_not_change_the_bytes() {
     // Several pyramid levels (1/f down to 0.5 Hz) and several batches of the top level, so
     // every level's work is split between threads.
-    let dir = scratch("threads");
-    let p = write_profile(
-        &dir,
+    let dir = Scratch::new("threads");
+    let p = dir.file(
         "f.toml",
         r#"
 name = "cli threads"
@@ -312,7 +206,7 @@ corner = "100 Hz"
     let mut files = Vec::new();
     for threads in ["1", "2", "3"] {
         let name = format!("t{threads}.raw");
-        let o = run(
+        run_ok(
             &[
                 "generate",
                 p.to_str().unwrap(),
@@ -326,7 +220,6 @@ corner = "100 Hz"
             ],
             &dir,
         );
-        assert!(o.status.success(), "{}", text(&o.stderr));
         files.push(std::fs::read(dir.join(&name)).unwrap());
     }
     assert_eq!(files[0].len(), 200_000 * 4);
@@ -339,8 +232,8 @@ fn a_named_pipe_gets_the_samples_in_place_and_no_manifest_beside_it() {
     // A rig reading from a FIFO (or /dev/null, a device) must keep its pipe: renaming a
     // finished temporary file over it would replace the pipe with a plain file.
     use std::os::unix::fs::FileTypeExt;
-    let dir = scratch("fifo");
-    let p = write_profile(&dir, "w.toml", WHITE);
+    let dir = Scratch::new("fifo");
+    let p = dir.file("w.toml", WHITE);
     let fifo = dir.join("rig.raw");
     let made = Command::new("mkfifo").arg(&fifo).status();
     if !made.is_ok_and(|s| s.success()) {
@@ -362,7 +255,7 @@ fn a_named_pipe_gets_the_samples_in_place_and_no_manifest_beside_it() {
     assert!(std::fs::metadata(&fifo).unwrap().file_type().is_fifo());
     let piped = reader.join().unwrap();
     assert!(text(&out.stdout).contains("no manifest: rig.raw is a device or pipe"));
-    assert_eq!(outputs(&dir), ["rig.raw"], "nothing beside the pipe");
+    assert_eq!(outputs(&dir, &[]), ["rig.raw"], "nothing beside the pipe");
     let file = run(
         &[&["generate", ps, "-o", "file.raw"][..], &args[..]].concat(),
         &dir,

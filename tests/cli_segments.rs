@@ -5,7 +5,7 @@ mod common;
 
 use std::path::Path;
 
-use common::{Scratch, run};
+use common::{Scratch, manifest, run};
 
 const SEED: &str = "17";
 
@@ -124,7 +124,7 @@ const BATCH: u64 = 2 * 6144 * 4;
 
 #[test]
 fn white_pieces_join_to_the_run() {
-    let s = Scratch::new("seg", "white");
+    let s = Scratch::new("white");
     s.file("white.toml", WHITE);
     assert_pieces_join(&s.dir, "white.toml", 150_000, &[70_001], &[]);
     assert_pieces_join(&s.dir, "white.toml", 150_000, &[1, 2048, 99_999], &[]);
@@ -132,7 +132,7 @@ fn white_pieces_join_to_the_run() {
 
 #[test]
 fn deep_pyramid_pieces_join_at_block_and_chunk_boundaries() {
-    let s = Scratch::new("seg", "deep");
+    let s = Scratch::new("deep");
     s.file("deep.toml", DEEP);
     // Inside, at and just before chunk (2048), block (6144) and batch boundaries of levels
     // 0 and 1 (level 1's batches start every 4·BATCH output samples).
@@ -154,7 +154,7 @@ fn deep_pyramid_pieces_join_at_block_and_chunk_boundaries() {
 #[test]
 fn burst_pieces_join_for_instant_and_mean_sampling() {
     for sampling in ["instant", "mean"] {
-        let s = Scratch::new("seg", sampling);
+        let s = Scratch::new(sampling);
         s.file("b.toml", &bursts_only(sampling));
         assert_pieces_join(&s.dir, "b.toml", 60_000, &[29_999], &[]);
         assert_pieces_join(&s.dir, "b.toml", 60_000, &[7, 12_345, 40_000], &[]);
@@ -163,7 +163,7 @@ fn burst_pieces_join_for_instant_and_mean_sampling() {
 
 #[test]
 fn mixed_pieces_join_in_every_format_and_with_source_columns() {
-    let s = Scratch::new("seg", "mixed");
+    let s = Scratch::new("mixed");
     s.file("mixed.toml", MIXED);
     assert_pieces_join(&s.dir, "mixed.toml", 120_000, &[BATCH, 100_001], &[]);
     // Integer codes at the default level: the scale depends on the profile only.
@@ -209,7 +209,7 @@ fn mixed_pieces_join_in_every_format_and_with_source_columns() {
 
 #[test]
 fn adc_codes_with_tpdf_dither_pieces_join_to_the_run() {
-    let s = Scratch::new("seg", "adc");
+    let s = Scratch::new("adc");
     s.file("mixed.toml", MIXED);
     let adc = [
         "--bits",
@@ -228,7 +228,7 @@ fn adc_codes_with_tpdf_dither_pieces_join_to_the_run() {
 /// depends on the absolute sample index only, so pieces join as for a mono noise run.
 #[test]
 fn tones_offset_and_channels_pieces_join_to_the_run() {
-    let s = Scratch::new("seg", "tones");
+    let s = Scratch::new("tones");
     let profile = format!(
         "offset = \"-3 uV\"\nchannels = 3\ncorrelation = [[1, 0.6, -0.2], [0.6, 1, 0.3], \
          [-0.2, 0.3, 1]]\n{MIXED}\n[[tone]]\nfrequency = \"997 Hz\"\npeak = \"40 uV\"\n\
@@ -251,7 +251,7 @@ fn tones_offset_and_channels_pieces_join_to_the_run() {
 
 #[test]
 fn a_start_far_out_equals_a_nearer_start_with_its_lead_dropped() {
-    let s = Scratch::new("seg", "far");
+    let s = Scratch::new("far");
     s.file(
         "mixed.toml",
         MIXED
@@ -268,7 +268,7 @@ fn a_start_far_out_equals_a_nearer_start_with_its_lead_dropped() {
 
 #[test]
 fn a_start_time_is_its_sample_and_is_recorded() {
-    let s = Scratch::new("seg", "time");
+    let s = Scratch::new("time");
     s.file("white.toml", WHITE);
     let by_sample = piece(&s.dir, "white.toml", 120_000, 1000, &[]);
     let out = run(
@@ -297,8 +297,7 @@ fn a_start_time_is_its_sample_and_is_recorded() {
         summary.contains("start           sample 120000 (2.5 s)"),
         "{summary}"
     );
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(s.path("t.f64.json")).unwrap()).unwrap();
+    let m = manifest(&s.path("t.f64"));
     assert_eq!(m["start_sample"], 120_000);
     assert_eq!(m["start_s"], 2.5);
     // The CSV's time column is the whole run's: it starts at T.

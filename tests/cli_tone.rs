@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{Scratch, run, text};
+use common::{Scratch, manifest, run, run_ok, text};
 
 const HEAD: &str = "name = \"cli tones\"\nsample_rate = \"10 kHz\"\noffset = \"0.5 mV\"\n\
                     [band]\nlow = \"1 Hz\"\nhigh = \"5 kHz\"\n[[floor]]\ndensity = \"1 uV/rtHz\"\n";
@@ -14,9 +14,9 @@ const TONES: &str = "[[tone]]\nname = \"pilot\"\nfrequency = \"1 kHz\"\npeak = \
 
 #[test]
 fn manifest_lists_each_tone_with_its_snr_and_enob() {
-    let s = Scratch::new("cli-tone", "manifest");
+    let s = Scratch::new("manifest");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(
+    let o = run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -27,15 +27,13 @@ fn manifest_lists_each_tone_with_its_snr_and_enob() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let out = text(&o.stdout);
     assert!(
         out.contains("tone            pilot: 1 kHz, 1 mV peak"),
         "{out}"
     );
     assert!(out.contains("offset          500 µV"), "{out}");
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(s.path("t.wav.json")).unwrap()).unwrap();
+    let m = manifest(&s.path("t.wav"));
     let x = &m["extra"];
     assert_eq!(x["offset"], 5e-4);
     // In-band noise of a white floor over a brick-wall band: e·√(f_H − f_L) (REFERENCES §6);
@@ -57,7 +55,7 @@ fn manifest_lists_each_tone_with_its_snr_and_enob() {
 
 #[test]
 fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
-    let s = Scratch::new("cli-tone", "loop");
+    let s = Scratch::new("loop");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
     let o = run(
         &[
@@ -81,7 +79,7 @@ fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
         "{e}"
     );
     assert!(!s.path("l.wav").exists() && !s.path("l.wav.json").exists());
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -93,16 +91,15 @@ fn loop_refuses_a_tone_without_whole_cycles_and_names_the_nearest() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
 }
 
 /// The per-source CSV: a column per tone and one for the offset; the tone columns are the
 /// exact sines from sample 0 (pilot starts at its peak, 90 deg), the offset column constant.
 #[test]
 fn source_columns_hold_each_tone_and_the_offset() {
-    let s = Scratch::new("cli-tone", "columns");
+    let s = Scratch::new("columns");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -115,7 +112,6 @@ fn source_columns_hold_each_tone_and_the_offset() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let csv = std::fs::read_to_string(s.path("c.csv")).unwrap();
     let mut lines = csv.lines();
     assert_eq!(
@@ -137,9 +133,9 @@ fn source_columns_hold_each_tone_and_the_offset() {
 /// design, σ_A = σ·√(2/N) for white noise (least-squares sine fit, IEEE Std 1057/1241).
 #[test]
 fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
-    let s = Scratch::new("cli-tone", "analyze");
+    let s = Scratch::new("analyze");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -152,7 +148,6 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
     let o = run(
         &[
             "analyze",
@@ -202,10 +197,9 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
 /// 10·log10(0.5e−6 / 4.999e−9) dB.
 #[test]
 fn budget_lists_each_tone_with_its_snr_and_enob() {
-    let s = Scratch::new("cli-tone", "budget");
+    let s = Scratch::new("budget");
     let p = s.file("t.toml", &format!("{HEAD}{TONES}"));
-    let o = run(&["budget", p.to_str().unwrap(), "--json"], &s.dir);
-    assert!(o.status.success(), "{}", text(&o.stderr));
+    let o = run_ok(&["budget", p.to_str().unwrap(), "--json"], &s.dir);
     let j: serde_json::Value = serde_json::from_str(&text(&o.stdout)).unwrap();
     let t = &j["bands"][0]["tones"][0];
     let want = 10.0 * (0.5e-6f64 / (1e-12 * 4999.0)).log10();
@@ -226,10 +220,10 @@ fn budget_lists_each_tone_with_its_snr_and_enob() {
 /// 2^12 here, so the in-band part is Q²/12·(f_H − f_L)/(fs/2).
 #[test]
 fn adc_codes_add_the_quantisation_noise_to_the_snr() {
-    let s = Scratch::new("cli-tone", "adc");
+    let s = Scratch::new("adc");
     let body = format!("{HEAD}{TONES}").replace("offset = \"0.5 mV\"", "offset = \"1.65 V\"");
     let p = s.file("t.toml", &body);
-    let o = run(
+    run_ok(
         &[
             "generate",
             p.to_str().unwrap(),
@@ -244,9 +238,7 @@ fn adc_codes_add_the_quantisation_noise_to_the_snr() {
         ],
         &s.dir,
     );
-    assert!(o.status.success(), "{}", text(&o.stderr));
-    let m: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(s.path("a.csv.json")).unwrap()).unwrap();
+    let m = manifest(&s.path("a.csv"));
     let x = &m["extra"];
     let noise = x["noise_band_rms"].as_f64().unwrap().powi(2);
     let q = 3.3 / 4096.0;

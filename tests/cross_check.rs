@@ -14,11 +14,9 @@
 mod common;
 
 use std::ffi::OsString;
-use std::path::{Path, PathBuf};
-use std::process::Command;
-use std::sync::atomic::{AtomicUsize, Ordering};
+use std::path::Path;
 
-use common::{check_bands_against, chi2_band, db};
+use common::{Scratch, bin, check_bands_against, chi2_band, db, manifest, read_f64};
 use noisewright::analysis::welch::{BandEstimate, Spectrum, welch};
 use noisewright::profile::parse_profile;
 use noisewright::synth::design_profile;
@@ -76,40 +74,17 @@ const WAV_SAMPLES: usize = 20_001;
 // ---------------------------------------------------------------------------------------------
 // Plumbing: scratch folder, the binary, Python.
 
-/// A fresh folder under the system temp dir holding [`PROFILE`], removed on drop.
-struct Scratch {
-    dir: PathBuf,
-}
-
-impl Scratch {
-    fn new(tag: &str) -> Scratch {
-        static COUNTER: AtomicUsize = AtomicUsize::new(0);
-        let id = COUNTER.fetch_add(1, Ordering::Relaxed);
-        let dir = std::env::temp_dir().join(format!(
-            "noisewright-cross-{}-{tag}-{id}",
-            std::process::id()
-        ));
-        let _ = std::fs::remove_dir_all(&dir);
-        std::fs::create_dir_all(&dir).unwrap();
-        std::fs::write(dir.join("profile.toml"), PROFILE).unwrap();
-        Scratch { dir }
-    }
-
-    fn path(&self, name: &str) -> PathBuf {
-        self.dir.join(name)
-    }
-}
-
-impl Drop for Scratch {
-    fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.dir);
-    }
+/// A scratch folder holding [`PROFILE`] as `profile.toml`.
+fn scratch(tag: &str) -> Scratch {
+    let s = Scratch::new(tag);
+    s.file("profile.toml", PROFILE);
+    s
 }
 
 /// Runs `noisewright generate PROFILE -o OUT --seed SEED --quiet EXTRA…` with OUT in the
 /// scratch folder and returns the manifest written next to it (OUT.json).
 fn generate(s: &Scratch, out: &str, extra: &[&str]) -> serde_json::Value {
-    let o = Command::new(env!("CARGO_BIN_EXE_noisewright"))
+    let o = bin()
         .arg("generate")
         .arg(s.path("profile.toml"))
         .arg("-o")
@@ -124,21 +99,12 @@ fn generate(s: &Scratch, out: &str, extra: &[&str]) -> serde_json::Value {
         o.status,
         String::from_utf8_lossy(&o.stderr)
     );
-    let manifest = std::fs::read(s.path(&format!("{out}.json"))).expect("manifest written");
-    serde_json::from_slice(&manifest).expect("manifest is JSON")
+    manifest(&s.path(out))
 }
 
 /// Runs `tests/python/<script>` with `args` (see [`common::python_script`]).
 fn python(script: &str, args: &[OsString]) -> Option<String> {
     common::python_script(script, args, &format!("seed {SEED}"))
-}
-
-fn read_f64(path: &Path) -> Vec<f64> {
-    std::fs::read(path)
-        .unwrap()
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect()
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -316,7 +282,7 @@ fn worst_band(bands: &[BandEstimate], expected: &dyn Fn(&BandEstimate) -> f64) -
 /// reject the design scaled by ±1 dB.
 #[test]
 fn generated_density_matches_the_design_in_scipy_welch() {
-    let s = Scratch::new("density");
+    let s = scratch("density");
     let manifest = generate(
         &s,
         "record.raw",
@@ -632,7 +598,7 @@ fn read_scipy(path: &Path, case: &WavCase) -> Stored {
 /// sink's convention) to within one code, the one rounding of x/full_scale, and f32 to one ulp.
 #[test]
 fn wav_files_read_by_scipy_and_hound_hold_the_raw_writers_samples() {
-    let s = Scratch::new("wav");
+    let s = scratch("wav");
     let n = WAV_SAMPLES.to_string();
     let physical_manifest = generate(
         &s,

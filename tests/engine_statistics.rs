@@ -7,16 +7,12 @@
 
 mod common;
 
-use common::{check_bands_against, chi2_band, db};
+use common::{check_bands_against, chi2_band, db, profile};
 use noisewright::analysis::compare::expected_band_psd;
 use noisewright::analysis::welch::Welch;
 use noisewright::model::density;
-use noisewright::profile::{Profile, parse_profile};
+use noisewright::profile::parse_profile;
 use noisewright::synth::{Generator, HOP, RATIO, Shaper, design_profile, periodic_buffer};
-
-fn profile(text: &str) -> Profile {
-    parse_profile(text, "<test>").unwrap()
-}
 
 /// z for a two-sided normal tail probability of 1e−7 (|z| > 5.327 has p = 1e−7).
 const Z_1E7: f64 = 5.327;

@@ -4,11 +4,23 @@
 //! what is expected, write nothing to standard output, and leave no file behind (no target,
 //! no manifest, no `.partial` leftover, no `out/` folder).
 //!
+//! A bad profile is refused by the profile parser before `generate` opens any file, and the
+//! binary prints that error as `noisewright: error: {e}` and exits with `e.exit_code()`. So
+//! the profile rows run the parser in-process and check that message and code exactly as
+//! the binary's stderr and exit status are checked; a sample of them also runs through the
+//! binary to hold the two to the same text, status, silence on stdout and empty folder. The
+//! other rows (options, capture files) run the binary. All rows run in parallel, each in its
+//! own scratch folder.
+//!
 //! A new error class gets a row here (see DEVELOPERS.md).
 
 mod common;
 
+use std::sync::Mutex;
+use std::sync::atomic::{AtomicUsize, Ordering};
+
 use common::{Scratch, run, text};
+use noisewright::profile::parse_profile;
 
 /// The profile most rows start from (volts, 48 kHz, one white floor); lines 1 to 6.
 const W: &str = "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n\
@@ -27,6 +39,9 @@ struct Case {
     files: Vec<(String, Vec<u8>)>,
     args: Vec<String>,
     expect: Vec<String>,
+    /// A profile row (see [`profile`]): `generate` on the file `p.toml`, which must be
+    /// refused by the profile parser; it runs in-process.
+    parser: bool,
 }
 
 impl Case {
@@ -36,6 +51,7 @@ impl Case {
             files: Vec::new(),
             args: Vec::new(),
             expect: Vec::new(),
+            parser: false,
         }
     }
 
@@ -55,12 +71,18 @@ impl Case {
     }
 }
 
-/// `generate p.toml -o x.wav` on the profile `body`.
+/// The profile file of a profile row, as `generate` names it in its messages.
+const PROFILE_FILE: &str = "p.toml";
+
+/// `generate p.toml -o x.wav` on the profile `body`, which the profile parser must refuse:
+/// run in-process as `parse_profile(body, "p.toml")` (see [`check_in_process`]).
 fn profile(class: &'static str, body: impl AsRef<str>, expect: &[&str]) -> Case {
-    Case::new(class)
-        .file("p.toml", body.as_ref())
-        .args(&["generate", "p.toml", "-o", "x.wav", "--samples", "100"])
-        .expect(expect)
+    let mut case = Case::new(class)
+        .file(PROFILE_FILE, body.as_ref())
+        .args(&["generate", PROFILE_FILE, "-o", "x.wav", "--samples", "100"])
+        .expect(expect);
+    case.parser = true;
+    case
 }
 
 /// `generate w.toml ARGS…` on the profile `W`.
@@ -2239,11 +2261,144 @@ fn listing(dir: &std::path::Path) -> Vec<String> {
     out
 }
 
+/// What running a row gave.
+struct Outcome {
+    /// How it ran: the command line, or the parser in-process.
+    how: String,
+    /// The exit status (in-process: the error's exit code).
+    code: Option<i32>,
+    /// Its stderr (in-process: what the binary would print).
+    stderr: String,
+    /// What is wrong; empty when nothing is.
+    problems: Vec<String>,
+}
+
+/// Runs a row through the binary in a scratch folder holding its files. Problems: exit
+/// status other than 2, no `error:` or an expected text missing on stderr, anything on
+/// stdout, any file left besides the inputs.
+fn check_binary(case: &Case) -> Outcome {
+    let s = Scratch::new("row");
+    for (name, body) in &case.files {
+        let p = s.path(name);
+        std::fs::create_dir_all(p.parent().unwrap()).unwrap();
+        std::fs::write(p, body).unwrap();
+    }
+    let o = run(&case.args, &s);
+    let mut out = Outcome {
+        how: format!("`noisewright {}`", case.args.join(" ")),
+        code: o.status.code(),
+        stderr: text(&o.stderr),
+        problems: Vec::new(),
+    };
+    expect_exit_2_and_texts(case, &mut out);
+    if !o.stdout.is_empty() {
+        out.problems
+            .push(format!("wrote {} bytes to stdout", o.stdout.len()));
+    }
+    // The inputs and the folders that hold them.
+    let mut inputs: Vec<String> = case
+        .files
+        .iter()
+        .flat_map(|(n, _)| {
+            std::path::Path::new(n)
+                .ancestors()
+                .map(|a| a.display().to_string())
+                .filter(|a| !a.is_empty())
+                .collect::<Vec<_>>()
+        })
+        .collect();
+    inputs.sort();
+    inputs.dedup();
+    let left = listing(&s);
+    if left != inputs {
+        out.problems
+            .push(format!("left {left:?} (inputs {inputs:?})"));
+    }
+    out
+}
+
+/// Runs a profile row in-process: `parse_profile` on its `p.toml`, and what the binary
+/// prints for the error it returns, `noisewright: error: {e}` on stderr and exit status
+/// `e.exit_code()` (src/main.rs). Problems: those of [`check_binary`] that concern the
+/// message and status; the parser reads a string, so it writes nothing to stdout and leaves
+/// no file (the sample in `profile_rows_in_process_say_what_the_binary_says` checks the
+/// binary does neither).
+fn check_in_process(case: &Case) -> Outcome {
+    let [(name, body)] = &case.files[..] else {
+        panic!("{}: a profile row has one file", case.class);
+    };
+    assert!(case.parser && name == PROFILE_FILE, "{}", case.class);
+    let text = std::str::from_utf8(body).expect("profile rows are text");
+    let mut out = Outcome {
+        how: format!("parse_profile of {PROFILE_FILE} in-process"),
+        code: None,
+        stderr: String::new(),
+        problems: Vec::new(),
+    };
+    match parse_profile(text, PROFILE_FILE) {
+        Ok(_) => out.problems.push("the parser accepted it".to_string()),
+        Err(e) => {
+            out.stderr = format!("noisewright: error: {e}\n");
+            out.code = Some(e.exit_code());
+            expect_exit_2_and_texts(case, &mut out);
+        }
+    }
+    out
+}
+
+/// Adds the problems of an exit status other than 2, and of a stderr without `error:` or
+/// without each expected text.
+fn expect_exit_2_and_texts(case: &Case, out: &mut Outcome) {
+    if out.code != Some(2) {
+        out.problems
+            .push(format!("exit {:?}, expected 2", out.code));
+    }
+    if !out.stderr.contains("error:") {
+        out.problems.push("no \"error:\" on stderr".to_string());
+    }
+    for n in &case.expect {
+        if !out.stderr.contains(n.as_str()) {
+            out.problems.push(format!("lacks {n:?}"));
+        }
+    }
+}
+
+/// Runs `check` on every row, spread over the machine's threads, and returns one line per
+/// row with problems (its class, how it ran, the problems and its stderr), in table order.
+fn failures(cases: &[&Case], check: impl Fn(&Case) -> Outcome + Sync) -> Vec<String> {
+    let threads = std::thread::available_parallelism().map_or(2, |n| n.get());
+    let next = AtomicUsize::new(0);
+    let failed = Mutex::new(Vec::new());
+    std::thread::scope(|scope| {
+        for _ in 0..threads.min(cases.len()) {
+            scope.spawn(|| {
+                loop {
+                    let at = next.fetch_add(1, Ordering::Relaxed);
+                    let Some(case) = cases.get(at) else { break };
+                    let out = check(case);
+                    if !out.problems.is_empty() {
+                        let line = format!(
+                            "{}: {}: {}\n    stderr: {}",
+                            case.class,
+                            out.how,
+                            out.problems.join("; "),
+                            out.stderr.trim()
+                        );
+                        failed.lock().unwrap().push((at, line));
+                    }
+                }
+            });
+        }
+    });
+    let mut failed = failed.into_inner().unwrap();
+    failed.sort();
+    failed.into_iter().map(|(_, line)| line).collect()
+}
+
 #[test]
 fn every_error_class_exits_2_names_file_position_and_expectation_and_leaves_no_file() {
     let cases = cases();
     let mut classes = std::collections::HashSet::new();
-    let mut failures = Vec::new();
     for case in &cases {
         assert!(
             classes.insert(case.class),
@@ -2251,64 +2406,58 @@ fn every_error_class_exits_2_names_file_position_and_expectation_and_leaves_no_f
             case.class
         );
         assert!(!case.expect.is_empty(), "{}: no expected text", case.class);
-        let s = Scratch::new("errors", "row");
-        for (name, body) in &case.files {
-            let p = s.path(name);
-            std::fs::create_dir_all(p.parent().unwrap()).unwrap();
-            std::fs::write(p, body).unwrap();
-        }
-        let args: Vec<&str> = case.args.iter().map(String::as_str).collect();
-        let o = run(&args, &s.dir);
-        let err = text(&o.stderr);
-        let mut problems = Vec::new();
-        if o.status.code() != Some(2) {
-            problems.push(format!("exit {:?}, expected 2", o.status.code()));
-        }
-        if !err.contains("error:") {
-            problems.push("no \"error:\" on stderr".to_string());
-        }
-        for n in &case.expect {
-            if !err.contains(n.as_str()) {
-                problems.push(format!("lacks {n:?}"));
-            }
-        }
-        if !o.stdout.is_empty() {
-            problems.push(format!("wrote {} bytes to stdout", o.stdout.len()));
-        }
-        // The inputs and the folders that hold them.
-        let mut inputs: Vec<String> = case
-            .files
-            .iter()
-            .flat_map(|(n, _)| {
-                std::path::Path::new(n)
-                    .ancestors()
-                    .map(|a| a.display().to_string())
-                    .filter(|a| !a.is_empty())
-                    .collect::<Vec<_>>()
-            })
-            .collect();
-        inputs.sort();
-        inputs.dedup();
-        let left = listing(&s.dir);
-        if left != inputs {
-            problems.push(format!("left {left:?} (inputs {inputs:?})"));
-        }
-        if !problems.is_empty() {
-            failures.push(format!(
-                "{}: `noisewright {}`: {}\n    stderr: {}",
-                case.class,
-                args.join(" "),
-                problems.join("; "),
-                err.trim()
-            ));
-        }
     }
+    let (profiles, others): (Vec<&Case>, Vec<&Case>) = cases.iter().partition(|c| c.parser);
+    // The binary rows wait on processes; the profile rows run alongside them.
+    let failed = std::thread::scope(|scope| {
+        let in_process = scope.spawn(|| failures(&profiles, check_in_process));
+        let mut failed = failures(&others, check_binary);
+        failed.splice(0..0, in_process.join().unwrap());
+        failed
+    });
     assert!(
-        failures.is_empty(),
+        failed.is_empty(),
         "{} of {} rows failed:\n{}",
-        failures.len(),
+        failed.len(),
         cases.len(),
-        failures.join("\n")
+        failed.join("\n")
     );
     assert!(cases.len() >= 150, "only {} rows", cases.len());
+}
+
+/// The in-process profile rows stand for the binary: a sample of them (every 16th) run
+/// through the binary on the same file passes every check of a binary row (exit 2, the
+/// expected texts, nothing on stdout, no file left), with exactly the stderr and exit status
+/// the parser gives in-process.
+#[test]
+fn profile_rows_in_process_say_what_the_binary_says() {
+    let cases = cases();
+    let sample: Vec<&Case> = cases.iter().filter(|c| c.parser).step_by(16).collect();
+    assert!(
+        sample.len() >= 6,
+        "only {} sampled profile rows",
+        sample.len()
+    );
+    let failed = failures(&sample, |case| {
+        let mut out = check_binary(case);
+        let want = check_in_process(case);
+        if !want.problems.is_empty() {
+            out.problems
+                .push(format!("in-process: {}", want.problems.join("; ")));
+        }
+        if (&want.stderr, want.code) != (&out.stderr, out.code) {
+            out.problems.push(format!(
+                "in-process: exit {:?}, stderr {:?}",
+                want.code, want.stderr
+            ));
+        }
+        out
+    });
+    assert!(
+        failed.is_empty(),
+        "{} of {} sampled rows failed:\n{}",
+        failed.len(),
+        sample.len(),
+        failed.join("\n")
+    );
 }

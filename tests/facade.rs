@@ -2,8 +2,11 @@
 //! `Generator` gives the raw f64 samples `generate` writes, and `Render` writes the same bytes,
 //! manifest and summary as `generate`, for every bundled profile and every format.
 
+mod common;
+
 use std::path::{Path, PathBuf};
-use std::process::Command;
+
+use common::{Scratch, read_f64, run_ok};
 
 use noisewright::io::sink::SampleFormat;
 use noisewright::{Error, Generator, Profile, Render, Setting};
@@ -23,48 +26,11 @@ fn bundled_profiles() -> Vec<PathBuf> {
     v
 }
 
-/// A scratch folder, removed when the test passes (kept, and named, when it fails).
-struct Scratch(PathBuf);
-
-impl Scratch {
-    fn new(name: &str) -> Scratch {
-        let p = std::env::temp_dir().join(format!("nw-facade-{}-{name}", std::process::id()));
-        let _ = std::fs::remove_dir_all(&p);
-        std::fs::create_dir_all(&p).expect("scratch folder");
-        Scratch(p)
-    }
-}
-
-impl Drop for Scratch {
-    fn drop(&mut self) {
-        if std::thread::panicking() {
-            eprintln!("scratch kept: {}", self.0.display());
-        } else {
-            let _ = std::fs::remove_dir_all(&self.0);
-        }
-    }
-}
-
-/// Runs the command; returns its standard output, failing the test on a non-zero exit.
+/// Runs `generate` with `args` (it must succeed); returns its standard output.
 fn generate(args: &[&str]) -> Vec<u8> {
-    let out = Command::new(env!("CARGO_BIN_EXE_noisewright"))
-        .arg("generate")
-        .args(args)
-        .output()
-        .expect("run noisewright");
-    assert!(
-        out.status.success(),
-        "generate {args:?}: {}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    out.stdout
-}
-
-fn f64s(bytes: &[u8]) -> Vec<f64> {
-    bytes
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().expect("8 bytes")))
-        .collect()
+    let mut all = vec!["generate"];
+    all.extend_from_slice(args);
+    run_ok(&all, Path::new(env!("CARGO_MANIFEST_DIR"))).stdout
 }
 
 /// Pulls `n` frames in uneven chunks (1, then sizes that straddle the engine's blocks).
@@ -97,7 +63,7 @@ fn assert_bits_equal(a: &[f64], b: &[f64], what: &str) {
 fn generator_gives_generates_raw_f64_samples_for_every_bundled_profile() {
     let dir = Scratch::new("generator");
     for p in bundled_profiles() {
-        let file = dir.0.join("a.f64");
+        let file = dir.join("a.f64");
         let frames = 30_011;
         generate(&[
             p.to_str().unwrap(),
@@ -108,7 +74,7 @@ fn generator_gives_generates_raw_f64_samples_for_every_bundled_profile() {
             "-o",
             file.to_str().unwrap(),
         ]);
-        let cli = f64s(&std::fs::read(&file).unwrap());
+        let cli = read_f64(&file);
         let profile = Profile::from_path(&p).unwrap();
         let lib = pull(&mut Generator::new(&profile, SEED).unwrap(), frames);
         assert_bits_equal(&lib, &cli, &p.display().to_string());
@@ -118,7 +84,7 @@ fn generator_gives_generates_raw_f64_samples_for_every_bundled_profile() {
 #[test]
 fn generator_starting_at_is_generates_segment_also_with_channels() {
     let dir = Scratch::new("segment");
-    let path = dir.0.join("three.toml");
+    let path = dir.join("three.toml");
     // Invented scenario: a three-sensor array with one correlated pair and a tone.
     std::fs::write(
         &path,
@@ -131,7 +97,7 @@ fn generator_starting_at_is_generates_segment_also_with_channels() {
     .unwrap();
     let profile = Profile::from_path(&path).unwrap();
     for start in [0u64, 77_777] {
-        let file = dir.0.join("seg.f64");
+        let file = dir.join("seg.f64");
         generate(&[
             path.to_str().unwrap(),
             "--samples",
@@ -143,7 +109,7 @@ fn generator_starting_at_is_generates_segment_also_with_channels() {
             "-o",
             file.to_str().unwrap(),
         ]);
-        let cli = f64s(&std::fs::read(&file).unwrap());
+        let cli = read_f64(&file);
         let mut g = Generator::starting_at(&profile, SEED, start).unwrap();
         assert_eq!(g.channels(), 3);
         assert_bits_equal(&pull(&mut g, 20_000), &cli, &format!("start {start}"));
@@ -213,7 +179,7 @@ fn render_writes_generates_bytes_manifest_and_summary_for_every_bundled_profile(
     // One thread per profile (each with its own folders): the runs are independent.
     std::thread::scope(|scope| {
         for (k, p) in bundled_profiles().into_iter().enumerate() {
-            let base = dir.0.join(k.to_string());
+            let base = dir.join(k.to_string());
             scope.spawn(move || render_cases(&p, &base));
         }
     });
@@ -290,7 +256,7 @@ fn render_refuses_bad_settings_naming_the_setting_in_library_words() {
     let dir = Scratch::new("refuse");
     let e = Render::new(&profile)
         .samples(0)
-        .to_path(dir.0.join("a.wav"))
+        .to_path(dir.join("a.wav"))
         .unwrap_err();
     assert!(
         matches!(
@@ -309,7 +275,7 @@ fn render_refuses_bad_settings_naming_the_setting_in_library_words() {
     assert_eq!(e.exit_code(), 2);
     let e = Render::new(&profile)
         .bits(12)
-        .to_path(dir.0.join("a.raw"))
+        .to_path(dir.join("a.raw"))
         .unwrap_err();
     let text = e.to_string();
     assert!(text.starts_with("setting bits: needs range,"), "{text}");
@@ -317,5 +283,5 @@ fn render_refuses_bad_settings_naming_the_setting_in_library_words() {
     // The command line names the same settings by its flags.
     let cli = e.describe("option", &|s| format!("--{}", s.name().replace('_', "-")));
     assert!(cli.starts_with("option --bits: needs --range,"), "{cli}");
-    assert!(!dir.0.join("a.raw").exists() && !dir.0.join("a.wav").exists());
+    assert!(!dir.join("a.raw").exists() && !dir.join("a.wav").exists());
 }

@@ -34,7 +34,8 @@ rms = "100 uV"
 
 const N: usize = 1 << 20;
 
-fn run() -> (Generator, Vec<f64>) {
+/// The generator of [`PROFILE`] at `SEED` and its first `N` samples.
+fn generated() -> (Generator, Vec<f64>) {
     let p = parse_profile(PROFILE, "tones.toml").unwrap();
     let mut g = Generator::new(&p, SEED).unwrap();
     let mut x = vec![0.0; N];
@@ -48,7 +49,7 @@ fn run() -> (Generator, Vec<f64>) {
 /// (Gaussian tail, REFERENCES §8).
 #[test]
 fn fitted_amplitudes_and_phases_match_the_profile() {
-    let (g, x) = run();
+    let (g, x) = generated();
     let sigma = g.noise_variance().sqrt();
     let sigma_a = sigma * (2.0 / N as f64).sqrt();
     let mut fit = ToneFit::new(&[1234.5, 7000.0], 48e3);
@@ -83,7 +84,7 @@ fn fitted_amplitudes_and_phases_match_the_profile() {
 /// variance (REFERENCES §8, n ≈ N for white noise) and the amplitude's 5σ_A.
 #[test]
 fn snr_and_enob_match_the_design_and_the_measurement() {
-    let (g, x) = run();
+    let (g, x) = generated();
     let snr = g.tone_snr(1.0, 24e3, 0.0);
     let closed = 10.0 * ((2e-6f64).powi(2) / 2.0 / (1e-16 * (24e3 - 1.0))).log10();
     assert!((snr[0].0 - closed).abs() < 0.01, "{} vs {closed}", snr[0].0);
@@ -130,7 +131,7 @@ fn snr_and_enob_match_the_design_and_the_measurement() {
 /// envelope min(1, 1/(N² sin²(πf/fs))), which near DC is S(0)·fs/(2N) for a density flat at DC.
 #[test]
 fn the_mean_is_the_offset() {
-    let (g, x) = run();
+    let (g, x) = generated();
     let mean = x.iter().sum::<f64>() / N as f64;
     let nf = N as f64;
     let env = |f: f64| {

@@ -4,10 +4,7 @@
 
 mod common;
 
-use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicUsize, Ordering};
-
-use common::{check_bands_against, chi2_band, db, variance_bounds};
+use common::{Scratch, check_bands_against, chi2_band, db, read_f64, variance_bounds, write_f64};
 use noisewright::analysis::welch::{BandEstimate, Spectrum, Welch, welch};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -103,43 +100,6 @@ fn check_bands_accepts_truth_and_reports_the_worst_band_otherwise() {
 // ---------------------------------------------------------------------------------------------
 // SciPy reference.
 
-/// Temporary files removed on drop, named uniquely per process, test and call.
-struct TempFiles(Vec<PathBuf>);
-
-impl TempFiles {
-    fn new(tag: &str) -> TempFiles {
-        static COUNTER: AtomicUsize = AtomicUsize::new(0);
-        let id = COUNTER.fetch_add(1, Ordering::Relaxed);
-        let base = format!("noisewright-welch-{}-{tag}-{id}", std::process::id());
-        let dir = std::env::temp_dir();
-        TempFiles(vec![
-            dir.join(format!("{base}-in.f64")),
-            dir.join(format!("{base}-out.f64")),
-        ])
-    }
-}
-
-impl Drop for TempFiles {
-    fn drop(&mut self) {
-        for p in &self.0 {
-            let _ = std::fs::remove_file(p);
-        }
-    }
-}
-
-fn write_f64(path: &Path, x: &[f64]) {
-    let bytes: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
-    std::fs::write(path, bytes).unwrap();
-}
-
-fn read_f64(path: &Path) -> Vec<f64> {
-    std::fs::read(path)
-        .unwrap()
-        .chunks_exact(8)
-        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
-        .collect()
-}
-
 /// `scipy.signal.welch` of `x` (frequencies, density), or None when skipped.
 fn scipy_welch(
     x: &[f64],
@@ -148,18 +108,19 @@ fn scipy_welch(
     noverlap: usize,
     tag: &str,
 ) -> Option<(Vec<f64>, Vec<f64>)> {
-    let files = TempFiles::new(tag);
-    write_f64(&files.0[0], x);
+    let s = Scratch::new(tag);
+    let (input, output) = (s.path("in.f64"), s.path("out.f64"));
+    write_f64(&input, x);
     let args: Vec<std::ffi::OsString> = vec![
-        files.0[0].clone().into(),
-        files.0[1].clone().into(),
+        input.into(),
+        output.clone().into(),
         format!("{fs:?}").into(),
         seg_len.to_string().into(),
         noverlap.to_string().into(),
     ];
     let stdout = common::python_script("welch_ref.py", &args, &format!("seed {SEED}"))?;
     println!("{tag}: {}", stdout.trim());
-    let both = read_f64(&files.0[1]);
+    let both = read_f64(&output);
     let n = seg_len / 2 + 1;
     assert_eq!(both.len(), 2 * n, "reference output length");
     Some((both[..n].to_vec(), both[n..].to_vec()))

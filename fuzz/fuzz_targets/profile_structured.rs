@@ -7,16 +7,14 @@
 //! density on a frequency grid, the budget text, each burst's model and chain, the tones at
 //! sample 0 and far into a run, the channel mixing matrix, and, when the design is small (at
 //! most two pyramid levels and two channels), the whole multi-channel engine for a few frames.
-//! Each may return an error; none may panic or hang.
+//! Each may return an error; none may panic or hang (`harness::exercise`).
 #![no_main]
+
+#[path = "../harness.rs"]
+mod harness;
 
 use arbitrary::Arbitrary;
 use libfuzzer_sys::fuzz_target;
-use noisewright::model::budget::{budget, to_json, write_text};
-use noisewright::model::burst::BurstModel;
-use noisewright::model::density::target_psd;
-use noisewright::profile::Profile;
-use noisewright::synth::{BurstChain, ChannelGenerator, MAX_START, WhiteStreams, mixing_matrix};
 
 const TABLES: [&str; 13] = [
     "",
@@ -259,53 +257,10 @@ fuzz_target!(|input: Input<'_>| {
         // For turning an artifact into a profile fixture: FUZZ_PRINT=1 <target> <artifact>.
         eprintln!("----- profile text\n{text}-----");
     }
-    if let Ok(profile) = noisewright::profile::parse_profile(&text, "fuzz.toml") {
-        exercise(&profile, input.seed, input.start);
+    if let Ok(profile) = noisewright::profile::parse_profile(&text, harness::PROFILE_FILE) {
+        harness::exercise(&profile, input.seed, input.start);
     }
 });
-
-/// What `generate` and `budget` do with an accepted profile, kept small.
-fn exercise(p: &Profile, seed: u64, start: u64) {
-    let _ = p.to_json();
-    let fs = p.sample_rate_hz;
-    // The target density from far below the band to Nyquist (what the design samples).
-    for i in 0..=32 {
-        let f = p.band.low_hz * 1e-4 * (fs / 2.0 / (p.band.low_hz * 1e-4)).powf(i as f64 / 32.0);
-        let _ = target_psd(p, f);
-    }
-    let _ = target_psd(p, 0.0);
-    let b = budget(p, &[]);
-    let _ = to_json(&b);
-    let _ = write_text(&b, &mut Vec::new());
-    let streams = WhiteStreams::new(seed);
-    let mut block = vec![0.0; 64];
-    for (i, burst) in p.bursts.iter().enumerate() {
-        let Ok(model) = BurstModel::new(burst, fs) else {
-            continue;
-        };
-        let _ = (
-            model.density(fs / 4.0),
-            model.variance(),
-            model.corners_hz(),
-        );
-        let mut chain = BurstChain::new(&model, &streams, i as u64);
-        chain.fill(&mut block);
-        chain.skip(start % 256);
-        chain.fill(&mut block);
-    }
-    let start = start % MAX_START;
-    noisewright::synth::tone::add_deterministic(&p.tones, p.offset, fs, start, &mut block);
-    let _ = mixing_matrix(&p.correlation);
-    // The whole engine only when it is small: each pyramid level costs an FFT design, and
-    // every channel has its own engine.
-    let levels = (p.band.low_hz / fs / 0.06).log(0.25).ceil().max(0.0) + 1.0;
-    if levels <= 2.0 && p.channels <= 2 {
-        if let Ok(mut g) = ChannelGenerator::starting_at(p, seed, start % 256) {
-            let mut frames = vec![0.0; 16 * p.channels];
-            g.fill_frames(&mut frames);
-        }
-    }
-}
 
 /// True when the environment has FUZZ_PRINT: print each assembled profile.
 fn print() -> bool {

@@ -1,9 +1,11 @@
 //! Arbitrary bytes as a profile file: `parse_profile` must return `Ok` or an error, never panic.
 #![no_main]
 
+#[path = "../harness.rs"]
+mod harness;
+
 use libfuzzer_sys::fuzz_target;
 
 fuzz_target!(|data: &[u8]| {
-    let text = String::from_utf8_lossy(data);
-    let _ = noisewright::profile::parse_profile(&text, "fuzz.toml");
+    let _ = harness::profile_text(data);
 });

@@ -1,9 +1,15 @@
 //! Shared helpers for the integration tests: χ² acceptance bands for density and variance
 //! estimates, a band-by-band check of a Welch estimate against a designed density, the
-//! Python reference, scratch folders, running the binary, and a white test profile.
+//! Python reference, scratch folders, running the binary, raw f64 files and manifests, and a
+//! white test profile.
 //!
 //! Each test binary uses only some of these.
 #![allow(dead_code)]
+
+use std::ffi::OsStr;
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 use noisewright::analysis::welch::BandEstimate;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
@@ -198,59 +204,164 @@ pub fn python_script(script: &str, args: &[std::ffi::OsString], context: &str) -
     Some(String::from_utf8_lossy(&out.stdout).into_owned())
 }
 
-/// A fresh folder under the system's temporary folder, unique per process, tag and call,
-/// removed with its contents when dropped.
+/// The folder of one test under the system's temporary folder, named
+/// `noisewright-<test binary>-<pid>-<tag>-<n>` (unique per process, tag and call). It is
+/// removed with its contents when the test passes; when the test panics it is kept for
+/// inspection and its path is printed.
+///
+/// It dereferences to its path, so `s.join(name)` and `&s` as a `&Path` work.
 pub struct Scratch {
     /// The folder.
-    pub dir: std::path::PathBuf,
+    pub dir: PathBuf,
 }
 
 impl Scratch {
-    /// Creates (empties) the folder `noisewright-<prefix>-<pid>-<tag>-<n>`.
-    pub fn new(prefix: &str, tag: &str) -> Scratch {
-        static COUNTER: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
-        let id = COUNTER.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+    /// Creates (empties) the folder for `tag`.
+    pub fn new(tag: &str) -> Scratch {
+        static COUNTER: AtomicUsize = AtomicUsize::new(0);
+        let id = COUNTER.fetch_add(1, Ordering::Relaxed);
         let dir = std::env::temp_dir().join(format!(
-            "noisewright-{prefix}-{}-{tag}-{id}",
+            "noisewright-{}-{}-{tag}-{id}",
+            test_binary(),
             std::process::id()
         ));
         let _ = std::fs::remove_dir_all(&dir);
-        std::fs::create_dir_all(&dir).unwrap();
+        std::fs::create_dir_all(&dir)
+            .unwrap_or_else(|e| panic!("cannot create {}: {e}", dir.display()));
         Scratch { dir }
     }
 
     /// A path inside the folder.
-    pub fn path(&self, name: &str) -> std::path::PathBuf {
+    pub fn path(&self, name: &str) -> PathBuf {
         self.dir.join(name)
     }
 
     /// Writes `body` to `name` inside the folder and returns its path.
-    pub fn file(&self, name: &str, body: &str) -> std::path::PathBuf {
+    pub fn file(&self, name: &str, body: &str) -> PathBuf {
         let p = self.path(name);
-        std::fs::write(&p, body).unwrap();
+        std::fs::write(&p, body).unwrap_or_else(|e| panic!("cannot write {}: {e}", p.display()));
         p
+    }
+}
+
+impl std::ops::Deref for Scratch {
+    type Target = Path;
+
+    fn deref(&self) -> &Path {
+        &self.dir
+    }
+}
+
+impl AsRef<Path> for Scratch {
+    fn as_ref(&self) -> &Path {
+        &self.dir
     }
 }
 
 impl Drop for Scratch {
     fn drop(&mut self) {
-        let _ = std::fs::remove_dir_all(&self.dir);
+        if std::thread::panicking() {
+            eprintln!(
+                "kept the scratch folder {} for inspection",
+                self.dir.display()
+            );
+        } else {
+            let _ = std::fs::remove_dir_all(&self.dir);
+        }
     }
+}
+
+/// The name of the running test binary without cargo's hash (`cli_generate`), or `test`.
+fn test_binary() -> String {
+    std::env::current_exe()
+        .ok()
+        .and_then(|p| {
+            let stem = p.file_stem()?.to_string_lossy().into_owned();
+            Some(
+                stem.split_once('-')
+                    .map_or(stem.clone(), |(name, _)| name.to_string()),
+            )
+        })
+        .unwrap_or_else(|| "test".into())
+}
+
+/// The noisewright binary built for these tests, ready for arguments.
+pub fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_noisewright"))
 }
 
 /// Runs the noisewright binary with `args` in the folder `cwd` and returns its exit status
 /// and output.
-pub fn run(args: &[&str], cwd: &std::path::Path) -> std::process::Output {
-    std::process::Command::new(env!("CARGO_BIN_EXE_noisewright"))
+pub fn run<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
+    bin()
         .args(args)
         .current_dir(cwd)
         .output()
-        .unwrap()
+        .expect("the noisewright binary runs")
+}
+
+/// [`run`], which must succeed: panics with the command line, the exit status and stderr
+/// otherwise.
+pub fn run_ok<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
+    let o = run(args, cwd);
+    assert!(
+        o.status.success(),
+        "noisewright {} failed ({}): {}",
+        args.iter()
+            .map(|a| a.as_ref().to_string_lossy())
+            .collect::<Vec<_>>()
+            .join(" "),
+        o.status,
+        text(&o.stderr)
+    );
+    o
 }
 
 /// Bytes (a program's stdout or stderr) as text, invalid UTF-8 replaced.
 pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()
+}
+
+/// A test profile from its TOML text, which must parse (errors name the file `<test>`).
+pub fn profile(text: &str) -> noisewright::profile::Profile {
+    noisewright::profile::parse_profile(text, "<test>")
+        .unwrap_or_else(|e| panic!("the test profile does not parse: {e}"))
+}
+
+/// Names in the folder `dir` other than the profiles (`*.toml`) and the names in `keep`,
+/// sorted: what a run left there.
+pub fn outputs(dir: &Path, keep: &[&str]) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap_or_else(|e| panic!("cannot list {}: {e}", dir.display()))
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| !n.ends_with(".toml") && !keep.contains(&n.as_str()))
+        .collect();
+    v.sort();
+    v
+}
+
+/// Writes `x` as raw little-endian f64 (the `.f64` sample format) to `path`.
+pub fn write_f64(path: &Path, x: &[f64]) {
+    let bytes: Vec<u8> = x.iter().flat_map(|v| v.to_le_bytes()).collect();
+    std::fs::write(path, bytes).unwrap_or_else(|e| panic!("cannot write {}: {e}", path.display()));
+}
+
+/// The values of a raw little-endian f64 file (the `.f64` sample format).
+pub fn read_f64(path: &Path) -> Vec<f64> {
+    std::fs::read(path)
+        .unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()))
+        .chunks_exact(8)
+        .map(|b| f64::from_le_bytes(b.try_into().unwrap()))
+        .collect()
+}
+
+/// The JSON manifest written beside the output `path` (`path` + `.json`).
+pub fn manifest(path: &Path) -> serde_json::Value {
+    let mut p = path.as_os_str().to_owned();
+    p.push(".json");
+    let p = PathBuf::from(p);
+    let bytes = std::fs::read(&p).unwrap_or_else(|e| panic!("cannot read {}: {e}", p.display()));
+    serde_json::from_slice(&bytes).unwrap_or_else(|e| panic!("{} is not JSON: {e}", p.display()))
 }
 
 /// A white test profile: a 10 nV/√Hz floor in volts, band 10 Hz – 20 kHz with a brick-wall
