@@ -983,14 +983,27 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
 
     #[test]
     fn inline_tables_are_the_same_profile() {
-        let inline = "sample_rate = \"48 kHz\"\nband = { low = \"0.1 Hz\", high = \"20 kHz\", order = 2 }\n\
-                      floor = [{ density = \"4 nV/rtHz\", corner = 100 }]\n";
-        let tables = "sample_rate = 48000\n[band]\nlow = 0.1\nhigh = 20e3\norder = 2\n\
-                      [[floor]]\ndensity = 4e-9\ncorner = \"100 Hz\"\n";
+        let inline = r#"sample_rate = "48 kHz"
+band = { low = "0.1 Hz", high = "20 kHz", order = 2 }
+floor = [{ density = "4 nV/rtHz", corner = 100 }]
+"#;
+        let tables = r#"sample_rate = 48000
+[band]
+low = 0.1
+high = 20e3
+order = 2
+[[floor]]
+density = 4e-9
+corner = "100 Hz"
+"#;
         assert_eq!(
             parse_profile(inline, "a").unwrap(),
             parse_profile(tables, "b").unwrap()
         );
+    }
+
+    #[test]
+    fn an_unknown_key_in_an_inline_table_is_named_with_its_line() {
         let (k, l, _) = fail("sample_rate = 1\nfloor = [{ density = 1 }, { dens = 1 }]\n");
         assert_eq!((k.as_str(), l), ("floor[1].dens", Some(2)));
     }
@@ -1004,9 +1017,19 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
         assert!(parse_profile(&edit("high", "high = \"24 kHz\""), "t").is_ok());
     }
 
+    /// Each case edits `GOOD` (the line starting `old` becomes `new`) and expects an error
+    /// at `key` on `line` whose message holds `needle`: (old, new, key, line, needle).
+    fn assert_errors(cases: &[(&str, &str, &str, usize, &str)]) {
+        for &(old, new, key, line, needle) in cases {
+            let (k, l, msg) = fail(&edit(old, new));
+            assert_eq!((k.as_str(), l), (key, Some(line)), "{new}: {msg}");
+            assert!(msg.contains(needle), "{new}: {msg:?} lacks {needle:?}");
+        }
+    }
+
     #[test]
-    fn every_validation_error_has_its_key_and_line() {
-        let cases: &[(&str, &str, &str, usize, &str)] = &[
+    fn top_level_and_band_errors_have_their_key_and_line() {
+        assert_errors(&[
             ("unit", "unit = \"mV\"", "unit", 2, "\"V\""),
             ("sample_rate", "sample_rate = 0", "sample_rate", 3, "> 0"),
             (
@@ -1036,6 +1059,12 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
             ("order", "order = 9", "band.order", 7, "0 (brick wall) to 8"),
             ("order", "order = 1.5", "band.order", 7, "integer"),
             ("order", "order = -1", "band.order", 7, "integer"),
+        ]);
+    }
+
+    #[test]
+    fn floor_errors_have_their_key_and_line() {
+        assert_errors(&[
             (
                 "density = \"4",
                 "density = \"0 nV/rtHz\"",
@@ -1080,6 +1109,12 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
                 15,
                 "corner",
             ),
+        ]);
+    }
+
+    #[test]
+    fn resistor_and_table_errors_have_their_key_and_line() {
+        assert_errors(&[
             (
                 "resistance = \"10",
                 "resistance = \"-10 kOhm\"",
@@ -1150,12 +1185,7 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
                 23,
                 "density such as",
             ),
-        ];
-        for &(old, new, key, line, needle) in cases {
-            let (k, l, msg) = fail(&edit(old, new));
-            assert_eq!((k.as_str(), l), (key, Some(line)), "{new}: {msg}");
-            assert!(msg.contains(needle), "{new}: {msg:?} lacks {needle:?}");
-        }
+        ]);
     }
 
     #[test]
