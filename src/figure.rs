@@ -13,6 +13,7 @@ use plotters::prelude::*;
 use statrs::function::erf::erf;
 
 use crate::analysis::capture::CaptureReport;
+use crate::analysis::welch::BandEstimate;
 use crate::density::{band_gain, source_psd};
 use crate::profile::{Profile, format_quantity};
 use crate::synth::Generator;
@@ -61,6 +62,85 @@ pub fn density_svg(
         if bands.is_empty() {
             return Err("no band with a positive density".into());
         }
+        let frame = DensityFrame::new(&bands, design);
+        let mut chart = ChartBuilder::on(&root)
+            .caption("density", ("sans-serif", 24))
+            .margin(12)
+            .x_label_area_size(45)
+            .y_label_area_size(95)
+            .build_cartesian_2d(
+                (frame.x0..frame.x1).log_scale(),
+                (frame.ylo..frame.yhi).log_scale(),
+            )?;
+        chart
+            .configure_mesh()
+            .x_desc("frequency")
+            .y_desc(format!("density ({du})"))
+            .x_label_formatter(&|v| tick(*v, "Hz"))
+            .y_label_formatter(&|v| tick(*v, &du))
+            .draw()?;
+        draw_measured(&mut chart, &bands, &frame)?;
+        if !frame.designed.is_empty() {
+            chart
+                .draw_series(LineSeries::new(
+                    frame.designed.clone(),
+                    BLACK.stroke_width(2),
+                ))?
+                .label("designed")
+                .legend(|(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2))
+                });
+        }
+        if let Some(p) = profile {
+            draw_sources(&mut chart, p, design, &frame)?;
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()?;
+        root.present()?;
+        Ok(())
+    })
+}
+
+/// The density picture's chart: log frequency (Hz) by log density (unit/√Hz).
+type DensityChart<'a, 'b> =
+    ChartContext<'a, SVGBackend<'b>, Cartesian2d<LogCoord<f64>, LogCoord<f64>>>;
+
+/// Colour of the measured density and its interval.
+const MEASURED_COLOR: RGBColor = RGBColor(70, 110, 200);
+
+/// Colours of the profile's sources, in turn.
+const SOURCE_PALETTE: [RGBColor; 4] = [
+    RGBColor(200, 80, 40),
+    RGBColor(40, 150, 80),
+    RGBColor(150, 60, 170),
+    RGBColor(180, 150, 20),
+];
+
+/// The density picture's axes and the curves they are sized by.
+struct DensityFrame {
+    /// Frequency axis from `x0` to `x1`, Hz: the bands' span.
+    x0: f64,
+    x1: f64,
+    /// Density axis from `ylo` to `yhi`, unit/√Hz.
+    ylo: f64,
+    yhi: f64,
+    /// Each band's 95 % interval of the density, unit²/Hz.
+    ci: Vec<(f64, f64)>,
+    /// 401 log-spaced frequencies in Hz from `x0` to `x1`, where curves are evaluated.
+    grid: Vec<f64>,
+    /// The designed density (Hz, unit/√Hz) where it is positive; empty without a design.
+    designed: Vec<(f64, f64)>,
+}
+
+impl DensityFrame {
+    /// The axes for `bands` (at least one, each with a positive density) and `design`: the
+    /// density axis reaches from half the lowest interval (at most 10⁶ below the top) to twice
+    /// the highest interval or designed density.
+    fn new(bands: &[&BandEstimate], design: Option<&Generator>) -> DensityFrame {
         let x0 = bands[0].f_lo_hz.max(1e-12);
         let x1 = bands[bands.len() - 1].f_hi_hz;
         let ci: Vec<(f64, f64)> = bands.iter().map(|b| CaptureReport::band_ci95(b)).collect();
@@ -81,117 +161,113 @@ pub fn density_svg(
             hi = hi.max(p.1);
         }
         lo = lo.max(hi * 1e-6);
-        let (ylo, yhi) = (lo / 2.0, hi * 2.0);
-        let mut chart = ChartBuilder::on(&root)
-            .caption("density", ("sans-serif", 24))
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(95)
-            .build_cartesian_2d((x0..x1).log_scale(), (ylo..yhi).log_scale())?;
-        chart
-            .configure_mesh()
-            .x_desc("frequency")
-            .y_desc(format!("density ({du})"))
-            .x_label_formatter(&|v| tick(*v, "Hz"))
-            .y_label_formatter(&|v| tick(*v, &du))
-            .draw()?;
-        let band_color = RGBColor(70, 110, 200);
-        let mut outline: Vec<(f64, f64)> = bands
-            .iter()
-            .zip(&ci)
-            .flat_map(|(b, c)| {
-                [
-                    (b.f_lo_hz.max(x0), c.1.sqrt().min(yhi)),
-                    (b.f_hi_hz, c.1.sqrt().min(yhi)),
-                ]
-            })
-            .collect();
-        outline.extend(bands.iter().zip(&ci).rev().flat_map(|(b, c)| {
+        DensityFrame {
+            x0,
+            x1,
+            ylo: lo / 2.0,
+            yhi: hi * 2.0,
+            ci,
+            grid,
+            designed,
+        }
+    }
+}
+
+/// The measured layers: the bands' 95 % intervals as one shaded outline, and the measured
+/// density through the band centres with a dot at each.
+fn draw_measured(
+    chart: &mut DensityChart<'_, '_>,
+    bands: &[&BandEstimate],
+    frame: &DensityFrame,
+) -> Fallible {
+    let (x0, ylo, yhi) = (frame.x0, frame.ylo, frame.yhi);
+    let ci = &frame.ci;
+    let band_color = MEASURED_COLOR;
+    let mut outline: Vec<(f64, f64)> = bands
+        .iter()
+        .zip(ci)
+        .flat_map(|(b, c)| {
             [
-                (b.f_hi_hz, c.0.sqrt().max(ylo)),
-                (b.f_lo_hz.max(x0), c.0.sqrt().max(ylo)),
+                (b.f_lo_hz.max(x0), c.1.sqrt().min(yhi)),
+                (b.f_hi_hz, c.1.sqrt().min(yhi)),
             ]
-        }));
-        chart
-            .draw_series(std::iter::once(Polygon::new(outline, band_color.mix(0.2))))?
-            .label("95 % interval")
-            .legend(move |(x, y)| {
-                Rectangle::new([(x, y - 5), (x + 20, y + 5)], band_color.mix(0.2).filled())
-            });
-        let measured: Vec<(f64, f64)> = bands
+        })
+        .collect();
+    outline.extend(bands.iter().zip(ci).rev().flat_map(|(b, c)| {
+        [
+            (b.f_hi_hz, c.0.sqrt().max(ylo)),
+            (b.f_lo_hz.max(x0), c.0.sqrt().max(ylo)),
+        ]
+    }));
+    chart
+        .draw_series(std::iter::once(Polygon::new(outline, band_color.mix(0.2))))?
+        .label("95 % interval")
+        .legend(move |(x, y)| {
+            Rectangle::new([(x, y - 5), (x + 20, y + 5)], band_color.mix(0.2).filled())
+        });
+    let measured: Vec<(f64, f64)> = bands
+        .iter()
+        .map(|b| (b.f_center_hz.max(x0), b.psd_mean.sqrt()))
+        .collect();
+    chart
+        .draw_series(LineSeries::new(
+            measured.clone(),
+            band_color.stroke_width(2),
+        ))?
+        .label("measured")
+        .legend(move |(x, y)| {
+            PathElement::new(vec![(x, y), (x + 20, y)], band_color.stroke_width(2))
+        });
+    chart.draw_series(
+        measured
             .iter()
-            .map(|b| (b.f_center_hz.max(x0), b.psd_mean.sqrt()))
+            .map(|&p| Circle::new(p, 2, band_color.filled())),
+    )?;
+    Ok(())
+}
+
+/// One line per source of `p` (its density with the band shaping, unit/√Hz), then one per
+/// burst of `design` (its sampled density, AC part; the mean is a line at DC), each above the
+/// bottom of the axis.
+fn draw_sources(
+    chart: &mut DensityChart<'_, '_>,
+    p: &Profile,
+    design: Option<&Generator>,
+    frame: &DensityFrame,
+) -> Fallible {
+    let (grid, ylo) = (&frame.grid, frame.ylo);
+    let palette = SOURCE_PALETTE;
+    for (i, s) in p.sources.iter().enumerate() {
+        let c = palette[i % palette.len()];
+        let pts: Vec<(f64, f64)> = grid
+            .iter()
+            .map(|&f| {
+                (
+                    f,
+                    (source_psd(s, p, f) * band_gain(&p.band, p.sample_rate_hz, f)).sqrt(),
+                )
+            })
+            .filter(|q| q.1 > ylo)
             .collect();
         chart
-            .draw_series(LineSeries::new(
-                measured.clone(),
-                band_color.stroke_width(2),
-            ))?
-            .label("measured")
-            .legend(move |(x, y)| {
-                PathElement::new(vec![(x, y), (x + 20, y)], band_color.stroke_width(2))
-            });
-        chart.draw_series(
-            measured
-                .iter()
-                .map(|&p| Circle::new(p, 2, band_color.filled())),
-        )?;
-        if !designed.is_empty() {
-            chart
-                .draw_series(LineSeries::new(designed, BLACK.stroke_width(2)))?
-                .label("designed")
-                .legend(|(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2))
-                });
-        }
-        if let Some(p) = profile {
-            let palette = [
-                RGBColor(200, 80, 40),
-                RGBColor(40, 150, 80),
-                RGBColor(150, 60, 170),
-                RGBColor(180, 150, 20),
-            ];
-            for (i, s) in p.sources.iter().enumerate() {
-                let c = palette[i % palette.len()];
-                let pts: Vec<(f64, f64)> = grid
-                    .iter()
-                    .map(|&f| {
-                        (
-                            f,
-                            (source_psd(s, p, f) * band_gain(&p.band, p.sample_rate_hz, f)).sqrt(),
-                        )
-                    })
-                    .filter(|q| q.1 > ylo)
-                    .collect();
-                chart
-                    .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
-                    .label(s.name.clone())
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
-            }
-            // Bursts: their sampled density (AC part; the mean is a line at DC).
-            let n = p.sources.len();
-            for (i, b) in design.map_or(&[][..], |d| d.bursts()).iter().enumerate() {
-                let c = palette[(n + i) % palette.len()];
-                let pts: Vec<(f64, f64)> = grid
-                    .iter()
-                    .map(|&f| (f, b.density(f).sqrt()))
-                    .filter(|q| q.1 > ylo)
-                    .collect();
-                chart
-                    .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
-                    .label(b.burst().name.clone())
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
-            }
-        }
+            .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
+            .label(s.name.clone())
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
+    }
+    let n = p.sources.len();
+    for (i, b) in design.map_or(&[][..], |d| d.bursts()).iter().enumerate() {
+        let c = palette[(n + i) % palette.len()];
+        let pts: Vec<(f64, f64)> = grid
+            .iter()
+            .map(|&f| (f, b.density(f).sqrt()))
+            .filter(|q| q.1 > ylo)
+            .collect();
         chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()?;
-        root.present()?;
-        Ok(())
-    })
+            .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
+            .label(b.burst().name.clone())
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
+    }
+    Ok(())
 }
 
 /// The amplitude histogram on a log count axis with the Gaussian of the record's μ and σ.
