@@ -392,10 +392,31 @@ pub fn report_html(
     density_svg: &str,
     profile: Option<&Profile>,
 ) -> String {
+    let mut h = report_head(r, json, profile);
+    h += &statistics_section(r, json);
+    h += &density_section(r, density_svg);
+    h += "<h2>Amplitude</h2>\n";
+    h += &format!("<figure>{}</figure>\n", histogram_svg(r));
+    h += &format!("<figure>{}</figure>\n", trace_svg(r));
+    h += &levels_section(r);
+    if let Some(f) = json.get("fit") {
+        h += &fit_section(r, f);
+    }
+    if !r.notes.is_empty() {
+        h += "<h2>Notes</h2>\n<ul>\n";
+        for n in &r.notes {
+            h += &format!("<li>{}</li>\n", html_escape(n));
+        }
+        h += "</ul>\n";
+    }
+    h += "</body></html>\n";
+    h
+}
+
+/// The report's head and opening: title, style, the capture in one line, and the verdict
+/// against `profile` when the capture was compared.
+fn report_head(r: &CaptureReport, json: &serde_json::Value, profile: Option<&Profile>) -> String {
     let u = r.unit.as_str();
-    let q = |v: f64| html_escape(&format_quantity(v, u));
-    let du = format!("{u}/√Hz");
-    let qd = |v: f64| html_escape(&format_quantity(v, &du));
     let st = &r.stats;
     let name = json["file"]["name"].as_str().unwrap_or("capture");
     let mut h = String::new();
@@ -434,6 +455,16 @@ pub fn report_html(
             c.tolerance_db
         );
     }
+    h
+}
+
+/// The statistics: moments and peak-to-peak, the fractions within ±kσ against a Gaussian
+/// (from the JSON), and the RMS per decade.
+fn statistics_section(r: &CaptureReport, json: &serde_json::Value) -> String {
+    let u = r.unit.as_str();
+    let q = |v: f64| html_escape(&format_quantity(v, u));
+    let st = &r.stats;
+    let mut h = String::new();
     h += "<h2>Statistics</h2>\n<table>\n";
     let rows: Vec<(&str, String)> = vec![
         ("mean", q(st.mean())),
@@ -472,7 +503,15 @@ pub fn report_html(
             q(d.rms)
         );
     }
-    h += "</table>\n<h2>Density</h2>\n";
+    h += "</table>\n";
+    h
+}
+
+/// The density: the picture, how it was estimated, and a table of the bands (density and
+/// 95 % interval in unit/√Hz, degrees of freedom; against the design when compared).
+fn density_section(r: &CaptureReport, density_svg: &str) -> String {
+    let mut h = String::new();
+    h += "<h2>Density</h2>\n";
     h += &format!("<figure>{density_svg}</figure>\n");
     let sp = &r.spectrum;
     h += &format!(
@@ -489,37 +528,50 @@ pub fn report_html(
     }
     h += "</tr>\n";
     for b in &r.bands {
-        let (lo, hi) = CaptureReport::band_ci95(b);
-        h += &format!(
-            "<tr><td>{} – {}</td><td>{}</td><td>{} – {}</td><td>{:.1}</td>",
-            html_escape(&format_quantity(b.f_lo_hz, "Hz")),
-            html_escape(&format_quantity(b.f_hi_hz, "Hz")),
-            qd(b.psd_mean.sqrt()),
-            qd(lo.sqrt()),
-            qd(hi.sqrt()),
-            b.dof
-        );
-        if let Some(c) = &r.comparison {
-            match c.bands.iter().find(|c| c.band.bins == b.bins) {
-                Some(c) => {
-                    h += &format!(
-                        "<td>{}</td><td>{:+.2} dB</td><td>{:+.2} / {:+.2} dB</td><td class=\"{}\">{}</td>",
-                        qd(c.expected_psd.sqrt()),
-                        c.ratio_db,
-                        c.limit_db.0,
-                        c.limit_db.1,
-                        if c.pass { "ok" } else { "fail" },
-                        if c.pass { "ok" } else { "FAIL" }
-                    )
-                }
-                None => h += "<td colspan=\"4\">outside the profile's band</td>",
-            }
-        }
-        h += "</tr>\n";
+        h += &density_row(r, b);
     }
-    h += "</table>\n<h2>Amplitude</h2>\n";
-    h += &format!("<figure>{}</figure>\n", histogram_svg(r));
-    h += &format!("<figure>{}</figure>\n", trace_svg(r));
+    h += "</table>\n";
+    h
+}
+
+/// One band's row of the density table.
+fn density_row(r: &CaptureReport, b: &BandEstimate) -> String {
+    let du = format!("{}/√Hz", r.unit);
+    let qd = |v: f64| html_escape(&format_quantity(v, &du));
+    let (lo, hi) = CaptureReport::band_ci95(b);
+    let mut h = format!(
+        "<tr><td>{} – {}</td><td>{}</td><td>{} – {}</td><td>{:.1}</td>",
+        html_escape(&format_quantity(b.f_lo_hz, "Hz")),
+        html_escape(&format_quantity(b.f_hi_hz, "Hz")),
+        qd(b.psd_mean.sqrt()),
+        qd(lo.sqrt()),
+        qd(hi.sqrt()),
+        b.dof
+    );
+    if let Some(c) = &r.comparison {
+        match c.bands.iter().find(|c| c.band.bins == b.bins) {
+            Some(c) => {
+                h += &format!(
+                    "<td>{}</td><td>{:+.2} dB</td><td>{:+.2} / {:+.2} dB</td><td class=\"{}\">{}</td>",
+                    qd(c.expected_psd.sqrt()),
+                    c.ratio_db,
+                    c.limit_db.0,
+                    c.limit_db.1,
+                    if c.pass { "ok" } else { "fail" },
+                    if c.pass { "ok" } else { "FAIL" }
+                )
+            }
+            None => h += "<td colspan=\"4\">outside the profile's band</td>",
+        }
+    }
+    h += "</tr>\n";
+    h
+}
+
+/// The burst levels found: each level's value, time share, mean dwell and count of dwells.
+fn levels_section(r: &CaptureReport) -> String {
+    let q = |v: f64| html_escape(&format_quantity(v, &r.unit));
+    let mut h = String::new();
     h += "<h2>Burst levels</h2>\n";
     match &r.levels {
         None => h += "<p>None clearly present.</p>\n",
@@ -540,34 +592,33 @@ pub fn report_html(
             );
         }
     }
-    if let Some(f) = json.get("fit") {
-        h += "<h2>Fit</h2>\n<table>\n";
-        h += &format!(
-            "<tr><th>floor</th><td>{} ± {:.2} %</td></tr>\n",
-            qd(f["floor_density"].as_f64().unwrap_or(f64::NAN)),
-            100.0 * f["floor_rel_se"].as_f64().unwrap_or(f64::NAN)
-        );
-        match f["corner_hz"].as_f64() {
-            Some(c) => {
-                h += &format!(
-                    "<tr><th>corner</th><td>{} ± {:.2} %</td></tr>\n<tr><th>slope</th><td>{:.4} ± {:.4}</td></tr>\n",
-                    html_escape(&format_quantity(c, "Hz")),
-                    100.0 * f["corner_rel_se"].as_f64().unwrap_or(f64::NAN),
-                    f["slope"].as_f64().unwrap_or(f64::NAN),
-                    f["slope_se"].as_f64().unwrap_or(f64::NAN)
-                )
-            }
-            None => h += "<tr><th>corner</th><td>no significant 1/f rise</td></tr>\n",
+    h
+}
+
+/// The fit from the JSON `f`: floor density (unit/√Hz), and corner (Hz) and slope when a 1/f
+/// rise was found, each with its relative standard error.
+fn fit_section(r: &CaptureReport, f: &serde_json::Value) -> String {
+    let du = format!("{}/√Hz", r.unit);
+    let qd = |v: f64| html_escape(&format_quantity(v, &du));
+    let mut h = String::new();
+    h += "<h2>Fit</h2>\n<table>\n";
+    h += &format!(
+        "<tr><th>floor</th><td>{} ± {:.2} %</td></tr>\n",
+        qd(f["floor_density"].as_f64().unwrap_or(f64::NAN)),
+        100.0 * f["floor_rel_se"].as_f64().unwrap_or(f64::NAN)
+    );
+    match f["corner_hz"].as_f64() {
+        Some(c) => {
+            h += &format!(
+                "<tr><th>corner</th><td>{} ± {:.2} %</td></tr>\n<tr><th>slope</th><td>{:.4} ± {:.4}</td></tr>\n",
+                html_escape(&format_quantity(c, "Hz")),
+                100.0 * f["corner_rel_se"].as_f64().unwrap_or(f64::NAN),
+                f["slope"].as_f64().unwrap_or(f64::NAN),
+                f["slope_se"].as_f64().unwrap_or(f64::NAN)
+            )
         }
-        h += "</table>\n";
+        None => h += "<tr><th>corner</th><td>no significant 1/f rise</td></tr>\n",
     }
-    if !r.notes.is_empty() {
-        h += "<h2>Notes</h2>\n<ul>\n";
-        for n in &r.notes {
-            h += &format!("<li>{}</li>\n", html_escape(n));
-        }
-        h += "</ul>\n";
-    }
-    h += "</body></html>\n";
+    h += "</table>\n";
     h
 }
