@@ -450,19 +450,67 @@ fn burst_variance(model: &BurstModel, band: &BandSpec, lo: f64, hi: f64) -> f64 
     integrate_pieces(&|f| band.weight(f) * model.continuous_density(f), &breaks)
 }
 
-fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
-    let unit = profile.unit.symbol();
-    let all: Vec<&Source> = profile.sources.iter().collect();
-    let bursts = burst_models(profile);
-    let bursts_between =
-        |lo: f64, hi: f64| -> f64 { bursts.iter().map(|m| burst_variance(m, band, lo, hi)).sum() };
-    let burst_vars: Vec<f64> = bursts
+/// What one band's budget is computed from: the profile, the band, and the sources to sum.
+struct BandInputs<'a> {
+    profile: &'a Profile,
+    band: &'a BandSpec,
+    /// Every Gaussian source of the profile, in profile order.
+    all: Vec<&'a Source>,
+    /// The burst sources' models, in profile order.
+    bursts: Vec<BurstModel>,
+}
+
+impl<'a> BandInputs<'a> {
+    /// The inputs of `band`'s budget of `profile`.
+    fn new(profile: &'a Profile, band: &'a BandSpec) -> BandInputs<'a> {
+        BandInputs {
+            profile,
+            band,
+            all: profile.sources.iter().collect(),
+            bursts: burst_models(profile),
+        }
+    }
+
+    /// Variance in unit² of the bursts' AC parts through the band over `[lo, hi]` Hz.
+    fn bursts_between(&self, lo: f64, hi: f64) -> f64 {
+        self.bursts
+            .iter()
+            .map(|m| burst_variance(m, self.band, lo, hi))
+            .sum()
+    }
+
+    /// Variance in unit² of every Gaussian source and every burst through the band over
+    /// `[lo, hi]` Hz, by numeric integration.
+    fn variance_between(&self, lo: f64, hi: f64) -> f64 {
+        numeric_variance(self.profile, &self.all, self.band, lo, hi) + self.bursts_between(lo, hi)
+    }
+}
+
+/// A band's variances in unit²: the total and each source's.
+struct BandVariances {
+    /// Each Gaussian source's (numeric, closed-form) variance, in profile order.
+    per_source: Vec<(f64, Option<f64>)>,
+    /// Each burst's variance (numeric), in profile order.
+    per_burst: Vec<f64>,
+    /// Numeric variance of the summed density and the bursts.
+    total_numeric: f64,
+    /// Closed-form total, when every source has one and there is no burst.
+    total_closed: Option<f64>,
+    /// The closed-form total where there is one, else the numeric one.
+    total: f64,
+}
+
+/// The variances of every source of `inputs` through its band, and their total.
+fn band_variances(inputs: &BandInputs<'_>) -> BandVariances {
+    let (profile, band) = (inputs.profile, inputs.band);
+    let per_burst: Vec<f64> = inputs
+        .bursts
         .iter()
         .map(|m| burst_variance(m, band, band.low_hz, f64::INFINITY))
         .collect();
-    let total_numeric = numeric_variance(profile, &all, band, band.low_hz, f64::INFINITY)
-        + burst_vars.iter().sum::<f64>();
-    let per: Vec<(f64, Option<f64>)> = profile
+    let total_numeric = numeric_variance(profile, &inputs.all, band, band.low_hz, f64::INFINITY)
+        + per_burst.iter().sum::<f64>();
+    let per_source: Vec<(f64, Option<f64>)> = profile
         .sources
         .iter()
         .map(|s| {
@@ -474,17 +522,29 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         .collect();
     // Bursts have no closed form through the band's filter here: with any burst the total
     // is numeric only.
-    let total_closed: Option<f64> = if bursts.is_empty() {
-        per.iter().map(|p| p.1).sum()
+    let total_closed: Option<f64> = if inputs.bursts.is_empty() {
+        per_source.iter().map(|p| p.1).sum()
     } else {
         None
     };
-    let total = total_closed.unwrap_or(total_numeric);
+    BandVariances {
+        total: total_closed.unwrap_or(total_numeric),
+        per_source,
+        per_burst,
+        total_numeric,
+        total_closed,
+    }
+}
+
+/// Each source's and then each burst's RMS and share of the band's total power.
+fn source_shares(inputs: &BandInputs<'_>, v: &BandVariances) -> Vec<SourceShare> {
+    let total = v.total;
     let share = |var: f64| if total > 0.0 { var / total } else { 0.0 };
-    let mut sources: Vec<SourceShare> = profile
+    let mut sources: Vec<SourceShare> = inputs
+        .profile
         .sources
         .iter()
-        .zip(&per)
+        .zip(&v.per_source)
         .map(|(s, &(num, closed))| {
             let var = closed.unwrap_or(num);
             SourceShare {
@@ -497,24 +557,36 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
             }
         })
         .collect();
-    sources.extend(bursts.iter().zip(&burst_vars).map(|(m, &var)| SourceShare {
-        name: m.burst().name.clone(),
-        class: SourceClass::Burst,
-        rms: var.sqrt(),
-        share: share(var),
-        rms_numeric: var.sqrt(),
-        rms_closed_form: None,
-    }));
-    let class_var = |c: SourceClass| -> f64 {
-        sources
+    sources.extend(
+        inputs
+            .bursts
             .iter()
-            .filter(|s| s.class == c)
-            .map(|s| s.rms * s.rms)
-            .sum()
-    };
-    let resistor_var = class_var(SourceClass::Resistor);
-    let amplifier_var = class_var(SourceClass::Amplifier);
+            .zip(&v.per_burst)
+            .map(|(m, &var)| SourceShare {
+                name: m.burst().name.clone(),
+                class: SourceClass::Burst,
+                rms: var.sqrt(),
+                share: share(var),
+                rms_numeric: var.sqrt(),
+                rms_closed_form: None,
+            }),
+    );
+    sources
+}
 
+/// Summed variance in unit² of the `sources` of class `class`.
+fn class_variance(sources: &[SourceShare], class: SourceClass) -> f64 {
+    sources
+        .iter()
+        .filter(|s| s.class == class)
+        .map(|s| s.rms * s.rms)
+        .sum()
+}
+
+/// RMS per decade of the band, edges at powers of ten inside it, then the roll-off tail
+/// above `high_hz` when the band has a Butterworth edge.
+fn decade_rms(inputs: &BandInputs<'_>) -> Vec<DecadeRms> {
+    let band = inputs.band;
     let mut edges = vec![band.low_hz];
     edges.extend(
         decade_points(band.low_hz, band.high_hz)
@@ -527,22 +599,28 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         .map(|w| DecadeRms {
             low_hz: w[0],
             high_hz: Some(w[1]),
-            rms: (numeric_variance(profile, &all, band, w[0], w[1]) + bursts_between(w[0], w[1]))
-                .sqrt(),
+            rms: inputs.variance_between(w[0], w[1]).sqrt(),
         })
         .collect();
     if band.order > 0 {
         per_decade.push(DecadeRms {
             low_hz: band.high_hz,
             high_hz: None,
-            rms: (numeric_variance(profile, &all, band, band.high_hz, f64::INFINITY)
-                + bursts_between(band.high_hz, f64::INFINITY))
-            .sqrt(),
+            rms: inputs.variance_between(band.high_hz, f64::INFINITY).sqrt(),
         });
     }
+    per_decade
+}
 
+/// Notes on who holds the power: a source with at least [`DOMINANT_SHARE`] of it, and
+/// resistors noisier than the amplifier (`resistor_var`, `amplifier_var` in unit²).
+fn share_notes(
+    sources: &[SourceShare],
+    resistor_var: f64,
+    amplifier_var: f64,
+    unit: &str,
+) -> Vec<String> {
     let q = |x: f64| format_quantity(x, unit);
-    let hz = |x: f64| format_quantity(x, "Hz");
     let mut notes = Vec::new();
     if let Some(top) = sources
         .iter()
@@ -563,6 +641,16 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
             q(amplifier_var.sqrt())
         ));
     }
+    notes
+}
+
+/// Notes on what the figures leave out: a band beyond the profile's, the bursts' DC means,
+/// and the part of the band above fs/2 (`to_nyquist` and `total` variances in unit²).
+fn reach_notes(inputs: &BandInputs<'_>, to_nyquist: f64, total: f64) -> Vec<String> {
+    let (profile, band) = (inputs.profile, inputs.band);
+    let q = |x: f64| format_quantity(x, profile.unit.symbol());
+    let hz = |x: f64| format_quantity(x, "Hz");
+    let mut notes = Vec::new();
     let pb = &profile.band;
     if band.low_hz < pb.low_hz * (1.0 - 1e-12) || band.high_hz > pb.high_hz * (1.0 + 1e-12) {
         notes.push(format!(
@@ -572,10 +660,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
             hz(pb.high_hz)
         ));
     }
-    let nyquist = profile.sample_rate_hz / 2.0;
-    let to_nyquist = numeric_variance(profile, &all, band, band.low_hz, nyquist)
-        + bursts_between(band.low_hz, nyquist);
-    for m in &bursts {
+    for m in &inputs.bursts {
         notes.push(format!(
             "{} is DC-coupled: its mean of {} is not in these RMS figures, which count only \
              what the band passes of its steps",
@@ -587,12 +672,16 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         notes.push(format!(
             "{} of it lies below fs/2 = {} (all a file at {} can carry)",
             q(to_nyquist.sqrt()),
-            hz(nyquist),
+            hz(profile.sample_rate_hz / 2.0),
             hz(profile.sample_rate_hz)
         ));
     }
-    let rms = total.sqrt();
-    let tones = profile
+    notes
+}
+
+/// The profile's tones against the band's noise of `total` unit².
+fn tone_budgets(profile: &Profile, band: &BandSpec, total: f64) -> Vec<ToneBudget> {
+    profile
         .tones
         .iter()
         .map(|t| {
@@ -607,7 +696,22 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
                 enob_bits: crate::model::tone::enob(snr_db),
             }
         })
-        .collect();
+        .collect()
+}
+
+/// The budget of `profile` in one band: see [`BandBudget`].
+fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
+    let inputs = BandInputs::new(profile, band);
+    let variances = band_variances(&inputs);
+    let total = variances.total;
+    let sources = source_shares(&inputs, &variances);
+    let resistor_var = class_variance(&sources, SourceClass::Resistor);
+    let amplifier_var = class_variance(&sources, SourceClass::Amplifier);
+    let per_decade = decade_rms(&inputs);
+    let to_nyquist = inputs.variance_between(band.low_hz, profile.sample_rate_hz / 2.0);
+    let mut notes = share_notes(&sources, resistor_var, amplifier_var, profile.unit.symbol());
+    notes.extend(reach_notes(&inputs, to_nyquist, total));
+    let rms = total.sqrt();
     BandBudget {
         low_hz: band.low_hz,
         high_hz: band.high_hz,
@@ -615,8 +719,8 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         enbw_ratio: butterworth_enbw_ratio(band.order),
         noise_bandwidth_hz: band.noise_bandwidth_hz(),
         rms,
-        rms_numeric: total_numeric.sqrt(),
-        rms_closed_form: total_closed.map(f64::sqrt),
+        rms_numeric: variances.total_numeric.sqrt(),
+        rms_closed_form: variances.total_closed.map(f64::sqrt),
         p2p_6sigma: 6.0 * rms,
         p2p_6_6sigma: 6.6 * rms,
         rms_to_nyquist: to_nyquist.sqrt(),
@@ -625,7 +729,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         resistor_rms: resistor_var.sqrt(),
         amplifier_rms: amplifier_var.sqrt(),
         notes,
-        tones,
+        tones: tone_budgets(profile, band, total),
     }
 }
 
@@ -655,8 +759,6 @@ pub fn parse_band(text: &str) -> Result<(f64, f64), String> {
 pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
     let unit = budget.unit;
     let density_unit = format!("{unit}/\u{221a}Hz");
-    let q = |x: f64| format_quantity(x, unit);
-    let hz = |x: f64| format_quantity(x, "Hz");
     let width = budget
         .source_names
         .iter()
@@ -671,75 +773,105 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
     )?;
     for b in &budget.bands {
         writeln!(out)?;
-        let filter = if b.order == 0 {
-            "brick wall".to_string()
-        } else {
-            format!(
-                "Butterworth order {} at {}, ENBW {:.4} \u{d7} {}",
-                b.order,
-                hz(b.high_hz),
-                b.enbw_ratio,
-                hz(b.high_hz)
-            )
-        };
-        writeln!(
-            out,
-            "band {} .. {} ({filter}; noise bandwidth {})",
-            hz(b.low_hz),
-            hz(b.high_hz),
-            hz(b.noise_bandwidth_hz)
-        )?;
-        writeln!(out, "  {:<width$}  {:>12}  {:>7}", "source", "RMS", "share")?;
-        for s in &b.sources {
-            writeln!(
-                out,
-                "  {:<width$}  {:>12}  {:>6.2} %",
-                s.name,
-                q(s.rms),
-                100.0 * s.share
-            )?;
-        }
-        let closed = b.rms_closed_form.map_or("none".to_string(), q);
-        writeln!(
-            out,
-            "  {:<width$}  {:>12}  (closed form {closed}, numeric {})",
-            "total",
-            q(b.rms),
-            q(b.rms_numeric)
-        )?;
-        writeln!(
-            out,
-            "  peak-to-peak {} (6\u{3c3}), {} (6.6\u{3c3})",
-            q(b.p2p_6sigma),
-            q(b.p2p_6_6sigma)
-        )?;
-        writeln!(out, "  RMS per decade")?;
-        for d in &b.per_decade {
-            let span = match d.high_hz {
-                Some(h) => format!("{} .. {}", hz(d.low_hz), hz(h)),
-                None => format!("above {} (roll-off)", hz(d.low_hz)),
-            };
-            writeln!(out, "    {span:<28}  {:>12}", q(d.rms))?;
-        }
-        for t in &b.tones {
-            writeln!(
-                out,
-                "  tone {} at {}{}: {} peak ({} RMS), SNR {:.2} dB against this band's noise, \
-                 ENOB {:.2} bits (IEEE 1241, SINAD = SNR)",
-                t.name,
-                hz(t.frequency_hz),
-                if t.in_band { "" } else { " (outside the band)" },
-                q(t.peak),
-                q(t.rms),
-                t.snr_db,
-                t.enob_bits
-            )?;
-        }
-        for n in &b.notes {
-            writeln!(out, "  note: {n}")?;
-        }
+        write_band_sources(b, unit, width, out)?;
+        write_band_details(b, unit, out)?;
     }
     writeln!(out)?;
+    write_density_table(budget, width, out)
+}
+
+/// One band's heading line (edges, filter, noise bandwidth), then its sources' RMS and share
+/// in a column `width` characters wide, the total and the peak-to-peak, in `unit`.
+fn write_band_sources(
+    b: &BandBudget,
+    unit: &str,
+    width: usize,
+    out: &mut dyn Write,
+) -> io::Result<()> {
+    let q = |x: f64| format_quantity(x, unit);
+    let hz = |x: f64| format_quantity(x, "Hz");
+    let filter = if b.order == 0 {
+        "brick wall".to_string()
+    } else {
+        format!(
+            "Butterworth order {} at {}, ENBW {:.4} \u{d7} {}",
+            b.order,
+            hz(b.high_hz),
+            b.enbw_ratio,
+            hz(b.high_hz)
+        )
+    };
+    writeln!(
+        out,
+        "band {} .. {} ({filter}; noise bandwidth {})",
+        hz(b.low_hz),
+        hz(b.high_hz),
+        hz(b.noise_bandwidth_hz)
+    )?;
+    writeln!(out, "  {:<width$}  {:>12}  {:>7}", "source", "RMS", "share")?;
+    for s in &b.sources {
+        writeln!(
+            out,
+            "  {:<width$}  {:>12}  {:>6.2} %",
+            s.name,
+            q(s.rms),
+            100.0 * s.share
+        )?;
+    }
+    let closed = b.rms_closed_form.map_or("none".to_string(), q);
+    writeln!(
+        out,
+        "  {:<width$}  {:>12}  (closed form {closed}, numeric {})",
+        "total",
+        q(b.rms),
+        q(b.rms_numeric)
+    )?;
+    writeln!(
+        out,
+        "  peak-to-peak {} (6\u{3c3}), {} (6.6\u{3c3})",
+        q(b.p2p_6sigma),
+        q(b.p2p_6_6sigma)
+    )
+}
+
+/// One band's RMS per decade, its tones and its notes, in `unit`.
+fn write_band_details(b: &BandBudget, unit: &str, out: &mut dyn Write) -> io::Result<()> {
+    let q = |x: f64| format_quantity(x, unit);
+    let hz = |x: f64| format_quantity(x, "Hz");
+    writeln!(out, "  RMS per decade")?;
+    for d in &b.per_decade {
+        let span = match d.high_hz {
+            Some(h) => format!("{} .. {}", hz(d.low_hz), hz(h)),
+            None => format!("above {} (roll-off)", hz(d.low_hz)),
+        };
+        writeln!(out, "    {span:<28}  {:>12}", q(d.rms))?;
+    }
+    for t in &b.tones {
+        writeln!(
+            out,
+            "  tone {} at {}{}: {} peak ({} RMS), SNR {:.2} dB against this band's noise, \
+             ENOB {:.2} bits (IEEE 1241, SINAD = SNR)",
+            t.name,
+            hz(t.frequency_hz),
+            if t.in_band { "" } else { " (outside the band)" },
+            q(t.peak),
+            q(t.rms),
+            t.snr_db,
+            t.enob_bits
+        )?;
+    }
+    for n in &b.notes {
+        writeln!(out, "  note: {n}")?;
+    }
+    Ok(())
+}
+
+/// The density of every source and the total at each of the budget's frequencies, names in
+/// a column `width` characters wide, then the white floor and its equivalent resistance.
+fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io::Result<()> {
+    let unit = budget.unit;
+    let density_unit = format!("{unit}/\u{221a}Hz");
+    let hz = |x: f64| format_quantity(x, "Hz");
     write!(
         out,
         "{:<w$}",

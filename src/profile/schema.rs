@@ -475,28 +475,77 @@ pub(super) fn missing(cx: &Cx<'_>, key: &str, span: Option<Range<usize>>, exampl
     cx.err(key, span, format!("missing; expected e.g. {example}"))
 }
 
+/// Check every section of `raw` in file-format order (the first error found is the one
+/// reported) and build the profile.
 fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
-    let unit = match &raw.unit {
-        None => Unit::Volt,
-        Some(u) => match u.get_ref().as_str() {
-            "V" => Unit::Volt,
-            "A" => Unit::Ampere,
-            other => {
-                return Err(cx.err(
-                    "unit",
-                    Some(u.span()),
-                    format!("expected \"V\" (volts) or \"A\" (amperes), got \"{other}\""),
-                ));
-            }
-        },
-    };
-
+    let unit = validate_unit(cx, raw.unit.as_ref())?;
     let Some(fs_v) = &raw.sample_rate else {
         return Err(missing(cx, "sample_rate", None, "sample_rate = \"48 kHz\""));
     };
     let fs = positive(cx, fs_v, "sample_rate", Dimension::Frequency, unit)?;
+    let band = validate_band(cx, raw.band.as_ref(), unit, fs)?;
 
-    let Some(band) = &raw.band else {
+    let mut sources = validate_floors(cx, &raw.floor, unit)?;
+    sources.extend(validate_resistors(cx, &raw.resistor, unit)?);
+    sources.extend(validate_tables(cx, &raw.table, unit)?);
+    for (i, a) in raw.amplifier.iter().enumerate() {
+        sources.extend(amplifier::validate(cx, i, a, unit)?);
+    }
+    let bursts = validate_bursts(cx, &raw.burst, unit, fs)?;
+    let tones = validate_tones(cx, &raw.tone, unit, fs)?;
+    let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
+    if sources.is_empty() && bursts.is_empty() {
+        return Err(cx.err(
+            "sources",
+            None,
+            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]] \
+             or [[burst]]",
+        ));
+    }
+
+    let (channels, correlation) =
+        super::channels::validate_channels(cx, raw.channels.as_ref(), raw.correlation.as_ref())?;
+
+    Ok(Profile {
+        label: super::Label(cx.file.to_string()),
+        name: raw.name.as_ref().map(|n| n.get_ref().clone()),
+        unit,
+        sample_rate_hz: fs,
+        band,
+        sources,
+        bursts,
+        tones,
+        offset,
+        channels,
+        correlation,
+    })
+}
+
+/// The profile's `unit`: volts when absent.
+fn validate_unit(cx: &Cx<'_>, unit: Option<&Spanned<String>>) -> Result<Unit> {
+    match unit {
+        None => Ok(Unit::Volt),
+        Some(u) => match u.get_ref().as_str() {
+            "V" => Ok(Unit::Volt),
+            "A" => Ok(Unit::Ampere),
+            other => Err(cx.err(
+                "unit",
+                Some(u.span()),
+                format!("expected \"V\" (volts) or \"A\" (amperes), got \"{other}\""),
+            )),
+        },
+    }
+}
+
+/// The `[band]` section: edges in Hz within what a sample rate of `fs` Hz can carry and
+/// shape, and the order of the upper edge.
+fn validate_band(
+    cx: &Cx<'_>,
+    band: Option<&Spanned<RawBand>>,
+    unit: Unit,
+    fs: f64,
+) -> Result<Band> {
+    let Some(band) = band else {
         return Err(missing(
             cx,
             "band",
@@ -556,25 +605,35 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
             ),
         ));
     }
-    let order = match &band.order {
-        None => 0,
-        Some(o) => match o.get_ref() {
-            Value::Integer(n) if (0..=i64::from(MAX_ORDER)).contains(n) => *n as u32,
-            other => {
-                return Err(cx.err(
-                    "band.order",
-                    Some(o.span()),
-                    format!(
-                        "expected an integer from 0 (brick wall) to {MAX_ORDER} \
-                         (Butterworth order), got {other}"
-                    ),
-                ));
-            }
-        },
-    };
+    Ok(Band {
+        low_hz: low,
+        high_hz: high,
+        order: band_order(cx, band.order.as_ref())?,
+    })
+}
 
+/// `band.order`: 0 (brick wall) when absent, else a Butterworth order up to [`MAX_ORDER`].
+fn band_order(cx: &Cx<'_>, order: Option<&Spanned<Value>>) -> Result<u32> {
+    match order {
+        None => Ok(0),
+        Some(o) => match o.get_ref() {
+            Value::Integer(n) if (0..=i64::from(MAX_ORDER)).contains(n) => Ok(*n as u32),
+            other => Err(cx.err(
+                "band.order",
+                Some(o.span()),
+                format!(
+                    "expected an integer from 0 (brick wall) to {MAX_ORDER} \
+                     (Butterworth order), got {other}"
+                ),
+            )),
+        },
+    }
+}
+
+/// The `[[floor]]` sources, in file order.
+fn validate_floors(cx: &Cx<'_>, floors: &[Spanned<RawFloor>], unit: Unit) -> Result<Vec<Source>> {
     let mut sources = Vec::new();
-    for (i, f) in raw.floor.iter().enumerate() {
+    for (i, f) in floors.iter().enumerate() {
         let key = |k: &str| format!("floor[{i}].{k}");
         let span = Some(f.span());
         let f = f.get_ref();
@@ -589,33 +648,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         };
         let slope = match &f.slope {
             None => 1.0,
-            Some(s) => {
-                let k = key("slope");
-                let x = match s.get_ref() {
-                    Value::Float(x) => *x,
-                    Value::Integer(n) => *n as f64,
-                    _ => f64::NAN,
-                };
-                if !(x > 0.0 && x <= 2.0) {
-                    return Err(cx.err(
-                        &k,
-                        Some(s.span()),
-                        format!(
-                            "expected a number with 0 < slope <= 2 (1 = 1/f), got {}",
-                            s.get_ref()
-                        ),
-                    ));
-                }
-                if corner_hz.is_none() {
-                    return Err(cx.err(
-                        &k,
-                        Some(s.span()),
-                        "slope has no effect without a corner; add e.g. corner = \"100 Hz\" \
-                         or remove slope",
-                    ));
-                }
-                x
-            }
+            Some(s) => floor_slope(cx, s, &key("slope"), corner_hz)?,
         };
         sources.push(Source {
             name: f.name.clone().unwrap_or_else(|| format!("floor {}", i + 1)),
@@ -626,7 +659,46 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
             },
         });
     }
-    for (i, r) in raw.resistor.iter().enumerate() {
+    Ok(sources)
+}
+
+/// A floor's `slope` (the exponent α of 1/f^α, dimensionless, 0 < α ≤ 2), which needs the
+/// floor's corner (`corner_hz`, Hz).
+fn floor_slope(cx: &Cx<'_>, s: &Spanned<Value>, k: &str, corner_hz: Option<f64>) -> Result<f64> {
+    let x = match s.get_ref() {
+        Value::Float(x) => *x,
+        Value::Integer(n) => *n as f64,
+        _ => f64::NAN,
+    };
+    if !(x > 0.0 && x <= 2.0) {
+        return Err(cx.err(
+            k,
+            Some(s.span()),
+            format!(
+                "expected a number with 0 < slope <= 2 (1 = 1/f), got {}",
+                s.get_ref()
+            ),
+        ));
+    }
+    if corner_hz.is_none() {
+        return Err(cx.err(
+            k,
+            Some(s.span()),
+            "slope has no effect without a corner; add e.g. corner = \"100 Hz\" \
+             or remove slope",
+        ));
+    }
+    Ok(x)
+}
+
+/// The `[[resistor]]` sources, in file order.
+fn validate_resistors(
+    cx: &Cx<'_>,
+    resistors: &[Spanned<RawResistor>],
+    unit: Unit,
+) -> Result<Vec<Source>> {
+    let mut sources = Vec::new();
+    for (i, r) in resistors.iter().enumerate() {
         let key = |k: &str| format!("resistor[{i}].{k}");
         let span = Some(r.span());
         let r = r.get_ref();
@@ -653,7 +725,13 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
             },
         });
     }
-    for (i, t) in raw.table.iter().enumerate() {
+    Ok(sources)
+}
+
+/// The `[[table]]` sources, in file order.
+fn validate_tables(cx: &Cx<'_>, tables: &[Spanned<RawTable>], unit: Unit) -> Result<Vec<Source>> {
+    let mut sources = Vec::new();
+    for (i, t) in tables.iter().enumerate() {
         let key = format!("table[{i}].points");
         let span = Some(t.span());
         let t = t.get_ref();
@@ -674,95 +752,74 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         }
         let mut points: Vec<(f64, f64)> = Vec::with_capacity(pts.get_ref().len());
         for (j, p) in pts.get_ref().iter().enumerate() {
-            let pkey = format!("{key}[{j}]");
-            let pair = match p.get_ref() {
-                Value::Array(a) if a.len() == 2 => a,
-                other => {
-                    return Err(cx.err(
-                        &pkey,
-                        Some(p.span()),
-                        format!(
-                            "expected a [frequency, density] pair such as [10.0, 20e-9] or \
-                             [\"10 Hz\", \"20 n{}/rtHz\"], got {other}",
-                            unit.symbol()
-                        ),
-                    ));
-                }
-            };
-            let f = quantity(cx, &pair[0], p.span(), &pkey, Dimension::Frequency, unit)?;
-            let d = quantity(cx, &pair[1], p.span(), &pkey, Dimension::Density, unit)?;
-            if f <= 0.0 {
-                return Err(cx.err(
-                    &pkey,
-                    Some(p.span()),
-                    format!("the frequency must be > 0 Hz, got {}", hz(f)),
-                ));
-            }
-            if d <= 0.0 {
-                return Err(cx.err(
-                    &pkey,
-                    Some(p.span()),
-                    format!(
-                        "the density must be > 0, got {}",
-                        format_quantity(d, &symbol(Dimension::Density, unit))
-                    ),
-                ));
-            }
-            if let Some(&(prev, _)) = points.last() {
-                if f <= prev {
-                    return Err(cx.err(
-                        &pkey,
-                        Some(p.span()),
-                        format!(
-                            "frequencies must increase strictly: {} follows {}",
-                            hz(f),
-                            hz(prev)
-                        ),
-                    ));
-                }
-            }
-            points.push((f, d));
+            let point = table_point(cx, p, &format!("{key}[{j}]"), unit, points.last())?;
+            points.push(point);
         }
         sources.push(Source {
             name: t.name.clone().unwrap_or_else(|| format!("table {}", i + 1)),
             kind: SourceKind::Table { points },
         });
     }
-    for (i, a) in raw.amplifier.iter().enumerate() {
-        sources.extend(amplifier::validate(cx, i, a, unit)?);
-    }
-    let bursts = validate_bursts(cx, &raw.burst, unit, fs)?;
-    let tones = validate_tones(cx, &raw.tone, unit, fs)?;
-    let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
-    if sources.is_empty() && bursts.is_empty() {
+    Ok(sources)
+}
+
+/// One `[frequency, density]` point of a table as (Hz, unit/√Hz), both positive and the
+/// frequency above that of the point before (`previous`).
+fn table_point(
+    cx: &Cx<'_>,
+    p: &Spanned<Value>,
+    pkey: &str,
+    unit: Unit,
+    previous: Option<&(f64, f64)>,
+) -> Result<(f64, f64)> {
+    let hz = |x: f64| format_quantity(x, "Hz");
+    let pair = match p.get_ref() {
+        Value::Array(a) if a.len() == 2 => a,
+        other => {
+            return Err(cx.err(
+                pkey,
+                Some(p.span()),
+                format!(
+                    "expected a [frequency, density] pair such as [10.0, 20e-9] or \
+                     [\"10 Hz\", \"20 n{}/rtHz\"], got {other}",
+                    unit.symbol()
+                ),
+            ));
+        }
+    };
+    let f = quantity(cx, &pair[0], p.span(), pkey, Dimension::Frequency, unit)?;
+    let d = quantity(cx, &pair[1], p.span(), pkey, Dimension::Density, unit)?;
+    if f <= 0.0 {
         return Err(cx.err(
-            "sources",
-            None,
-            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]] \
-             or [[burst]]",
+            pkey,
+            Some(p.span()),
+            format!("the frequency must be > 0 Hz, got {}", hz(f)),
         ));
     }
-
-    let (channels, correlation) =
-        super::channels::validate_channels(cx, raw.channels.as_ref(), raw.correlation.as_ref())?;
-
-    Ok(Profile {
-        label: super::Label(cx.file.to_string()),
-        name: raw.name.as_ref().map(|n| n.get_ref().clone()),
-        unit,
-        sample_rate_hz: fs,
-        band: Band {
-            low_hz: low,
-            high_hz: high,
-            order,
-        },
-        sources,
-        bursts,
-        tones,
-        offset,
-        channels,
-        correlation,
-    })
+    if d <= 0.0 {
+        return Err(cx.err(
+            pkey,
+            Some(p.span()),
+            format!(
+                "the density must be > 0, got {}",
+                format_quantity(d, &symbol(Dimension::Density, unit))
+            ),
+        ));
+    }
+    if let Some(&(prev, _)) = previous {
+        if f <= prev {
+            return Err(cx.err(
+                pkey,
+                Some(p.span()),
+                format!(
+                    "frequencies must increase strictly: {} follows {}",
+                    hz(f),
+                    hz(prev)
+                ),
+            ));
+        }
+    }
+    Ok((f, d))
 }
 
 #[cfg(test)]
@@ -926,14 +983,27 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
 
     #[test]
     fn inline_tables_are_the_same_profile() {
-        let inline = "sample_rate = \"48 kHz\"\nband = { low = \"0.1 Hz\", high = \"20 kHz\", order = 2 }\n\
-                      floor = [{ density = \"4 nV/rtHz\", corner = 100 }]\n";
-        let tables = "sample_rate = 48000\n[band]\nlow = 0.1\nhigh = 20e3\norder = 2\n\
-                      [[floor]]\ndensity = 4e-9\ncorner = \"100 Hz\"\n";
+        let inline = r#"sample_rate = "48 kHz"
+band = { low = "0.1 Hz", high = "20 kHz", order = 2 }
+floor = [{ density = "4 nV/rtHz", corner = 100 }]
+"#;
+        let tables = r#"sample_rate = 48000
+[band]
+low = 0.1
+high = 20e3
+order = 2
+[[floor]]
+density = 4e-9
+corner = "100 Hz"
+"#;
         assert_eq!(
             parse_profile(inline, "a").unwrap(),
             parse_profile(tables, "b").unwrap()
         );
+    }
+
+    #[test]
+    fn an_unknown_key_in_an_inline_table_is_named_with_its_line() {
         let (k, l, _) = fail("sample_rate = 1\nfloor = [{ density = 1 }, { dens = 1 }]\n");
         assert_eq!((k.as_str(), l), ("floor[1].dens", Some(2)));
     }
@@ -947,9 +1017,19 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
         assert!(parse_profile(&edit("high", "high = \"24 kHz\""), "t").is_ok());
     }
 
+    /// Each case edits `GOOD` (the line starting `old` becomes `new`) and expects an error
+    /// at `key` on `line` whose message holds `needle`: (old, new, key, line, needle).
+    fn assert_errors(cases: &[(&str, &str, &str, usize, &str)]) {
+        for &(old, new, key, line, needle) in cases {
+            let (k, l, msg) = fail(&edit(old, new));
+            assert_eq!((k.as_str(), l), (key, Some(line)), "{new}: {msg}");
+            assert!(msg.contains(needle), "{new}: {msg:?} lacks {needle:?}");
+        }
+    }
+
     #[test]
-    fn every_validation_error_has_its_key_and_line() {
-        let cases: &[(&str, &str, &str, usize, &str)] = &[
+    fn top_level_and_band_errors_have_their_key_and_line() {
+        assert_errors(&[
             ("unit", "unit = \"mV\"", "unit", 2, "\"V\""),
             ("sample_rate", "sample_rate = 0", "sample_rate", 3, "> 0"),
             (
@@ -979,6 +1059,12 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
             ("order", "order = 9", "band.order", 7, "0 (brick wall) to 8"),
             ("order", "order = 1.5", "band.order", 7, "integer"),
             ("order", "order = -1", "band.order", 7, "integer"),
+        ]);
+    }
+
+    #[test]
+    fn floor_errors_have_their_key_and_line() {
+        assert_errors(&[
             (
                 "density = \"4",
                 "density = \"0 nV/rtHz\"",
@@ -1023,6 +1109,12 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
                 15,
                 "corner",
             ),
+        ]);
+    }
+
+    #[test]
+    fn resistor_and_table_errors_have_their_key_and_line() {
+        assert_errors(&[
             (
                 "resistance = \"10",
                 "resistance = \"-10 kOhm\"",
@@ -1093,12 +1185,7 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
                 23,
                 "density such as",
             ),
-        ];
-        for &(old, new, key, line, needle) in cases {
-            let (k, l, msg) = fail(&edit(old, new));
-            assert_eq!((k.as_str(), l), (key, Some(line)), "{new}: {msg}");
-            assert!(msg.contains(needle), "{new}: {msg:?} lacks {needle:?}");
-        }
+        ]);
     }
 
     #[test]

@@ -13,6 +13,7 @@ use plotters::prelude::*;
 use statrs::function::erf::erf;
 
 use crate::analysis::capture::CaptureReport;
+use crate::analysis::welch::BandEstimate;
 use crate::model::density::{band_gain, source_psd};
 use crate::profile::{Profile, format_quantity};
 use crate::synth::Generator;
@@ -61,6 +62,85 @@ pub fn density_svg(
         if bands.is_empty() {
             return Err("no band with a positive density".into());
         }
+        let frame = DensityFrame::new(&bands, design);
+        let mut chart = ChartBuilder::on(&root)
+            .caption("density", ("sans-serif", 24))
+            .margin(12)
+            .x_label_area_size(45)
+            .y_label_area_size(95)
+            .build_cartesian_2d(
+                (frame.x0..frame.x1).log_scale(),
+                (frame.ylo..frame.yhi).log_scale(),
+            )?;
+        chart
+            .configure_mesh()
+            .x_desc("frequency")
+            .y_desc(format!("density ({du})"))
+            .x_label_formatter(&|v| tick(*v, "Hz"))
+            .y_label_formatter(&|v| tick(*v, &du))
+            .draw()?;
+        draw_measured(&mut chart, &bands, &frame)?;
+        if !frame.designed.is_empty() {
+            chart
+                .draw_series(LineSeries::new(
+                    frame.designed.clone(),
+                    BLACK.stroke_width(2),
+                ))?
+                .label("designed")
+                .legend(|(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2))
+                });
+        }
+        if let Some(p) = profile {
+            draw_sources(&mut chart, p, design, &frame)?;
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()?;
+        root.present()?;
+        Ok(())
+    })
+}
+
+/// The density picture's chart: log frequency (Hz) by log density (unit/√Hz).
+type DensityChart<'a, 'b> =
+    ChartContext<'a, SVGBackend<'b>, Cartesian2d<LogCoord<f64>, LogCoord<f64>>>;
+
+/// Colour of the measured density and its interval.
+const MEASURED_COLOR: RGBColor = RGBColor(70, 110, 200);
+
+/// Colours of the profile's sources, in turn.
+const SOURCE_PALETTE: [RGBColor; 4] = [
+    RGBColor(200, 80, 40),
+    RGBColor(40, 150, 80),
+    RGBColor(150, 60, 170),
+    RGBColor(180, 150, 20),
+];
+
+/// The density picture's axes and the curves they are sized by.
+struct DensityFrame {
+    /// Frequency axis from `x0` to `x1`, Hz: the bands' span.
+    x0: f64,
+    x1: f64,
+    /// Density axis from `ylo` to `yhi`, unit/√Hz.
+    ylo: f64,
+    yhi: f64,
+    /// Each band's 95 % interval of the density, unit²/Hz.
+    ci: Vec<(f64, f64)>,
+    /// 401 log-spaced frequencies in Hz from `x0` to `x1`, where curves are evaluated.
+    grid: Vec<f64>,
+    /// The designed density (Hz, unit/√Hz) where it is positive; empty without a design.
+    designed: Vec<(f64, f64)>,
+}
+
+impl DensityFrame {
+    /// The axes for `bands` (at least one, each with a positive density) and `design`: the
+    /// density axis reaches from half the lowest interval (at most 10⁶ below the top) to twice
+    /// the highest interval or designed density.
+    fn new(bands: &[&BandEstimate], design: Option<&Generator>) -> DensityFrame {
         let x0 = bands[0].f_lo_hz.max(1e-12);
         let x1 = bands[bands.len() - 1].f_hi_hz;
         let ci: Vec<(f64, f64)> = bands.iter().map(|b| CaptureReport::band_ci95(b)).collect();
@@ -81,117 +161,113 @@ pub fn density_svg(
             hi = hi.max(p.1);
         }
         lo = lo.max(hi * 1e-6);
-        let (ylo, yhi) = (lo / 2.0, hi * 2.0);
-        let mut chart = ChartBuilder::on(&root)
-            .caption("density", ("sans-serif", 24))
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(95)
-            .build_cartesian_2d((x0..x1).log_scale(), (ylo..yhi).log_scale())?;
-        chart
-            .configure_mesh()
-            .x_desc("frequency")
-            .y_desc(format!("density ({du})"))
-            .x_label_formatter(&|v| tick(*v, "Hz"))
-            .y_label_formatter(&|v| tick(*v, &du))
-            .draw()?;
-        let band_color = RGBColor(70, 110, 200);
-        let mut outline: Vec<(f64, f64)> = bands
-            .iter()
-            .zip(&ci)
-            .flat_map(|(b, c)| {
-                [
-                    (b.f_lo_hz.max(x0), c.1.sqrt().min(yhi)),
-                    (b.f_hi_hz, c.1.sqrt().min(yhi)),
-                ]
-            })
-            .collect();
-        outline.extend(bands.iter().zip(&ci).rev().flat_map(|(b, c)| {
+        DensityFrame {
+            x0,
+            x1,
+            ylo: lo / 2.0,
+            yhi: hi * 2.0,
+            ci,
+            grid,
+            designed,
+        }
+    }
+}
+
+/// The measured layers: the bands' 95 % intervals as one shaded outline, and the measured
+/// density through the band centres with a dot at each.
+fn draw_measured(
+    chart: &mut DensityChart<'_, '_>,
+    bands: &[&BandEstimate],
+    frame: &DensityFrame,
+) -> Fallible {
+    let (x0, ylo, yhi) = (frame.x0, frame.ylo, frame.yhi);
+    let ci = &frame.ci;
+    let band_color = MEASURED_COLOR;
+    let mut outline: Vec<(f64, f64)> = bands
+        .iter()
+        .zip(ci)
+        .flat_map(|(b, c)| {
             [
-                (b.f_hi_hz, c.0.sqrt().max(ylo)),
-                (b.f_lo_hz.max(x0), c.0.sqrt().max(ylo)),
+                (b.f_lo_hz.max(x0), c.1.sqrt().min(yhi)),
+                (b.f_hi_hz, c.1.sqrt().min(yhi)),
             ]
-        }));
-        chart
-            .draw_series(std::iter::once(Polygon::new(outline, band_color.mix(0.2))))?
-            .label("95 % interval")
-            .legend(move |(x, y)| {
-                Rectangle::new([(x, y - 5), (x + 20, y + 5)], band_color.mix(0.2).filled())
-            });
-        let measured: Vec<(f64, f64)> = bands
+        })
+        .collect();
+    outline.extend(bands.iter().zip(ci).rev().flat_map(|(b, c)| {
+        [
+            (b.f_hi_hz, c.0.sqrt().max(ylo)),
+            (b.f_lo_hz.max(x0), c.0.sqrt().max(ylo)),
+        ]
+    }));
+    chart
+        .draw_series(std::iter::once(Polygon::new(outline, band_color.mix(0.2))))?
+        .label("95 % interval")
+        .legend(move |(x, y)| {
+            Rectangle::new([(x, y - 5), (x + 20, y + 5)], band_color.mix(0.2).filled())
+        });
+    let measured: Vec<(f64, f64)> = bands
+        .iter()
+        .map(|b| (b.f_center_hz.max(x0), b.psd_mean.sqrt()))
+        .collect();
+    chart
+        .draw_series(LineSeries::new(
+            measured.clone(),
+            band_color.stroke_width(2),
+        ))?
+        .label("measured")
+        .legend(move |(x, y)| {
+            PathElement::new(vec![(x, y), (x + 20, y)], band_color.stroke_width(2))
+        });
+    chart.draw_series(
+        measured
             .iter()
-            .map(|b| (b.f_center_hz.max(x0), b.psd_mean.sqrt()))
+            .map(|&p| Circle::new(p, 2, band_color.filled())),
+    )?;
+    Ok(())
+}
+
+/// One line per source of `p` (its density with the band shaping, unit/√Hz), then one per
+/// burst of `design` (its sampled density, AC part; the mean is a line at DC), each above the
+/// bottom of the axis.
+fn draw_sources(
+    chart: &mut DensityChart<'_, '_>,
+    p: &Profile,
+    design: Option<&Generator>,
+    frame: &DensityFrame,
+) -> Fallible {
+    let (grid, ylo) = (&frame.grid, frame.ylo);
+    let palette = SOURCE_PALETTE;
+    for (i, s) in p.sources.iter().enumerate() {
+        let c = palette[i % palette.len()];
+        let pts: Vec<(f64, f64)> = grid
+            .iter()
+            .map(|&f| {
+                (
+                    f,
+                    (source_psd(s, p, f) * band_gain(&p.band, p.sample_rate_hz, f)).sqrt(),
+                )
+            })
+            .filter(|q| q.1 > ylo)
             .collect();
         chart
-            .draw_series(LineSeries::new(
-                measured.clone(),
-                band_color.stroke_width(2),
-            ))?
-            .label("measured")
-            .legend(move |(x, y)| {
-                PathElement::new(vec![(x, y), (x + 20, y)], band_color.stroke_width(2))
-            });
-        chart.draw_series(
-            measured
-                .iter()
-                .map(|&p| Circle::new(p, 2, band_color.filled())),
-        )?;
-        if !designed.is_empty() {
-            chart
-                .draw_series(LineSeries::new(designed, BLACK.stroke_width(2)))?
-                .label("designed")
-                .legend(|(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2))
-                });
-        }
-        if let Some(p) = profile {
-            let palette = [
-                RGBColor(200, 80, 40),
-                RGBColor(40, 150, 80),
-                RGBColor(150, 60, 170),
-                RGBColor(180, 150, 20),
-            ];
-            for (i, s) in p.sources.iter().enumerate() {
-                let c = palette[i % palette.len()];
-                let pts: Vec<(f64, f64)> = grid
-                    .iter()
-                    .map(|&f| {
-                        (
-                            f,
-                            (source_psd(s, p, f) * band_gain(&p.band, p.sample_rate_hz, f)).sqrt(),
-                        )
-                    })
-                    .filter(|q| q.1 > ylo)
-                    .collect();
-                chart
-                    .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
-                    .label(s.name.clone())
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
-            }
-            // Bursts: their sampled density (AC part; the mean is a line at DC).
-            let n = p.sources.len();
-            for (i, b) in design.map_or(&[][..], |d| d.bursts()).iter().enumerate() {
-                let c = palette[(n + i) % palette.len()];
-                let pts: Vec<(f64, f64)> = grid
-                    .iter()
-                    .map(|&f| (f, b.density(f).sqrt()))
-                    .filter(|q| q.1 > ylo)
-                    .collect();
-                chart
-                    .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
-                    .label(b.burst().name.clone())
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
-            }
-        }
+            .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
+            .label(s.name.clone())
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
+    }
+    let n = p.sources.len();
+    for (i, b) in design.map_or(&[][..], |d| d.bursts()).iter().enumerate() {
+        let c = palette[(n + i) % palette.len()];
+        let pts: Vec<(f64, f64)> = grid
+            .iter()
+            .map(|&f| (f, b.density(f).sqrt()))
+            .filter(|q| q.1 > ylo)
+            .collect();
         chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.85))
-            .border_style(BLACK)
-            .draw()?;
-        root.present()?;
-        Ok(())
-    })
+            .draw_series(LineSeries::new(pts, c.stroke_width(1)))?
+            .label(b.burst().name.clone())
+            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], c));
+    }
+    Ok(())
 }
 
 /// The amplitude histogram on a log count axis with the Gaussian of the record's μ and σ.
@@ -316,10 +392,31 @@ pub fn report_html(
     density_svg: &str,
     profile: Option<&Profile>,
 ) -> String {
+    let mut h = report_head(r, json, profile);
+    h += &statistics_section(r, json);
+    h += &density_section(r, density_svg);
+    h += "<h2>Amplitude</h2>\n";
+    h += &format!("<figure>{}</figure>\n", histogram_svg(r));
+    h += &format!("<figure>{}</figure>\n", trace_svg(r));
+    h += &levels_section(r);
+    if let Some(f) = json.get("fit") {
+        h += &fit_section(r, f);
+    }
+    if !r.notes.is_empty() {
+        h += "<h2>Notes</h2>\n<ul>\n";
+        for n in &r.notes {
+            h += &format!("<li>{}</li>\n", html_escape(n));
+        }
+        h += "</ul>\n";
+    }
+    h += "</body></html>\n";
+    h
+}
+
+/// The report's head and opening: title, style, the capture in one line, and the verdict
+/// against `profile` when the capture was compared.
+fn report_head(r: &CaptureReport, json: &serde_json::Value, profile: Option<&Profile>) -> String {
     let u = r.unit.as_str();
-    let q = |v: f64| html_escape(&format_quantity(v, u));
-    let du = format!("{u}/√Hz");
-    let qd = |v: f64| html_escape(&format_quantity(v, &du));
     let st = &r.stats;
     let name = json["file"]["name"].as_str().unwrap_or("capture");
     let mut h = String::new();
@@ -358,6 +455,16 @@ pub fn report_html(
             c.tolerance_db
         );
     }
+    h
+}
+
+/// The statistics: moments and peak-to-peak, the fractions within ±kσ against a Gaussian
+/// (from the JSON), and the RMS per decade.
+fn statistics_section(r: &CaptureReport, json: &serde_json::Value) -> String {
+    let u = r.unit.as_str();
+    let q = |v: f64| html_escape(&format_quantity(v, u));
+    let st = &r.stats;
+    let mut h = String::new();
     h += "<h2>Statistics</h2>\n<table>\n";
     let rows: Vec<(&str, String)> = vec![
         ("mean", q(st.mean())),
@@ -396,7 +503,15 @@ pub fn report_html(
             q(d.rms)
         );
     }
-    h += "</table>\n<h2>Density</h2>\n";
+    h += "</table>\n";
+    h
+}
+
+/// The density: the picture, how it was estimated, and a table of the bands (density and
+/// 95 % interval in unit/√Hz, degrees of freedom; against the design when compared).
+fn density_section(r: &CaptureReport, density_svg: &str) -> String {
+    let mut h = String::new();
+    h += "<h2>Density</h2>\n";
     h += &format!("<figure>{density_svg}</figure>\n");
     let sp = &r.spectrum;
     h += &format!(
@@ -413,37 +528,50 @@ pub fn report_html(
     }
     h += "</tr>\n";
     for b in &r.bands {
-        let (lo, hi) = CaptureReport::band_ci95(b);
-        h += &format!(
-            "<tr><td>{} – {}</td><td>{}</td><td>{} – {}</td><td>{:.1}</td>",
-            html_escape(&format_quantity(b.f_lo_hz, "Hz")),
-            html_escape(&format_quantity(b.f_hi_hz, "Hz")),
-            qd(b.psd_mean.sqrt()),
-            qd(lo.sqrt()),
-            qd(hi.sqrt()),
-            b.dof
-        );
-        if let Some(c) = &r.comparison {
-            match c.bands.iter().find(|c| c.band.bins == b.bins) {
-                Some(c) => {
-                    h += &format!(
-                        "<td>{}</td><td>{:+.2} dB</td><td>{:+.2} / {:+.2} dB</td><td class=\"{}\">{}</td>",
-                        qd(c.expected_psd.sqrt()),
-                        c.ratio_db,
-                        c.limit_db.0,
-                        c.limit_db.1,
-                        if c.pass { "ok" } else { "fail" },
-                        if c.pass { "ok" } else { "FAIL" }
-                    )
-                }
-                None => h += "<td colspan=\"4\">outside the profile's band</td>",
-            }
-        }
-        h += "</tr>\n";
+        h += &density_row(r, b);
     }
-    h += "</table>\n<h2>Amplitude</h2>\n";
-    h += &format!("<figure>{}</figure>\n", histogram_svg(r));
-    h += &format!("<figure>{}</figure>\n", trace_svg(r));
+    h += "</table>\n";
+    h
+}
+
+/// One band's row of the density table.
+fn density_row(r: &CaptureReport, b: &BandEstimate) -> String {
+    let du = format!("{}/√Hz", r.unit);
+    let qd = |v: f64| html_escape(&format_quantity(v, &du));
+    let (lo, hi) = CaptureReport::band_ci95(b);
+    let mut h = format!(
+        "<tr><td>{} – {}</td><td>{}</td><td>{} – {}</td><td>{:.1}</td>",
+        html_escape(&format_quantity(b.f_lo_hz, "Hz")),
+        html_escape(&format_quantity(b.f_hi_hz, "Hz")),
+        qd(b.psd_mean.sqrt()),
+        qd(lo.sqrt()),
+        qd(hi.sqrt()),
+        b.dof
+    );
+    if let Some(c) = &r.comparison {
+        match c.bands.iter().find(|c| c.band.bins == b.bins) {
+            Some(c) => {
+                h += &format!(
+                    "<td>{}</td><td>{:+.2} dB</td><td>{:+.2} / {:+.2} dB</td><td class=\"{}\">{}</td>",
+                    qd(c.expected_psd.sqrt()),
+                    c.ratio_db,
+                    c.limit_db.0,
+                    c.limit_db.1,
+                    if c.pass { "ok" } else { "fail" },
+                    if c.pass { "ok" } else { "FAIL" }
+                )
+            }
+            None => h += "<td colspan=\"4\">outside the profile's band</td>",
+        }
+    }
+    h += "</tr>\n";
+    h
+}
+
+/// The burst levels found: each level's value, time share, mean dwell and count of dwells.
+fn levels_section(r: &CaptureReport) -> String {
+    let q = |v: f64| html_escape(&format_quantity(v, &r.unit));
+    let mut h = String::new();
     h += "<h2>Burst levels</h2>\n";
     match &r.levels {
         None => h += "<p>None clearly present.</p>\n",
@@ -464,34 +592,33 @@ pub fn report_html(
             );
         }
     }
-    if let Some(f) = json.get("fit") {
-        h += "<h2>Fit</h2>\n<table>\n";
-        h += &format!(
-            "<tr><th>floor</th><td>{} ± {:.2} %</td></tr>\n",
-            qd(f["floor_density"].as_f64().unwrap_or(f64::NAN)),
-            100.0 * f["floor_rel_se"].as_f64().unwrap_or(f64::NAN)
-        );
-        match f["corner_hz"].as_f64() {
-            Some(c) => {
-                h += &format!(
-                    "<tr><th>corner</th><td>{} ± {:.2} %</td></tr>\n<tr><th>slope</th><td>{:.4} ± {:.4}</td></tr>\n",
-                    html_escape(&format_quantity(c, "Hz")),
-                    100.0 * f["corner_rel_se"].as_f64().unwrap_or(f64::NAN),
-                    f["slope"].as_f64().unwrap_or(f64::NAN),
-                    f["slope_se"].as_f64().unwrap_or(f64::NAN)
-                )
-            }
-            None => h += "<tr><th>corner</th><td>no significant 1/f rise</td></tr>\n",
+    h
+}
+
+/// The fit from the JSON `f`: floor density (unit/√Hz), and corner (Hz) and slope when a 1/f
+/// rise was found, each with its relative standard error.
+fn fit_section(r: &CaptureReport, f: &serde_json::Value) -> String {
+    let du = format!("{}/√Hz", r.unit);
+    let qd = |v: f64| html_escape(&format_quantity(v, &du));
+    let mut h = String::new();
+    h += "<h2>Fit</h2>\n<table>\n";
+    h += &format!(
+        "<tr><th>floor</th><td>{} ± {:.2} %</td></tr>\n",
+        qd(f["floor_density"].as_f64().unwrap_or(f64::NAN)),
+        100.0 * f["floor_rel_se"].as_f64().unwrap_or(f64::NAN)
+    );
+    match f["corner_hz"].as_f64() {
+        Some(c) => {
+            h += &format!(
+                "<tr><th>corner</th><td>{} ± {:.2} %</td></tr>\n<tr><th>slope</th><td>{:.4} ± {:.4}</td></tr>\n",
+                html_escape(&format_quantity(c, "Hz")),
+                100.0 * f["corner_rel_se"].as_f64().unwrap_or(f64::NAN),
+                f["slope"].as_f64().unwrap_or(f64::NAN),
+                f["slope_se"].as_f64().unwrap_or(f64::NAN)
+            )
         }
-        h += "</table>\n";
+        None => h += "<tr><th>corner</th><td>no significant 1/f rise</td></tr>\n",
     }
-    if !r.notes.is_empty() {
-        h += "<h2>Notes</h2>\n<ul>\n";
-        for n in &r.notes {
-            h += &format!("<li>{}</li>\n", html_escape(n));
-        }
-        h += "</ul>\n";
-    }
-    h += "</body></html>\n";
+    h += "</table>\n";
     h
 }

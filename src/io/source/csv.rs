@@ -115,6 +115,31 @@ impl<R: Read> CsvSource<R> {
             rows: 0,
             check_steps: false,
         };
+        src.read_header()?;
+        let rate = src.given_rate(options)?;
+        // Read ahead to estimate the rate (and to compare it with --rate).
+        let (times, lines) = src.read_ahead()?;
+        if rate.is_none() {
+            src.check_steps_ahead(&times, &lines)?;
+        }
+        let from_times = src.rate_from_times(&times, &lines)?;
+        let rate = src.settle_rate(rate, from_times)?;
+        src.info.sample_rate_hz = rate;
+        src.period_s = 1.0 / rate;
+        if src.check_steps {
+            for (i, w) in times.windows(2).enumerate() {
+                src.check_step(w[0], w[1], lines[i + 1])?;
+            }
+        }
+        src.first_time = times.first().copied().unwrap_or(0.0);
+        src.last_time = times.last().copied();
+        Ok(src)
+    }
+
+    /// Reads the header line: which column is the time (and its unit), which the value (and
+    /// what it holds).
+    fn read_header(&mut self) -> Result<()> {
+        let src = self;
         if !src.next_line()? {
             return Err(Error::input(
                 &src.name,
@@ -151,8 +176,14 @@ impl<R: Read> CsvSource<R> {
         let (values, div) = value_meaning(&header[src.value_col]);
         src.info.values = values;
         src.value_div = div;
+        Ok(())
+    }
 
-        let rate = match (options.rate_hz, src.time_col) {
+    /// The sample rate in Hz given outside the time column: `--rate`, else, without a time
+    /// column, the fallback (which is then required); `None` when the time column gives it.
+    fn given_rate(&self, options: &SourceOptions) -> Result<Option<f64>> {
+        let src = self;
+        Ok(match (options.rate_hz, src.time_col) {
             (Some(r), _) => Some(check_rate(r, "\u{1}rate\u{1}", &src.name)?),
             (None, None) => Some(
                 options
@@ -169,8 +200,13 @@ impl<R: Read> CsvSource<R> {
                     .and_then(|r| check_rate(r, "the manifest", &src.name))?,
             ),
             (None, Some(_)) => None,
-        };
-        // Read ahead to estimate the rate (and to compare it with --rate).
+        })
+    }
+
+    /// With a time column, the first [`RATE_ROWS`] rows: their times in s and line numbers
+    /// (their values wait in `pending`); empty without one.
+    fn read_ahead(&mut self) -> Result<(Vec<f64>, Vec<usize>)> {
+        let src = self;
         let mut times = Vec::new();
         let mut lines = Vec::new();
         if src.time_col.is_some() {
@@ -185,14 +221,18 @@ impl<R: Read> CsvSource<R> {
                 }
             }
         }
+        Ok((times, lines))
+    }
+
+    /// Checks the steps of the rows read ahead (`times` in s, on `lines`) when the rate is to
+    /// come from them.
+    fn check_steps_ahead(&self, times: &[f64], lines: &[usize]) -> Result<()> {
+        let src = self;
         // Steps of the rows read ahead: the first that does not increase, or that is off the
         // median step by more than half of it, is named with its line (a gap would distort a
         // rate taken from the whole span, so the median is the reference here).
         // With --rate the time column only has to increase overall.
-        let steps: Vec<f64> = match rate {
-            None => times.windows(2).map(|w| w[1] - w[0]).collect(),
-            Some(_) => Vec::new(),
-        };
+        let steps: Vec<f64> = times.windows(2).map(|w| w[1] - w[0]).collect();
         if let Some(i) = steps.iter().position(|d| d.is_nan() || *d <= 0.0) {
             return Err(Error::input(
                 &src.name,
@@ -213,7 +253,14 @@ impl<R: Read> CsvSource<R> {
                 return Err(src.uneven(lines[i + 1], steps[i], median));
             }
         }
-        let from_times = if times.len() >= 2 {
+        Ok(())
+    }
+
+    /// The rate in Hz over the span of the rows read ahead (`times` in s, on `lines`); `None`
+    /// with fewer than two rows.
+    fn rate_from_times(&self, times: &[f64], lines: &[usize]) -> Result<Option<f64>> {
+        let src = self;
+        Ok(if times.len() >= 2 {
             let span = times[times.len() - 1] - times[0];
             if span.is_nan() || span <= 0.0 {
                 return Err(Error::input(
@@ -229,8 +276,14 @@ impl<R: Read> CsvSource<R> {
             Some((times.len() - 1) as f64 / span)
         } else {
             None
-        };
-        let rate = match (rate, from_times) {
+        })
+    }
+
+    /// The rate in Hz used: the given one (with a note when the time column disagrees), else
+    /// the time column's (whose later steps are then checked).
+    fn settle_rate(&mut self, rate: Option<f64>, from_times: Option<f64>) -> Result<f64> {
+        let src = self;
+        Ok(match (rate, from_times) {
             (Some(r), Some(t)) => {
                 if ((r - t) / r).abs() > 1e-6 {
                     src.info.notes.push(format!(
@@ -254,17 +307,7 @@ impl<R: Read> CsvSource<R> {
                     ),
                 ));
             }
-        };
-        src.info.sample_rate_hz = rate;
-        src.period_s = 1.0 / rate;
-        if src.check_steps {
-            for (i, w) in times.windows(2).enumerate() {
-                src.check_step(w[0], w[1], lines[i + 1])?;
-            }
-        }
-        src.first_time = times.first().copied().unwrap_or(0.0);
-        src.last_time = times.last().copied();
-        Ok(src)
+        })
     }
 
     /// The next non-blank, non-comment line into `self.line`; false at the end.

@@ -58,191 +58,280 @@ fn le32(b: &[u8]) -> u32 {
     u32::from_le_bytes([b[0], b[1], b[2], b[3]])
 }
 
+/// A chunk's header: its id, its size in bytes (without the pad byte) and the byte offset of
+/// the header in the file.
+struct Chunk {
+    id: [u8; 4],
+    size: u32,
+    at: u64,
+}
+
+/// What the file says before its `data` chunk.
+struct Preamble {
+    /// The first 12 bytes: "RIFF", "RF64" or "BW64", a size, "WAVE".
+    head: [u8; 12],
+    /// The container has 64-bit sizes (RF64 or BW64).
+    rf64: bool,
+    /// The `ds64` chunk's data size in bytes (RF64 and BW64 only).
+    ds64_data: Option<u64>,
+    /// (sample format, channels, rate in Hz) from the `fmt ` chunk, once read.
+    fmt: Option<(SampleFormat, u16, u32)>,
+    /// Notes for [`StreamInfo::notes`].
+    notes: Vec<String>,
+}
+
 impl<R: Read> WavSource<R> {
     /// Reads the header up to the start of the samples.
     pub fn new(mut input: R, options: &SourceOptions) -> Result<WavSource<R>> {
         let name = options.name.clone();
         let bad = |m: String| Error::input(name.clone(), m);
-        let mut head = [0u8; 12];
-        let got = read_full(&mut input, &mut head, &name)?;
-        if got < 12 {
-            return Err(bad(format!(
-                "not a WAV file: {got} bytes, shorter than the 12-byte RIFF header"
-            )));
-        }
-        // ITU-R BS.2088's BW64 uses RF64's layout under its own id (REFERENCES §10).
-        let rf64 = &head[0..4] == b"RF64" || &head[0..4] == b"BW64";
-        if !(&head[0..4] == b"RIFF" || rf64) || &head[8..12] != b"WAVE" {
-            return Err(bad(format!(
-                "not a WAV file: it starts with {:?}, not \"RIFF....WAVE\" or \"RF64....WAVE\"",
-                String::from_utf8_lossy(&head[..4])
-            )));
-        }
-        // RF64 (EBU Tech 3306, from memory of its layout): a ds64 chunk first after "WAVE"
-        // holds the 64-bit riffSize, dataSize and sampleCount (then a table of other large
-        // chunks); the u32 data size is then 0xFFFFFFFF and stands for ds64's dataSize.
+        let (head, rf64) = read_riff_head(&mut input, &name)?;
         // Byte offset in the file of what is read next, for messages.
         let mut pos: u64 = 12;
         let ds64_data = if rf64 {
-            let mut ch = [0u8; 8];
-            if read_full(&mut input, &mut ch, &name)? < 8 || &ch[0..4] != b"ds64" {
-                return Err(bad(
-                    "an RF64 file must have a \"ds64\" chunk at byte 12, right after \"WAVE\" \
-                     (EBU Tech 3306); this one does not"
-                        .to_string(),
-                ));
-            }
-            let size = le32(&ch[4..8]);
-            const DS64_MAX: u32 = 1 << 20;
-            if !(28..=DS64_MAX).contains(&size) {
-                return Err(bad(format!(
-                    "the \"ds64\" chunk at byte 12 is {size} bytes; expected 28 to {DS64_MAX}"
-                )));
-            }
-            let mut body = vec![0u8; size as usize + (size as usize & 1)];
-            let got = read_full(&mut input, &mut body, &name)?;
-            if got < size as usize {
-                return Err(bad(format!(
-                    "truncated inside the \"ds64\" chunk at byte 12: it announces {size} bytes \
-                     but the file ends at byte {}",
-                    20 + got
-                )));
-            }
-            pos += 8 + body.len() as u64;
-            let le64 = |at: usize| u64::from_le_bytes(body[at..at + 8].try_into().expect("8"));
-            Some(le64(8))
+            Some(read_ds64(&mut input, &name, &mut pos)?)
         } else {
             None
         };
-        let mut notes = Vec::new();
-        let mut fmt: Option<(SampleFormat, u16, u32)> = None;
+        let mut pre = Preamble {
+            head,
+            rf64,
+            ds64_data,
+            fmt: None,
+            notes: Vec::new(),
+        };
         loop {
             let mut ch = [0u8; 8];
             let got = read_full(&mut input, &mut ch, &name)?;
             let at = pos;
             if got < 8 {
-                let missing = if fmt.is_none() { "fmt " } else { "data" };
+                let missing = if pre.fmt.is_none() { "fmt " } else { "data" };
                 return Err(bad(format!(
                     "truncated: the file ends at byte {} before its \"{missing}\" chunk",
                     at + got as u64
                 )));
             }
             pos += 8;
-            let id = [ch[0], ch[1], ch[2], ch[3]];
-            let size = le32(&ch[4..8]);
-            match &id {
-                b"fmt " => {
-                    if !(16..=1024).contains(&size) {
-                        return Err(bad(format!(
-                            "the \"fmt \" chunk at byte {at} is {size} bytes; expected 16 to 1024"
-                        )));
-                    }
-                    let mut body = vec![0u8; size as usize + (size as usize & 1)];
-                    let got = read_full(&mut input, &mut body, &name)?;
-                    if got < size as usize {
-                        return Err(bad(format!(
-                            "truncated inside the \"fmt \" chunk at byte {at}: it announces \
-                             {size} bytes but the file ends at byte {}",
-                            pos + got as u64
-                        )));
-                    }
-                    pos += body.len() as u64;
-                    fmt = Some(parse_fmt(&body[..size as usize], &name, at)?);
-                }
-                b"data" => {
-                    let Some((sample_format, channels, rate)) = fmt else {
-                        return Err(bad(format!(
-                            "the \"data\" chunk at byte {at} comes before any \"fmt \" chunk; \
-                             the format must be known before the samples"
-                        )));
-                    };
-                    let frame_bytes = sample_format.bytes() * channels as usize;
-                    let remaining = if let (Some(data), u32::MAX) = (ds64_data, size) {
-                        if data % frame_bytes as u64 != 0 {
-                            return Err(bad(format!(
-                                "the \"ds64\" chunk announces {data} data bytes for the \
-                                 \"data\" chunk at byte {at}, not a whole number of \
-                                 {frame_bytes}-byte frames"
-                            )));
-                        }
-                        Some(data)
-                    } else if size == u32::MAX || size == 0 {
-                        notes.push(format!(
-                            "the data size field is a streaming placeholder ({size:#x}); read \
-                             to the end of the file"
-                        ));
-                        None
-                    } else {
-                        if size as usize % frame_bytes != 0 {
-                            return Err(bad(format!(
-                                "the \"data\" chunk at byte {at} holds {size} bytes, not a \
-                                 whole number of {frame_bytes}-byte frames"
-                            )));
-                        }
-                        Some(u64::from(size))
-                    };
-                    if channels > 1 {
-                        notes.push(format!(
-                            "{channels} channels stored; the first channel is analysed"
-                        ));
-                    }
-                    let mut sample_rate_hz = f64::from(rate);
-                    if let Some(r) = options.rate_hz {
-                        let r = check_rate(r, "\u{1}rate\u{1}", &name)?;
-                        if r != sample_rate_hz {
-                            notes.push(format!(
-                                "sample rate {r} Hz from --rate replaces the header's {rate} Hz"
-                            ));
-                        }
-                        sample_rate_hz = r;
-                    }
-                    check_rate(sample_rate_hz, "the header", &name)?;
-                    if rf64 {
-                        notes.push(format!(
-                            "{} container (64-bit sizes, EBU Tech 3306)",
-                            String::from_utf8_lossy(&head[0..4])
-                        ));
-                    }
-                    let info = StreamInfo {
-                        format: Format::Wav,
-                        sample_format: Some(sample_format),
-                        sample_rate_hz,
-                        frames: remaining.map(|b| b / frame_bytes as u64),
-                        channels,
-                        values: Values::Digital,
-                        notes,
-                    };
-                    return Ok(WavSource {
-                        input,
-                        info,
-                        name,
-                        remaining,
-                        frame_bytes,
-                        sample_format,
-                        buf: vec![0u8; READ_BYTES - READ_BYTES % frame_bytes],
-                        data_at: at,
-                        announced: remaining,
-                        read: 0,
-                    });
-                }
-                _ => {
-                    // Skip the chunk and its pad byte.
-                    let skip = u64::from(size) + u64::from(size & 1);
-                    let skipped = std::io::copy(&mut (&mut input).take(skip), &mut std::io::sink())
-                        .map_err(|e| Error::io(format!("reading {name}"), e))?;
-                    if skipped < u64::from(size) {
-                        return Err(bad(format!(
-                            "truncated inside the {:?} chunk at byte {at} before the samples: it \
-                             announces {size} bytes but the file ends at byte {}",
-                            String::from_utf8_lossy(&id),
-                            pos + skipped
-                        )));
-                    }
-                    pos += skip;
-                }
+            let chunk = Chunk {
+                id: [ch[0], ch[1], ch[2], ch[3]],
+                size: le32(&ch[4..8]),
+                at,
+            };
+            match &chunk.id {
+                b"fmt " => pre.fmt = Some(read_fmt_chunk(&mut input, &name, &chunk, &mut pos)?),
+                b"data" => return WavSource::open_data(input, options, name, &chunk, pre),
+                _ => skip_chunk(&mut input, &name, &chunk, &mut pos)?,
             }
         }
     }
+
+    /// The reader at the start of the samples of the `data` chunk `chunk`, with what the
+    /// header said before it in `pre`.
+    fn open_data(
+        input: R,
+        options: &SourceOptions,
+        name: String,
+        chunk: &Chunk,
+        pre: Preamble,
+    ) -> Result<WavSource<R>> {
+        let bad = |m: String| Error::input(name.clone(), m);
+        let at = chunk.at;
+        let mut notes = pre.notes;
+        let Some((sample_format, channels, rate)) = pre.fmt else {
+            return Err(bad(format!(
+                "the \"data\" chunk at byte {at} comes before any \"fmt \" chunk; \
+                 the format must be known before the samples"
+            )));
+        };
+        let frame_bytes = sample_format.bytes() * channels as usize;
+        let remaining = data_bytes(pre.ds64_data, chunk, frame_bytes, &name, &mut notes)?;
+        if channels > 1 {
+            notes.push(format!(
+                "{channels} channels stored; the first channel is analysed"
+            ));
+        }
+        let mut sample_rate_hz = f64::from(rate);
+        if let Some(r) = options.rate_hz {
+            let r = check_rate(r, "\u{1}rate\u{1}", &name)?;
+            if r != sample_rate_hz {
+                notes.push(format!(
+                    "sample rate {r} Hz from --rate replaces the header's {rate} Hz"
+                ));
+            }
+            sample_rate_hz = r;
+        }
+        check_rate(sample_rate_hz, "the header", &name)?;
+        if pre.rf64 {
+            notes.push(format!(
+                "{} container (64-bit sizes, EBU Tech 3306)",
+                String::from_utf8_lossy(&pre.head[0..4])
+            ));
+        }
+        let info = StreamInfo {
+            format: Format::Wav,
+            sample_format: Some(sample_format),
+            sample_rate_hz,
+            frames: remaining.map(|b| b / frame_bytes as u64),
+            channels,
+            values: Values::Digital,
+            notes,
+        };
+        Ok(WavSource {
+            input,
+            info,
+            name,
+            remaining,
+            frame_bytes,
+            sample_format,
+            buf: vec![0u8; READ_BYTES - READ_BYTES % frame_bytes],
+            data_at: at,
+            announced: remaining,
+            read: 0,
+        })
+    }
+}
+
+/// The 12-byte RIFF header, and whether the container is RF64 (or BW64).
+fn read_riff_head<R: Read>(input: &mut R, name: &str) -> Result<([u8; 12], bool)> {
+    let bad = |m: String| Error::input(name, m);
+    let mut head = [0u8; 12];
+    let got = read_full(input, &mut head, name)?;
+    if got < 12 {
+        return Err(bad(format!(
+            "not a WAV file: {got} bytes, shorter than the 12-byte RIFF header"
+        )));
+    }
+    // ITU-R BS.2088's BW64 uses RF64's layout under its own id (REFERENCES §10).
+    let rf64 = &head[0..4] == b"RF64" || &head[0..4] == b"BW64";
+    if !(&head[0..4] == b"RIFF" || rf64) || &head[8..12] != b"WAVE" {
+        return Err(bad(format!(
+            "not a WAV file: it starts with {:?}, not \"RIFF....WAVE\" or \"RF64....WAVE\"",
+            String::from_utf8_lossy(&head[..4])
+        )));
+    }
+    Ok((head, rf64))
+}
+
+/// The data size in bytes from the `ds64` chunk that must follow "WAVE" in an RF64 file;
+/// `pos` (the byte offset of what is read next) moves past the chunk.
+fn read_ds64<R: Read>(input: &mut R, name: &str, pos: &mut u64) -> Result<u64> {
+    let bad = |m: String| Error::input(name, m);
+    // RF64 (EBU Tech 3306, from memory of its layout): a ds64 chunk first after "WAVE"
+    // holds the 64-bit riffSize, dataSize and sampleCount (then a table of other large
+    // chunks); the u32 data size is then 0xFFFFFFFF and stands for ds64's dataSize.
+    let mut ch = [0u8; 8];
+    if read_full(input, &mut ch, name)? < 8 || &ch[0..4] != b"ds64" {
+        return Err(bad(
+            "an RF64 file must have a \"ds64\" chunk at byte 12, right after \"WAVE\" \
+             (EBU Tech 3306); this one does not"
+                .to_string(),
+        ));
+    }
+    let size = le32(&ch[4..8]);
+    const DS64_MAX: u32 = 1 << 20;
+    if !(28..=DS64_MAX).contains(&size) {
+        return Err(bad(format!(
+            "the \"ds64\" chunk at byte 12 is {size} bytes; expected 28 to {DS64_MAX}"
+        )));
+    }
+    let mut body = vec![0u8; size as usize + (size as usize & 1)];
+    let got = read_full(input, &mut body, name)?;
+    if got < size as usize {
+        return Err(bad(format!(
+            "truncated inside the \"ds64\" chunk at byte 12: it announces {size} bytes \
+             but the file ends at byte {}",
+            20 + got
+        )));
+    }
+    *pos += 8 + body.len() as u64;
+    let le64 = |at: usize| u64::from_le_bytes(body[at..at + 8].try_into().expect("8"));
+    Ok(le64(8))
+}
+
+/// (sample format, channels, rate) from the `fmt ` chunk `chunk`, whose body is read next;
+/// `pos` moves past it and its pad byte.
+fn read_fmt_chunk<R: Read>(
+    input: &mut R,
+    name: &str,
+    chunk: &Chunk,
+    pos: &mut u64,
+) -> Result<(SampleFormat, u16, u32)> {
+    let bad = |m: String| Error::input(name, m);
+    let (at, size) = (chunk.at, chunk.size);
+    if !(16..=1024).contains(&size) {
+        return Err(bad(format!(
+            "the \"fmt \" chunk at byte {at} is {size} bytes; expected 16 to 1024"
+        )));
+    }
+    let mut body = vec![0u8; size as usize + (size as usize & 1)];
+    let got = read_full(input, &mut body, name)?;
+    if got < size as usize {
+        return Err(bad(format!(
+            "truncated inside the \"fmt \" chunk at byte {at}: it announces \
+             {size} bytes but the file ends at byte {}",
+            *pos + got as u64
+        )));
+    }
+    *pos += body.len() as u64;
+    parse_fmt(&body[..size as usize], name, at)
+}
+
+/// The bytes of samples the `data` chunk `chunk` holds (`None`: read to the end of the
+/// stream, with a note), from its size field or, in RF64, from `ds64_data`; a whole number of
+/// `frame_bytes`-byte frames.
+fn data_bytes(
+    ds64_data: Option<u64>,
+    chunk: &Chunk,
+    frame_bytes: usize,
+    name: &str,
+    notes: &mut Vec<String>,
+) -> Result<Option<u64>> {
+    let bad = |m: String| Error::input(name, m);
+    let (at, size) = (chunk.at, chunk.size);
+    Ok(if let (Some(data), u32::MAX) = (ds64_data, size) {
+        if data % frame_bytes as u64 != 0 {
+            return Err(bad(format!(
+                "the \"ds64\" chunk announces {data} data bytes for the \
+                 \"data\" chunk at byte {at}, not a whole number of \
+                 {frame_bytes}-byte frames"
+            )));
+        }
+        Some(data)
+    } else if size == u32::MAX || size == 0 {
+        notes.push(format!(
+            "the data size field is a streaming placeholder ({size:#x}); read \
+             to the end of the file"
+        ));
+        None
+    } else {
+        if size as usize % frame_bytes != 0 {
+            return Err(bad(format!(
+                "the \"data\" chunk at byte {at} holds {size} bytes, not a \
+                 whole number of {frame_bytes}-byte frames"
+            )));
+        }
+        Some(u64::from(size))
+    })
+}
+
+/// Skips the chunk `chunk` (not `fmt ` or `data`) and its pad byte; `pos` moves past them.
+fn skip_chunk<R: Read>(input: &mut R, name: &str, chunk: &Chunk, pos: &mut u64) -> Result<()> {
+    let bad = |m: String| Error::input(name, m);
+    let (id, size, at) = (chunk.id, chunk.size, chunk.at);
+    // Skip the chunk and its pad byte.
+    let skip = u64::from(size) + u64::from(size & 1);
+    let skipped = std::io::copy(&mut input.take(skip), &mut std::io::sink())
+        .map_err(|e| Error::io(format!("reading {name}"), e))?;
+    if skipped < u64::from(size) {
+        return Err(bad(format!(
+            "truncated inside the {:?} chunk at byte {at} before the samples: it \
+             announces {size} bytes but the file ends at byte {}",
+            String::from_utf8_lossy(&id),
+            *pos + skipped
+        )));
+    }
+    *pos += skip;
+    Ok(())
 }
 
 /// (sample format, channels, rate) from a `fmt ` chunk body; `at` is the chunk's byte offset

@@ -72,28 +72,61 @@ pub(super) fn validate(
     raw: &Spanned<RawAmplifier>,
     unit: Unit,
 ) -> Result<Vec<Source>> {
-    let key = |k: &str| format!("amplifier[{i}].{k}");
-    let span = Some(raw.span());
+    let at = At {
+        cx,
+        i,
+        span: Some(raw.span()),
+    };
     let a = raw.get_ref();
     if unit != Unit::Volt {
         return Err(cx.err(
             &format!("amplifier[{i}]"),
-            span,
+            at.span.clone(),
             "an amplifier stage's noise is a voltage: the profile needs unit = \"V\"",
         ));
     }
-    let opt_pos = |v: &Option<Spanned<Value>>, k: &str, dim| -> Result<Option<f64>> {
+    let stage = stage(&at, a, unit)?;
+    let name = a
+        .name
+        .clone()
+        .unwrap_or_else(|| format!("amplifier {}", i + 1));
+    Ok(stage_sources(&stage, &name))
+}
+
+/// Amplifier `i` of the file, for naming its keys and pointing errors at its table.
+struct At<'a, 'b> {
+    cx: &'a Cx<'b>,
+    i: usize,
+    /// The `[[amplifier]]` table's bytes in the file.
+    span: Option<Range<usize>>,
+}
+
+impl At<'_, '_> {
+    /// The dotted key of `k` in this amplifier, e.g. `amplifier[0].gbw`.
+    fn key(&self, k: &str) -> String {
+        format!("amplifier[{}].{k}", self.i)
+    }
+
+    /// The error for the missing key `k`, pointing at the table.
+    fn missing(&self, k: &str, example: &str) -> Error {
+        missing(self.cx, &self.key(k), self.span.clone(), example)
+    }
+
+    /// An optional positive quantity of dimension `dim` at key `k`.
+    fn opt_pos(&self, v: &Option<Spanned<Value>>, k: &str, dim: Dimension) -> Result<Option<f64>> {
         v.as_ref()
-            .map(|v| positive(cx, v, &key(k), dim, Unit::Volt))
+            .map(|v| positive(self.cx, v, &self.key(k), dim, Unit::Volt))
             .transpose()
-    };
-    // Current noise is in A/√Hz whatever the profile's unit: say so rather than suggest
-    // changing the profile's unit.
-    let current = |v: &Spanned<Value>, k: &str| -> Result<f64> {
-        let x =
-            spanned_quantity(cx, v, &key(k), Dimension::Density, Unit::Ampere).map_err(|_| {
-                cx.err(
-                &key(k),
+    }
+
+    /// A current noise density in A/√Hz (≥ 0) at key `k`.
+    fn current(&self, v: &Spanned<Value>, k: &str) -> Result<f64> {
+        let (cx, key) = (self.cx, self.key(k));
+        // Current noise is in A/√Hz whatever the profile's unit: say so rather than suggest
+        // changing the profile's unit.
+        let x = spanned_quantity(cx, v, &key, Dimension::Density, Unit::Ampere).map_err(|_| {
+            cx.err(
+                &key,
                 Some(v.span()),
                 format!(
                     "expected a current noise density such as \"1 pA/rtHz\" (A/\u{221a}Hz, or a \
@@ -101,76 +134,115 @@ pub(super) fn validate(
                     v.get_ref()
                 ),
             )
-            })?;
+        })?;
         if x >= 0.0 {
             Ok(x)
         } else {
             Err(cx.err(
-                &key(k),
+                &key,
                 Some(v.span()),
                 format!("must be >= 0, got {}", format_quantity(x, "A/\u{221a}Hz")),
             ))
         }
-    };
+    }
+}
 
-    let topology = match &a.topology {
-        None => {
-            return Err(missing(
-                cx,
-                &key("topology"),
-                span,
-                "topology = \"non-inverting\"",
-            ));
-        }
+/// The stage an `[[amplifier]]` table describes, its keys checked in the order of the
+/// fields of [`Stage`] (the first error found is the one reported).
+fn stage(at: &At<'_, '_>, a: &RawAmplifier, unit: Unit) -> Result<Stage> {
+    let topology = topology(at, a)?;
+    let refer = refer(at, a)?;
+    let vd = a
+        .voltage_density
+        .as_ref()
+        .ok_or_else(|| at.missing("voltage_density", "voltage_density = \"5 nV/rtHz\""))?;
+    let voltage_density = positive(
+        at.cx,
+        vd,
+        &at.key("voltage_density"),
+        Dimension::Density,
+        unit,
+    )?;
+    let voltage_corner_hz =
+        at.opt_pos(&a.voltage_corner, "voltage_corner", Dimension::Frequency)?;
+    let (current_plus, current_minus) = input_currents(at, a)?;
+    let current_corner_hz =
+        at.opt_pos(&a.current_corner, "current_corner", Dimension::Frequency)?;
+    let resistors = resistors(at, a, topology, unit)?;
+    let temperature_k = match &a.temperature {
+        None => DEFAULT_TEMPERATURE_K,
+        Some(t) => positive(
+            at.cx,
+            t,
+            &at.key("temperature"),
+            Dimension::Temperature,
+            unit,
+        )?,
+    };
+    let gbw_hz = at.opt_pos(&a.gbw, "gbw", Dimension::Frequency)?;
+    Ok(Stage {
+        topology,
+        voltage_density,
+        voltage_corner_hz,
+        current_plus,
+        current_minus,
+        current_corner_hz,
+        source_ohm: resistors.source_ohm,
+        feedback_ohm: resistors.feedback_ohm,
+        gain_ohm: resistors.gain_ohm,
+        bias_ohm: resistors.bias_ohm,
+        temperature_k,
+        gbw_hz,
+        refer,
+    })
+}
+
+/// The required `topology`.
+fn topology(at: &At<'_, '_>, a: &RawAmplifier) -> Result<Topology> {
+    match &a.topology {
+        None => Err(at.missing("topology", "topology = \"non-inverting\"")),
         Some(t) => match t.get_ref().as_str() {
-            "non-inverting" => Topology::NonInverting,
-            "inverting" => Topology::Inverting,
-            other => {
-                return Err(cx.err(
-                    &key("topology"),
-                    Some(t.span()),
-                    format!("expected \"non-inverting\" or \"inverting\", got \"{other}\""),
-                ));
-            }
+            "non-inverting" => Ok(Topology::NonInverting),
+            "inverting" => Ok(Topology::Inverting),
+            other => Err(at.cx.err(
+                &at.key("topology"),
+                Some(t.span()),
+                format!("expected \"non-inverting\" or \"inverting\", got \"{other}\""),
+            )),
         },
-    };
-    let refer = match &a.refer {
-        None => Refer::Output,
+    }
+}
+
+/// `refer`: output-referred parts when absent.
+fn refer(at: &At<'_, '_>, a: &RawAmplifier) -> Result<Refer> {
+    match &a.refer {
+        None => Ok(Refer::Output),
         Some(r) => match r.get_ref().as_str() {
-            "output" => Refer::Output,
-            "input" => Refer::Input,
-            other => {
-                return Err(cx.err(
-                    &key("refer"),
-                    Some(r.span()),
-                    format!("expected \"output\" or \"input\", got \"{other}\""),
-                ));
-            }
+            "output" => Ok(Refer::Output),
+            "input" => Ok(Refer::Input),
+            other => Err(at.cx.err(
+                &at.key("refer"),
+                Some(r.span()),
+                format!("expected \"output\" or \"input\", got \"{other}\""),
+            )),
         },
-    };
-    let vd = a.voltage_density.as_ref().ok_or_else(|| {
-        missing(
-            cx,
-            &key("voltage_density"),
-            span.clone(),
-            "voltage_density = \"5 nV/rtHz\"",
-        )
-    })?;
-    let voltage_density = positive(cx, vd, &key("voltage_density"), Dimension::Density, unit)?;
-    let voltage_corner_hz = opt_pos(&a.voltage_corner, "voltage_corner", Dimension::Frequency)?;
+    }
+}
+
+/// The current noise of the + and the − input in A/√Hz: each its own key, else the shared
+/// `current_density`.
+fn input_currents(at: &At<'_, '_>, a: &RawAmplifier) -> Result<(f64, f64)> {
     let both = a
         .current_density
         .as_ref()
-        .map(|v| current(v, "current_density"))
+        .map(|v| at.current(v, "current_density"))
         .transpose()?;
     let per_input = |v: &Option<Spanned<Value>>, k: &str| -> Result<f64> {
         match (v, both) {
-            (Some(v), _) => current(v, k),
+            (Some(v), _) => at.current(v, k),
             (None, Some(x)) => Ok(x),
-            (None, None) => Err(missing(
-                cx,
-                &key("current_density"),
-                span.clone(),
+            (None, None) => Err(at.missing(
+                "current_density",
                 "current_density = \"1 pA/rtHz\" (or current_density_plus and \
                  current_density_minus)",
             )),
@@ -178,7 +250,25 @@ pub(super) fn validate(
     };
     let current_plus = per_input(&a.current_density_plus, "current_density_plus")?;
     let current_minus = per_input(&a.current_density_minus, "current_density_minus")?;
-    let current_corner_hz = opt_pos(&a.current_corner, "current_corner", Dimension::Frequency)?;
+    Ok((current_plus, current_minus))
+}
+
+/// A stage's resistors in Ω, as in [`Stage`].
+struct Resistors {
+    source_ohm: f64,
+    feedback_ohm: f64,
+    gain_ohm: Option<f64>,
+    bias_ohm: f64,
+}
+
+/// The stage's resistors: which are required, and which may be 0, depends on `topology`.
+fn resistors(
+    at: &At<'_, '_>,
+    a: &RawAmplifier,
+    topology: Topology,
+    unit: Unit,
+) -> Result<Resistors> {
+    let (cx, key) = (at.cx, |k: &str| at.key(k));
     let source_ohm = match &a.source_resistance {
         None => 0.0,
         Some(v) => non_negative(
@@ -189,14 +279,10 @@ pub(super) fn validate(
             Unit::Volt,
         )?,
     };
-    let rf = a.feedback_resistance.as_ref().ok_or_else(|| {
-        missing(
-            cx,
-            &key("feedback_resistance"),
-            span.clone(),
-            "feedback_resistance = \"9 kOhm\"",
-        )
-    })?;
+    let rf = a
+        .feedback_resistance
+        .as_ref()
+        .ok_or_else(|| at.missing("feedback_resistance", "feedback_resistance = \"9 kOhm\""))?;
     let feedback_ohm = match topology {
         Topology::NonInverting => non_negative(
             cx,
@@ -213,12 +299,10 @@ pub(super) fn validate(
             unit,
         )?,
     };
-    let gain_ohm = opt_pos(&a.gain_resistance, "gain_resistance", Dimension::Resistance)?;
+    let gain_ohm = at.opt_pos(&a.gain_resistance, "gain_resistance", Dimension::Resistance)?;
     if topology == Topology::Inverting && gain_ohm.is_none() {
-        return Err(missing(
-            cx,
-            &key("gain_resistance"),
-            span,
+        return Err(at.missing(
+            "gain_resistance",
             "gain_resistance = \"1 kOhm\" (the input resistor of an inverting stage)",
         ));
     }
@@ -240,46 +324,31 @@ pub(super) fn validate(
             ));
         }
     };
-    let temperature_k = match &a.temperature {
-        None => DEFAULT_TEMPERATURE_K,
-        Some(t) => positive(cx, t, &key("temperature"), Dimension::Temperature, unit)?,
-    };
-    let gbw_hz = opt_pos(&a.gbw, "gbw", Dimension::Frequency)?;
-
-    let stage = Stage {
-        topology,
-        voltage_density,
-        voltage_corner_hz,
-        current_plus,
-        current_minus,
-        current_corner_hz,
+    Ok(Resistors {
         source_ohm,
         feedback_ohm,
         gain_ohm,
         bias_ohm,
-        temperature_k,
-        gbw_hz,
-        refer,
-    };
-    let name = a
-        .name
-        .clone()
-        .unwrap_or_else(|| format!("amplifier {}", i + 1));
-    Ok(stage
+    })
+}
+
+/// One source per part of `stage`, named `"<name>: <part>"`.
+fn stage_sources(stage: &Stage, name: &str) -> Vec<Source> {
+    stage
         .parts()
         .into_iter()
         .map(|p| Source {
             name: format!("{name}: {}", p.part.label()),
             kind: SourceKind::AmplifierPart {
-                stage: name.clone(),
+                stage: name.to_string(),
                 part: p.part,
-                refer,
+                refer: stage.refer,
                 density: p.density,
                 corner_hz: p.corner_hz,
                 pole_hz: p.pole_hz,
             },
         })
-        .collect())
+        .collect()
 }
 
 #[cfg(test)]
