@@ -49,7 +49,7 @@ pub mod synth;
 
 pub use error::{Error, Result, Setting};
 pub use profile::Profile;
-pub use run::{Render, RenderReport};
+pub use run::{Analysis, AnalysisReport, Render, RenderReport, Verdict};
 pub use synth::Generator;
 
 /// The README's Rust example, compiled and run as a doctest.

@@ -1,7 +1,9 @@
 //! Whole runs as library calls: [`Render`] does everything `generate` does (engine, scale,
-//! ADC codes, formats, manifest, summary). The command line only turns its flags into these
-//! calls.
+//! ADC codes, formats, manifest, summary), and [`Analysis`] everything `analyze` does
+//! (reading, measuring, judging, fitting, drawing). The command line only turns its flags
+//! into these calls.
 
+pub mod analyze;
 mod pending;
 pub mod render;
 
@@ -10,6 +12,7 @@ use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result, Setting};
 
+pub use analyze::{Analysis, AnalysisReport, Verdict};
 pub(crate) use pending::{PendingFile, commit_all};
 pub use render::{Render, RenderReport};
 
