@@ -145,10 +145,12 @@ pub enum Setting {
     Band,
     /// The filter order of a budget's band edges.
     Order,
+    /// The physical unit of samples given in memory.
+    Unit,
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 27] = [
+const SETTINGS: [Setting; 28] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
@@ -176,6 +178,7 @@ const SETTINGS: [Setting; 27] = [
     Setting::Report,
     Setting::Band,
     Setting::Order,
+    Setting::Unit,
 ];
 
 /// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
@@ -213,6 +216,7 @@ impl Setting {
             Setting::Report => "report",
             Setting::Band => "band",
             Setting::Order => "order",
+            Setting::Unit => "unit",
         }
     }
 

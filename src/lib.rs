@@ -11,6 +11,9 @@
 //!   level, ADC codes, tones, channels, loop buffers, segments, CSV columns, clipping policy,
 //!   the manifest), writing to a path or any [`std::io::Write`]; it returns a
 //!   [`RenderReport`].
+//! - [`Analysis`]: everything `analyze` does, on a capture file or samples in memory, with
+//!   or without a profile; it returns an [`AnalysisReport`] holding the object
+//!   `analyze --json` prints, the summary and a [`Verdict`].
 //! - [`Error`]: the one error type; [`Error::exit_code`] gives the command line's convention
 //!   and [`Error::describe`] names settings as a caller wants.
 //!
@@ -46,6 +49,34 @@
 //! # Ok::<(), noisewright::Error>(())
 //! ```
 //!
+//! Whole runs are library calls too: [`Render`] does everything `generate` does, and
+//! [`Analysis`] everything `analyze` does, on a file or on samples in memory. Here two
+//! seconds of a profile's noise are judged against that profile: each band of the Welch
+//! estimate must lie within its χ² interval (a total false-alarm probability of
+//! [`run::analyze::FALSE_ALARM`] = 10⁻³ over the bands) widened by 1 dB, so a capture that
+//! truly follows the profile fails with a probability of at most 10⁻³.
+//!
+//! ```
+//! use noisewright::{Analysis, Generator, Profile};
+//!
+//! let profile = Profile::from_toml_str(
+//!     "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n\
+//!      [[floor]]\ndensity = \"4 nV/rtHz\"\ncorner = \"100 Hz\"\n",
+//!     "inline",
+//! )?;
+//! let mut noise = Generator::new(&profile, 42)?;
+//! let mut samples = vec![0.0; 96_000]; // volts
+//! noise.fill(&mut samples);
+//! let report = Analysis::of_samples(&samples, 48_000.0)
+//!     .profile(&profile)
+//!     .run()?;
+//! assert!(report.verdict.passed(), "{}", report.summary);
+//! // The same object `analyze --json` prints.
+//! assert_eq!(report.json["pass"], true);
+//! assert!(report.json["comparison"]["bands_checked"].as_u64().unwrap() >= 20);
+//! # Ok::<(), noisewright::Error>(())
+//! ```
+//!
 //! # The parts behind it
 //!
 //! Data flows one way: a profile file becomes a [`Profile`] (quantities in [`units`]);
@@ -72,7 +103,7 @@ pub mod units;
 
 pub use error::{Error, Result, Setting};
 pub use profile::Profile;
-pub use run::{Generator, Render, RenderReport};
+pub use run::{Analysis, AnalysisReport, Generator, Render, RenderReport, Verdict};
 
 /// The README's Rust example, compiled and run as a doctest.
 #[doc = include_str!("../README.md")]

@@ -10,7 +10,7 @@
 //!
 //! - **A.** A few seconds generated with the library's engine (`Generator`, or
 //!   `ChannelGenerator` for several channels) and measured as `analyze` measures it (Welch
-//!   bands, χ² intervals with the false-alarm budget of `cmd::analyze::FALSE_ALARM`, tones'
+//!   bands, χ² intervals with the false-alarm budget of `run::analyze::FALSE_ALARM`, tones'
 //!   leakage left out) pass against the designed density.
 //! - **B.** `format_quantity_exact` then `parse_quantity` gives back the same `f64` for any
 //!   finite value of every dimension; `format_quantity` (display) comes back within its 6
@@ -32,12 +32,12 @@ use noisewright::analysis::capture::{BANDS_PER_DECADE, FIRST_BIN, segment_length
 use noisewright::analysis::compare::{bands_inside, compare_with_design};
 use noisewright::analysis::tones::without_tones;
 use noisewright::analysis::welch::Welch;
-use noisewright::cmd::analyze::{FALSE_ALARM, TONE_LEAKAGE};
 use noisewright::model::density::{self, target_psd};
 use noisewright::profile::{
     Dimension, Profile, SourceKind, format_quantity, format_quantity_exact, parse_profile,
     parse_quantity,
 };
+use noisewright::run::analyze::{FALSE_ALARM, TONE_LEAKAGE};
 use noisewright::synth::{ChannelGenerator, Generator};
 use rand::{RngExt, SeedableRng};
 use rand_chacha::ChaCha8Rng;

@@ -1,9 +1,9 @@
-//! The whole `analyze` command on a hostile capture: the reader, the statistics, the Welch
+//! The whole analysis (`Analysis`, what `analyze` runs) on a hostile capture: the reader, the statistics, the Welch
 //! density, the burst-level detector, and by the options byte the comparison with a small
 //! profile (with a tone), the floor fit and the SVG/HTML pictures. The file (and, by the
 //! options byte, a manifest beside it) is written to a private directory under the system's
-//! temporary directory, as `analyze` reads paths. `run` must return an outcome or an error,
-//! never panic.
+//! temporary directory, as `analyze` reads paths. `Analysis::run` must return a report or an
+//! error, never panic.
 //!
 //! Input: byte 0 picks the extension (`.wav`, `.csv`, `.i16`, `.f32`, `.f64`, `.i24`, `.i32`)
 //! and `--rate`; byte 1 the options; the rest is the file. Byte 1's bit 6 splits the rest at
@@ -12,10 +12,9 @@
 
 use std::path::PathBuf;
 use std::sync::OnceLock;
-use std::sync::atomic::AtomicBool;
 
 use libfuzzer_sys::fuzz_target;
-use noisewright::cmd::analyze::{AnalyzeArgs, run};
+use noisewright::{Analysis, Setting};
 
 const EXTENSIONS: [&str; 7] = ["wav", "csv", "i16", "f32", "f64", "i24", "i32"];
 /// A small profile: one pyramid level at 1 kHz (so the design stays cheap), a floor with a
@@ -54,29 +53,48 @@ fuzz_target!(|data: &[u8]| {
     };
     std::fs::write(&file, body).expect("capture written");
     let with_profile = opts & 1 != 0;
-    let args = AnalyzeArgs {
-        file,
-        profile: with_profile.then(|| d.join("p.toml")),
-        full_scale: (opts & 2 != 0)
-            .then(|| ["2V", "1e-300V", "1e300 V"][*sel as usize / 7 % 3].into()),
-        // With the profile, the rate is the profile's so the design stays one level deep.
-        rate: match (with_profile, (sel >> 5) & 3) {
-            (true, _) => Some("1 kHz".into()),
-            (false, 0) => None,
-            (false, 1) => Some("48 kHz".into()),
-            (false, 2) => Some("1e-3 Hz".into()),
-            (false, _) => Some("1 THz".into()),
-        },
-        sample_format: None,
-        resolution: (opts & 4 != 0).then(|| {
-            ["10 Hz", "1e-9 Hz", "1e9 Hz"][(*opts as usize >> 7) + usize::from(opts & 32 != 0)]
-                .into()
-        }),
-        tolerance: (opts & 8 != 0).then(|| "0.5 dB".into()),
-        plot: (opts & 16 != 0).then(|| d.join("plot.svg")),
-        report: (opts & 16 != 0 && opts & 32 != 0).then(|| d.join("report.html")),
-        json: opts & 32 != 0,
-        fit: (opts & 128 != 0).then(|| d.join("fit.toml")),
+    let full_scale = (opts & 2 != 0).then(|| ["2V", "1e-300V", "1e300 V"][*sel as usize / 7 % 3]);
+    // With the profile, the rate is the profile's so the design stays one level deep.
+    let rate = match (with_profile, (sel >> 5) & 3) {
+        (true, _) => Some("1 kHz"),
+        (false, 0) => None,
+        (false, 1) => Some("48 kHz"),
+        (false, 2) => Some("1e-3 Hz"),
+        (false, _) => Some("1 THz"),
     };
-    let _ = run(&args, &AtomicBool::new(false));
+    let resolution = (opts & 4 != 0).then(|| {
+        ["10 Hz", "1e-9 Hz", "1e9 Hz"][(*opts as usize >> 7) + usize::from(opts & 32 != 0)]
+    });
+    let tolerance = (opts & 8 != 0).then_some("0.5 dB");
+    let mut analysis = Analysis::of_path(&file);
+    if with_profile {
+        analysis = analysis.profile_path(d.join("p.toml"));
+    }
+    let texts = [
+        (Setting::FullScale, full_scale),
+        (Setting::Rate, rate),
+        (Setting::Resolution, resolution),
+        (Setting::Tolerance, tolerance),
+    ];
+    for (setting, text) in texts {
+        if let Some(t) = text {
+            analysis = analysis.text(setting, t).expect("a setting given as text");
+        }
+    }
+    if opts & 16 != 0 {
+        analysis = analysis.plot(d.join("plot.svg"));
+    }
+    if opts & 16 != 0 && opts & 32 != 0 {
+        analysis = analysis.report(d.join("report.html"));
+    }
+    if opts & 128 != 0 {
+        analysis = analysis.fit(d.join("fit.toml"));
+    }
+    // The summary and the JSON object are made on every run; bit 5 (`--json`) also writes
+    // the object out as text.
+    if let Ok(report) = analysis.run() {
+        if opts & 32 != 0 {
+            let _ = report.json_text();
+        }
+    }
 });

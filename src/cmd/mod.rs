@@ -48,12 +48,9 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
         }
         Command::Budget(args) => print_out(&budget::run(args)?),
         Command::Analyze(args) => {
-            let outcome = crate::run::on_pool(None, || analyze::run(args, interrupted))?;
-            print_out(&outcome.output)?;
-            match outcome.failure {
-                Some(e) => Err(e),
-                None => Ok(()),
-            }
+            let report = analyze::run(args, interrupted)?;
+            print_out(&analyze::output(args, &report))?;
+            report.verdict.into_result()
         }
     }
 }

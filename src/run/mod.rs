@@ -1,8 +1,9 @@
 //! Whole runs as library calls: [`Generator`] pulls a profile's samples into the caller's
-//! buffers, [`Render`] does everything `generate` does (engine, scale,
-//! ADC codes, formats, manifest, summary). The command line only turns its flags into these
-//! calls.
+//! buffers, [`Render`] does everything `generate` does (engine, scale, ADC codes, formats,
+//! manifest, summary), and [`Analysis`] everything `analyze` does (reading, measuring,
+//! judging, fitting, drawing). The command line only turns its flags into these calls.
 
+pub mod analyze;
 mod generator;
 mod pending;
 pub mod render;
@@ -12,6 +13,7 @@ use std::path::{Path, PathBuf};
 
 use crate::error::{Error, Result, Setting};
 
+pub use analyze::{Analysis, AnalysisReport, Verdict};
 pub use generator::Generator;
 pub(crate) use pending::{PendingFile, commit_all};
 pub use render::{Render, RenderReport};

@@ -286,6 +286,7 @@ impl<R: Read> CsvSource<R> {
         Ok(match (rate, from_times) {
             (Some(r), Some(t)) => {
                 if ((r - t) / r).abs() > 1e-6 {
+                    // A note is printed text, not an error: it keeps its words.
                     src.info.notes.push(format!(
                         "sample rate {r} Hz from --rate replaces the time column's {t} Hz"
                     ));

@@ -217,10 +217,12 @@ pub struct Scale {
 
 impl Scale {
     /// Decides the scale from what the file says (`values`), the manifest beside it, a
-    /// `--full-scale` value and the unit a profile expects (with what to call it in messages:
-    /// the profile's file name). `capture` is the capture's file name, for messages.
+    /// full scale given by the user and the unit a profile expects (with what to call it in
+    /// messages: the profile's file name, or [`Setting::FullScale`]'s mark when that unit is
+    /// the full scale's, without a profile). `capture` is the capture's file name, for
+    /// messages.
     ///
-    /// * `--full-scale` wins: the values are taken as digital and multiplied by it.
+    /// * A full scale given wins: the values are taken as digital and multiplied by it.
     /// * Otherwise a manifest's `full_scale` number applies to digital or unknown values; its
     ///   `null` marks unknown values as physical.
     /// * Physical values keep gain 1; their unit comes from the file, the manifest or the
@@ -256,10 +258,11 @@ impl Scale {
                         prev.symbol(),
                         u.symbol()
                     );
-                    // The third side is the profile (or, without one, --full-scale's unit);
-                    // otherwise the manifest disagrees with the capture.
+                    // The third side is the profile (or, without one, the full scale's
+                    // unit, named by its mark); otherwise the manifest disagrees with the
+                    // capture.
                     return Err(if i == 2 {
-                        let setting = if said_by == "--full-scale" {
+                        let setting = if said_by == Setting::FullScale.mark().to_string() {
                             Setting::FullScale
                         } else {
                             Setting::Profile

@@ -154,6 +154,7 @@ impl<R: Read> WavSource<R> {
         if let Some(r) = options.rate_hz {
             let r = check_rate(r, "\u{1}rate\u{1}", &name)?;
             if r != sample_rate_hz {
+                // A note is printed text, not an error: it keeps its words.
                 notes.push(format!(
                     "sample rate {r} Hz from --rate replaces the header's {rate} Hz"
                 ));

@@ -1,0 +1,65 @@
+//! The files an analysis writes — the fitted profile, the density picture, the HTML report —
+//! made before the passes and landing together at the end, or not at all.
+
+use std::path::PathBuf;
+
+use super::Settings;
+use super::setup::Setup;
+use crate::analysis::capture::CaptureReport;
+use crate::error::Result;
+use crate::report::figure;
+use crate::run::{PendingFile, commit_all};
+
+/// The output files asked for, under temporary names until [`Outputs::write`] renames them.
+pub(super) struct Outputs {
+    fit: Option<PendingFile>,
+    plot: Option<PendingFile>,
+    report: Option<PendingFile>,
+}
+
+impl Outputs {
+    /// Creates the temporary files (a folder that cannot take them fails now, before the
+    /// work).
+    pub(super) fn create(s: &Settings) -> Result<Outputs> {
+        let pending = |p: &Option<PathBuf>| p.as_deref().map(PendingFile::create).transpose();
+        Ok(Outputs {
+            fit: pending(&s.fit)?,
+            plot: pending(&s.plot)?,
+            report: pending(&s.report)?,
+        })
+    }
+
+    /// Writes the fitted profile's `fit_toml`, the density picture and the report (with
+    /// `json`, every number), then renames them all into place.
+    pub(super) fn write(
+        self,
+        report: &CaptureReport,
+        json: &serde_json::Value,
+        fit_toml: Option<&str>,
+        s: &Setup,
+    ) -> Result<()> {
+        if let (Some(out), Some(toml)) = (&self.fit, fit_toml) {
+            out.write_all(toml.as_bytes())?;
+        }
+        let density_svg = (self.plot.is_some() || self.report.is_some())
+            .then(|| figure::density_svg(report, s.profile.as_ref(), s.design.as_ref()));
+        if let (Some(out), Some(svg)) = (&self.plot, &density_svg) {
+            out.write_all(svg.as_bytes())?;
+        }
+        if let Some(out) = &self.report {
+            let html = figure::report_html(
+                report,
+                json,
+                density_svg.as_deref().unwrap_or(""),
+                s.profile.as_ref(),
+            );
+            out.write_all(html.as_bytes())?;
+        }
+        commit_all(
+            [self.fit, self.plot, self.report]
+                .into_iter()
+                .flatten()
+                .collect(),
+        )
+    }
+}

@@ -1,0 +1,306 @@
+//! An analysis's settings resolved before any sample is read, in one fixed order: the
+//! capture's manifest, the profile, the sample format, the rate, the full scale, the
+//! resolution and the tolerance; then the capture's header, its scale, and the profile's
+//! design at the capture's rate.
+
+use super::read::{Capture, read_manifest};
+use super::{Analysis, DEFAULT_TOLERANCE_DB, Input, ProfileInput, Settings};
+use crate::error::{Error, Result, Setting};
+use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
+use crate::run::manifest_path;
+use crate::io::sink::{Format, SampleFormat};
+use crate::io::source::{Scale, SideManifest, SourceOptions, StreamInfo};
+use crate::synth::Generator;
+
+/// Everything known before the passes.
+pub(super) struct Setup<'a> {
+    /// How messages and the report name the capture.
+    pub(super) name: String,
+    pub(super) capture: Capture<'a>,
+    pub(super) manifest: Option<SideManifest>,
+    /// The profile, its sample rate replaced by the capture's.
+    pub(super) profile: Option<Profile>,
+    pub(super) info: StreamInfo,
+    pub(super) scale: Scale,
+    /// Remarks so far (the reader's, a replaced rate).
+    pub(super) notes: Vec<String>,
+    /// The profile's whole design at the capture's rate.
+    pub(super) design: Option<Generator>,
+    /// The bin width asked for, Hz.
+    pub(super) resolution: Option<f64>,
+    pub(super) tolerance_db: f64,
+}
+
+/// The settings given as text, parsed.
+struct Parsed {
+    sample_format: Option<SampleFormat>,
+    rate: Option<f64>,
+    full_scale: Option<f64>,
+    resolution: Option<f64>,
+    tolerance_db: f64,
+}
+
+impl<'a> Setup<'a> {
+    pub(super) fn new(a: &'a Analysis<'_>) -> Result<Setup<'a>> {
+        let (name, manifest) = match &a.input {
+            Input::Path(p) => (p.display().to_string(), read_manifest(&manifest_path(p))?),
+            Input::Samples { .. } => (a.s.label.clone().unwrap_or("samples".into()), None),
+        };
+        let mut profile = load_profile(a.profile.as_ref())?;
+        let samples_unit = match &a.input {
+            Input::Samples { .. } => Some(samples_unit(&a.s, profile.as_ref(), &name)?),
+            Input::Path(_) => None,
+        };
+        let unit_hint = profile
+            .as_ref()
+            .map(|p| p.unit.symbol())
+            .or(manifest.as_ref().and_then(|m| m.unit).map(|u| u.symbol()))
+            .or(samples_unit.map(Unit::symbol))
+            .unwrap_or("V");
+        let sample_format = sample_format(&a.s, &a.input, manifest.as_ref(), &name)?;
+        let parsed = Parsed::new(&a.s, sample_format, unit_hint)?;
+        let capture = match &a.input {
+            Input::Path(path) => Capture::File {
+                path,
+                options: SourceOptions {
+                    format: Capture::format_of(path),
+                    sample_format: parsed.sample_format,
+                    rate_hz: parsed.rate,
+                    fallback_rate_hz: manifest.as_ref().and_then(|m| m.sample_rate_hz),
+                    name: name.clone(),
+                },
+            },
+            Input::Samples { samples, rate_hz } => Capture::Memory {
+                samples,
+                rate_hz: parsed.rate.unwrap_or(*rate_hz),
+                unit: samples_unit.expect("samples have a unit"),
+                name: name.clone(),
+            },
+        };
+        // The header alone, to settle the scale, rate and segment length before the passes.
+        let info = capture.header()?;
+        let scale = scale(
+            &info,
+            manifest.as_ref(),
+            profile.as_ref(),
+            &parsed,
+            unit_hint,
+            &name,
+        )?;
+        let mut notes = info.notes.clone();
+        let design = match profile.as_mut() {
+            Some(p) => Some(design(p, &scale, info.sample_rate_hz, &name, &mut notes)?),
+            None => None,
+        };
+        Ok(Setup {
+            name,
+            capture,
+            manifest,
+            profile,
+            info,
+            scale,
+            notes,
+            design,
+            resolution: parsed.resolution,
+            tolerance_db: parsed.tolerance_db,
+        })
+    }
+
+    /// How messages name the profile: its file as given, or the label it was parsed with.
+    pub(super) fn profile_name(&self) -> &str {
+        self.profile.as_ref().map_or("", |p| p.label())
+    }
+}
+
+/// The profile given, or read from its file (a file that cannot be read is a bad setting).
+fn load_profile(profile: Option<&ProfileInput>) -> Result<Option<Profile>> {
+    match profile {
+        None => Ok(None),
+        Some(ProfileInput::Given(p)) => Ok(Some((*p).clone())),
+        Some(ProfileInput::Path(p)) => {
+            let f = p.display().to_string();
+            let text = std::fs::read_to_string(p)
+                .map_err(|e| Error::setting(Setting::Profile, format!("cannot read {f}: {e}")))?;
+            Ok(Some(parse_profile(&text, &f)?))
+        }
+    }
+}
+
+/// The unit of samples in memory: the one set, else the profile's, else volts.
+fn samples_unit(s: &Settings, profile: Option<&Profile>, name: &str) -> Result<Unit> {
+    match (s.unit, profile) {
+        (Some(u), Some(p)) if u != p.unit => Err(Error::setting(
+            Setting::Unit,
+            format!(
+                "{name} is in {} but {} is in {}: they must describe the same quantity",
+                u.symbol(),
+                p.label(),
+                p.unit.symbol()
+            ),
+        )),
+        (Some(u), _) => Ok(u),
+        (None, Some(p)) => Ok(p.unit),
+        (None, None) => Ok(Unit::Volt),
+    }
+}
+
+/// The sample format given, else a raw file's extension, else the manifest's (the two must
+/// agree).
+fn sample_format(
+    s: &Settings,
+    input: &Input,
+    manifest: Option<&SideManifest>,
+    name: &str,
+) -> Result<Option<SampleFormat>> {
+    if let Some(text) = &s.sample_format {
+        return Ok(Some(text.parse::<SampleFormat>()?));
+    }
+    let Input::Path(path) = input else {
+        return Ok(None);
+    };
+    let named = match Capture::format_of(path) {
+        Format::Raw => path
+            .extension()
+            .and_then(|e| SampleFormat::from_extension(&e.to_string_lossy())),
+        _ => None,
+    };
+    let stated = manifest.and_then(|m| m.sample_format);
+    if let (Some(n), Some(m)) = (named, stated) {
+        if n != m {
+            return Err(Error::input(
+                manifest_path(path).display().to_string(),
+                format!(
+                    "sample_format: says {m}, but the name of {name} (.{n}) says {n}; give \
+                     \u{1}sample_format\u{1} to say which is right"
+                ),
+            ));
+        }
+    }
+    Ok(named.or(stated))
+}
+
+impl Parsed {
+    /// Parses the rate, full scale, resolution and tolerance, in that order; quantities with
+    /// a unit of their own are read in `unit_hint`.
+    fn new(s: &Settings, sample_format: Option<SampleFormat>, unit_hint: &str) -> Result<Parsed> {
+        let quantity = |text: &Option<String>, dim: Dimension, setting: Setting| {
+            text.as_ref()
+                .map(|t| parse_quantity(t, dim, unit_hint).map_err(|m| Error::setting(setting, m)))
+                .transpose()
+        };
+        let rate = quantity(&s.rate, Dimension::Frequency, Setting::Rate)?;
+        let full_scale = quantity(&s.full_scale, Dimension::Amplitude, Setting::FullScale)?;
+        if let (Some(v), Some(q)) = (full_scale, &s.full_scale) {
+            if !(v.is_finite() && v > 0.0) {
+                return Err(Error::setting(
+                    Setting::FullScale,
+                    format!("expected a positive value such as 2V, got {q:?}"),
+                ));
+            }
+        }
+        let resolution = quantity(&s.resolution, Dimension::Frequency, Setting::Resolution)?;
+        let tolerance_db = match &s.tolerance {
+            Some(t) => parse_db(t)?,
+            None => DEFAULT_TOLERANCE_DB,
+        };
+        Ok(Parsed {
+            sample_format,
+            rate,
+            full_scale,
+            resolution,
+            tolerance_db,
+        })
+    }
+}
+
+/// Parses a tolerance such as `1dB`, `0.5 dB` or `2` (dB), ≥ 0.
+fn parse_db(text: &str) -> Result<f64> {
+    let t = text.trim();
+    let n = t
+        .strip_suffix("dB")
+        .or_else(|| t.strip_suffix("db"))
+        .unwrap_or(t)
+        .trim();
+    match n.parse::<f64>() {
+        Ok(v) if v.is_finite() && v >= 0.0 => Ok(v),
+        _ => Err(Error::setting(
+            Setting::Tolerance,
+            format!("expected a non-negative level such as 1dB, got {text:?}"),
+        )),
+    }
+}
+
+/// The scale of the capture's values, from the file, its manifest, the full scale given and
+/// the profile's unit.
+fn scale(
+    info: &StreamInfo,
+    manifest: Option<&SideManifest>,
+    profile: Option<&Profile>,
+    parsed: &Parsed,
+    unit_hint: &str,
+    name: &str,
+) -> Result<Scale> {
+    // A full scale was parsed in the unit of the profile or manifest (volts when neither
+    // says), so that is the unit of the scaled values.
+    let full_scale_unit = parsed.full_scale.map(|_| match unit_hint {
+        "A" => Unit::Ampere,
+        _ => Unit::Volt,
+    });
+    let full_scale_mark = Setting::FullScale.mark().to_string();
+    let profile_name = profile.map_or(full_scale_mark.as_str(), |p| p.label());
+    Scale::resolve(
+        info.values,
+        manifest,
+        parsed.full_scale,
+        profile
+            .map(|p| p.unit)
+            .or(full_scale_unit)
+            .map(|u| (u, profile_name)),
+        name,
+    )
+}
+
+/// The profile's whole design at the capture's rate `fs` (Hz): the Gaussian design plus every
+/// burst's sampled density (the seed is irrelevant: only the design is used). Refuses a
+/// capture whose values are not physical, or whose rate cannot hold the profile's band.
+fn design(
+    p: &mut Profile,
+    scale: &Scale,
+    fs: f64,
+    name: &str,
+    notes: &mut Vec<String>,
+) -> Result<Generator> {
+    if !scale.is_physical() {
+        return Err(Error::setting(
+            Setting::FullScale,
+            format!(
+                "{name} holds digital values and no manifest gives their scale: say which \
+                 physical value digital 1.0 is, e.g. \u{1}full_scale\u{1} 2V"
+            ),
+        ));
+    }
+    if fs != p.sample_rate_hz {
+        if p.band.high_hz > fs / 2.0 {
+            return Err(Error::setting(
+                Setting::Profile,
+                format!(
+                    "band.high = {} in {} is above half the rate of {name} ({} at {}): the \
+                     capture cannot hold that band; judge it against a profile whose band ends \
+                     at {} or lower",
+                    format_quantity(p.band.high_hz, "Hz"),
+                    p.label(),
+                    format_quantity(fs / 2.0, "Hz"),
+                    format_quantity(fs, "Hz"),
+                    format_quantity(fs / 2.0, "Hz")
+                ),
+            ));
+        }
+        notes.push(format!(
+            "the profile is designed at the capture's rate {} instead of its own {}",
+            format_quantity(fs, "Hz"),
+            format_quantity(p.sample_rate_hz, "Hz")
+        ));
+        p.sample_rate_hz = fs;
+    }
+    Generator::new(p, 0)
+}
