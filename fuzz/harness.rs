@@ -11,8 +11,9 @@
 use std::io::Read;
 
 use noisewright::Error;
+use noisewright::io::manifest::SideManifest;
 use noisewright::io::sink::{Format, SampleFormat};
-use noisewright::io::source::{SideManifest, SourceOptions, open_source};
+use noisewright::io::source::{SourceOptions, open_source};
 use noisewright::model::budget::{budget, to_json, write_text};
 use noisewright::model::burst::BurstModel;
 use noisewright::model::density::target_psd;

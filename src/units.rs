@@ -339,6 +339,23 @@ fn with_prefix(value: f64, sci: &str, unit: &str) -> String {
     }
 }
 
+/// The dBFS convention every level in noisewright uses, as stated in manifests.
+pub const DBFS_CONVENTION: &str = "AES17: 0 dBFS = RMS of a sine whose peak is digital full \
+     scale (1.0), so a level of L dBFS is RMS_digital = 10^(L/20)/sqrt(2); a full-scale square \
+     wave is +3.01 dBFS";
+
+/// Digital RMS (relative to digital full scale 1.0) of a level in dBFS, AES17 convention
+/// (REFERENCES §9): `10^(L/20) / √2`. E.g. 0 dBFS → 0.7071, −20 dBFS → 0.07071.
+pub fn rms_digital_from_dbfs(level_dbfs: f64) -> f64 {
+    10f64.powf(level_dbfs / 20.0) / std::f64::consts::SQRT_2
+}
+
+/// Level in dBFS (AES17, REFERENCES §9) of a digital RMS relative to full scale 1.0:
+/// `20·log10(√2 · rms)`. The inverse of [`rms_digital_from_dbfs`].
+pub fn dbfs_from_rms_digital(rms: f64) -> f64 {
+    20.0 * (std::f64::consts::SQRT_2 * rms).log10()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

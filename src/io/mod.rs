@@ -1,7 +1,8 @@
 //! Files in and out: the formats and sample formats, the writers behind one sink trait
-//! ([`sink`], with the manifest), the readers of captures ([`source`]), and the codes of an
-//! ideal converter ([`adc`]).
+//! ([`sink`]), the readers of captures ([`source`]), the manifest written beside a file and
+//! read back ([`manifest`]), and the codes of an ideal converter ([`adc`]).
 
 pub mod adc;
+pub mod manifest;
 pub mod sink;
 pub mod source;

@@ -35,17 +35,12 @@
 
 mod c_header;
 mod csv;
-mod manifest;
 mod npy;
 mod raw;
 mod wav;
 
 pub use c_header::{CHeaderSink, c_spec_type, c_type, default_array_name, validate_array_name};
 pub use csv::{CsvSink, source_column_names};
-pub use manifest::{
-    DBFS_CONVENTION, Manifest, container_facts, dbfs_from_rms_digital, rms_digital_from_dbfs,
-    write_manifest,
-};
 pub use npy::{NpySink, npy_descr, npy_header, npy_shape, npy_spec_descr};
 pub use raw::RawSink;
 pub use wav::{

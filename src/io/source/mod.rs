@@ -28,8 +28,9 @@ pub use wav::WavSource;
 use std::io::Read;
 
 use crate::error::{Error, Result, Setting};
+use crate::io::manifest::SideManifest;
 use crate::io::sink::{Format, SampleFormat};
-use crate::profile::{Band, Unit};
+use crate::profile::Unit;
 
 /// What the values a reader yields mean.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -107,98 +108,6 @@ pub fn open_source<'a, R: Read + 'a>(
             ));
         }
     })
-}
-
-/// The facts a manifest beside a capture (`FILE.json`, as `generate` writes) supplies. Every
-/// field is optional: a manifest written by hand may carry only some of them.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct SideManifest {
-    /// Physical value of digital 1.0 in `unit`; `None` when the file holds physical values or
-    /// the key is absent or `null`.
-    pub full_scale: Option<f64>,
-    /// Physical unit of the samples.
-    pub unit: Option<Unit>,
-    /// Sample rate in Hz.
-    pub sample_rate_hz: Option<f64>,
-    /// Stored sample format.
-    pub sample_format: Option<SampleFormat>,
-    /// True when the manifest has a `full_scale` key (even `null`): it then says whether the
-    /// values are digital (a number) or physical (`null`).
-    pub states_scale: bool,
-    /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
-    /// `high_hz`, `order`), when the manifest records one.
-    pub band: Option<Band>,
-    /// The manifest's file name, for messages.
-    pub file: String,
-}
-
-impl SideManifest {
-    /// Parses the manifest's JSON text. `name` is the manifest's file name for messages.
-    /// Unknown keys are ignored; a known key with a value of the wrong kind is an error.
-    pub fn parse(text: &str, name: &str) -> Result<SideManifest> {
-        let v: serde_json::Value = serde_json::from_str(text)
-            .map_err(|e| Error::input(name, format!("not valid JSON: {e}")))?;
-        let obj = v
-            .as_object()
-            .ok_or_else(|| Error::input(name, "expected a JSON object"))?;
-        if obj
-            .get("extra")
-            .and_then(|e| e.get("adc"))
-            .is_some_and(|a| a.is_object())
-        {
-            // Codes of `generate --bits` stand for lo + (code − code_min)·LSB; no reader maps
-            // them back yet, and reading them as digital or physical values would be wrong.
-            return Err(Error::input(
-                name,
-                "the file holds ADC codes (generate \u{1}bits\u{1}, see extra.adc); analyze does not \
-                 read ADC code files yet: generate the same profile and seed without \u{1}bits\u{1} \
-                 to analyse the noise",
-            ));
-        }
-        let mut m = SideManifest {
-            file: name.to_string(),
-            ..SideManifest::default()
-        };
-        let bad = |key: &str, expected: &str, got: &serde_json::Value| {
-            Error::input(name, format!("{key}: expected {expected}, got {got}"))
-        };
-        if let Some(fs) = obj.get("full_scale") {
-            m.states_scale = true;
-            if !fs.is_null() {
-                let x = fs.as_f64().filter(|x| x.is_finite() && *x > 0.0);
-                m.full_scale =
-                    Some(x.ok_or_else(|| bad("full_scale", "a positive number or null", fs))?);
-            }
-        }
-        if let Some(u) = obj.get("unit").filter(|u| !u.is_null()) {
-            m.unit = Some(match u.as_str() {
-                Some("V") => Unit::Volt,
-                Some("A") => Unit::Ampere,
-                _ => return Err(bad("unit", "\"V\" or \"A\"", u)),
-            });
-        }
-        if let Some(r) = obj.get("sample_rate_hz").filter(|r| !r.is_null()) {
-            let x = r.as_f64().filter(|x| x.is_finite() && *x > 0.0);
-            m.sample_rate_hz =
-                Some(x.ok_or_else(|| bad("sample_rate_hz", "a positive number of Hz", r))?);
-        }
-        if let Some(s) = obj.get("sample_format").filter(|s| !s.is_null()) {
-            let f = s.as_str().and_then(|s| s.parse::<SampleFormat>().ok());
-            m.sample_format =
-                Some(f.ok_or_else(|| bad("sample_format", "f32, f64, i16, i24 or i32", s))?);
-        }
-        let b = &v["profile"]["band"];
-        if let (Some(lo), Some(hi)) = (b["low_hz"].as_f64(), b["high_hz"].as_f64()) {
-            if lo > 0.0 && hi > lo {
-                m.band = Some(Band {
-                    low_hz: lo,
-                    high_hz: hi,
-                    order: b["order"].as_u64().unwrap_or(0) as u32,
-                });
-            }
-        }
-        Ok(m)
-    }
 }
 
 /// How stored values become physical ones: `physical = value · gain`, in `unit`.
@@ -395,41 +304,6 @@ pub(crate) fn check_rate(rate: f64, what: &str, name: &str) -> Result<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn manifest_fields_parse_and_bad_ones_are_named() {
-        let m = SideManifest::parse(
-            r#"{"full_scale": 2e-6, "unit": "A", "sample_rate_hz": 1000, "sample_format": "i24", "x": 1}"#,
-            "m.json",
-        )
-        .unwrap();
-        assert_eq!(m.full_scale, Some(2e-6));
-        assert_eq!(m.unit, Some(Unit::Ampere));
-        assert_eq!(m.sample_rate_hz, Some(1000.0));
-        assert_eq!(m.sample_format, Some(SampleFormat::I24));
-        assert!(m.states_scale);
-        assert_eq!(m.band, None);
-        let m = SideManifest::parse(
-            r#"{"profile": {"band": {"low_hz": 2.0, "high_hz": 300.0, "order": 4}}}"#,
-            "m.json",
-        )
-        .unwrap();
-        assert_eq!(
-            m.band,
-            Some(Band {
-                low_hz: 2.0,
-                high_hz: 300.0,
-                order: 4
-            })
-        );
-        let m = SideManifest::parse(r#"{"full_scale": null}"#, "m.json").unwrap();
-        assert!(m.states_scale && m.full_scale.is_none());
-        let e = SideManifest::parse(r#"{"full_scale": -1}"#, "m.json").unwrap_err();
-        assert!(e.to_string().contains("m.json: full_scale"), "{e}");
-        assert_eq!(e.exit_code(), 2);
-        assert!(SideManifest::parse("[1]", "m").is_err());
-        assert!(SideManifest::parse("{", "m").is_err());
-    }
 
     #[test]
     fn scale_follows_the_documented_order() {

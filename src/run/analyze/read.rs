@@ -8,9 +8,9 @@ use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::mpsc;
 
 use crate::error::{Error, Result};
-use crate::profile::Unit;
 use crate::io::sink::{Format, SampleFormat};
-use crate::io::source::{Scale, SideManifest, SourceOptions, StreamInfo, Values, open_source};
+use crate::io::source::{Scale, SourceOptions, StreamInfo, Values, open_source};
+use crate::profile::Unit;
 
 /// Samples read per block.
 pub(super) const BLOCK: usize = 1 << 16;
@@ -31,28 +31,6 @@ pub(super) enum Capture<'a> {
         unit: Unit,
         name: String,
     },
-}
-
-/// The manifest at `path` (`FILE.json` beside a capture), if there is one.
-pub(super) fn read_manifest(path: &Path) -> Result<Option<SideManifest>> {
-    if !path.is_file() {
-        return Ok(None);
-    }
-    let text = fs::read_to_string(path).map_err(|e| {
-        if e.kind() == std::io::ErrorKind::InvalidData {
-            Error::input(
-                path.display().to_string(),
-                "not valid UTF-8 text; expected the JSON manifest that generate writes beside \
-                 its output (or remove it)",
-            )
-        } else {
-            Error::io(format!("reading {}", path.display()), e)
-        }
-    })?;
-    Ok(Some(SideManifest::parse(
-        &text,
-        &path.display().to_string(),
-    )?))
 }
 
 fn open_file(path: &Path) -> Result<fs::File> {

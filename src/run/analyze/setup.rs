@@ -3,13 +3,14 @@
 //! resolution and the tolerance; then the capture's header, its scale, and the profile's
 //! design at the capture's rate.
 
-use super::read::{Capture, read_manifest};
+use super::read::Capture;
 use super::{Analysis, DEFAULT_TOLERANCE_DB, Input, ProfileInput, Settings};
 use crate::error::{Error, Result, Setting};
+use crate::io::manifest::SideManifest;
+use crate::io::sink::{Format, SampleFormat};
+use crate::io::source::{Scale, SourceOptions, StreamInfo};
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
 use crate::run::manifest_path;
-use crate::io::sink::{Format, SampleFormat};
-use crate::io::source::{Scale, SideManifest, SourceOptions, StreamInfo};
 use crate::synth::Generator;
 
 /// Everything known before the passes.
@@ -43,7 +44,10 @@ struct Parsed {
 impl<'a> Setup<'a> {
     pub(super) fn new(a: &'a Analysis<'_>) -> Result<Setup<'a>> {
         let (name, manifest) = match &a.input {
-            Input::Path(p) => (p.display().to_string(), read_manifest(&manifest_path(p))?),
+            Input::Path(p) => (
+                p.display().to_string(),
+                SideManifest::read(&manifest_path(p))?,
+            ),
             Input::Samples { .. } => (a.s.label.clone().unwrap_or("samples".into()), None),
         };
         let mut profile = load_profile(a.profile.as_ref())?;

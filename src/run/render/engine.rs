@@ -11,13 +11,14 @@ use super::pump::lock;
 use super::summary::quantisation_note;
 use crate::error::{Error, Result, Setting};
 use crate::io::adc::Dither;
-use crate::io::sink::{Format, SinkSpec, rms_digital_from_dbfs, wav_plan};
+use crate::io::sink::{Format, SinkSpec, wav_plan};
 use crate::model::density;
 use crate::profile::{Dimension, Profile, parse_quantity};
 use crate::synth::tone;
 use crate::synth::{
     ChannelGenerator, Design, Generator, design_profile, periodic_buffer, periodic_variance,
 };
+use crate::units::rms_digital_from_dbfs;
 
 /// Whatever produces the next samples (unit) into a slice.
 pub(super) type Engine = Box<dyn FnMut(&mut [f64])>;
@@ -111,7 +112,7 @@ pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
         ],
     };
     spec.validate()?;
-    let (container_keys, container_notes) = crate::io::sink::container_facts(&spec)?;
+    let (container_keys, container_notes) = crate::io::manifest::container_facts(&spec)?;
     plan.notes.extend(container_notes);
     Ok(Built {
         engine,

@@ -6,7 +6,8 @@ use super::pump::source_names;
 use super::summary::tone_figures;
 use crate::analysis::stats::RunningStats;
 use crate::io::adc::Adc;
-use crate::io::sink::{Manifest, SinkSpec};
+use crate::io::manifest::Manifest;
+use crate::io::sink::SinkSpec;
 use crate::profile::Profile;
 use crate::synth::Generator;
 

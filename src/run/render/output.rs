@@ -13,9 +13,8 @@ use super::summary::{burst_summary, channel_summary, range_text, summary_text, t
 use super::{RenderReport, Settings, Target};
 use crate::analysis::stats::RunningStats;
 use crate::error::{Error, Result};
-use crate::io::sink::{
-    CsvSink, FLUSH_BYTES, Manifest, Sink, SinkReport, SinkSpec, open_sink, write_manifest,
-};
+use crate::io::manifest::{Manifest, write_manifest};
+use crate::io::sink::{CsvSink, FLUSH_BYTES, Sink, SinkReport, SinkSpec, open_sink};
 use crate::profile::format_quantity;
 use crate::run::{PendingFile, commit_all, manifest_path};
 

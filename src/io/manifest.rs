@@ -1,31 +1,18 @@
 //! The run manifest: a JSON record of what was generated, with which settings and seed, and
-//! what was measured.
+//! what was measured ([`Manifest`], written by [`write_manifest`]), and the facts `analyze`
+//! reads back from one beside a capture ([`SideManifest`]). Both sides live here so the keys
+//! written and the keys read stay one list.
 
 use std::io::Write;
+use std::path::Path;
 
 use serde::Serialize;
 
-use super::{Format, SampleFormat, SinkReport, SinkSpec};
+use super::sink::{Format, SampleFormat, SinkReport, SinkSpec};
 use crate::analysis::stats::RunningStats;
 use crate::error::{Error, Result};
-use crate::profile::Unit;
-
-/// The dBFS convention every level in noisewright uses, as stated in manifests.
-pub const DBFS_CONVENTION: &str = "AES17: 0 dBFS = RMS of a sine whose peak is digital full \
-     scale (1.0), so a level of L dBFS is RMS_digital = 10^(L/20)/sqrt(2); a full-scale square \
-     wave is +3.01 dBFS";
-
-/// Digital RMS (relative to digital full scale 1.0) of a level in dBFS, AES17 convention
-/// (REFERENCES §9): `10^(L/20) / √2`. E.g. 0 dBFS → 0.7071, −20 dBFS → 0.07071.
-pub fn rms_digital_from_dbfs(level_dbfs: f64) -> f64 {
-    10f64.powf(level_dbfs / 20.0) / std::f64::consts::SQRT_2
-}
-
-/// Level in dBFS (AES17, REFERENCES §9) of a digital RMS relative to full scale 1.0:
-/// `20·log10(√2 · rms)`. The inverse of [`rms_digital_from_dbfs`].
-pub fn dbfs_from_rms_digital(rms: f64) -> f64 {
-    20.0 * (std::f64::consts::SQRT_2 * rms).log10()
-}
+use crate::profile::{Band, Unit};
+use crate::units::DBFS_CONVENTION;
 
 /// What one run produced, written next to the output as JSON by [`write_manifest`].
 ///
@@ -151,9 +138,9 @@ pub fn container_facts(
     let frames = spec.frames.unwrap_or(0);
     match spec.format {
         Format::Wav => {
-            let plan = super::wav_plan(frames, spec.channels, spec.sample_format)?;
+            let plan = super::sink::wav_plan(frames, spec.channels, spec.sample_format)?;
             keys.insert("container".into(), json!(plan.container.name()));
-            if plan.container == super::WavContainer::Rf64 {
+            if plan.container == super::sink::WavContainer::Rf64 {
                 notes.push(
                     "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers without \
                      RF64 support cannot open it"
@@ -162,10 +149,10 @@ pub fn container_facts(
             }
         }
         Format::Npy => {
-            keys.insert("npy_dtype".into(), json!(super::npy_spec_descr(spec)));
+            keys.insert("npy_dtype".into(), json!(super::sink::npy_spec_descr(spec)));
             keys.insert(
                 "npy_shape".into(),
-                json!(super::npy_shape(frames, spec.channels)),
+                json!(super::sink::npy_shape(frames, spec.channels)),
             );
             if spec.sample_format == SampleFormat::I24 && spec.adc.is_none() {
                 notes.push(
@@ -178,7 +165,7 @@ pub fn container_facts(
         Format::C => {
             let name = spec.name.clone().unwrap_or_else(|| "noise".to_string());
             let upper = name.to_ascii_uppercase();
-            keys.insert("c_type".into(), json!(super::c_spec_type(spec)));
+            keys.insert("c_type".into(), json!(super::sink::c_spec_type(spec)));
             let macros: &[&str] = if spec.adc.is_some() {
                 &[
                     "LENGTH",
@@ -200,10 +187,160 @@ pub fn container_facts(
     Ok((keys, notes))
 }
 
+/// The facts a manifest beside a capture (`FILE.json`, as `generate` writes) supplies. Every
+/// field is optional: a manifest written by hand may carry only some of them.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct SideManifest {
+    /// Physical value of digital 1.0 in `unit`; `None` when the file holds physical values or
+    /// the key is absent or `null`.
+    pub full_scale: Option<f64>,
+    /// Physical unit of the samples.
+    pub unit: Option<Unit>,
+    /// Sample rate in Hz.
+    pub sample_rate_hz: Option<f64>,
+    /// Stored sample format.
+    pub sample_format: Option<SampleFormat>,
+    /// True when the manifest has a `full_scale` key (even `null`): it then says whether the
+    /// values are digital (a number) or physical (`null`).
+    pub states_scale: bool,
+    /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
+    /// `high_hz`, `order`), when the manifest records one.
+    pub band: Option<Band>,
+    /// The manifest's file name, for messages.
+    pub file: String,
+}
+
+impl SideManifest {
+    /// The manifest at `path` (`FILE.json` beside a capture), if there is one.
+    pub fn read(path: &Path) -> Result<Option<SideManifest>> {
+        if !path.is_file() {
+            return Ok(None);
+        }
+        let text = std::fs::read_to_string(path).map_err(|e| {
+            if e.kind() == std::io::ErrorKind::InvalidData {
+                Error::input(
+                    path.display().to_string(),
+                    "not valid UTF-8 text; expected the JSON manifest that generate writes beside \
+                     its output (or remove it)",
+                )
+            } else {
+                Error::io(format!("reading {}", path.display()), e)
+            }
+        })?;
+        Ok(Some(SideManifest::parse(
+            &text,
+            &path.display().to_string(),
+        )?))
+    }
+
+    /// Parses the manifest's JSON text. `name` is the manifest's file name for messages.
+    /// Unknown keys are ignored; a known key with a value of the wrong kind is an error.
+    pub fn parse(text: &str, name: &str) -> Result<SideManifest> {
+        let v: serde_json::Value = serde_json::from_str(text)
+            .map_err(|e| Error::input(name, format!("not valid JSON: {e}")))?;
+        let obj = v
+            .as_object()
+            .ok_or_else(|| Error::input(name, "expected a JSON object"))?;
+        if obj
+            .get("extra")
+            .and_then(|e| e.get("adc"))
+            .is_some_and(|a| a.is_object())
+        {
+            // Codes of `generate --bits` stand for lo + (code − code_min)·LSB; no reader maps
+            // them back yet, and reading them as digital or physical values would be wrong.
+            return Err(Error::input(
+                name,
+                "the file holds ADC codes (generate \u{1}bits\u{1}, see extra.adc); analyze does not \
+                 read ADC code files yet: generate the same profile and seed without \u{1}bits\u{1} \
+                 to analyse the noise",
+            ));
+        }
+        let mut m = SideManifest {
+            file: name.to_string(),
+            ..SideManifest::default()
+        };
+        let bad = |key: &str, expected: &str, got: &serde_json::Value| {
+            Error::input(name, format!("{key}: expected {expected}, got {got}"))
+        };
+        if let Some(fs) = obj.get("full_scale") {
+            m.states_scale = true;
+            if !fs.is_null() {
+                let x = fs.as_f64().filter(|x| x.is_finite() && *x > 0.0);
+                m.full_scale =
+                    Some(x.ok_or_else(|| bad("full_scale", "a positive number or null", fs))?);
+            }
+        }
+        if let Some(u) = obj.get("unit").filter(|u| !u.is_null()) {
+            m.unit = Some(match u.as_str() {
+                Some("V") => Unit::Volt,
+                Some("A") => Unit::Ampere,
+                _ => return Err(bad("unit", "\"V\" or \"A\"", u)),
+            });
+        }
+        if let Some(r) = obj.get("sample_rate_hz").filter(|r| !r.is_null()) {
+            let x = r.as_f64().filter(|x| x.is_finite() && *x > 0.0);
+            m.sample_rate_hz =
+                Some(x.ok_or_else(|| bad("sample_rate_hz", "a positive number of Hz", r))?);
+        }
+        if let Some(s) = obj.get("sample_format").filter(|s| !s.is_null()) {
+            let f = s.as_str().and_then(|s| s.parse::<SampleFormat>().ok());
+            m.sample_format =
+                Some(f.ok_or_else(|| bad("sample_format", "f32, f64, i16, i24 or i32", s))?);
+        }
+        let b = &v["profile"]["band"];
+        if let (Some(lo), Some(hi)) = (b["low_hz"].as_f64(), b["high_hz"].as_f64()) {
+            if lo > 0.0 && hi > lo {
+                m.band = Some(Band {
+                    low_hz: lo,
+                    high_hz: hi,
+                    order: b["order"].as_u64().unwrap_or(0) as u32,
+                });
+            }
+        }
+        Ok(m)
+    }
+}
+
 #[cfg(test)]
 mod tests {
-    use super::super::test_util::*;
     use super::*;
+    use crate::io::sink::test_util::*;
+    use crate::units::{dbfs_from_rms_digital, rms_digital_from_dbfs};
+
+    #[test]
+    fn manifest_fields_parse_and_bad_ones_are_named() {
+        let m = SideManifest::parse(
+            r#"{"full_scale": 2e-6, "unit": "A", "sample_rate_hz": 1000, "sample_format": "i24", "x": 1}"#,
+            "m.json",
+        )
+        .unwrap();
+        assert_eq!(m.full_scale, Some(2e-6));
+        assert_eq!(m.unit, Some(Unit::Ampere));
+        assert_eq!(m.sample_rate_hz, Some(1000.0));
+        assert_eq!(m.sample_format, Some(SampleFormat::I24));
+        assert!(m.states_scale);
+        assert_eq!(m.band, None);
+        let m = SideManifest::parse(
+            r#"{"profile": {"band": {"low_hz": 2.0, "high_hz": 300.0, "order": 4}}}"#,
+            "m.json",
+        )
+        .unwrap();
+        assert_eq!(
+            m.band,
+            Some(Band {
+                low_hz: 2.0,
+                high_hz: 300.0,
+                order: 4
+            })
+        );
+        let m = SideManifest::parse(r#"{"full_scale": null}"#, "m.json").unwrap();
+        assert!(m.states_scale && m.full_scale.is_none());
+        let e = SideManifest::parse(r#"{"full_scale": -1}"#, "m.json").unwrap_err();
+        assert!(e.to_string().contains("m.json: full_scale"), "{e}");
+        assert_eq!(e.exit_code(), 2);
+        assert!(SideManifest::parse("[1]", "m").is_err());
+        assert!(SideManifest::parse("{", "m").is_err());
+    }
 
     #[test]
     fn manifest_has_every_key_and_ends_with_a_newline() {
@@ -318,7 +455,7 @@ mod tests {
     /// past the plain RIFF limit), so nothing needs writing to see it.
     #[test]
     fn container_facts_follow_the_format() {
-        let max = super::super::wav_max_frames(SampleFormat::I16).unwrap();
+        let max = crate::io::sink::wav_max_frames(SampleFormat::I16).unwrap();
         for (frames, want) in [(max, "RIFF"), (max + 1, "RF64")] {
             let s = spec(Format::Wav, SampleFormat::I16, Some(1.0), Some(frames));
             let (keys, notes) = container_facts(&s).unwrap();
