@@ -14,6 +14,8 @@
 //! - [`Analysis`]: everything `analyze` does, on a capture file or samples in memory, with
 //!   or without a profile; it returns an [`AnalysisReport`] holding the object
 //!   `analyze --json` prints, the summary and a [`Verdict`].
+//! - [`budget`]: what each source contributes in a band ([`Budget`]); [`run::budget`] turns
+//!   band texts into [`BandSpec`]s and gives the text, JSON and chart `budget` prints.
 //! - [`Error`]: the one error type; [`Error::exit_code`] gives the command line's convention
 //!   and [`Error::describe`] names settings as a caller wants.
 //!
@@ -85,12 +87,12 @@
 //! computes the density it actually makes); [`io`] scales, quantises and writes the samples
 //! with a manifest (or the integer codes of an ideal N-bit converter) and reads captures back
 //! as physical samples; [`analysis`] measures samples; [`report`] draws pictures and the HTML
-//! report. [`run`] holds whole runs as library calls; [`cmd`] holds the subcommands the
-//! binary calls.
+//! report. [`run`] holds whole runs as library calls; the binary only turns flags into
+//! them.
 #![deny(missing_docs)]
 
 pub mod analysis;
-pub mod cmd;
+
 pub mod error;
 pub mod fft;
 pub mod io;
@@ -102,6 +104,7 @@ pub mod synth;
 pub mod units;
 
 pub use error::{Error, Result, Setting};
+pub use model::budget::{BandSpec, Budget, budget};
 pub use profile::Profile;
 pub use run::{Analysis, AnalysisReport, Generator, Render, RenderReport, Verdict};
 

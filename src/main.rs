@@ -6,8 +6,10 @@ use std::process::ExitCode;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
+mod cli;
+
 use clap::Parser;
-use noisewright::cmd::{Cli, run};
+use cli::{Cli, run};
 use noisewright::{Error, Setting};
 use signal_hook::consts::{SIGINT, SIGTERM};
 
@@ -50,9 +52,7 @@ fn main() -> ExitCode {
 /// `generate` and `budget`.
 fn flag(cli: &Cli, setting: Setting) -> String {
     match setting {
-        Setting::Profile if !matches!(cli.command, noisewright::cmd::Command::Analyze(_)) => {
-            "PROFILE".into()
-        }
+        Setting::Profile if !matches!(cli.command, cli::Command::Analyze(_)) => "PROFILE".into(),
         s => format!("--{}", s.name().replace('_', "-")),
     }
 }

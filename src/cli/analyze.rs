@@ -4,8 +4,8 @@
 use std::path::PathBuf;
 use std::sync::atomic::AtomicBool;
 
-use crate::error::{Result, Setting};
-use crate::{Analysis, AnalysisReport};
+use noisewright::{Analysis, AnalysisReport};
+use noisewright::{Result, Setting};
 
 /// Options of `noisewright analyze`.
 #[derive(Debug, Clone, clap::Args)]

@@ -1,14 +1,10 @@
 //! `noisewright budget`: what each source of a profile contributes in a band, as text, JSON
 //! or an SVG chart.
 
-use std::fs;
 use std::path::PathBuf;
 
-use crate::error::{Error, Result, Setting};
-use crate::model::budget::{BandSpec, budget, parse_band, to_json, write_text};
-use crate::profile::{MAX_ORDER, parse_profile};
-use crate::report::chart::{budget_chart, write_density_svg};
-use crate::run::PendingFile;
+use noisewright::run::budget::{budget_bands, budget_json, budget_text, write_budget_chart};
+use noisewright::{Profile, Result, budget};
 
 /// Options of `noisewright budget`.
 #[derive(Debug, Clone, clap::Args)]
@@ -34,52 +30,15 @@ pub struct BudgetArgs {
 
 /// Run `budget`; returns the text (or JSON) to print.
 pub fn run(args: &BudgetArgs) -> Result<String> {
-    let file = args.profile.display().to_string();
-    let text = fs::read_to_string(&args.profile)
-        .map_err(|e| Error::setting(Setting::Profile, format!("cannot read {file}: {e}")))?;
-    let profile = parse_profile(&text, &file)?;
-    let order = match args.order {
-        Some(n) if n > MAX_ORDER => {
-            return Err(Error::setting(
-                Setting::Order,
-                format!("expected 0 (brick wall) to {MAX_ORDER}, got {n}"),
-            ));
-        }
-        Some(n) => n,
-        None => profile.band.order,
-    };
-    let mut bands = args
-        .bands
-        .iter()
-        .map(|b| {
-            let (low_hz, high_hz) = parse_band(b).map_err(|m| Error::setting(Setting::Band, m))?;
-            Ok(BandSpec {
-                low_hz,
-                high_hz,
-                order,
-            })
-        })
-        .collect::<Result<Vec<_>>>()?;
-    if bands.is_empty() && args.order.is_some() {
-        bands.push(BandSpec {
-            order,
-            ..BandSpec::of_profile(&profile)
-        });
-    }
+    let profile = Profile::from_path(&args.profile)?;
+    let bands = budget_bands(&profile, &args.bands, args.order)?;
     let b = budget(&profile, &bands);
     if let Some(path) = &args.plot {
-        let mut svg = Vec::new();
-        write_density_svg(&budget_chart(&profile, &b), 1000, 640, &mut svg)?;
-        // Written beside the target and renamed, so a failure leaves no half-written chart.
-        let out = PendingFile::create(path)?;
-        out.write_all(&svg)?;
-        out.commit()?;
+        write_budget_chart(&profile, &b, path)?;
     }
-    if args.json {
-        Ok(format!("{:#}\n", to_json(&b)))
+    Ok(if args.json {
+        format!("{:#}\n", budget_json(&b))
     } else {
-        let mut out = Vec::new();
-        write_text(&b, &mut out).map_err(|e| Error::io("formatting the budget", e))?;
-        Ok(String::from_utf8(out).expect("the budget text is UTF-8"))
-    }
+        budget_text(&b)
+    })
 }

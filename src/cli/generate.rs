@@ -3,8 +3,8 @@
 use std::path::PathBuf;
 use std::sync::atomic::AtomicBool;
 
-use crate::error::{Result, Setting};
-use crate::{Profile, Render, RenderReport};
+use noisewright::{Profile, Render, RenderReport};
+use noisewright::{Result, Setting};
 
 /// Options of `noisewright generate`.
 #[derive(Debug, Clone, clap::Args)]
@@ -97,7 +97,7 @@ pub struct GenerateArgs {
 /// file is left under the target name.
 pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<RenderReport> {
     // Checked before the profile is read, as the command always has.
-    crate::run::check_threads(args.threads)?;
+    noisewright::run::check_threads(args.threads)?;
     let profile = Profile::from_path(&args.profile)?;
     let mut render = Render::new(&profile)
         .seed(args.seed)

@@ -7,7 +7,7 @@ pub mod generate;
 use std::io::{self, Write};
 use std::sync::atomic::AtomicBool;
 
-use crate::error::{Error, Result};
+use noisewright::{Error, Result};
 
 /// noisewright turns a noise density profile into real, reproducible noise.
 #[derive(Debug, clap::Parser)]

@@ -1,9 +1,11 @@
 //! Whole runs as library calls: [`Generator`] pulls a profile's samples into the caller's
 //! buffers, [`Render`] does everything `generate` does (engine, scale, ADC codes, formats,
-//! manifest, summary), and [`Analysis`] everything `analyze` does (reading, measuring,
-//! judging, fitting, drawing). The command line only turns its flags into these calls.
+//! manifest, summary), [`Analysis`] everything `analyze` does (reading, measuring, judging,
+//! fitting, drawing), and [`budget`] what `budget` adds to the budget itself (bands from text,
+//! its text, JSON and chart). The command line only turns its flags into these calls.
 
 pub mod analyze;
+pub mod budget;
 mod generator;
 mod pending;
 pub mod render;
@@ -48,8 +50,9 @@ pub(crate) fn on_pool<T: Send>(
         .install(f)
 }
 
-/// Refuses a pool of no threads.
-pub(crate) fn check_threads(threads: Option<usize>) -> Result<()> {
+/// Refuses a pool of no threads ([`Setting::Threads`]); `None` is the default pool. A caller
+/// may check this before reading a profile, so the settings' errors come first.
+pub fn check_threads(threads: Option<usize>) -> Result<()> {
     match threads {
         Some(0) => Err(Error::setting(
             Setting::Threads,

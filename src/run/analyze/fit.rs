@@ -7,8 +7,8 @@ use super::setup::Setup;
 use crate::analysis::capture::CaptureReport;
 use crate::analysis::compare::expected_band_psd;
 use crate::analysis::fit::{FitOptions, fit_floor};
-use crate::model::burst::BurstModel;
 use crate::error::{Error, Result, Setting};
+use crate::model::burst::BurstModel;
 use crate::profile::{Burst, BurstSampling};
 
 /// The fitted profile's TOML text and the fit's JSON object.

@@ -24,8 +24,8 @@ use std::sync::atomic::AtomicBool;
 
 use crate::analysis::capture::CaptureReport;
 use crate::error::{Error, Result, Setting};
-use crate::profile::{Profile, Unit};
 use crate::io::sink::SampleFormat;
+use crate::profile::{Profile, Unit};
 
 /// A tone's leakage is left out of the bins where it exceeds this fraction of the designed
 /// noise density (biasing a kept bin by < 0.005 dB).

@@ -12,8 +12,8 @@ use crate::analysis::capture::CaptureReport;
 use crate::analysis::compare::{Comparison, compare_with_design};
 use crate::analysis::tones::{ToneFit, without_tones};
 use crate::error::{Error, Result};
-use crate::profile::format_quantity;
 use crate::model::tone::enob;
+use crate::profile::format_quantity;
 
 /// Tones of the profile: leaves the bins their leakage reaches out of every band (so the
 /// comparison and the floor fit see the noise only) and fits their amplitudes in a third

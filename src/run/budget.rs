@@ -1,0 +1,137 @@
+//! What `budget` does, as library calls: the bands asked for (text, with one upper-edge
+//! order), the budget itself ([`crate::model::budget::budget`]), its text and JSON, and its
+//! chart written as SVG.
+
+use std::path::Path;
+
+use super::PendingFile;
+use crate::error::{Error, Result, Setting};
+use crate::model::budget::{BandSpec, Budget, parse_band, to_json, write_text};
+use crate::profile::{MAX_ORDER, Profile};
+use crate::report::chart::{budget_chart, write_density_svg};
+
+/// The bands to budget, from texts such as `0.1Hz..10Hz` (Hz, brick-wall lower edge) and one
+/// Butterworth `order` for every upper edge (0 = brick wall; `None`: the profile's
+/// `band.order`). No texts and no order give no bands, which [`budget`](crate::budget)
+/// reads as the profile's own band; no texts with an order give the profile's band with that
+/// order. The order is checked first (0 to [`MAX_ORDER`]), then each band in turn.
+pub fn budget_bands<S: AsRef<str>>(
+    profile: &Profile,
+    texts: &[S],
+    order: Option<u32>,
+) -> Result<Vec<BandSpec>> {
+    let upper = match order {
+        Some(n) if n > MAX_ORDER => {
+            return Err(Error::setting(
+                Setting::Order,
+                format!("expected 0 (brick wall) to {MAX_ORDER}, got {n}"),
+            ));
+        }
+        Some(n) => n,
+        None => profile.band.order,
+    };
+    let mut bands = texts
+        .iter()
+        .map(|t| {
+            let (low_hz, high_hz) =
+                parse_band(t.as_ref()).map_err(|m| Error::setting(Setting::Band, m))?;
+            Ok(BandSpec {
+                low_hz,
+                high_hz,
+                order: upper,
+            })
+        })
+        .collect::<Result<Vec<_>>>()?;
+    if bands.is_empty() && order.is_some() {
+        bands.push(BandSpec {
+            order: upper,
+            ..BandSpec::of_profile(profile)
+        });
+    }
+    Ok(bands)
+}
+
+/// The budget as the text `budget` prints (RMS in the profile's unit, densities per √Hz).
+pub fn budget_text(budget: &Budget) -> String {
+    let mut out = Vec::new();
+    write_text(budget, &mut out).expect("writing to a Vec cannot fail");
+    String::from_utf8(out).expect("the budget text is UTF-8")
+}
+
+/// The budget as the JSON object `budget --json` prints (see [`to_json`] for its keys).
+pub fn budget_json(budget: &Budget) -> serde_json::Value {
+    to_json(budget)
+}
+
+/// Draws every source's density, the total and the band edges of `budget` (made from
+/// `profile`) as a 1000 × 640 px SVG file at `path`. It is written beside the target and
+/// renamed, so a failure leaves no half-written chart.
+pub fn write_budget_chart(profile: &Profile, budget: &Budget, path: &Path) -> Result<()> {
+    let mut svg = Vec::new();
+    write_density_svg(&budget_chart(profile, budget), 1000, 640, &mut svg)?;
+    let out = PendingFile::create(path)?;
+    out.write_all(&svg)?;
+    out.commit()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::model::budget::budget;
+
+    const PROFILE: &str = "sample_rate = \"48 kHz\"\n[band]\nlow = \"10 Hz\"\nhigh = \"20 kHz\"\n\
+                           order = 2\n[[floor]]\ndensity = \"4 nV/rtHz\"\n";
+
+    #[test]
+    fn bands_take_one_order_and_default_to_the_profile() {
+        let p = Profile::from_toml_str(PROFILE, "t").unwrap();
+        let none: [&str; 0] = [];
+        assert!(budget_bands(&p, &none, None).unwrap().is_empty());
+        let own = budget_bands(&p, &none, Some(0)).unwrap();
+        assert_eq!(
+            (own[0].low_hz, own[0].high_hz, own[0].order),
+            (10.0, 20e3, 0)
+        );
+        let two = budget_bands(&p, &["1Hz..100Hz", "100 Hz .. 1 kHz"], None).unwrap();
+        assert_eq!(two.len(), 2);
+        assert_eq!(
+            (two[1].low_hz, two[1].high_hz, two[1].order),
+            (100.0, 1e3, 2)
+        );
+        // The order is judged before the bands, as the command always has.
+        let e = budget_bands(&p, &["junk"], Some(MAX_ORDER + 1)).unwrap_err();
+        assert!(
+            matches!(
+                e,
+                Error::Setting {
+                    setting: Setting::Order,
+                    ..
+                }
+            ),
+            "{e}"
+        );
+        let e = budget_bands(&p, &["100Hz..1Hz"], None).unwrap_err();
+        assert!(
+            matches!(
+                e,
+                Error::Setting {
+                    setting: Setting::Band,
+                    ..
+                }
+            ),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn white_floor_budget_is_its_closed_form() {
+        // A brick-wall band of white noise holds e·√(high − low) (closed form).
+        let p = Profile::from_toml_str(PROFILE, "t").unwrap();
+        let bands = budget_bands(&p, &["100Hz..10100Hz"], Some(0)).unwrap();
+        let b = budget(&p, &bands);
+        let want = 4e-9 * 10_000f64.sqrt();
+        let got = budget_json(&b)["bands"][0]["rms"].as_f64().unwrap();
+        assert!((got / want - 1.0).abs() < 1e-6, "{got} vs {want}");
+        assert!(budget_text(&b).contains("400 nV"), "{}", budget_text(&b));
+    }
+}
