@@ -176,6 +176,7 @@ mod tests {
                 .unwrap()
                 .is_direct()
         );
+        fs::remove_dir_all(&d).unwrap();
     }
 
     fn scratch(tag: &str) -> PathBuf {
