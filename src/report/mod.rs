@@ -1,5 +1,14 @@
-//! Pictures and reports: log-log density charts ([`chart`], used by `budget`) and an
-//! analysis's pictures with its self-contained HTML report ([`figure`]).
+//! Pictures and reports: every SVG picture ([`chart`]: density charts for `budget`, the
+//! density, histogram and trace of an analysis) and the HTML report that holds an analysis's
+//! pictures inline ([`html`]).
 
 pub mod chart;
-pub mod figure;
+pub mod html;
+
+/// Escapes `& < > "` for HTML and SVG text and attributes.
+pub fn html_escape(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}

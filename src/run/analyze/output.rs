@@ -7,7 +7,7 @@ use super::Settings;
 use super::setup::Setup;
 use crate::analysis::capture::CaptureReport;
 use crate::error::Result;
-use crate::report::figure;
+use crate::report::{chart, html};
 use crate::run::{PendingFile, commit_all};
 
 /// The output files asked for, under temporary names until [`Outputs::write`] renames them.
@@ -42,12 +42,12 @@ impl Outputs {
             out.write_all(toml.as_bytes())?;
         }
         let density_svg = (self.plot.is_some() || self.report.is_some())
-            .then(|| figure::density_svg(report, s.profile.as_ref(), s.design.as_ref()));
+            .then(|| chart::density_svg(report, s.profile.as_ref(), s.design.as_ref()));
         if let (Some(out), Some(svg)) = (&self.plot, &density_svg) {
             out.write_all(svg.as_bytes())?;
         }
         if let Some(out) = &self.report {
-            let html = figure::report_html(
+            let html = html::report_html(
                 report,
                 json,
                 density_svg.as_deref().unwrap_or(""),
