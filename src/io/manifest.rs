@@ -11,7 +11,7 @@ use serde::Serialize;
 use super::sink::{Format, SampleFormat, SinkReport, SinkSpec};
 use crate::analysis::stats::RunningStats;
 use crate::error::{Error, Result};
-use crate::profile::{Band, Unit};
+use crate::profile::{Band, Unit, read_limited};
 use crate::units::DBFS_CONVENTION;
 
 /// What one run produced, written next to the output as JSON by [`write_manifest`].
@@ -210,14 +210,22 @@ pub struct SideManifest {
     pub file: String,
 }
 
+/// The largest manifest read, in bytes: 16 MiB. A manifest is a few KiB (64 channels with
+/// their correlation matrix stay far below 1 MiB), so a larger file is refused, not read whole.
+pub const MAX_MANIFEST_BYTES: u64 = 16 << 20;
+
 impl SideManifest {
-    /// The manifest at `path` (`FILE.json` beside a capture), if there is one.
+    /// The manifest at `path` (`FILE.json` beside a capture), if there is one; one larger than
+    /// [`MAX_MANIFEST_BYTES`] is refused.
     pub fn read(path: &Path) -> Result<Option<SideManifest>> {
         if !path.is_file() {
             return Ok(None);
         }
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            if e.kind() == std::io::ErrorKind::InvalidData {
+        let why = "a manifest is a short JSON text; remove or rename it";
+        let text = read_limited(path, MAX_MANIFEST_BYTES, why).map_err(|e| {
+            if e.kind() == std::io::ErrorKind::Other && e.to_string().starts_with("larger than") {
+                Error::input(path.display().to_string(), e.to_string())
+            } else if e.kind() == std::io::ErrorKind::InvalidData {
                 Error::input(
                     path.display().to_string(),
                     "not valid UTF-8 text; expected the JSON manifest that generate writes beside \
@@ -306,6 +314,27 @@ mod tests {
     use super::*;
     use crate::io::sink::test_util::*;
     use crate::units::{dbfs_from_rms_digital, rms_digital_from_dbfs};
+
+    #[test]
+    fn a_manifest_past_the_limit_is_refused_unread() {
+        // A sparse file one byte past the limit: refused with its name and the limit, exit 2.
+        let d = std::env::temp_dir().join(format!("nw-manifest-limit-{}", std::process::id()));
+        std::fs::create_dir_all(&d).unwrap();
+        let path = d.join("cap.wav.json");
+        let f = std::fs::File::create(&path).unwrap();
+        f.set_len(MAX_MANIFEST_BYTES + 1).unwrap();
+        let e = SideManifest::read(&path).unwrap_err();
+        let text = e.to_string();
+        assert!(
+            text.contains("cap.wav.json") && text.contains("larger than 16 MiB"),
+            "{text}"
+        );
+        assert_eq!(e.exit_code(), 2, "{text}");
+        f.set_len(2).unwrap();
+        std::fs::write(&path, "{}").unwrap();
+        assert_eq!(SideManifest::read(&path).unwrap().unwrap().full_scale, None);
+        std::fs::remove_dir_all(&d).unwrap();
+    }
 
     #[test]
     fn manifest_fields_parse_and_bad_ones_are_named() {

@@ -166,9 +166,10 @@ impl Profile {
     pub fn from_path(path: impl AsRef<std::path::Path>) -> Result<Profile> {
         let path = path.as_ref();
         let file = path.display().to_string();
-        let text = read_limited(path, MAX_PROFILE_BYTES).map_err(|e| {
-            crate::Error::setting(crate::Setting::Profile, format!("cannot read {file}: {e}"))
-        })?;
+        let text = read_limited(path, MAX_PROFILE_BYTES, "a profile is a short TOML text")
+            .map_err(|e| {
+                crate::Error::setting(crate::Setting::Profile, format!("cannot read {file}: {e}"))
+            })?;
         parse_profile(&text, &file)
     }
 
@@ -293,8 +294,13 @@ impl Profile {
 }
 
 /// The file at `path` as UTF-8 text, refused when it holds more than `limit` bytes (read
-/// through a bounded reader, so a device or an endless pipe cannot fill memory).
-pub(crate) fn read_limited(path: &std::path::Path, limit: u64) -> std::io::Result<String> {
+/// through a bounded reader, so a device or an endless pipe cannot fill memory); `why` ends
+/// the refusal (e.g. "a profile is a short TOML text").
+pub(crate) fn read_limited(
+    path: &std::path::Path,
+    limit: u64,
+    why: &str,
+) -> std::io::Result<String> {
     use std::io::Read;
     let mut text = String::new();
     std::fs::File::open(path)?
@@ -302,7 +308,7 @@ pub(crate) fn read_limited(path: &std::path::Path, limit: u64) -> std::io::Resul
         .read_to_string(&mut text)?;
     if text.len() as u64 > limit {
         return Err(std::io::Error::other(format!(
-            "larger than {} MiB; a profile is a short TOML text",
+            "larger than {} MiB; {why}",
             limit >> 20
         )));
     }

@@ -9,7 +9,7 @@ use crate::error::{Error, Result, Setting};
 use crate::io::manifest::SideManifest;
 use crate::io::sink::{Format, SampleFormat};
 use crate::io::source::{Scale, SourceOptions, StreamInfo};
-use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_profile, parse_quantity};
+use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_quantity};
 use crate::run::manifest_path;
 use crate::synth::Generator;
 
@@ -121,12 +121,8 @@ fn load_profile(profile: Option<&ProfileInput>) -> Result<Option<Profile>> {
     match profile {
         None => Ok(None),
         Some(ProfileInput::Given(p)) => Ok(Some((*p).clone())),
-        Some(ProfileInput::Path(p)) => {
-            let f = p.display().to_string();
-            let text = std::fs::read_to_string(p)
-                .map_err(|e| Error::setting(Setting::Profile, format!("cannot read {f}: {e}")))?;
-            Ok(Some(parse_profile(&text, &f)?))
-        }
+        // Read as `generate` reads it: bounded by `MAX_PROFILE_BYTES`.
+        Some(ProfileInput::Path(p)) => Ok(Some(Profile::from_path(p)?)),
     }
 }
 
