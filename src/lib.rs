@@ -15,7 +15,8 @@
 //!   or without a profile; it returns an [`AnalysisReport`] holding the object
 //!   `analyze --json` prints, the summary and a [`Verdict`].
 //! - [`budget`]: what each source contributes in a band ([`Budget`]); [`run::budget`] turns
-//!   band texts into [`BandSpec`]s and gives the text, JSON and chart `budget` prints.
+//!   band texts into [`BandSpec`]s and gives the text and chart `budget` prints (its JSON:
+//!   [`model::budget::to_json`]).
 //! - [`Error`]: the one error type; [`Error::exit_code`] gives the command line's convention
 //!   and [`Error::describe`] names settings as a caller wants.
 //!

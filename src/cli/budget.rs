@@ -3,7 +3,8 @@
 
 use std::path::PathBuf;
 
-use noisewright::run::budget::{budget_bands, budget_json, budget_text, write_budget_chart};
+use noisewright::model::budget::to_json;
+use noisewright::run::budget::{budget_bands, budget_text, write_budget_chart};
 use noisewright::{Profile, Result, budget};
 
 /// Options of `noisewright budget`.
@@ -37,7 +38,7 @@ pub fn run(args: &BudgetArgs) -> Result<String> {
         write_budget_chart(&profile, &b, path)?;
     }
     Ok(if args.json {
-        format!("{:#}\n", budget_json(&b))
+        format!("{:#}\n", to_json(&b))
     } else {
         budget_text(&b)
     })

@@ -223,7 +223,7 @@ impl SideManifest {
         }
         let why = "a manifest is a short JSON text; remove or rename it";
         let text = read_limited(path, MAX_MANIFEST_BYTES, why).map_err(|e| {
-            if e.kind() == std::io::ErrorKind::Other && e.to_string().starts_with("larger than") {
+            if e.kind() == std::io::ErrorKind::FileTooLarge {
                 Error::input(path.display().to_string(), e.to_string())
             } else if e.kind() == std::io::ErrorKind::InvalidData {
                 Error::input(

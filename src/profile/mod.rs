@@ -307,10 +307,10 @@ pub(crate) fn read_limited(
         .take(limit + 1)
         .read_to_string(&mut text)?;
     if text.len() as u64 > limit {
-        return Err(std::io::Error::other(format!(
-            "larger than {} MiB; {why}",
-            limit >> 20
-        )));
+        return Err(std::io::Error::new(
+            std::io::ErrorKind::FileTooLarge,
+            format!("larger than {} MiB; {why}", limit >> 20),
+        ));
     }
     Ok(text)
 }

@@ -1,12 +1,12 @@
 //! What `budget` does, as library calls: the bands asked for (text, with one upper-edge
-//! order), the budget itself ([`crate::model::budget::budget`]), its text and JSON, and its
-//! chart written as SVG.
+//! order), the budget itself ([`crate::model::budget::budget`]), its text (its JSON is
+//! [`crate::model::budget::to_json`]), and its chart written as SVG.
 
 use std::path::Path;
 
 use super::PendingFile;
 use crate::error::{Error, Result, Setting};
-use crate::model::budget::{BandSpec, Budget, parse_band, to_json, write_text};
+use crate::model::budget::{BandSpec, Budget, parse_band, write_text};
 use crate::profile::{MAX_ORDER, Profile};
 use crate::report::chart::{budget_chart, write_density_svg};
 
@@ -56,11 +56,6 @@ pub fn budget_text(budget: &Budget) -> String {
     let mut out = Vec::new();
     write_text(budget, &mut out).expect("writing to a Vec cannot fail");
     String::from_utf8(out).expect("the budget text is UTF-8")
-}
-
-/// The budget as the JSON object `budget --json` prints (see [`to_json`] for its keys).
-pub fn budget_json(budget: &Budget) -> serde_json::Value {
-    to_json(budget)
 }
 
 /// Draws every source's density, the total and the band edges of `budget` (made from
@@ -130,7 +125,9 @@ mod tests {
         let bands = budget_bands(&p, &["100Hz..10100Hz"], Some(0)).unwrap();
         let b = budget(&p, &bands);
         let want = 4e-9 * 10_000f64.sqrt();
-        let got = budget_json(&b)["bands"][0]["rms"].as_f64().unwrap();
+        let got = crate::model::budget::to_json(&b)["bands"][0]["rms"]
+            .as_f64()
+            .unwrap();
         assert!((got / want - 1.0).abs() < 1e-6, "{got} vs {want}");
         assert!(budget_text(&b).contains("400 nV"), "{}", budget_text(&b));
     }

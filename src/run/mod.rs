@@ -2,7 +2,7 @@
 //! buffers, [`Render`] does everything `generate` does (engine, scale, ADC codes, formats,
 //! manifest, summary), [`Analysis`] everything `analyze` does (reading, measuring, judging,
 //! fitting, drawing), and [`budget`] what `budget` adds to the budget itself (bands from text,
-//! its text, JSON and chart). The command line only turns its flags into these calls.
+//! its text and chart). The command line only turns its flags into these calls.
 
 pub mod analyze;
 pub mod budget;
