@@ -68,32 +68,14 @@ impl BurstModel {
     /// [`Error::Unsupported`] if the burst is not a valid chain (see [`Burst`]).
     pub fn new(burst: &Burst, sample_rate_hz: f64) -> Result<BurstModel> {
         let k = burst.len();
-        let bad = |m: String| Err(Error::Unsupported(format!("burst {:?}: {m}", burst.name)));
-        if k < 2 || burst.dwell_s.len() != k || burst.next.len() != k {
-            return bad("needs at least two levels, one dwell time and one next row each".into());
-        }
         if !(sample_rate_hz > 0.0 && sample_rate_hz.is_finite()) {
-            return bad(format!("sample rate {sample_rate_hz} Hz must be positive"));
+            return Err(Error::Unsupported(format!(
+                "burst {:?}: sample rate {sample_rate_hz} Hz must be positive",
+                burst.name
+            )));
         }
-        let mut q = vec![0.0; k * k];
-        for i in 0..k {
-            let tau = burst.dwell_s[i];
-            if !(tau > 0.0 && tau.is_finite()) || burst.next[i].len() != k {
-                return bad(format!(
-                    "level {i}: dwell must be > 0 and next must have {k} entries"
-                ));
-            }
-            for j in 0..k {
-                if i != j {
-                    q[i * k + j] = burst.next[i][j] / tau;
-                }
-            }
-            q[i * k + i] = -1.0 / tau;
-        }
-        let occupancy = stationary(&q, k);
-        if occupancy.iter().any(|p| !(p.is_finite() && *p > 0.0)) {
-            return bad("every level must be reachable from every other".into());
-        }
+        let q = generator_matrix(burst)?;
+        let occupancy = occupancy_of(burst, &q)?;
         let mean: f64 = occupancy
             .iter()
             .zip(&burst.levels)
@@ -112,7 +94,7 @@ impl BurstModel {
                 (u, r0)
             }
         };
-        let modes = modes(&q, k);
+        let modes = modes(&q, k, &occupancy, max_sweeps(k)).ok_or_else(|| no_modes(burst))?;
         Ok(BurstModel {
             burst: burst.clone(),
             sample_rate_hz,
@@ -264,6 +246,78 @@ impl BurstModel {
     }
 }
 
+/// The generator matrix Q of `burst` in 1/s, row-major K×K (see the module documentation).
+/// Fails with [`Error::Unsupported`] if the burst is not a valid chain (see [`Burst`]): fewer
+/// than two levels, a dwell time that is not positive and finite, a `next` row of the wrong
+/// length or with an entry that is negative or not finite, or a level that is not finite.
+fn generator_matrix(burst: &Burst) -> Result<Vec<f64>> {
+    let k = burst.len();
+    let bad = |m: String| Err(Error::Unsupported(format!("burst {:?}: {m}", burst.name)));
+    if k < 2 || burst.dwell_s.len() != k || burst.next.len() != k {
+        return bad("needs at least two levels, one dwell time and one next row each".into());
+    }
+    if let Some(v) = burst.levels.iter().find(|v| !v.is_finite()) {
+        return bad(format!("every level must be finite, got {v}"));
+    }
+    let mut q = vec![0.0; k * k];
+    for i in 0..k {
+        let tau = burst.dwell_s[i];
+        let row = &burst.next[i];
+        if !(tau > 0.0 && tau.is_finite())
+            || row.len() != k
+            || row.iter().any(|p| !(p.is_finite() && *p >= 0.0))
+        {
+            return bad(format!(
+                "level {i}: dwell must be > 0 and next must have {k} entries, each finite and \
+                 ≥ 0"
+            ));
+        }
+        for j in 0..k {
+            if i != j {
+                q[i * k + j] = row[j] / tau;
+            }
+        }
+        q[i * k + i] = -1.0 / tau;
+    }
+    if q.iter().any(|x| !x.is_finite()) {
+        return bad("every jump rate next/dwell must be finite (1/s)".into());
+    }
+    Ok(q)
+}
+
+/// The stationary occupancy of `burst`, whose generator is `q`; fails if some level is not
+/// reachable from every other.
+fn occupancy_of(burst: &Burst, q: &[f64]) -> Result<Vec<f64>> {
+    let occupancy = stationary(q, burst.len());
+    if occupancy.iter().any(|p| !(p.is_finite() && *p > 0.0)) {
+        return Err(Error::Unsupported(format!(
+            "burst {:?}: every level must be reachable from every other",
+            burst.name
+        )));
+    }
+    Ok(occupancy)
+}
+
+/// The relaxation modes of `burst` (those of [`BurstModel::modes`], which do not depend on the
+/// sample rate), in bounded time: fails with [`Error::Unsupported`] if the burst is not a
+/// valid chain or its eigenvalues do not converge. The profile reader calls this, so that a
+/// chain no command can model is refused when it is read.
+pub fn relaxation_modes(burst: &Burst) -> Result<Vec<Mode>> {
+    let k = burst.len();
+    let q = generator_matrix(burst)?;
+    let occupancy = occupancy_of(burst, &q)?;
+    modes(&q, k, &occupancy, max_sweeps(k)).ok_or_else(|| no_modes(burst))
+}
+
+fn no_modes(burst: &Burst) -> Error {
+    Error::Unsupported(format!(
+        "burst {:?}: the relaxation rates of its chain (the eigenvalues of its generator) did \
+         not converge within {} QR sweeps; change a dwell time or jump probability slightly",
+        burst.name,
+        max_sweeps(burst.len())
+    ))
+}
+
 /// Stationary distribution of the rate matrix `q` (K×K) by the Grassmann–Taksar–Heyman
 /// elimination, which uses only sums and products of non-negative rates (no cancellation).
 fn stationary(q: &[f64], k: usize) -> Vec<f64> {
@@ -403,15 +457,34 @@ fn solve(mut m: Vec<Complex<f64>>, mut b: Vec<Complex<f64>>, k: usize) -> Vec<Co
     x
 }
 
-/// The relaxation modes of generator `q`: its eigenvalues without the zero one, complex
-/// pairs once, slowest first.
-fn modes(q: &[f64], k: usize) -> Vec<Mode> {
+/// Most QR sweeps an eigenvalue solve of a K-level chain may take: 30·max(K, 10), the
+/// iteration limit of LAPACK's Hessenberg QR (`dlahqr`, ITMAX = 30·max(10, n)); common
+/// practice. Each sweep costs O(K²), so the solve ends in O(K³) time whatever the chain.
+pub fn max_sweeps(k: usize) -> usize {
+    30 * k.max(10)
+}
+
+/// The relaxation modes of generator `q` (1/s, K×K, stationary occupancy `occupancy`): its
+/// eigenvalues without the zero one, complex pairs once, slowest first. `None` if the
+/// eigenvalues do not converge within `sweeps` QR sweeps.
+///
+/// The general real Schur decomposition comes first (its result, when it converges, is the
+/// one every earlier version printed). It can stall on a multiple eigenvalue (a chain with
+/// many equal dwell times): then a reversible chain (detailed balance πᵢQᵢⱼ = πⱼQⱼᵢ, which
+/// holds for every birth–death chain and every chain with the default `next`, REFERENCES §4)
+/// is solved as the symmetric matrix D^{1/2}·Q·D^{−1/2}, D = diag(π), similar to Q and so
+/// with the same eigenvalues, by the symmetric QR algorithm, which converges for any
+/// spectrum (common practice).
+fn modes(q: &[f64], k: usize, occupancy: &[f64], sweeps: usize) -> Option<Vec<Mode>> {
     let m = nalgebra::DMatrix::from_row_slice(k, k, q);
-    let mut eig: Vec<Complex<f64>> = m
-        .complex_eigenvalues()
-        .iter()
-        .map(|c| Complex::new(c.re, c.im))
-        .collect();
+    let mut eig: Vec<Complex<f64>> = match nalgebra::Schur::try_new(m, f64::EPSILON, sweeps) {
+        Some(schur) => schur
+            .complex_eigenvalues()
+            .iter()
+            .map(|c| Complex::new(c.re, c.im))
+            .collect(),
+        None => reversible_eigenvalues(q, k, occupancy, sweeps)?,
+    };
     // The stationary eigenvalue is 0; drop the one nearest it.
     if let Some(zero) = (0..eig.len()).min_by(|&a, &b| eig[a].norm().total_cmp(&eig[b].norm())) {
         eig.remove(zero);
@@ -428,7 +501,47 @@ fn modes(q: &[f64], k: usize) -> Vec<Mode> {
         })
         .collect();
     out.sort_by(|a, b| a.corner_hz.total_cmp(&b.corner_hz));
-    out
+    Some(out)
+}
+
+/// Relative mismatch of the probability flows πᵢQᵢⱼ and πⱼQⱼᵢ up to which a chain counts as
+/// reversible: far above the rounding of the occupancy (a few ulps), far below anything a
+/// profile writes on purpose.
+const REVERSIBLE_TOLERANCE: f64 = 1e-10;
+
+/// The eigenvalues of a reversible generator `q` (1/s) as those of the symmetric
+/// D^{1/2}·Q·D^{−1/2} (see [`modes`]); `None` if the chain is not reversible or the symmetric
+/// solve does not converge within `sweeps` sweeps.
+fn reversible_eigenvalues(
+    q: &[f64],
+    k: usize,
+    occupancy: &[f64],
+    sweeps: usize,
+) -> Option<Vec<Complex<f64>>> {
+    for i in 0..k {
+        for j in i + 1..k {
+            let (a, b) = (occupancy[i] * q[i * k + j], occupancy[j] * q[j * k + i]);
+            if (a - b).abs() > REVERSIBLE_TOLERANCE * a.max(b) {
+                return None;
+            }
+        }
+    }
+    // S_ij = √πᵢ·Qᵢⱼ/√πⱼ = πᵢQᵢⱼ/√(πᵢπⱼ); the two flows are averaged so S is exactly symmetric.
+    let s = nalgebra::DMatrix::from_fn(k, k, |i, j| {
+        if i == j {
+            q[i * k + i]
+        } else {
+            let flow = 0.5 * (occupancy[i] * q[i * k + j] + occupancy[j] * q[j * k + i]);
+            flow / (occupancy[i] * occupancy[j]).sqrt()
+        }
+    });
+    let eig = nalgebra::SymmetricEigen::try_new(s, f64::EPSILON, sweeps)?;
+    Some(
+        eig.eigenvalues
+            .iter()
+            .map(|&l| Complex::new(l, 0.0))
+            .collect(),
+    )
 }
 
 #[cfg(test)]
@@ -670,5 +783,136 @@ mod tests {
                 "{f} Hz: {got:e} vs {want:e}"
             );
         }
+    }
+
+    /// Equal dwell times τ with the default `next` give Q = λ(Π − I), λ = K/((K − 1)τ), with
+    /// Π = 1πᵀ and π uniform (exact algebra: Qᵢⱼ = 1/((K − 1)τ), Qᵢᵢ = −1/τ): the K − 1
+    /// non-zero eigenvalues all equal −λ, `e^{Qt} = Π + e^{−λt}(I − Π)`, so the
+    /// autocovariance is σ²e^{−λ|t|} and the point-sampled density the aliased Lorentzian of
+    /// REFERENCES §2. σ² is the variance of K equally likely levels 0, d, …, (K − 1)d,
+    /// d²(K² − 1)/12 (the discrete uniform distribution; common practice). Such a chain has
+    /// one eigenvalue of multiplicity K − 1, on which the general Schur solve stalls from
+    /// K = 36 on; each of these must finish, in the symmetric solve, with these values.
+    #[test]
+    fn equal_dwell_chains_of_many_levels_have_their_closed_form() {
+        let (fs, tau, d) = (100e3, 1e-3, 10e-9);
+        for k in [36, 64, crate::profile::MAX_BURST_LEVELS] {
+            let levels: Vec<f64> = (0..k).map(|i| i as f64 * d).collect();
+            let b = burst(&levels, &vec![tau; k], None, BurstSampling::Instant);
+            let m = BurstModel::new(&b, fs).unwrap();
+            let kf = k as f64;
+            let var = d * d * (kf * kf - 1.0) / 12.0;
+            assert!(
+                (m.variance() / var - 1.0).abs() < 1e-12,
+                "K {k}: {}",
+                m.variance()
+            );
+            let lam = kf / ((kf - 1.0) * tau);
+            assert_eq!(m.modes().len(), k - 1, "K {k}");
+            for md in m.modes() {
+                // Eigenvalues of a symmetric matrix to a few ulps of its norm, ≈ 2λ.
+                assert!(
+                    (md.corner_hz / (lam / (2.0 * PI)) - 1.0).abs() < 1e-12,
+                    "K {k}"
+                );
+                assert_eq!(md.oscillation_hz, 0.0);
+            }
+            let a = (-lam / fs).exp();
+            for i in 0..=20 {
+                let f = fs / 2.0 * i as f64 / 20.0;
+                let want = 2.0 * var / fs * (-(-2.0 * lam / fs).exp_m1())
+                    / ((-lam / fs).exp_m1().powi(2) + 4.0 * a * (PI * f / fs).sin().powi(2));
+                let got = m.density(f);
+                // A linear solve of order K ≤ 128 on a well-conditioned matrix: 1e−9 leaves
+                // room for K·ε growth.
+                assert!(
+                    (got / want - 1.0).abs() < 1e-9,
+                    "K {k}, {f} Hz: {got} vs {want}"
+                );
+            }
+        }
+    }
+
+    /// Where the general solve converges, its eigenvalues are bit for bit those of the
+    /// unbounded solve every earlier version used (so corner frequencies in manifests keep
+    /// their bytes), and the symmetric solve of a reversible chain agrees with them to
+    /// rounding.
+    #[test]
+    fn bounded_and_symmetric_solves_agree_with_the_unbounded_one() {
+        let bd = vec![
+            vec![0.0, 1.0, 0.0, 0.0],
+            vec![0.4, 0.0, 0.6, 0.0],
+            vec![0.0, 0.5, 0.0, 0.5],
+            vec![0.0, 0.0, 1.0, 0.0],
+        ];
+        let chains = [
+            burst(&[0.0, 1.0], &[0.03, 0.01], None, BurstSampling::Instant),
+            burst(
+                &[0.0, 1.0, 2.0, 5.0],
+                &[1.0, 2.0, 3.0, 4.0],
+                None,
+                BurstSampling::Instant,
+            ),
+            burst(
+                &[0.0, 1.0, 2.0, 3.0],
+                &[0.01, 0.002, 0.05, 0.3],
+                Some(bd),
+                BurstSampling::Mean,
+            ),
+        ];
+        for b in &chains {
+            let k = b.len();
+            let q = generator_matrix(b).unwrap();
+            let occ = occupancy_of(b, &q).unwrap();
+            let unbounded = nalgebra::DMatrix::from_row_slice(k, k, &q).complex_eigenvalues();
+            let bounded = nalgebra::Schur::try_new(
+                nalgebra::DMatrix::from_row_slice(k, k, &q),
+                f64::EPSILON,
+                max_sweeps(k),
+            )
+            .unwrap()
+            .complex_eigenvalues();
+            for (u, v) in unbounded.iter().zip(bounded.iter()) {
+                assert_eq!(
+                    (u.re.to_bits(), u.im.to_bits()),
+                    (v.re.to_bits(), v.im.to_bits())
+                );
+            }
+            let mut sym: Vec<f64> = reversible_eigenvalues(&q, k, &occ, max_sweeps(k))
+                .unwrap()
+                .iter()
+                .map(|c| c.re)
+                .collect();
+            let mut general: Vec<f64> = unbounded.iter().map(|c| c.re).collect();
+            sym.sort_by(f64::total_cmp);
+            general.sort_by(f64::total_cmp);
+            let scale = q.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+            for (s, g) in sym.iter().zip(&general) {
+                assert!((s - g).abs() < 1e-12 * scale, "{sym:?} vs {general:?}");
+            }
+        }
+    }
+
+    /// A chain that is not reversible has no symmetric form: when its general solve runs out
+    /// of sweeps the modes are refused (`None`), not looped for; with enough sweeps they come.
+    #[test]
+    fn a_solve_out_of_sweeps_is_refused() {
+        // A ring 0 → 1 → … → 7 → 0 with one shortcut back: it circulates, so it is not
+        // reversible.
+        let k = 8;
+        let mut next = vec![vec![0.0; k]; k];
+        for (i, row) in next.iter_mut().enumerate() {
+            row[(i + 1) % k] = if i == 3 { 0.5 } else { 1.0 };
+        }
+        next[3][0] = 0.5;
+        let dwell: Vec<f64> = (0..k).map(|i| 0.01 * (1.0 + i as f64)).collect();
+        let levels: Vec<f64> = (0..k).map(|i| i as f64).collect();
+        let b = burst(&levels, &dwell, Some(next), BurstSampling::Instant);
+        let q = generator_matrix(&b).unwrap();
+        let occ = occupancy_of(&b, &q).unwrap();
+        assert!(reversible_eigenvalues(&q, k, &occ, 1000).is_none());
+        assert!(modes(&q, k, &occ, 1).is_none());
+        assert!(modes(&q, k, &occ, max_sweeps(k)).unwrap().len() >= k / 2);
+        assert!(relaxation_modes(&b).is_ok());
     }
 }

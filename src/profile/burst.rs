@@ -38,6 +38,12 @@ pub const NEXT_ROW_TOLERANCE: f64 = 1e-6;
 /// a physical one.
 pub const MIN_DWELL_SAMPLES: f64 = 1e-3;
 
+/// Most levels one burst may have. Its chain's model costs O(K³) per frequency (a K×K
+/// complex solve) and the eigenvalue solve O(K³); at this limit a budget or an analysis
+/// with the burst still takes seconds, not minutes. A chain of more levels than this is
+/// better described as several bursts (independent traps add).
+pub const MAX_BURST_LEVELS: usize = 64;
+
 /// How a burst source's path becomes one sample.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "lowercase")]

@@ -10,7 +10,9 @@ mod schema;
 mod tone;
 
 pub use crate::units::{Dimension, format_quantity, format_quantity_exact, parse_quantity};
-pub use burst::{Burst, BurstSampling, MIN_DWELL_SAMPLES, NEXT_ROW_TOLERANCE, describe_levels};
+pub use burst::{
+    Burst, BurstSampling, MAX_BURST_LEVELS, MIN_DWELL_SAMPLES, NEXT_ROW_TOLERANCE, describe_levels,
+};
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
