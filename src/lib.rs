@@ -101,6 +101,7 @@ pub mod model;
 pub mod profile;
 pub mod report;
 pub mod run;
+mod stop;
 pub mod synth;
 pub mod units;
 

@@ -612,3 +612,104 @@ fn closed_pipe() -> Stdio {
     drop(read);
     Stdio::from(write)
 }
+
+/// A profile of `n` white floors with corners (each density evaluation sums them all) and a
+/// band reaching `low` (each pyramid level evaluates the density 16 385 times).
+fn many_sources(n: usize, low: &str) -> String {
+    let mut t = format!("sample_rate = \"100 kHz\"\n[band]\nlow = \"{low}\"\nhigh = \"40 kHz\"\n");
+    for i in 0..n {
+        t += &format!(
+            "[[floor]]\ndensity = \"{} nV/rtHz\"\ncorner = \"{} Hz\"\n",
+            1 + i % 7,
+            1 + i % 97
+        );
+    }
+    t
+}
+
+/// SIGINT 0.5 s into a long computation before any sample is written (the design of many
+/// sources down to a low band edge, a loop buffer of many sources, a burst's catch-up to a
+/// far `--start-sample` at 1000 jumps per sample, an analysis designing its profile): each
+/// run notices it within 1.5 s, ends by SIGINT and leaves nothing in its folder.
+#[test]
+fn long_computations_stop_within_a_second_and_a_half_of_sigint() {
+    let burst = "sample_rate = \"100 kHz\"\n[band]\nlow = \"1 Hz\"\nhigh = \"40 kHz\"\n\
+                 [[burst]]\nlevels = [\"0 uV\", \"1 uV\"]\ndwell = [\"10 ns\", \"10 ns\"]\n";
+    let rows: [(&str, String, Vec<&str>); 4] = [
+        (
+            "design",
+            many_sources(256, "1 mHz"),
+            vec!["generate", "p.toml", "--samples", "1000", "-o", "x.raw"],
+        ),
+        (
+            "loop buffer",
+            many_sources(256, "1 Hz"),
+            vec![
+                "generate",
+                "p.toml",
+                "--loop",
+                "--samples",
+                "16777216",
+                "-o",
+                "x.raw",
+            ],
+        ),
+        (
+            "burst catch-up",
+            burst.to_string(),
+            vec![
+                "generate",
+                "p.toml",
+                "--start-sample",
+                "1099511627776",
+                "--samples",
+                "10",
+            ]
+            .into_iter()
+            .chain(["-o", "x.raw"])
+            .collect(),
+        ),
+        (
+            "analysis design",
+            many_sources(256, "1 mHz"),
+            vec![
+                "analyze",
+                "c.f32",
+                "--rate",
+                "100kHz",
+                "--profile",
+                "p.toml",
+            ],
+        ),
+    ];
+    for (row, profile, args) in rows {
+        let s = Scratch::new("stop");
+        s.file("p.toml", &profile);
+        std::fs::write(s.path("c.f32"), vec![0u8; 4 * 4096]).unwrap();
+        let mut child = start(&args, &s);
+        std::thread::sleep(Duration::from_millis(500));
+        if let Some(status) = child.try_wait().unwrap() {
+            panic!("{row}: the run ended ({status}) before the signal");
+        }
+        let sent = Instant::now();
+        let o = signal_and_wait(child, libc::SIGINT);
+        let took = sent.elapsed();
+        let err = text(&o.stderr);
+        assert!(
+            took < Duration::from_millis(1500),
+            "{row}: took {took:?} after SIGINT"
+        );
+        assert_eq!(
+            o.status.signal(),
+            Some(libc::SIGINT),
+            "{row}: {:?} {err}",
+            o.status
+        );
+        assert!(err.contains("interrupted"), "{row}: {err}");
+        assert_eq!(
+            outputs(&s.dir, &["p.toml", "c.f32"]),
+            Vec::<String>::new(),
+            "{row}"
+        );
+    }
+}

@@ -13,8 +13,14 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::Exp1;
 
 use super::white::{Domain, WhiteStreams};
+use crate::error::Result;
 use crate::model::burst::BurstModel;
 use crate::profile::BurstSampling;
+use crate::stop::Stop;
+
+/// Expected jumps per stretch of a catch-up between two polls of its stop flag (a few
+/// milliseconds of work).
+const SKIP_JUMPS: f64 = 1e5;
 
 /// What a chain did so far: completed visits and the exact time spent per level.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -121,11 +127,28 @@ impl BurstChain {
     /// does not count the skipped samples (nor the visits that end in them). Cost is one step
     /// per jump in the skipped time, not per sample.
     pub fn skip(&mut self, samples: u64) {
+        self.skip_until(samples, Stop::default())
+            .expect("a catch-up that is never stopped ends");
+    }
+
+    /// [`BurstChain::skip`], polling `stop` between stretches of about [`SKIP_JUMPS`]
+    /// expected jumps (a stretch is as long as that many visits of the shortest level). The
+    /// stretches are runs of whole samples, so the path is bit for bit that of one skip.
+    pub(crate) fn skip_until(&mut self, samples: u64, stop: Stop<'_>) -> Result<()> {
+        let shortest = self.dwell.iter().copied().fold(f64::INFINITY, f64::min);
+        let stretch = ((SKIP_JUMPS * shortest) as u64).max(1);
         let kept = self.tally.clone();
         let (whole, part) = (self.whole.clone(), self.part.clone());
-        self.run(samples, None);
+        let mut left = samples;
+        while left > 0 {
+            stop.check()?;
+            let n = left.min(stretch);
+            self.run(n, None);
+            left -= n;
+        }
         self.tally = kept;
         (self.whole, self.part) = (whole, part);
+        Ok(())
     }
 
     fn run(&mut self, samples: u64, out: Option<&mut [f64]>) {

@@ -24,6 +24,7 @@
 use super::Generator;
 use crate::error::Result;
 use crate::profile::{Profile, correlation_tolerance};
+use crate::stop::Stop;
 
 /// The seed of channel `k`'s engine: `seed` for channel 0, otherwise a SplitMix64 mix of
 /// `seed` and `k` (S. Vigna's SplitMix64 finaliser, common practice for deriving seeds), so
@@ -96,9 +97,24 @@ impl ChannelGenerator {
         seed: u64,
         start: u64,
     ) -> Result<ChannelGenerator> {
+        ChannelGenerator::from_design_until(profile, design, seed, start, Stop::default())
+    }
+
+    /// [`ChannelGenerator::from_design`], polling `stop` in each channel's engine (see
+    /// [`Generator::from_design`]).
+    pub(crate) fn from_design_until(
+        profile: &Profile,
+        design: std::sync::Arc<super::Design>,
+        seed: u64,
+        start: u64,
+        stop: Stop<'_>,
+    ) -> Result<ChannelGenerator> {
         let n = profile.channels;
         let engines = (0..n)
-            .map(|k| Generator::from_design(profile, design.clone(), channel_seed(seed, k), start))
+            .map(|k| {
+                let seed = channel_seed(seed, k);
+                Generator::from_design_until(profile, design.clone(), seed, start, stop)
+            })
             .collect::<Result<Vec<_>>>()?;
         let mean = engines[0].noise_mean();
         Ok(ChannelGenerator {

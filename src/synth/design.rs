@@ -24,6 +24,7 @@ use rustfft::FftPlannerScalar;
 use rustfft::num_complex::Complex;
 
 use crate::error::{Error, Result};
+use crate::stop::Stop;
 
 /// Rate ratio between adjacent pyramid levels.
 pub const RATIO: usize = 4;
@@ -89,6 +90,16 @@ impl Design {
         sample_rate_hz: f64,
         low_hz: f64,
     ) -> Result<Design> {
+        Design::new_until(target, sample_rate_hz, low_hz, Stop::default())
+    }
+
+    /// [`Design::new`], polling `stop` every 1024 density evaluations of each level.
+    pub(crate) fn new_until(
+        target: &(dyn Fn(f64) -> f64 + Sync),
+        sample_rate_hz: f64,
+        low_hz: f64,
+        stop: Stop<'_>,
+    ) -> Result<Design> {
         if !(sample_rate_hz > 0.0 && sample_rate_hz.is_finite()) {
             return Err(Error::Unsupported(format!(
                 "sample rate must be a positive number of Hz, got {sample_rate_hz}"
@@ -123,6 +134,9 @@ impl Design {
                 let rate = sample_rate_hz / (RATIO as f64).powi(j as i32);
                 let mut grid = vec![Complex::new(0.0, 0.0); DESIGN_GRID];
                 for k in 0..=DESIGN_GRID / 2 {
+                    if k % 1024 == 0 {
+                        stop.check()?;
+                    }
                     let x = k as f64 / DESIGN_GRID as f64;
                     let w = level_weight(j, count, x);
                     let a = if w > 0.0 {

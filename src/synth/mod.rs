@@ -21,6 +21,7 @@ mod ziggurat;
 pub use burst::{BurstChain, BurstTally};
 pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
 pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
+pub(crate) use periodic::periodic_buffer_until;
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
 pub use white::{Domain, WhiteStreams};
@@ -29,6 +30,7 @@ use std::sync::Arc;
 
 use crate::error::{Error, Result};
 use crate::model::burst::BurstModel;
+use crate::stop::Stop;
 
 use crate::model::density::target_psd;
 use crate::profile::{MIN_DWELL_SAMPLES, Profile, Tone, format_quantity};
@@ -90,6 +92,18 @@ impl Generator {
         seed: u64,
         start: u64,
     ) -> Result<Generator> {
+        Generator::from_design_until(profile, design, seed, start, Stop::default())
+    }
+
+    /// [`Generator::from_design`], polling `stop` before each burst's model and during each
+    /// burst's catch-up to `start` (see [`BurstChain::skip`]).
+    pub(crate) fn from_design_until(
+        profile: &Profile,
+        design: Arc<Design>,
+        seed: u64,
+        start: u64,
+        stop: Stop<'_>,
+    ) -> Result<Generator> {
         let shaper =
             (!profile.sources.is_empty()).then(|| Shaper::starting_at(&design, seed, start));
         let fs = profile.sample_rate_hz;
@@ -112,7 +126,7 @@ impl Generator {
         let bursts = profile
             .bursts
             .iter()
-            .map(|b| BurstModel::new(b, fs))
+            .map(|b| stop.check().and_then(|()| BurstModel::new(b, fs)))
             .collect::<Result<Vec<_>>>()?;
         let streams = WhiteStreams::new(seed);
         let chains = bursts
@@ -120,10 +134,10 @@ impl Generator {
             .enumerate()
             .map(|(i, m)| {
                 let mut chain = BurstChain::new(m, &streams, i as u64);
-                chain.skip(start);
-                chain
+                chain.skip_until(start, stop)?;
+                Ok(chain)
             })
-            .collect();
+            .collect::<Result<Vec<_>>>()?;
         Ok(Generator {
             design,
             shaper,
@@ -342,9 +356,15 @@ impl Generator {
 /// The streaming design for `profile`: its target density ([`target_psd`]) at its sample rate,
 /// resolved down to its band's low edge.
 pub fn design_profile(profile: &Profile) -> Result<Design> {
-    Design::new(
+    design_profile_until(profile, Stop::default())
+}
+
+/// [`design_profile`], polling `stop` (see [`Design::new`]).
+pub(crate) fn design_profile_until(profile: &Profile, stop: Stop<'_>) -> Result<Design> {
+    Design::new_until(
         &|f| target_psd(profile, f),
         profile.sample_rate_hz,
         profile.band.low_hz,
+        stop,
     )
 }

@@ -13,6 +13,7 @@ use rustfft::num_complex::Complex;
 
 use super::white::{Domain, WhiteStreams};
 use crate::error::{Error, Result, Setting};
+use crate::stop::Stop;
 
 /// Longest loop buffer, in samples (2^24: 256 MiB of working memory).
 pub const MAX_PERIODIC_SAMPLES: usize = 1 << 24;
@@ -38,6 +39,17 @@ pub fn periodic_buffer(
     len: usize,
     seed: u64,
 ) -> Result<Vec<f64>> {
+    periodic_buffer_until(target, sample_rate_hz, len, seed, Stop::default())
+}
+
+/// [`periodic_buffer`], polling `stop` every 65 536 frequencies.
+pub(crate) fn periodic_buffer_until(
+    target: &dyn Fn(f64) -> f64,
+    sample_rate_hz: f64,
+    len: usize,
+    seed: u64,
+    stop: Stop<'_>,
+) -> Result<Vec<f64>> {
     if !(2..=MAX_PERIODIC_SAMPLES).contains(&len) {
         return Err(Error::setting(
             Setting::Loop,
@@ -52,6 +64,9 @@ pub fn periodic_buffer(
         WhiteStreams::new(seed).generator(WhiteStreams::stream_id(Domain::Periodic, 0, 0));
     let mut spec = vec![Complex::new(0.0, 0.0); len];
     for k in 1..=len / 2 {
+        if k % 65_536 == 0 {
+            stop.check()?;
+        }
         let s = target(k as f64 * df);
         let a: f64 = rng.sample(StandardNormal);
         let b: f64 = rng.sample(StandardNormal);

@@ -11,7 +11,8 @@ use crate::io::sink::{Format, SampleFormat};
 use crate::io::source::{Scale, SourceOptions, StreamInfo};
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_quantity};
 use crate::run::manifest_path;
-use crate::synth::Generator;
+use crate::stop::Stop;
+use crate::synth::{Generator, design_profile_until};
 
 /// Everything known before the passes.
 pub(super) struct Setup<'a> {
@@ -93,7 +94,17 @@ impl<'a> Setup<'a> {
         )?;
         let mut notes = info.notes.clone();
         let design = match profile.as_mut() {
-            Some(p) => Some(design(p, &scale, info.sample_rate_hz, &name, &mut notes)?),
+            Some(p) => {
+                let stop = a.interrupt.map_or_else(Stop::default, Stop::on);
+                Some(design(
+                    p,
+                    &scale,
+                    info.sample_rate_hz,
+                    &name,
+                    &mut notes,
+                    stop,
+                )?)
+            }
             None => None,
         };
         Ok(Setup {
@@ -269,6 +280,7 @@ fn design(
     fs: f64,
     name: &str,
     notes: &mut Vec<String>,
+    stop: Stop<'_>,
 ) -> Result<Generator> {
     if !scale.is_physical() {
         return Err(Error::setting(
@@ -302,5 +314,6 @@ fn design(
         ));
         p.sample_rate_hz = fs;
     }
-    Generator::new(p, 0)
+    let d = std::sync::Arc::new(design_profile_until(p, stop)?);
+    Generator::from_design_until(p, d, 0, 0, stop)
 }

@@ -14,9 +14,11 @@ use crate::io::adc::Dither;
 use crate::io::sink::{Format, SinkSpec, wav_plan};
 use crate::model::density;
 use crate::profile::{Dimension, Profile, parse_quantity};
+use crate::stop::Stop;
 use crate::synth::tone;
 use crate::synth::{
-    ChannelGenerator, Design, Generator, design_profile, periodic_buffer, periodic_variance,
+    ChannelGenerator, Design, Generator, design_profile_until, periodic_buffer_until,
+    periodic_variance,
 };
 use crate::units::rms_digital_from_dbfs;
 
@@ -56,8 +58,9 @@ pub(super) struct Built {
 }
 
 /// Builds the engine and the scale for `plan`; notes go to `plan.notes`. Refuses what the
-/// format cannot hold before any file or folder is made.
-pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
+/// format cannot hold before any file or folder is made. The design, the loop buffer and the
+/// bursts' catch-up poll `stop`.
+pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Built> {
     let profile = &plan.profile;
     let fs = profile.sample_rate_hz;
     let target_psd = |f: f64| density::target_psd(profile, f);
@@ -67,9 +70,10 @@ pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
     // buffer is made from the target density and needs it only for the figures).
     let has_figures = !profile.tones.is_empty() || profile.offset != 0.0;
     let design = (!s.loop_buffer || has_figures)
-        .then(|| design_profile(profile).map(Arc::new))
+        .then(|| design_profile_until(profile, stop).map(Arc::new))
         .transpose()?;
-    let (engine, expected_variance, generator, multi) = engine(plan, s, design.clone(), &parts)?;
+    let (engine, expected_variance, generator, multi) =
+        engine(plan, s, design.clone(), &parts, stop)?;
     // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
     let expected_mean = match (&generator, &multi) {
         (Some(g), _) => g.borrow().mean(),
@@ -80,7 +84,7 @@ pub(super) fn build(plan: &mut Plan, s: &Settings) -> Result<Built> {
     // The tones' figures need the designed noise density (also in loop mode, which has no
     // streaming generator): one design, only when there are tones or an offset.
     let figures = match (has_figures, design) {
-        (true, Some(d)) => Some(Generator::from_design(profile, d, 0, 0)?),
+        (true, Some(d)) => Some(Generator::from_design_until(profile, d, 0, 0, stop)?),
         _ => None,
     };
     let scale = scale(plan, s, expected_rms)?;
@@ -144,13 +148,14 @@ fn engine(
     s: &Settings,
     design: Option<Arc<Design>>,
     parts: &Arc<Mutex<Vec<Vec<f64>>>>,
+    stop: Stop<'_>,
 ) -> Result<Engines> {
     let profile = &plan.profile;
     let fs = profile.sample_rate_hz;
     let target_psd = |f: f64| density::target_psd(profile, f);
     if s.loop_buffer {
         let n = plan.samples.unwrap_or(0) as usize;
-        let mut buffer = periodic_buffer(&target_psd, fs, n, s.seed)?;
+        let mut buffer = periodic_buffer_until(&target_psd, fs, n, s.seed, stop)?;
         // Tones (whole cycles, checked by the plan) and the offset, from sample index 0.
         tone::add_deterministic(&profile.tones, profile.offset, fs, 0, &mut buffer);
         let var = periodic_variance(&target_psd, fs, n)
@@ -166,8 +171,8 @@ fn engine(
     }
     let design = design.expect("a stream's design is made before its engine");
     if profile.channels > 1 {
-        let m = Rc::new(RefCell::new(ChannelGenerator::from_design(
-            profile, design, s.seed, plan.start,
+        let m = Rc::new(RefCell::new(ChannelGenerator::from_design_until(
+            profile, design, s.seed, plan.start, stop,
         )?));
         let var = m.borrow().generator().variance();
         let engine_m = m.clone();
@@ -175,8 +180,8 @@ fn engine(
             Box::new(move |out: &mut [f64]| engine_m.borrow_mut().fill_frames(out));
         return Ok((engine, var, None, Some(m)));
     }
-    let g = Rc::new(RefCell::new(Generator::from_design(
-        profile, design, s.seed, plan.start,
+    let g = Rc::new(RefCell::new(Generator::from_design_until(
+        profile, design, s.seed, plan.start, stop,
     )?));
     let var = g.borrow().variance();
     let engine_g = g.clone();

@@ -393,7 +393,7 @@ impl<'a> Render<'a> {
         let interrupted = self.interrupt.unwrap_or(&never);
         super::on_pool(self.s.threads, || {
             let mut plan = plan::Plan::new(self.profile, &self.s, target)?;
-            let built = engine::build(&mut plan, &self.s)?;
+            let built = engine::build(&mut plan, &self.s, crate::stop::Stop::on(interrupted))?;
             output::write(plan, built, &self.s, interrupted)
         })
     }
