@@ -42,6 +42,8 @@ struct Case {
     /// A profile row (see [`profile`]): `generate` on the file `p.toml`, which must be
     /// refused by the profile parser; it runs in-process.
     parser: bool,
+    /// Environment variables set for the binary.
+    env: Vec<(String, String)>,
 }
 
 impl Case {
@@ -52,7 +54,13 @@ impl Case {
             args: Vec::new(),
             expect: Vec::new(),
             parser: false,
+            env: Vec::new(),
         }
+    }
+
+    fn env(mut self, name: &str, value: &str) -> Case {
+        self.env.push((name.to_string(), value.to_string()));
+        self
     }
 
     fn file(mut self, name: &str, body: impl AsRef<[u8]>) -> Case {
@@ -2241,7 +2249,77 @@ fn cases() -> Vec<Case> {
             .file("m.csv.json", r#"{"unit": "A"}"#)
             .args(&["analyze", "m.csv"])
             .expect(&["m.csv", "value_V", "in V", "m.csv.json", "in A"]),
+        // issue 22: compute
+        profile(
+            "too many noise sources",
+            format!("{HEAD}{}", "[[floor]]\ndensity = \"1 nV/rtHz\"\n".repeat(257)),
+            &["p.toml:517", "floor[256]", "at most 256 noise sources", "got 257"],
+        ),
+        profile(
+            "too many noise sources of several kinds",
+            format!(
+                "{HEAD}{}{}",
+                "[[floor]]\ndensity = \"1 nV/rtHz\"\n".repeat(200),
+                "[[resistor]]\nresistance = \"1 kOhm\"\n".repeat(57)
+            ),
+            &["p.toml:517", "resistor[56]", "at most 256 noise sources", "got 257"],
+        ),
+        profile(
+            "too many table points together",
+            format!(
+                "{HEAD}[[table]]\npoints = [{}]\n[[table]]\npoints = [{}]\n",
+                many_points(60_000),
+                many_points(40_001)
+            ),
+            &["p.toml:8", "table[1].points", "at most 100000 points", "100001"],
+        ),
+        profile(
+            "too many levels in one burst",
+            format!(
+                "{HEAD}[[burst]]\nlevels = [{}]\ndwell = [{}]\n",
+                vec!["0"; 65].join(", "),
+                vec!["1"; 65].join(", ")
+            ),
+            &["p.toml:6", "burst[0].levels", "at most 64 levels", "got 65"],
+        ),
+        profile(
+            "too many burst levels together",
+            format!(
+                "{HEAD}{}",
+                format!(
+                    "[[burst]]\nlevels = [{}]\ndwell = [{}]\n",
+                    (0..60).map(|i| i.to_string()).collect::<Vec<_>>().join(", "),
+                    vec!["1"; 60].join(", ")
+                )
+                .repeat(5)
+            ),
+            &["p.toml:18", "burst[4].levels", "at most 256 levels", "have 300"],
+        ),
+        generate(
+            "--threads past the limit",
+            &["-o", "x.wav", "--threads", "100000"],
+            &["option --threads", "from 1 to 1024", "got 100000"],
+        ),
+        generate("RAYON_NUM_THREADS past the limit", &["-o", "x.wav"], &[])
+            .env("RAYON_NUM_THREADS", "100000")
+            .expect(&["RAYON_NUM_THREADS", "\"100000\"", "from 1 to 1024"]),
+        generate("RAYON_NUM_THREADS not a number", &["-o", "x.wav"], &[])
+            .env("RAYON_NUM_THREADS", "four")
+            .expect(&["RAYON_NUM_THREADS", "\"four\"", "whole number"]),
+        Case::new("RAYON_NUM_THREADS past the limit in analyze")
+            .file("c.csv", &big)
+            .env("RAYON_NUM_THREADS", "100000")
+            .args(&["analyze", "c.csv"])
+            .expect(&["RAYON_NUM_THREADS", "\"100000\"", "from 1 to 1024"]),
     ]
+}
+
+/// `n` table points `[f, 1e-9]` at rising frequencies from 1 Hz.
+fn many_points(n: usize) -> String {
+    (0..n)
+        .map(|i| format!("[{}, 1e-9]", 1.0 + i as f64 * 1e-4))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// Every file and folder under `dir`, relative, sorted.
@@ -2283,7 +2361,16 @@ fn check_binary(case: &Case) -> Outcome {
         std::fs::create_dir_all(p.parent().unwrap()).unwrap();
         std::fs::write(p, body).unwrap();
     }
-    let o = run(&case.args, &s);
+    let o = if case.env.is_empty() {
+        run(&case.args, &s)
+    } else {
+        common::bin()
+            .args(&case.args)
+            .envs(case.env.iter().map(|(k, v)| (k, v)))
+            .current_dir(&s.dir)
+            .output()
+            .expect("the noisewright binary runs")
+    };
     let mut out = Outcome {
         how: format!("`noisewright {}`", case.args.join(" ")),
         code: o.status.code(),

@@ -39,10 +39,14 @@ pub const NEXT_ROW_TOLERANCE: f64 = 1e-6;
 pub const MIN_DWELL_SAMPLES: f64 = 1e-3;
 
 /// Most levels one burst may have. Its chain's model costs O(K³) per frequency (a K×K
-/// complex solve) and the eigenvalue solve O(K³); at this limit a budget or an analysis
-/// with the burst still takes seconds, not minutes. A chain of more levels than this is
-/// better described as several bursts (independent traps add).
+/// complex solve) and the eigenvalue solve O(K³); at this limit an analysis against the
+/// profile takes about 4 s on one core (measured 2026-12-04), at 128 levels 27 s. A chain of
+/// more levels is better described as several bursts (independent traps add).
 pub const MAX_BURST_LEVELS: usize = 64;
+
+/// Most levels all bursts of a profile may have together (four bursts at
+/// [`MAX_BURST_LEVELS`]): the cost of the bursts' models adds up.
+pub const MAX_TOTAL_BURST_LEVELS: usize = 256;
 
 /// How a burst source's path becomes one sample.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -121,10 +125,29 @@ pub(super) fn validate_bursts(
     unit: Unit,
     fs: f64,
 ) -> Result<Vec<Burst>> {
-    raw.iter()
-        .enumerate()
-        .map(|(i, b)| validate_burst(cx, i, b.get_ref(), b.span(), unit, fs))
-        .collect()
+    let mut total = 0;
+    let mut bursts = Vec::with_capacity(raw.len());
+    for (i, b) in raw.iter().enumerate() {
+        let burst = validate_burst(cx, i, b.get_ref(), b.span(), unit, fs)?;
+        total += burst.len();
+        if total > MAX_TOTAL_BURST_LEVELS {
+            return Err(cx.err(
+                &format!("burst[{i}].levels"),
+                b.get_ref().levels.as_ref().map(|l| l.span()),
+                format!(
+                    "a profile's bursts may have at most {MAX_TOTAL_BURST_LEVELS} levels \
+                     together; with this burst they have {total}"
+                ),
+            ));
+        }
+        // The chain's relaxation rates do not depend on the rate: a chain whose eigenvalues
+        // cannot be found is refused here, so no command meets it later.
+        if let Err(e) = crate::model::burst::relaxation_modes(&burst) {
+            return Err(cx.err(&format!("burst[{i}]"), Some(b.span()), e.to_string()));
+        }
+        bursts.push(burst);
+    }
+    Ok(bursts)
 }
 
 fn validate_burst(
@@ -153,6 +176,16 @@ fn validate_burst(
         )
     })?;
     let k = levels_v.get_ref().len();
+    if k > MAX_BURST_LEVELS {
+        return Err(cx.err(
+            &key("levels"),
+            Some(levels_v.span()),
+            format!(
+                "a burst may have at most {MAX_BURST_LEVELS} levels, got {k}; describe more \
+                 levels as several bursts (independent traps add)"
+            ),
+        ));
+    }
     if k < 2 {
         return Err(cx.err(
             &key("levels"),

@@ -11,12 +11,15 @@ mod tone;
 
 pub use crate::units::{Dimension, format_quantity, format_quantity_exact, parse_quantity};
 pub use burst::{
-    Burst, BurstSampling, MAX_BURST_LEVELS, MIN_DWELL_SAMPLES, NEXT_ROW_TOLERANCE, describe_levels,
+    Burst, BurstSampling, MAX_BURST_LEVELS, MAX_TOTAL_BURST_LEVELS, MIN_DWELL_SAMPLES,
+    NEXT_ROW_TOLERANCE, describe_levels,
 };
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
-pub use schema::{DEFAULT_TEMPERATURE_K, MAX_ORDER, MIN_LOW_TO_RATE, parse_profile};
+pub use schema::{
+    DEFAULT_TEMPERATURE_K, MAX_ORDER, MAX_SOURCES, MAX_TABLE_POINTS, MIN_LOW_TO_RATE, parse_profile,
+};
 pub use tone::{AmplitudeConvention, Tone};
 
 use serde::Serialize;

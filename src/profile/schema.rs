@@ -59,6 +59,18 @@ pub const MIN_LOW_TO_RATE: f64 = 1e-15;
 /// Highest Butterworth order accepted for `band.order`.
 pub const MAX_ORDER: u32 = 8;
 
+/// Most noise sources a profile may have: its `[[floor]]`, `[[resistor]]`, `[[table]]`,
+/// `[[amplifier]]` and `[[burst]]` tables together. Every density evaluation sums them all
+/// and a stream's design evaluates the density about 16 000 times per pyramid level: at this
+/// limit `generate` spends under a second on its design (measured 2026-12-04: 0.8 s for 256
+/// floors with corners, 3.8 s for 1024).
+pub const MAX_SOURCES: usize = 256;
+
+/// Most `[frequency, density]` points all `[[table]]` sources of a profile may have together.
+/// Every point is a panel edge of the band integrals: at this limit `generate` and `budget`
+/// take about 2.6 s each (measured 2026-12-04; 400 000 points took 7 to 8 s).
+pub const MAX_TABLE_POINTS: usize = 100_000;
+
 const TOP_KEYS: &[&str] = &[
     "name",
     "unit",
@@ -484,6 +496,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
     };
     let fs = positive(cx, fs_v, "sample_rate", Dimension::Frequency, unit)?;
     let band = validate_band(cx, raw.band.as_ref(), unit, fs)?;
+    check_source_count(cx, &raw)?;
 
     let mut sources = validate_floors(cx, &raw.floor, unit)?;
     sources.extend(validate_resistors(cx, &raw.resistor, unit)?);
@@ -519,6 +532,42 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         channels,
         correlation,
     })
+}
+
+/// Refuses more than [`MAX_SOURCES`] source tables, naming the first one past the limit (in
+/// the order floor, resistor, table, amplifier, burst).
+fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
+    let kinds: [(&str, Vec<Range<usize>>); 5] = [
+        ("floor", raw.floor.iter().map(|t| t.span()).collect()),
+        ("resistor", raw.resistor.iter().map(|t| t.span()).collect()),
+        ("table", raw.table.iter().map(|t| t.span()).collect()),
+        (
+            "amplifier",
+            raw.amplifier.iter().map(|t| t.span()).collect(),
+        ),
+        ("burst", raw.burst.iter().map(|t| t.span()).collect()),
+    ];
+    let total: usize = kinds.iter().map(|(_, v)| v.len()).sum();
+    if total <= MAX_SOURCES {
+        return Ok(());
+    }
+    let (kind, i, span) = kinds
+        .iter()
+        .flat_map(|(kind, v)| {
+            v.iter()
+                .enumerate()
+                .map(move |(i, s)| (*kind, i, s.clone()))
+        })
+        .nth(MAX_SOURCES)
+        .expect("more tables than the limit");
+    Err(cx.err(
+        &format!("{kind}[{i}]"),
+        Some(span),
+        format!(
+            "a profile may have at most {MAX_SOURCES} noise sources ([[floor]], [[resistor]], \
+             [[table]], [[amplifier]] and [[burst]] tables together), got {total}"
+        ),
+    ))
 }
 
 /// The profile's `unit`: volts when absent.
@@ -731,6 +780,7 @@ fn validate_resistors(
 /// The `[[table]]` sources, in file order.
 fn validate_tables(cx: &Cx<'_>, tables: &[Spanned<RawTable>], unit: Unit) -> Result<Vec<Source>> {
     let mut sources = Vec::new();
+    let mut total = 0;
     for (i, t) in tables.iter().enumerate() {
         let key = format!("table[{i}].points");
         let span = Some(t.span());
@@ -748,6 +798,18 @@ fn validate_tables(cx: &Cx<'_>, tables: &[Spanned<RawTable>], unit: Unit) -> Res
                 &key,
                 Some(pts.span()),
                 "needs at least one [frequency, density] point",
+            ));
+        }
+        total += pts.get_ref().len();
+        if total > MAX_TABLE_POINTS {
+            return Err(cx.err(
+                &key,
+                Some(pts.span()),
+                format!(
+                    "a profile's tables may have at most {MAX_TABLE_POINTS} points together; \
+                     with this table they have {total} (thin the table: the density between \
+                     points is interpolated as a power law)"
+                ),
             ));
         }
         let mut points: Vec<(f64, f64)> = Vec::with_capacity(pts.get_ref().len());

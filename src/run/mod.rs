@@ -50,15 +50,47 @@ pub(crate) fn on_pool<T: Send>(
         .install(f)
 }
 
-/// Refuses a pool of no threads ([`Setting::Threads`]); `None` is the default pool. A caller
-/// may check this before reading a profile, so the settings' errors come first.
+/// Most worker threads a run may ask for, by [`Setting::Threads`] or by the environment
+/// variable `RAYON_NUM_THREADS`: far above any machine's useful count, and low enough that a
+/// mistyped count is refused at once instead of after tens of seconds spent starting
+/// threads (or a panic inside the thread pool when the system runs out of them).
+pub const MAX_THREADS: usize = 1024;
+
+/// The environment variable that sizes the default pool (read by rayon; 0 means one thread
+/// per core, rayon's documented default).
+const THREADS_VARIABLE: &str = "RAYON_NUM_THREADS";
+
+/// Refuses a pool of no threads or of more than [`MAX_THREADS`] ([`Setting::Threads`]);
+/// `None` is the default pool, whose size `RAYON_NUM_THREADS` may set: a value there that is
+/// not a whole number from 0 to [`MAX_THREADS`] is refused too ([`Error::Unsupported`], naming
+/// the variable). A caller may check this before reading a profile, so the settings' errors
+/// come first.
 pub fn check_threads(threads: Option<usize>) -> Result<()> {
     match threads {
         Some(0) => Err(Error::setting(
             Setting::Threads,
             "expected a whole number of threads of at least 1, got 0",
         )),
-        _ => Ok(()),
+        Some(n) if n > MAX_THREADS => Err(Error::setting(
+            Setting::Threads,
+            format!("expected a whole number of threads from 1 to {MAX_THREADS}, got {n}"),
+        )),
+        Some(_) => Ok(()),
+        None => check_threads_variable(std::env::var_os(THREADS_VARIABLE)),
+    }
+}
+
+/// The check of `RAYON_NUM_THREADS` (its value, if set) for [`check_threads`].
+fn check_threads_variable(value: Option<std::ffi::OsString>) -> Result<()> {
+    let Some(value) = value else { return Ok(()) };
+    let text = value.to_string_lossy();
+    match text.trim().parse::<usize>() {
+        _ if text.is_empty() => Ok(()),
+        Ok(n) if n <= MAX_THREADS => Ok(()),
+        _ => Err(Error::Unsupported(format!(
+            "the environment variable {THREADS_VARIABLE} is {text:?}: expected a whole number \
+             of worker threads from 1 to {MAX_THREADS} (0, or unset: one per core)"
+        ))),
     }
 }
 
@@ -67,4 +99,38 @@ pub fn manifest_path(path: &Path) -> PathBuf {
     let mut s = path.as_os_str().to_owned();
     s.push(".json");
     PathBuf::from(s)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn thread_counts_past_the_limit_are_refused_by_flag_and_by_variable() {
+        assert!(check_threads(Some(1)).is_ok());
+        assert!(check_threads(Some(MAX_THREADS)).is_ok());
+        let e = check_threads(Some(MAX_THREADS + 1)).unwrap_err();
+        assert!(e.cli_text().contains("--threads"), "{e}");
+        assert!(e.to_string().contains("from 1 to 1024, got 1025"), "{e}");
+        assert_eq!(e.exit_code(), 2);
+        for ok in [
+            None,
+            Some(""),
+            Some("0"),
+            Some("1"),
+            Some(" 8 "),
+            Some("1024"),
+        ] {
+            assert!(check_threads_variable(ok.map(Into::into)).is_ok(), "{ok:?}");
+        }
+        for bad in ["100000", "1025", "-1", "four", "2.5"] {
+            let e = check_threads_variable(Some(bad.into())).unwrap_err();
+            let text = e.to_string();
+            assert!(
+                text.contains("RAYON_NUM_THREADS") && text.contains(bad),
+                "{text}"
+            );
+            assert_eq!(e.exit_code(), 2);
+        }
+    }
 }

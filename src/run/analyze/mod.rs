@@ -318,6 +318,7 @@ impl<'a> Analysis<'a> {
     pub fn run(&self) -> Result<AnalysisReport> {
         let never = AtomicBool::new(false);
         let interrupted = self.interrupt.unwrap_or(&never);
+        super::check_threads(None)?;
         super::on_pool(None, || self.analyse(interrupted))
     }
 
