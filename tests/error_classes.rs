@@ -2252,8 +2252,16 @@ fn cases() -> Vec<Case> {
         // issue 22: compute
         profile(
             "too many noise sources",
-            format!("{HEAD}{}", "[[floor]]\ndensity = \"1 nV/rtHz\"\n".repeat(257)),
-            &["p.toml:517", "floor[256]", "at most 256 noise sources", "got 257"],
+            format!(
+                "{HEAD}{}",
+                "[[floor]]\ndensity = \"1 nV/rtHz\"\n".repeat(257)
+            ),
+            &[
+                "p.toml:517",
+                "floor[256]",
+                "at most 256 noise sources",
+                "got 257",
+            ],
         ),
         profile(
             "too many noise sources of several kinds",
@@ -2262,7 +2270,12 @@ fn cases() -> Vec<Case> {
                 "[[floor]]\ndensity = \"1 nV/rtHz\"\n".repeat(200),
                 "[[resistor]]\nresistance = \"1 kOhm\"\n".repeat(57)
             ),
-            &["p.toml:517", "resistor[56]", "at most 256 noise sources", "got 257"],
+            &[
+                "p.toml:517",
+                "resistor[56]",
+                "at most 256 noise sources",
+                "got 257",
+            ],
         ),
         profile(
             "too many table points together",
@@ -2271,7 +2284,12 @@ fn cases() -> Vec<Case> {
                 many_points(60_000),
                 many_points(40_001)
             ),
-            &["p.toml:8", "table[1].points", "at most 100000 points", "100001"],
+            &[
+                "p.toml:8",
+                "table[1].points",
+                "at most 100000 points",
+                "100001",
+            ],
         ),
         profile(
             "too many levels in one burst",
@@ -2288,12 +2306,20 @@ fn cases() -> Vec<Case> {
                 "{HEAD}{}",
                 format!(
                     "[[burst]]\nlevels = [{}]\ndwell = [{}]\n",
-                    (0..60).map(|i| i.to_string()).collect::<Vec<_>>().join(", "),
+                    (0..60)
+                        .map(|i| i.to_string())
+                        .collect::<Vec<_>>()
+                        .join(", "),
                     vec!["1"; 60].join(", ")
                 )
                 .repeat(5)
             ),
-            &["p.toml:18", "burst[4].levels", "at most 256 levels", "have 300"],
+            &[
+                "p.toml:18",
+                "burst[4].levels",
+                "at most 256 levels",
+                "have 300",
+            ],
         ),
         generate(
             "--threads past the limit",
