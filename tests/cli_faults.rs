@@ -612,3 +612,80 @@ fn closed_pipe() -> Stdio {
     drop(read);
     Stdio::from(write)
 }
+
+/// An output that is a hard link to, or a symbolic link to, an input of the run, or an input
+/// that is a link to the output, is the same file: refused with exit 2, and the input keeps
+/// its bytes.
+#[test]
+fn an_output_linked_to_an_input_is_refused() {
+    use std::os::unix::fs::symlink;
+    let s = Scratch::new("links");
+    s.file("w.toml", WHITE);
+    std::fs::hard_link(s.path("w.toml"), s.path("hard.toml")).unwrap();
+    symlink("w.toml", s.path("soft.toml")).unwrap();
+    run_ok(
+        &["generate", "w.toml", "-o", "cap.raw", "--samples", "4096"],
+        &s.dir,
+    );
+    symlink("cap.raw", s.path("cap-link.raw")).unwrap();
+    let capture = std::fs::read(s.path("cap.raw")).unwrap();
+    let rows: &[(&str, &[&str], &[&str])] = &[
+        (
+            "hard link",
+            &["generate", "w.toml", "-o", "hard.toml", "--format", "raw"],
+            &["--output", "hard.toml", "same file as the profile w.toml"],
+        ),
+        (
+            "symbolic link",
+            &["generate", "w.toml", "-o", "soft.toml", "--format", "raw"],
+            &["--output", "soft.toml", "same file as the profile w.toml"],
+        ),
+        (
+            "profile through a link",
+            &["generate", "soft.toml", "-o", "w.toml", "--format", "raw"],
+            &["--output", "same file as the profile soft.toml"],
+        ),
+        (
+            "budget plot",
+            &["budget", "hard.toml", "--plot", "soft.toml"],
+            &["--plot", "soft.toml", "same file as the profile hard.toml"],
+        ),
+        (
+            "fit onto a link to the capture",
+            &["analyze", "cap.raw", "--fit", "cap-link.raw"],
+            &["--fit", "cap-link.raw", "same file as the capture cap.raw"],
+        ),
+        (
+            "fit onto the profile by another name",
+            &[
+                "analyze",
+                "cap-link.raw",
+                "--profile",
+                "soft.toml",
+                "--fit",
+                "hard.toml",
+            ],
+            &["--fit", "same file as the profile soft.toml"],
+        ),
+    ];
+    for (row, args, words) in rows {
+        let o = run(args, &s.dir);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{row}: {err}");
+        for w in *words {
+            assert!(err.contains(w), "{row}: message lacks {w:?}: {err}");
+        }
+        assert_eq!(
+            std::fs::read_to_string(s.path("w.toml")).unwrap(),
+            WHITE,
+            "{row}"
+        );
+        assert_eq!(std::fs::read(s.path("cap.raw")).unwrap(), capture, "{row}");
+        assert_eq!(
+            outputs(&s.dir, &[]),
+            ["cap-link.raw", "cap.raw", "cap.raw.json"],
+            "{row}"
+        );
+    }
+}
+

@@ -46,7 +46,7 @@ impl PendingFile {
             ));
         }
         // Not opened here: a named pipe would see its writer come and go before the run.
-        if fs::metadata(target).is_ok_and(|m| !m.is_file() && !m.is_dir()) {
+        if is_direct_target(target) {
             return Ok(PendingFile {
                 tmp: target.to_path_buf(),
                 target: target.to_path_buf(),
@@ -135,6 +135,12 @@ pub(crate) fn commit_all(files: Vec<PendingFile>) -> Result<()> {
         landed.push(target);
     }
     Ok(())
+}
+
+/// Whether `target` exists and is a device, pipe or socket (also behind a symbolic link),
+/// which is written in place rather than replaced by a renamed file.
+pub(crate) fn is_direct_target(target: &Path) -> bool {
+    fs::metadata(target).is_ok_and(|m| !m.is_file() && !m.is_dir())
 }
 
 /// The folder a target is written in (`.` for a bare file name).
