@@ -12,11 +12,12 @@
 use std::fs;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
 
 use crate::error::{Error, Result};
 
 /// A file being written under a temporary name beside its target
-/// (`.NAME.partial-PID`, hidden, in the same folder so the rename cannot cross file
+/// (`.NAME.partial-PID-N`, hidden, in the same folder so the rename cannot cross file
 /// systems); renamed into place by [`PendingFile::commit`] or [`commit_all`], removed if
 /// dropped before that (an error or an interruption).
 #[derive(Debug)]
@@ -61,10 +62,7 @@ impl PendingFile {
             fs::create_dir_all(&dir)
                 .map_err(|e| Error::io(format!("creating folder {}", dir.display()), e))?;
         }
-        let name = target
-            .file_name()
-            .map_or("output".into(), |n| n.to_string_lossy().into_owned());
-        let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
+        let tmp = dir.join(temporary_name(target));
         fs::File::create(&tmp).map_err(|e| Error::io(format!("creating {shown}"), e))?;
         Ok(PendingFile {
             tmp,
@@ -135,6 +133,26 @@ pub(crate) fn commit_all(files: Vec<PendingFile>) -> Result<()> {
         landed.push(target);
     }
     Ok(())
+}
+
+/// The longest part of a target's name kept in its temporary name, bytes: a name the file
+/// system only just takes must still leave room for the dot, the suffix and the counter.
+const KEPT_NAME_BYTES: usize = 64;
+
+/// The temporary name of `target`: `.NAME.partial-PID-N`, NAME cut to [`KEPT_NAME_BYTES`]
+/// (at a character boundary) and N counting the files this process has made, so two files
+/// of one process never share it, even when their names start alike.
+fn temporary_name(target: &Path) -> String {
+    static MADE: AtomicU64 = AtomicU64::new(0);
+    let name = target
+        .file_name()
+        .map_or("output".into(), |n| n.to_string_lossy().into_owned());
+    let mut cut = name.len().min(KEPT_NAME_BYTES);
+    while !name.is_char_boundary(cut) {
+        cut -= 1;
+    }
+    let n = MADE.fetch_add(1, Ordering::Relaxed);
+    format!(".{}.partial-{}-{n}", &name[..cut], std::process::id())
 }
 
 /// Whether `target` exists and is a device, pipe or socket (also behind a symbolic link),
@@ -238,6 +256,20 @@ mod tests {
         assert_eq!(names(&d), ["x.raw"], "only the folder may remain");
         assert!(d.join("x.raw").is_dir());
         fs::remove_dir_all(&d).unwrap();
+    }
+
+    #[test]
+    fn a_long_name_keeps_a_short_temporary_name_and_each_is_unique() {
+        let long = format!("{}.raw", "é".repeat(100));
+        let a = temporary_name(Path::new(&long));
+        let b = temporary_name(Path::new(&format!("{long}.json")));
+        assert_ne!(a, b);
+        // 32 two-byte characters (64 bytes) of the name are kept, then the suffix.
+        let kept = format!(".{}.partial-{}-", "é".repeat(32), std::process::id());
+        assert!(a.starts_with(&kept) && b.starts_with(&kept), "{a} / {b}");
+        assert!(a.len() < kept.len() + 21, "{a}");
+        let short = temporary_name(Path::new("dir/o.raw"));
+        assert!(short.starts_with(&format!(".o.raw.partial-{}-", std::process::id())));
     }
 
     #[test]
