@@ -120,7 +120,12 @@ impl Drop for PendingFile {
 /// removed again and the rest are dropped (their temporary files removed), so either every
 /// file lands or none does. Put the file whose presence others rely on last (the noise
 /// file after its manifest).
+///
+/// While it renames, it holds an exclusive advisory lock on each folder the files go to, so
+/// two runs committing to the same names cannot interleave their renames: the files that
+/// stand together at the end are one run's (its samples beside its own manifest).
 pub(crate) fn commit_all(files: Vec<PendingFile>) -> Result<()> {
+    let _locks = lock_folders(&files);
     let mut landed: Vec<PathBuf> = Vec::with_capacity(files.len());
     for f in files {
         let target = f.target.clone();
@@ -159,6 +164,44 @@ fn temporary_name(target: &Path) -> String {
 /// which is written in place rather than replaced by a renamed file.
 pub(crate) fn is_direct_target(target: &Path) -> bool {
     fs::metadata(target).is_ok_and(|m| !m.is_file() && !m.is_dir())
+}
+
+/// Takes an exclusive advisory lock (`flock`) on each folder that `files` are renamed
+/// into, in the order of their canonical paths so that two runs cannot each wait for the
+/// other; the locks end when the returned files are dropped, or with the process. A folder
+/// that cannot be opened for reading (no read permission) or locked (a system without
+/// `flock`) is committed to without its lock.
+fn lock_folders(files: &[PendingFile]) -> Vec<fs::File> {
+    let mut folders: Vec<PathBuf> = files
+        .iter()
+        .filter(|f| !f.direct)
+        .filter_map(|f| fs::canonicalize(folder_of(&f.target)).ok())
+        .collect();
+    folders.sort();
+    folders.dedup();
+    folders
+        .iter()
+        .filter_map(|d| {
+            let f = fs::File::open(d).ok()?;
+            lock(&f).then_some(f)
+        })
+        .collect()
+}
+
+/// Takes an exclusive advisory lock on `f` (`flock`, released when `f` is closed), waiting
+/// for another holder; false when it cannot be taken (or on systems without it).
+fn lock(f: &fs::File) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::fd::AsRawFd;
+        // SAFETY: flock only acts on the open descriptor of `f`, which outlives the call.
+        unsafe { libc::flock(f.as_raw_fd(), libc::LOCK_EX) == 0 }
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = f;
+        false
+    }
 }
 
 /// The folder a target is written in (`.` for a bare file name).
@@ -255,6 +298,49 @@ mod tests {
         assert!(e.to_string().contains("x.raw"), "{e}");
         assert_eq!(names(&d), ["x.raw"], "only the folder may remain");
         assert!(d.join("x.raw").is_dir());
+        fs::remove_dir_all(&d).unwrap();
+    }
+
+    /// Four writers commit a manifest and a data file to the same two names at once, 200
+    /// times: after each round the two files hold the same writer's bytes. Without the
+    /// folder lock the renames interleave (one writer's data beside another's manifest) in
+    /// some rounds.
+    #[test]
+    fn concurrent_commits_to_one_name_leave_one_writers_pair() {
+        const WRITERS: usize = 4;
+        let d = scratch("race");
+        let (data, manifest) = (d.join("o.raw"), d.join("o.raw.json"));
+        let together = std::sync::Barrier::new(WRITERS);
+        let mixed = AtomicU64::new(0);
+        std::thread::scope(|scope| {
+            for w in 0..WRITERS {
+                let (data, manifest, together, mixed) = (&data, &manifest, &together, &mixed);
+                scope.spawn(move || {
+                    for round in 0..200 {
+                        let m = PendingFile::create(manifest).unwrap();
+                        m.write_all(format!("{w}").as_bytes()).unwrap();
+                        let p = PendingFile::create(data).unwrap();
+                        p.write_all(format!("{w}").as_bytes()).unwrap();
+                        together.wait();
+                        commit_all(vec![m, p]).unwrap();
+                        together.wait();
+                        if w == 0 && fs::read(manifest).unwrap() != fs::read(data).unwrap() {
+                            eprintln!(
+                                "round {round}: the data of one writer, the manifest of another"
+                            );
+                            mixed.fetch_add(1, Ordering::Relaxed);
+                        }
+                        together.wait();
+                    }
+                });
+            }
+        });
+        assert_eq!(mixed.load(Ordering::Relaxed), 0, "rounds with a mixed pair");
+        assert_eq!(
+            names(&d),
+            ["o.raw", "o.raw.json"],
+            "no temporary file is left"
+        );
         fs::remove_dir_all(&d).unwrap();
     }
 
