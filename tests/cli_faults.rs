@@ -613,6 +613,59 @@ fn closed_pipe() -> Stdio {
     Stdio::from(write)
 }
 
+/// A standard output closed when the command starts (`>&-`, here `close(1)` in the child
+/// before `exec`) fails before any work, exit 1, naming standard output; no file is written.
+/// `> /dev/null` is the way to discard the output, and stays a success.
+#[test]
+fn a_standard_output_closed_from_the_start_is_not_success() {
+    let s = Scratch::new("stdout-closed");
+    let p = s.file("w.toml", WHITE);
+    let p = p.to_str().unwrap();
+    let rows: &[(&str, &[&str])] = &[
+        (
+            "stream",
+            &["generate", p, "-o", "-", "--samples", "1000000"],
+        ),
+        ("budget", &["budget", p]),
+        (
+            "summary",
+            &["generate", p, "-o", "x.raw", "--samples", "100"],
+        ),
+    ];
+    for (row, args) in rows {
+        let mut cmd = bin();
+        cmd.args(*args).current_dir(&s.dir).stdout(Stdio::null());
+        // SAFETY: only close(2), async-signal-safe, runs between fork and exec.
+        unsafe {
+            cmd.pre_exec(|| {
+                libc::close(1);
+                Ok(())
+            });
+        }
+        let o = cmd.output().unwrap();
+        assert_failed_with(
+            &o,
+            &["standard output", "closed when the command started"],
+            row,
+        );
+        let o = bin()
+            .args(*args)
+            .current_dir(&s.dir)
+            .stdout(Stdio::null())
+            .output()
+            .unwrap();
+        assert_eq!(
+            o.status.code(),
+            Some(0),
+            "{row} to /dev/null: {}",
+            text(&o.stderr)
+        );
+        let _ = std::fs::remove_file(s.path("x.raw"));
+        let _ = std::fs::remove_file(s.path("x.raw.json"));
+    }
+    assert!(outputs(&s.dir, &[]).is_empty());
+}
+
 /// An output that is a hard link to, or a symbolic link to, an input of the run, or an input
 /// that is a link to the output, is the same file: refused with exit 2, and the input keeps
 /// its bytes.
