@@ -1,8 +1,8 @@
 //! A standard output closed when the command starts (`noisewright … >&-`) is refused before
 //! any work, exit 1: what the command writes there would reach no one, and "success" would
 //! be a lie. A reader that closes a pipe part-way (`| head -c 10`) is another matter: that is
-//! the reader having what it wants, a quiet end with exit 0 (see `print_out` and
-//! `RenderReport::reader_closed`).
+//! the reader having what it wants, a quiet end with exit 0 (common practice for programs
+//! that write to a pipe; see `print_out` and `RenderReport::reader_closed`).
 //!
 //! The Rust runtime hides a closed descriptor: before `main` it opens `/dev/null` on each of
 //! descriptors 0 to 2 that is closed (seen with rustc 1.95 on Linux: under `>&-`,
