@@ -1,8 +1,8 @@
 //! Every class of bad input, in one table. Each row is a malformed profile, option or capture
 //! file; the binary must exit 2 with a message that names the file (or the option), the key
 //! or position (TOML key path and line, CSV line, WAV chunk and byte offset, option name) and
-//! what is expected, write nothing to standard output, and leave no file behind (no target,
-//! no manifest, no `.partial` leftover, no `out/` folder).
+//! what is expected, write nothing to standard output, leave every input file as it was, and
+//! leave no file behind (no target, no manifest, no `.partial` leftover, no `out/` folder).
 //!
 //! A bad profile is refused by the profile parser before `generate` opens any file, and the
 //! binary prints that error as `noisewright: error: {e}` and exits with `e.exit_code()`. So
@@ -2337,6 +2337,104 @@ fn cases() -> Vec<Case> {
             .env("RAYON_NUM_THREADS", "100000")
             .args(&["analyze", "c.csv"])
             .expect(&["RAYON_NUM_THREADS", "\"100000\"", "from 1 to 1024"]),
+        // issue 22: outputs
+        generate(
+            "output: the profile itself",
+            &["-o", "w.toml", "--format", "raw", "--samples", "100"],
+            &[
+                "--output",
+                "w.toml",
+                "same file as the profile w.toml",
+                "destroy",
+            ],
+        ),
+        generate(
+            "output: the profile, spelled with ./",
+            &["-o", "./w.toml", "--format", "raw", "--samples", "100"],
+            &["--output", "./w.toml", "same file as the profile w.toml"],
+        ),
+        generate(
+            "output: the profile, through a folder yet to be made",
+            &["-o", "new/../w.toml", "--format", "raw", "--samples", "100"],
+            &[
+                "--output",
+                "new/../w.toml",
+                "same file as the profile w.toml",
+            ],
+        ),
+        Case::new("output: its manifest is the profile")
+            .file("o.raw.json", W)
+            .args(&["generate", "o.raw.json", "-o", "o.raw", "--samples", "100"])
+            .expect(&[
+                "--output",
+                "the manifest beside o.raw, o.raw.json,",
+                "same file as the profile o.raw.json",
+            ]),
+        Case::new("output: budget's plot is the profile")
+            .file("w.toml", W)
+            .args(&["budget", "w.toml", "--plot", "w.toml"])
+            .expect(&["--plot", "same file as the profile w.toml"]),
+        capture(
+            "output: the fit is the capture",
+            "cap.wav",
+            good_wav(64),
+            &["--fit", "cap.wav"],
+            &["--fit", "cap.wav", "same file as the capture cap.wav"],
+        ),
+        Case::new("output: the plot is the capture's manifest")
+            .file("cap.wav", good_wav(64))
+            .file("cap.wav.json", "{}")
+            .args(&["analyze", "cap.wav", "--plot", "cap.wav.json"])
+            .expect(&["--plot", "same file as the capture's manifest cap.wav.json"]),
+        Case::new("output: the fit is the profile")
+            .file("cap.wav", good_wav(64))
+            .file("w.toml", W)
+            .args(&[
+                "analyze",
+                "cap.wav",
+                "--profile",
+                "w.toml",
+                "--fit",
+                "./w.toml",
+            ])
+            .expect(&["--fit", "./w.toml", "same file as the profile w.toml"]),
+        Case::new("output: the plot and the report one file")
+            .file("cap.wav", good_wav(64))
+            .args(&["analyze", "cap.wav", "--plot", "x.svg", "--report", "x.svg"])
+            .expect(&["--report", "x.svg", "written for --plot", "its own name"]),
+        generate(
+            "output: a name ending in a separator",
+            &["-o", "name/", "--format", "raw", "--samples", "100"],
+            &["--output", "\"name/\"", "names a folder", "name of a file"],
+        ),
+        Case::new("output: a plot named as a folder")
+            .file("cap.wav", good_wav(64))
+            .args(&["analyze", "cap.wav", "--plot", "pics/"])
+            .expect(&["--plot", "\"pics/\"", "names a folder"]),
+        generate(
+            "output: a name longer than the file system takes",
+            &[
+                "-o",
+                &format!("{}.raw", "n".repeat(252)),
+                "--samples",
+                "100",
+            ],
+            &[
+                "--output",
+                "has a name of 256 bytes",
+                "choose a shorter name",
+            ],
+        ),
+        generate(
+            "output: a legal name whose manifest's name is too long",
+            &[
+                "-o",
+                &format!("{}.raw", "n".repeat(247)),
+                "--samples",
+                "100",
+            ],
+            &["--output", "the manifest beside", "256 bytes", "\".json\""],
+        ),
     ]
 }
 
@@ -2422,6 +2520,11 @@ fn check_binary(case: &Case) -> Outcome {
         .collect();
     inputs.sort();
     inputs.dedup();
+    for (name, body) in &case.files {
+        if std::fs::read(s.path(name)).ok().as_ref() != Some(body) {
+            out.problems.push(format!("changed the input {name}"));
+        }
+    }
     let left = listing(&s);
     if left != inputs {
         out.problems

@@ -3,6 +3,7 @@
 pub mod analyze;
 pub mod budget;
 pub mod generate;
+mod stdout;
 
 use std::io::{self, Write};
 use std::sync::atomic::AtomicBool;
@@ -33,6 +34,13 @@ pub enum Command {
 /// Run the selected subcommand. Summaries go to standard output, or to standard error when
 /// the samples themselves go to standard output.
 pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
+    let prints = match &cli.command {
+        Command::Generate(args) => !args.quiet || args.output.as_deref() == Some("-"),
+        Command::Budget(_) | Command::Analyze(_) => true,
+    };
+    if prints {
+        stdout::refuse_if_closed_at_start()?;
+    }
     match &cli.command {
         Command::Generate(args) => {
             let report = generate::run(args, interrupted)?;

@@ -117,9 +117,11 @@ pub enum SourceKind {
     },
 }
 
-/// How messages name a profile. Two profiles that differ only in their labels are equal.
+/// How messages name a profile, and the file it was read from (absolute, so a later change
+/// of the working folder does not move it), which a run must not write over. Two profiles
+/// that differ only in their labels are equal.
 #[derive(Debug, Clone, Default)]
-pub(crate) struct Label(pub(crate) String);
+pub(crate) struct Label(pub(crate) String, pub(crate) Option<std::path::PathBuf>);
 
 impl PartialEq for Label {
     fn eq(&self, _: &Label) -> bool {
@@ -175,7 +177,9 @@ impl Profile {
             .map_err(|e| {
                 crate::Error::setting(crate::Setting::Profile, format!("cannot read {file}: {e}"))
             })?;
-        parse_profile(&text, &file)
+        let mut profile = parse_profile(&text, &file)?;
+        profile.label.1 = Some(std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf()));
+        Ok(profile)
     }
 
     /// Validates a profile given as TOML text; `label` names it in messages (a file name, or
@@ -187,6 +191,12 @@ impl Profile {
     /// How messages name the profile: its file as given, or the label it was parsed with.
     pub fn label(&self) -> &str {
         &self.label.0
+    }
+
+    /// The file the profile was read from ([`Profile::from_path`]), made absolute; `None` for
+    /// a profile given as text.
+    pub(crate) fn source_file(&self) -> Option<&std::path::Path> {
+        self.label.1.as_deref()
     }
 
     /// The resolved profile as JSON, for output manifests. Every value is in SI base units and

@@ -520,7 +520,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         super::channels::validate_channels(cx, raw.channels.as_ref(), raw.correlation.as_ref())?;
 
     Ok(Profile {
-        label: super::Label(cx.file.to_string()),
+        label: super::Label(cx.file.to_string(), None),
         name: raw.name.as_ref().map(|n| n.get_ref().clone()),
         unit,
         sample_rate_hz: fs,

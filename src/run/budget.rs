@@ -5,6 +5,7 @@
 use std::path::Path;
 
 use super::PendingFile;
+use super::guard::{Read, Written, check_outputs};
 use crate::error::{Error, Result, Setting};
 use crate::model::budget::{BandSpec, Budget, parse_band, write_text};
 use crate::profile::{MAX_ORDER, Profile};
@@ -60,8 +61,22 @@ pub fn budget_text(budget: &Budget) -> String {
 
 /// Draws every source's density, the total and the band edges of `budget` (made from
 /// `profile`) as a 1000 × 640 px SVG file at `path`. It is written beside the target and
-/// renamed, so a failure leaves no half-written chart.
+/// renamed, so a failure leaves no half-written chart. A path that is the profile's own file
+/// (by any name or link) is refused, as is one that names a folder.
 pub fn write_budget_chart(profile: &Profile, budget: &Budget, path: &Path) -> Result<()> {
+    let profile_file = profile.source_file().map(|path| Read {
+        what: "the profile",
+        path,
+        shown: profile.label().to_string(),
+    });
+    check_outputs(
+        &[Written {
+            setting: Setting::Plot,
+            path,
+            beside: None,
+        }],
+        profile_file.as_slice(),
+    )?;
     let mut svg = Vec::new();
     write_density_svg(&budget_chart(profile, budget), 1000, 640, &mut svg)?;
     let out = PendingFile::create(path)?;

@@ -7,6 +7,7 @@
 pub mod analyze;
 pub mod budget;
 mod generator;
+mod guard;
 mod pending;
 pub mod render;
 
@@ -17,7 +18,7 @@ use crate::error::{Error, Result, Setting};
 
 pub use analyze::{Analysis, AnalysisReport, Verdict};
 pub use generator::Generator;
-pub(crate) use pending::{PendingFile, commit_all};
+pub(crate) use pending::{PendingFile, commit_all, is_direct_target};
 pub use render::{Render, RenderReport};
 
 /// Runs `f` on a worker of a rayon pool of `threads` threads (`None`: the global pool's size,

@@ -12,11 +12,12 @@
 use std::fs;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
 
 use crate::error::{Error, Result};
 
 /// A file being written under a temporary name beside its target
-/// (`.NAME.partial-PID`, hidden, in the same folder so the rename cannot cross file
+/// (`.NAME.partial-PID-N`, hidden, in the same folder so the rename cannot cross file
 /// systems); renamed into place by [`PendingFile::commit`] or [`commit_all`], removed if
 /// dropped before that (an error or an interruption).
 #[derive(Debug)]
@@ -46,7 +47,7 @@ impl PendingFile {
             ));
         }
         // Not opened here: a named pipe would see its writer come and go before the run.
-        if fs::metadata(target).is_ok_and(|m| !m.is_file() && !m.is_dir()) {
+        if is_direct_target(target) {
             return Ok(PendingFile {
                 tmp: target.to_path_buf(),
                 target: target.to_path_buf(),
@@ -61,10 +62,7 @@ impl PendingFile {
             fs::create_dir_all(&dir)
                 .map_err(|e| Error::io(format!("creating folder {}", dir.display()), e))?;
         }
-        let name = target
-            .file_name()
-            .map_or("output".into(), |n| n.to_string_lossy().into_owned());
-        let tmp = dir.join(format!(".{name}.partial-{}", std::process::id()));
+        let tmp = dir.join(temporary_name(target));
         fs::File::create(&tmp).map_err(|e| Error::io(format!("creating {shown}"), e))?;
         Ok(PendingFile {
             tmp,
@@ -122,7 +120,12 @@ impl Drop for PendingFile {
 /// removed again and the rest are dropped (their temporary files removed), so either every
 /// file lands or none does. Put the file whose presence others rely on last (the noise
 /// file after its manifest).
+///
+/// While it renames, it holds an exclusive advisory lock on each folder the files go to, so
+/// two runs committing to the same names cannot interleave their renames: the files that
+/// stand together at the end are one run's (its samples beside its own manifest).
 pub(crate) fn commit_all(files: Vec<PendingFile>) -> Result<()> {
+    let _locks = lock_folders(&files);
     let mut landed: Vec<PathBuf> = Vec::with_capacity(files.len());
     for f in files {
         let target = f.target.clone();
@@ -135,6 +138,70 @@ pub(crate) fn commit_all(files: Vec<PendingFile>) -> Result<()> {
         landed.push(target);
     }
     Ok(())
+}
+
+/// The longest part of a target's name kept in its temporary name, bytes: a name the file
+/// system only just takes must still leave room for the dot, the suffix and the counter.
+const KEPT_NAME_BYTES: usize = 64;
+
+/// The temporary name of `target`: `.NAME.partial-PID-N`, NAME cut to [`KEPT_NAME_BYTES`]
+/// (at a character boundary) and N counting the files this process has made, so two files
+/// of one process never share it, even when their names start alike.
+fn temporary_name(target: &Path) -> String {
+    static MADE: AtomicU64 = AtomicU64::new(0);
+    let name = target
+        .file_name()
+        .map_or("output".into(), |n| n.to_string_lossy().into_owned());
+    let mut cut = name.len().min(KEPT_NAME_BYTES);
+    while !name.is_char_boundary(cut) {
+        cut -= 1;
+    }
+    let n = MADE.fetch_add(1, Ordering::Relaxed);
+    format!(".{}.partial-{}-{n}", &name[..cut], std::process::id())
+}
+
+/// Whether `target` exists and is a device, pipe or socket (also behind a symbolic link),
+/// which is written in place rather than replaced by a renamed file.
+pub(crate) fn is_direct_target(target: &Path) -> bool {
+    fs::metadata(target).is_ok_and(|m| !m.is_file() && !m.is_dir())
+}
+
+/// Takes an exclusive advisory lock (`flock`) on each folder that `files` are renamed
+/// into, in the order of their canonical paths so that two runs cannot each wait for the
+/// other; the locks end when the returned files are dropped, or with the process. A folder
+/// that cannot be opened for reading (no read permission) or locked (a system without
+/// `flock`) is committed to without its lock.
+fn lock_folders(files: &[PendingFile]) -> Vec<fs::File> {
+    let mut folders: Vec<PathBuf> = files
+        .iter()
+        .filter(|f| !f.direct)
+        .filter_map(|f| fs::canonicalize(folder_of(&f.target)).ok())
+        .collect();
+    folders.sort();
+    folders.dedup();
+    folders
+        .iter()
+        .filter_map(|d| {
+            let f = fs::File::open(d).ok()?;
+            lock(&f).then_some(f)
+        })
+        .collect()
+}
+
+/// Takes an exclusive advisory lock on `f` (`flock`, released when `f` is closed), waiting
+/// for another holder; false when it cannot be taken (or on systems without it).
+fn lock(f: &fs::File) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::fd::AsRawFd;
+        // SAFETY: flock only acts on the open descriptor of `f`, which outlives the call.
+        unsafe { libc::flock(f.as_raw_fd(), libc::LOCK_EX) == 0 }
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = f;
+        false
+    }
 }
 
 /// The folder a target is written in (`.` for a bare file name).
@@ -232,6 +299,63 @@ mod tests {
         assert_eq!(names(&d), ["x.raw"], "only the folder may remain");
         assert!(d.join("x.raw").is_dir());
         fs::remove_dir_all(&d).unwrap();
+    }
+
+    /// Four writers commit a manifest and a data file to the same two names at once, 200
+    /// times: after each round the two files hold the same writer's bytes. Without the
+    /// folder lock the renames interleave (one writer's data beside another's manifest) in
+    /// some rounds.
+    #[test]
+    fn concurrent_commits_to_one_name_leave_one_writers_pair() {
+        const WRITERS: usize = 4;
+        let d = scratch("race");
+        let (data, manifest) = (d.join("o.raw"), d.join("o.raw.json"));
+        let together = std::sync::Barrier::new(WRITERS);
+        let mixed = AtomicU64::new(0);
+        std::thread::scope(|scope| {
+            for w in 0..WRITERS {
+                let (data, manifest, together, mixed) = (&data, &manifest, &together, &mixed);
+                scope.spawn(move || {
+                    for round in 0..200 {
+                        let m = PendingFile::create(manifest).unwrap();
+                        m.write_all(format!("{w}").as_bytes()).unwrap();
+                        let p = PendingFile::create(data).unwrap();
+                        p.write_all(format!("{w}").as_bytes()).unwrap();
+                        together.wait();
+                        commit_all(vec![m, p]).unwrap();
+                        together.wait();
+                        if w == 0 && fs::read(manifest).unwrap() != fs::read(data).unwrap() {
+                            eprintln!(
+                                "round {round}: the data of one writer, the manifest of another"
+                            );
+                            mixed.fetch_add(1, Ordering::Relaxed);
+                        }
+                        together.wait();
+                    }
+                });
+            }
+        });
+        assert_eq!(mixed.load(Ordering::Relaxed), 0, "rounds with a mixed pair");
+        assert_eq!(
+            names(&d),
+            ["o.raw", "o.raw.json"],
+            "no temporary file is left"
+        );
+        fs::remove_dir_all(&d).unwrap();
+    }
+
+    #[test]
+    fn a_long_name_keeps_a_short_temporary_name_and_each_is_unique() {
+        let long = format!("{}.raw", "é".repeat(100));
+        let a = temporary_name(Path::new(&long));
+        let b = temporary_name(Path::new(&format!("{long}.json")));
+        assert_ne!(a, b);
+        // 32 two-byte characters (64 bytes) of the name are kept, then the suffix.
+        let kept = format!(".{}.partial-{}-", "é".repeat(32), std::process::id());
+        assert!(a.starts_with(&kept) && b.starts_with(&kept), "{a} / {b}");
+        assert!(a.len() < kept.len() + 21, "{a}");
+        let short = temporary_name(Path::new("dir/o.raw"));
+        assert!(short.starts_with(&format!(".o.raw.partial-{}-", std::process::id())));
     }
 
     #[test]

@@ -323,6 +323,7 @@ impl<'a> Analysis<'a> {
     }
 
     fn analyse(&self, interrupted: &AtomicBool) -> Result<AnalysisReport> {
+        output::check_paths(self)?;
         let setup = setup::Setup::new(self)?;
         let seg_len = measure::segment_length_of(&setup)?;
         // The output files are made before the passes, so a folder that cannot take them fails

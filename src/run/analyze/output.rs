@@ -3,12 +3,56 @@
 
 use std::path::PathBuf;
 
-use super::Settings;
 use super::setup::Setup;
+use super::{Analysis, Input, ProfileInput, Settings};
 use crate::analysis::capture::CaptureReport;
-use crate::error::Result;
+use crate::error::{Result, Setting};
 use crate::report::{chart, html};
-use crate::run::{PendingFile, commit_all};
+use crate::run::guard::{Read, Written, check_outputs};
+use crate::run::{PendingFile, commit_all, manifest_path};
+
+/// Refuses, before anything is read or written, an output that names a folder, has a name
+/// its file system cannot hold, is the same file as another output, or is the same file as
+/// an input: the capture, the manifest beside it, or the profile's file.
+pub(super) fn check_paths(a: &Analysis) -> Result<()> {
+    let capture = match &a.input {
+        Input::Path(p) => Some(p.as_path()),
+        Input::Samples { .. } => None,
+    };
+    let side = capture.map(manifest_path);
+    let mut read: Vec<Read> = [
+        ("the capture", capture),
+        ("the capture's manifest", side.as_deref()),
+    ]
+    .into_iter()
+    .filter_map(|(what, path)| path.map(|path| Read::new(what, path)))
+    .collect();
+    match &a.profile {
+        Some(ProfileInput::Path(p)) => read.push(Read::new("the profile", p)),
+        Some(ProfileInput::Given(p)) => read.extend(p.source_file().map(|f| Read {
+            what: "the profile",
+            path: f,
+            shown: p.label().to_string(),
+        })),
+        None => {}
+    }
+    let s = &a.s;
+    let written: Vec<Written> = [
+        (Setting::Fit, &s.fit),
+        (Setting::Plot, &s.plot),
+        (Setting::Report, &s.report),
+    ]
+    .into_iter()
+    .filter_map(|(setting, path)| {
+        path.as_deref().map(|path| Written {
+            setting,
+            path,
+            beside: None,
+        })
+    })
+    .collect();
+    check_outputs(&written, &read)
+}
 
 /// The output files asked for, under temporary names until [`Outputs::write`] renames them.
 pub(super) struct Outputs {

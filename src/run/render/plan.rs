@@ -10,6 +10,8 @@ use crate::error::{Error, Result, Setting};
 use crate::io::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::io::sink::{Format, SampleFormat};
 use crate::profile::{Dimension, Profile, format_quantity, parse_quantity};
+use crate::run::guard::{Read, Written, check_outputs};
+use crate::run::{is_direct_target, manifest_path};
 use crate::synth::tone;
 
 /// What a run will do, every setting resolved and checked.
@@ -87,6 +89,7 @@ impl Plan {
         }
         let per_source = columns(s, format, &profile, &file)?;
         check_loop(s, &profile, &file, samples)?;
+        check_target(&profile, &target)?;
         Ok(Plan {
             profile,
             file,
@@ -102,6 +105,34 @@ impl Plan {
             per_source,
         })
     }
+}
+
+/// Refuses an output file, or the manifest beside it, that names a folder, has a name its
+/// file system cannot hold, or is the profile's own file (by any name or link).
+fn check_target(profile: &Profile, target: &Target) -> Result<()> {
+    let Target::File(path) = target else {
+        return Ok(());
+    };
+    let manifest = manifest_path(path);
+    let mut written = vec![Written {
+        setting: Setting::Output,
+        path,
+        beside: None,
+    }];
+    // A device or pipe is written in place, with no manifest beside it.
+    if !is_direct_target(path) {
+        written.push(Written {
+            setting: Setting::Output,
+            path: &manifest,
+            beside: Some(path),
+        });
+    }
+    let profile_file = profile.source_file().map(|path| Read {
+        what: "the profile",
+        path,
+        shown: profile.label().to_string(),
+    });
+    check_outputs(&written, profile_file.as_slice())
 }
 
 /// The profile with the settings' rate, checked against its band; a replaced rate is noted.
