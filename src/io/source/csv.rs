@@ -556,6 +556,7 @@ mod tests {
             rate_hz: rate,
             fallback_rate_hz: None,
             name: "c.csv".into(),
+            length_bytes: Some(text.len() as u64),
         };
         let mut s = CsvSource::new(text.as_bytes(), &o)?;
         let mut all = Vec::new();

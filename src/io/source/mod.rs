@@ -86,6 +86,9 @@ pub struct SourceOptions {
     pub fallback_rate_hz: Option<f64>,
     /// The file's name for messages.
     pub name: String,
+    /// The input's length in bytes when known (a regular file), so a WAV reader can tell a
+    /// size past the end of the file, and bytes after its samples, before reading them.
+    pub length_bytes: Option<u64>,
 }
 
 /// Opens a stream of samples over `input`, reading the header now.
