@@ -479,8 +479,7 @@ impl<R: Read> CsvSource<R> {
                     self.line_no,
                     echo(field.trim()),
                     echo(
-                        &self
-                            .header
+                        self.header
                             .split(',')
                             .nth(self.value_col)
                             .unwrap_or_default()
