@@ -172,7 +172,8 @@ impl<R: Read> WavSource<R> {
             if r != sample_rate_hz {
                 // A note is printed text, not an error: it keeps its words.
                 notes.push(format!(
-                    "sample rate {r} Hz from --rate replaces the header's {rate} Hz"
+                    "sample rate {} Hz from --rate replaces the header's {rate} Hz",
+                    super::short(r)
                 ));
             }
             sample_rate_hz = r;
