@@ -162,6 +162,8 @@ pub fn capture(data: &[u8]) -> Result<(), Refusal> {
         // Bit 3 of a WAV or CSV selector: no manifest rate to fall back on.
         fallback_rate_hz: (format == Format::Raw || sel & 8 == 0).then_some(1000.0),
         name: CAPTURE_FILE.into(),
+        // Bit 7: the length is known, as for a regular file, or not, as for a stream.
+        length_bytes: (sel & 128 == 0).then_some(file.len() as u64),
     };
     let input = Chunked {
         data: file,

@@ -268,6 +268,25 @@ fn the_floor_note_counts_the_dither() {
     );
 }
 
+/// A quantisation noise above the floor is said to be above it, with a positive number: over
+/// a range ten times wider the same 4 bits add ten times the noise, 3.84 mV/√Hz undithered,
+/// 20·log10(3.84/2) = 5.7 dB above the 2 mV/√Hz floor (REFERENCES §9).
+#[test]
+fn the_floor_note_says_above_when_the_quantisation_noise_is_above() {
+    let s = Scratch::new("note-above");
+    let o = generate(&s, "w.csv", &["--bits", "4", "--range", "-16.5V..16.5V"]);
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let m = manifest(&s.path("w.csv"));
+    let note = m["notes"][0].as_str().unwrap_or_default();
+    assert!(
+        note.contains("4-bit ADC's quantisation noise (3.84")
+            && note.contains(") is 5.7 dB above the lowest density in the band (2 mV/√Hz)"),
+        "{}",
+        m["notes"]
+    );
+    assert!(!note.contains("-5.7"), "{note}");
+}
+
 /// numpy as the independent reader and re-implementation (tests/python/adc_ref.py): it reads
 /// each code file in the dtype the manifest's container names, finds every code equal to the
 /// documented rule applied to the physical samples, and every in-range level within half an

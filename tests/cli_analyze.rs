@@ -727,3 +727,79 @@ fn plot_and_report_are_self_contained() {
         );
     }
 }
+
+/// A WAV whose `data` chunk is followed by another chunk is read up to the end of its samples
+/// only, with a note saying how many bytes after them were not read (RIFF/WAVE layout: 12 +
+/// 24 header bytes, the 8000 bytes of samples at 44..8044, an 18-byte `LIST` chunk after).
+#[test]
+fn bytes_after_the_samples_are_noted() {
+    let s = Scratch::new("trail");
+    let codes: Vec<i16> = (0..4000).map(|i| ((i * 37) % 2001 - 1000) as i16).collect();
+    let data: Vec<u8> = codes.iter().flat_map(|c| c.to_le_bytes()).collect();
+    let mut chunks = b"fmt ".to_vec();
+    chunks.extend_from_slice(&16u32.to_le_bytes());
+    for v in [1u16, 1] {
+        chunks.extend_from_slice(&v.to_le_bytes()); // PCM, mono
+    }
+    chunks.extend_from_slice(&8000u32.to_le_bytes());
+    chunks.extend_from_slice(&16000u32.to_le_bytes());
+    chunks.extend_from_slice(&2u16.to_le_bytes());
+    chunks.extend_from_slice(&16u16.to_le_bytes());
+    chunks.extend_from_slice(b"data");
+    chunks.extend_from_slice(&(data.len() as u32).to_le_bytes());
+    chunks.extend_from_slice(&data);
+    chunks.extend_from_slice(b"LIST\x0a\0\0\0INFOabcdef");
+    let mut file = b"RIFF".to_vec();
+    file.extend_from_slice(&((chunks.len() + 4) as u32).to_le_bytes());
+    file.extend_from_slice(b"WAVE");
+    file.extend_from_slice(&chunks);
+    assert_eq!(file.len(), 8062);
+    let path = s.path("trail.wav");
+    std::fs::write(&path, &file).unwrap();
+    let (code, j, err) = analyze(&path, &["--full-scale", "1V"]);
+    assert_eq!(code, 0, "{err}");
+    let x: Vec<f64> = codes.iter().map(|&c| f64::from(c) / 32767.0).collect();
+    check_stats("wav with a trailing chunk", &j, stats(&x));
+    assert_eq!(
+        j["notes"],
+        serde_json::json!([
+            "18 bytes after the \"data\" chunk (byte 8044 to 8062) are not read as samples"
+        ])
+    );
+}
+
+/// A named pipe is refused before it is read (analyze reads a capture twice), exit 2, naming
+/// the file and what to do; the same bytes in a file, opened as /dev/stdin, are read.
+#[cfg(unix)]
+#[test]
+fn a_pipe_is_refused_and_a_file_on_standard_input_is_read() {
+    let s = Scratch::new("pipe");
+    let fifo = s.path("cap.wav");
+    let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+    if !made.is_ok_and(|st| st.success()) {
+        println!("skipped: mkfifo is not available");
+        return;
+    }
+    let (code, _, err) = analyze(&fifo, &[]);
+    assert_eq!(code, 2, "{err}");
+    assert!(
+        err.contains("cap.wav: is a pipe, device or socket, not a file")
+            && err.contains("cannot be read twice; write it to a file first"),
+        "{err}"
+    );
+    std::fs::remove_file(&fifo).unwrap();
+    let raw = s.path("cap.raw");
+    let x: Vec<f64> = (0..3000)
+        .map(|i| ((i * 7919) % 1000) as f64 * 1e-3)
+        .collect();
+    write_f64(&raw, &x);
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_noisewright"))
+        .args(["analyze", "/dev/stdin", "--json", "--sample-format", "f64"])
+        .args(["--rate", "1kHz"])
+        .stdin(std::fs::File::open(&raw).unwrap())
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let j: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    check_stats("/dev/stdin from a file", &j, stats(&x));
+}

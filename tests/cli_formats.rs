@@ -381,3 +381,65 @@ fn analyze_reads_rf64_like_the_same_riff_file() {
         assert_eq!(a[key], b[key], "{key}");
     }
 }
+
+/// Text from the user inside the header's comment cannot end it, open a nested one or form a
+/// trigraph: a profile named with `/*`, `*/` and `??/`, read from a path holding `/*`, gives
+/// a header that compiles under -Wall -Wextra -pedantic -Werror (C99 §6.4.9 comments,
+/// §5.2.1.1 trigraphs) and still shows the name, with a space in each opener and closer.
+#[test]
+fn c_header_comment_survives_comment_markers_in_the_name_and_path() {
+    let Some(cc) = c_compiler() else {
+        println!("skipped: no C compiler (cc or $CC) was found to compile the header");
+        return;
+    };
+    let dir = Scratch::new("c-comment");
+    std::fs::create_dir_all(dir.path("p")).unwrap();
+    let body = PROFILE.replace(
+        "name = \"formats demo\"",
+        "name = \"a /* b */ c /*/ d ??/\"",
+    );
+    let profile = dir.file("p/*odd.toml", &body);
+    let o = run(
+        &[
+            "generate",
+            profile.to_str().unwrap(),
+            "-o",
+            "m.h",
+            "--samples",
+            "64",
+            "--seed",
+            "5",
+            "--quiet",
+        ],
+        &dir,
+    );
+    assert!(o.status.success(), "{}", text(&o.stderr));
+    let header = std::fs::read_to_string(dir.path("m.h")).unwrap();
+    assert!(
+        header.contains(" * profile: a / * b * / c / * / d ? ?/ ("),
+        "{header}"
+    );
+    assert!(header.contains("p/ *odd.toml)\n"), "{header}");
+    // The header's own comments: the block, and one per macro line that carries a unit.
+    assert_eq!(header.matches("/*").count(), 3, "{header}");
+    assert_eq!(header.matches("*/").count(), 3, "{header}");
+    let src = dir.file(
+        "m.c",
+        "#include <stdio.h>\n#include \"m.h\"\nint main(void) { printf(\"%d %f\\n\", \
+         (int)M_LENGTH, (double)m[0]); return 0; }\n",
+    );
+    let o = Command::new(&cc)
+        .args(["-std=c99", "-Wall", "-Wextra", "-pedantic", "-Werror", "-o"])
+        .arg(dir.path("m"))
+        .arg(&src)
+        .current_dir(&dir.dir)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{cc}: {}", text(&o.stderr));
+    let out = Command::new(dir.path("m")).output().unwrap();
+    assert!(
+        text(&out.stdout).starts_with("64 "),
+        "{}",
+        text(&out.stdout)
+    );
+}

@@ -145,26 +145,45 @@ fn a_rate_change_is_reported_not_silent() {
 
 #[test]
 fn a_coarse_integer_format_is_flagged_against_the_lowest_density() {
-    // 16 bits at a full scale of 1 V: Q/√(6 fs) ≈ 62 nV/√Hz, far above 10 nV/√Hz
-    // (uniform quantisation error model, IEEE Std 1241; REFERENCES §9).
+    // 16 bits at a full scale of 100 mV: Q = 0.1/32767 V, Q/√(6 fs) = 5.68679 nV/√Hz, 4.9 dB
+    // below 10 nV/√Hz (uniform quantisation error model, IEEE Std 1241; REFERENCES §9).
     let dir = Scratch::new("quant");
-    let o = generate_white(
-        &dir,
-        &[
+    let args = |fs: &'static str| {
+        [
             "-o",
             "q.wav",
             "--sample-format",
             "i16",
             "--full-scale",
-            "1V",
+            fs,
             "--samples",
             "1000",
-        ],
-    );
+        ]
+    };
+    let o = generate_white(&dir, &args("100mV"));
     assert!(
-        text(&o.stdout).contains("quantisation noise"),
+        text(&o.stdout).contains(
+            "the 16-bit quantisation noise (5.68679 nV/√Hz) is only 4.9 dB below the lowest \
+             density in the band"
+        ),
         "{}",
         text(&o.stdout)
+    );
+    // At 1 V half a code step, 15.3 µV, is above 10 × the 1.48 µV RMS: every code would be
+    // 0, which is refused before anything is written.
+    let o = run(
+        &[
+            &["generate", dir.join("w.toml").to_str().unwrap()][..],
+            &args("1V")[..],
+        ]
+        .concat(),
+        &dir,
+    );
+    assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains("every stored value would be 0"),
+        "{}",
+        text(&o.stderr)
     );
 }
 

@@ -2435,6 +2435,164 @@ fn cases() -> Vec<Case> {
             ],
             &["--output", "the manifest beside", "256 bytes", "\".json\""],
         ),
+        // issue 22: readers
+        capture(
+            "CSV time column in a unit not read",
+            "m.csv",
+            big.replace("time_s", "time_d").into_bytes(),
+            &[],
+            &["m.csv", "line 1", "\"time_d\"", "\"d\"", "ms, us", "min, h"],
+        ),
+        capture(
+            "CSV code beyond its width",
+            "m.csv",
+            format!("code_i16\n1\n40000\n{}", "5\n".repeat(40)).into_bytes(),
+            &["--rate", "1kHz"],
+            &[
+                "m.csv",
+                "line 3",
+                "\"40000\"",
+                "16-bit code",
+                "-32768 to 32767",
+            ],
+        ),
+        capture(
+            "CSV code not a whole number",
+            "m.csv",
+            format!("code_i24\n{}1.5\n", "5\n".repeat(40)).into_bytes(),
+            &["--rate", "1kHz"],
+            &[
+                "m.csv",
+                "line 42",
+                "\"1.5\"",
+                "24-bit code",
+                "whole numbers",
+            ],
+        ),
+        capture(
+            "CSV row with an extra field",
+            "m.csv",
+            big.replacen("0.004,", "0.004,7,", 1).into_bytes(),
+            &[],
+            &["m.csv", "line 6", "3 fields", "2 columns (time_s,value_V)"],
+        ),
+        capture(
+            "CSV field of a megabyte, quoted briefly",
+            "m.csv",
+            format!("{big}0.064,{}\n", "x".repeat(1 << 20)).into_bytes(),
+            &[],
+            &[
+                "m.csv",
+                "line 66",
+                &format!("\"{}…\" is not a finite", "x".repeat(60)),
+            ],
+        ),
+        capture(
+            "CSV steps near 1e-300 s, in exponent form",
+            "m.csv",
+            b"time_s,value_V\n0,1\n1e-300,1\n2e-300,1\n9e-300,1\n".to_vec(),
+            &[],
+            &["m.csv", "line 5", "steps by 7e-300 s", "step by 1e-300 s"],
+        ),
+        capture(
+            "WAV data size 0 followed by another chunk",
+            "m.wav",
+            riff(&[
+                honest(b"fmt ", &fmt(1, 1, 1000, 2, 16)),
+                chunk(b"data", 0, &[]),
+                honest(b"LIST", &pcm16(64)),
+            ]),
+            &[],
+            &[
+                "m.wav",
+                "\"data\" chunk at byte 36 has size 0",
+                "\"LIST\" chunk at byte 44",
+                "last chunk",
+            ],
+        ),
+        capture(
+            "WAV data size past the end, not whole frames",
+            "m.wav",
+            riff(&[
+                honest(b"fmt ", &fmt(1, 1, 1000, 2, 16)),
+                chunk(b"data", 1001, &pcm16(64)),
+            ]),
+            &[],
+            &[
+                "m.wav",
+                "truncated",
+                "\"data\" chunk at byte 36 announces 1001 bytes",
+                "ends at byte 172 (873 missing",
+            ],
+        ),
+        capture(
+            "WAV f32 with no samples",
+            "m.wav",
+            riff(&[
+                honest(b"fmt ", &fmt(3, 1, 1000, 4, 32)),
+                honest(b"data", &[]),
+            ]),
+            &[],
+            &["m.wav", "0 samples: too few", "at least 16"],
+        ),
+        Case::new("density that underflows: every sample 0")
+            .file("u.toml", format!("{HEAD}[[floor]]\ndensity = 1e-320\n"))
+            .args(&["generate", "u.toml", "-o", "x.wav", "--samples", "100"])
+            .expect(&["PROFILE", "u.toml", "every sample would be 0", "1.5e-154 V"]),
+        generate(
+            "full scale so large every i16 code is 0",
+            &[
+                "-o",
+                "x.wav",
+                "--samples",
+                "100",
+                "--sample-format",
+                "i16",
+                "--full-scale",
+                "1e30V",
+            ],
+            &[
+                "--full-scale",
+                "every stored value would be 0",
+                "half a code step of i16",
+            ],
+        ),
+        generate(
+            "level so low every i16 code is 0",
+            &[
+                "-o",
+                "x.wav",
+                "--samples",
+                "100",
+                "--sample-format",
+                "i16",
+                "--level",
+                "-300dBFS",
+            ],
+            &[
+                "--level",
+                "every stored value would be 0",
+                "use a higher level",
+            ],
+        ),
+        generate(
+            "full scale so large every f32 value is 0",
+            &[
+                "-o",
+                "x.raw",
+                "--samples",
+                "100",
+                "--sample-format",
+                "f32",
+                "--full-scale",
+                "1e300V",
+            ],
+            &[
+                "--full-scale",
+                "every stored value would be 0",
+                "the smallest f32",
+            ],
+        ),
     ]
 }
 

@@ -131,18 +131,20 @@ const CASES: [Case; 9] = [
         &["--sample-format", "i24", "--level", "-26dBFS"],
         |r| r.sample_format(SampleFormat::I24).level_dbfs(-26.0),
     ),
+    // 10 µ of the profile's unit: the voltage profiles clip (allowed), and the pA noise of the
+    // current profile still reaches a code (a run whose every code is 0 is refused).
     (
         "a.wav",
         &[
             "--sample-format",
             "i16",
             "--full-scale",
-            "1mU",
+            "10uU",
             "--allow-clipping",
         ],
         |r| {
             r.sample_format(SampleFormat::I16)
-                .full_scale(1e-3)
+                .full_scale(1e-5)
                 .allow_clipping(true)
         },
     ),

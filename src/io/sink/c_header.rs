@@ -183,9 +183,14 @@ pub fn default_array_name(stem: &str) -> String {
     s
 }
 
-/// Keeps a comment line from closing the comment early.
+/// Keeps a line of user text inside a `/* … */` comment harmless: a closer `*/` would end
+/// the comment early, an opener `/*` inside a comment is what `-Wcomment` warns about (C11
+/// §6.4.9: comments do not nest), and `??` could begin a trigraph (C11 §5.2.1.1; `??/` at a
+/// line's end splices lines, which `-Wtrigraphs` warns about). Each gets a space.
 fn comment_safe(line: &str) -> String {
     line.replace("*/", "* /")
+        .replace("/*", "/ *")
+        .replace("??", "? ?")
 }
 
 /// A double as a C constant that converts back to the same bits (17 significant digits).

@@ -1,8 +1,11 @@
 //! CSV text: a header line naming the columns, then one sample per line.
 //!
-//! * **Time column** (optional): the first column whose name starts with `time` or is `t`
-//!   (any case). Its unit follows from a suffix `_s`, `_ms`, `_us` or `(s)`, `(ms)`, `(us)`
-//!   (default seconds). The sample rate is `(k − 1)/(t_{k−1} − t_0)` over the first 4096
+//! * **Time column** (optional): the first column whose name starts with `time`, `t_` or
+//!   `t (`, or is `t` (any case). Its unit is the text in trailing brackets (`time (ms)`,
+//!   `time [ms]`) or, without them, after the last `_` (`time_ms`): `s` (also `sec`,
+//!   `seconds`), `ms`, `us` (also `µs`), `ns`, `min` or `h`; a name with neither (`time`,
+//!   `timestamp`) is in seconds. Any other unit is refused, naming the column, rather than
+//!   read as seconds. The sample rate is `(k − 1)/(t_{k−1} − t_0)` over the first 4096
 //!   rows, once each of their steps is within half of their median step; every later step
 //!   must be within half a sample period of `1/rate`, else the file is refused, naming the
 //!   line of the step (the samples must be evenly spaced for a density estimate). With
@@ -10,13 +13,15 @@
 //! * **Value column**: the first column that is not the time column. Its name says what it
 //!   holds, as `generate` writes it: `value_V` / `value_A` physical volts or amperes,
 //!   `value_fs` digital values, `code_i16` / `code_i24` / `code_i32` integer codes (read as
-//!   digital, code/(2^(b−1)−1)); any other name is [`Values::Unknown`].
+//!   digital, code/(2^(b−1)−1)); any other name is [`Values::Unknown`]. A code must be a
+//!   whole number a b-bit code can hold, −2^(b−1) to 2^(b−1)−1.
 //! * Fields are separated by commas; spaces around fields are ignored; blank lines and lines
-//!   starting with `#` are skipped.
+//!   starting with `#` are skipped. Every row has exactly the header's columns. A UTF-8
+//!   byte-order mark before the header (spreadsheets write one) is not part of the first name.
 
 use std::io::{BufRead, BufReader, Read};
 
-use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate};
+use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate, echo, short};
 use crate::error::{Error, Result, Setting};
 use crate::io::sink::{Format, SampleFormat};
 use crate::profile::Unit;
@@ -37,8 +42,12 @@ pub struct CsvSource<R: Read> {
     value_col: usize,
     /// The header's column names, joined by commas (for messages).
     header: String,
+    /// Columns in the header.
+    columns: usize,
     /// 2^(b−1)−1 for code columns (values are divided by it), 1 otherwise.
     value_div: f64,
+    /// For a code column: its bits and the lowest and highest code.
+    code: Option<(usize, f64, f64)>,
     /// Values read ahead while estimating the rate, not yet handed out.
     pending: Vec<f64>,
     /// Last time seen (s) and the sample period (s) the steps are checked against.
@@ -50,37 +59,63 @@ pub struct CsvSource<R: Read> {
     check_steps: bool,
 }
 
-/// What a column name says: (time scale in seconds per unit) for time columns.
-fn time_scale(name: &str) -> Option<f64> {
+/// Time units a time column may name, in seconds per unit (SI: s, ms, µs, ns; min and h
+/// are the SI-accepted 60 s and 3600 s, SI Brochure Table 8). `µ` is accepted as U+00B5 or
+/// U+03BC, `u` as its plain-text stand-in (common practice).
+const TIME_UNITS: [(&str, f64); 10] = [
+    ("s", 1.0),
+    ("sec", 1.0),
+    ("seconds", 1.0),
+    ("ms", 1e-3),
+    ("us", 1e-6),
+    ("\u{b5}s", 1e-6),
+    ("\u{3bc}s", 1e-6),
+    ("ns", 1e-9),
+    ("min", 60.0),
+    ("h", 3600.0),
+];
+
+/// Whether a column name marks the time column.
+fn is_time(name: &str) -> bool {
     let n = name.trim().to_ascii_lowercase();
-    if !(n.starts_with("time") || n == "t" || n.starts_with("t_") || n.starts_with("t (")) {
-        return None;
-    }
-    Some(if n.ends_with("_ms") || n.ends_with("(ms)") {
-        1e-3
-    } else if n.ends_with("_us") || n.ends_with("(us)") || n.ends_with("(µs)") {
-        1e-6
-    } else {
-        1.0
-    })
+    n.starts_with("time") || n == "t" || n.starts_with("t_") || n.starts_with("t (")
 }
 
-/// What a value column's name says it holds, and the divisor to digital for code columns.
-fn value_meaning(name: &str) -> (Values, f64) {
+/// The unit a time column's name states (see the module docs): in trailing brackets, else
+/// after the last `_`; `None` when it states none.
+fn time_unit(name: &str) -> Option<String> {
+    let n = name.trim().to_ascii_lowercase();
+    for (open, close) in [('(', ')'), ('[', ']')] {
+        if let Some(inner) = n.strip_suffix(close)
+            && let Some(at) = inner.rfind(open)
+        {
+            return Some(inner[at + open.len_utf8()..].trim().to_string());
+        }
+    }
+    n.rfind('_').map(|at| n[at + 1..].trim().to_string())
+}
+
+/// Seconds per unit of the time column `name`, or `None` for a unit not in [`TIME_UNITS`].
+fn time_scale(name: &str) -> Option<f64> {
+    match time_unit(name) {
+        None => Some(1.0),
+        Some(u) => TIME_UNITS.iter().find(|(n, _)| *n == u).map(|&(_, s)| s),
+    }
+}
+
+/// What a value column's name says it holds, and for code columns the integer format.
+fn value_meaning(name: &str) -> (Values, Option<SampleFormat>) {
     let n = name.trim();
     match n {
-        "value_V" => (Values::Physical(Unit::Volt), 1.0),
-        "value_A" => (Values::Physical(Unit::Ampere), 1.0),
-        "value_fs" => (Values::Digital, 1.0),
+        "value_V" => (Values::Physical(Unit::Volt), None),
+        "value_A" => (Values::Physical(Unit::Ampere), None),
+        "value_fs" => (Values::Digital, None),
         _ => match n
             .strip_prefix("code_")
             .and_then(|s| s.parse::<SampleFormat>().ok())
         {
-            Some(sf) if sf.is_integer() => (
-                Values::Digital,
-                f64::from(sf.full_scale_code().expect("integer format")),
-            ),
-            _ => (Values::Unknown, 1.0),
+            Some(sf) if sf.is_integer() => (Values::Digital, Some(sf)),
+            _ => (Values::Unknown, None),
         },
     }
 }
@@ -107,7 +142,9 @@ impl<R: Read> CsvSource<R> {
             time_scale: 1.0,
             value_col: 0,
             header: String::new(),
+            columns: 0,
             value_div: 1.0,
+            code: None,
             pending: Vec::new(),
             last_time: None,
             period_s: 0.0,
@@ -146,8 +183,11 @@ impl<R: Read> CsvSource<R> {
                 "empty: expected a header line naming the columns, e.g. time_s,value_V",
             ));
         }
-        let header: Vec<String> = src.line.split(',').map(|s| s.trim().to_string()).collect();
+        // A UTF-8 byte-order mark (U+FEFF, Unicode §23.8) is not part of the first name.
+        let line = src.line.strip_prefix('\u{feff}').unwrap_or(&src.line);
+        let header: Vec<String> = line.split(',').map(|s| s.trim().to_string()).collect();
         src.header = header.join(",");
+        src.columns = header.len();
         if header.iter().all(|h| h.parse::<f64>().is_ok()) {
             return Err(Error::input(
                 &src.name,
@@ -158,9 +198,22 @@ impl<R: Read> CsvSource<R> {
                 ),
             ));
         }
-        src.time_col = header.iter().position(|h| time_scale(h).is_some());
+        src.time_col = header.iter().position(|h| is_time(h));
         if let Some(c) = src.time_col {
-            src.time_scale = time_scale(&header[c]).expect("found");
+            src.time_scale = time_scale(&header[c]).ok_or_else(|| {
+                let units: Vec<&str> = TIME_UNITS.iter().map(|(n, _)| *n).collect();
+                Error::input(
+                    &src.name,
+                    format!(
+                        "line {}: the time column {:?} is in {:?}, a unit not read; expected \
+                         one of {} (e.g. time_ms or time (ms))",
+                        src.line_no,
+                        echo(&header[c]),
+                        echo(&time_unit(&header[c]).unwrap_or_default()),
+                        units.join(", ")
+                    ),
+                )
+            })?;
         }
         src.value_col = (0..header.len())
             .find(|&c| Some(c) != src.time_col)
@@ -169,13 +222,18 @@ impl<R: Read> CsvSource<R> {
                     &src.name,
                     format!(
                         "line {}: only a time column ({}); expected a value column too",
-                        src.line_no, header[0]
+                        src.line_no,
+                        echo(&header[0])
                     ),
                 )
             })?;
-        let (values, div) = value_meaning(&header[src.value_col]);
+        let (values, code) = value_meaning(&header[src.value_col]);
         src.info.values = values;
-        src.value_div = div;
+        if let Some(sf) = code {
+            let max = f64::from(sf.full_scale_code().expect("integer format"));
+            src.value_div = max;
+            src.code = Some((sf.bytes() * 8, -max - 1.0, max));
+        }
         Ok(())
     }
 
@@ -240,8 +298,8 @@ impl<R: Read> CsvSource<R> {
                     "line {}: the time column does not increase ({} s after {} s): cannot tell \
                      the sample rate; the times must increase by one sample period per row",
                     lines[i + 1],
-                    times[i + 1],
-                    times[i]
+                    short(times[i + 1]),
+                    short(times[i])
                 ),
             ));
         }
@@ -288,7 +346,9 @@ impl<R: Read> CsvSource<R> {
                 if ((r - t) / r).abs() > 1e-6 {
                     // A note is printed text, not an error: it keeps its words.
                     src.info.notes.push(format!(
-                        "sample rate {r} Hz from --rate replaces the time column's {t} Hz"
+                        "sample rate {} Hz from --rate replaces the time column's {} Hz",
+                        short(r),
+                        short(t)
                     ));
                 }
                 r
@@ -347,11 +407,15 @@ impl<R: Read> CsvSource<R> {
         }
         let mut time = None;
         let mut value = None;
+        let mut fields = 0;
         for (c, field) in self.line.trim_end().split(',').enumerate() {
+            fields = c + 1;
             if Some(c) == self.time_col {
                 time = Some(self.number(field, "time")? * self.time_scale);
             } else if c == self.value_col {
-                value = Some(self.number(field, "value")? / self.value_div);
+                let v = self.number(field, "value")?;
+                self.check_code(v, field)?;
+                value = Some(v / self.value_div);
             }
         }
         let missing = if value.is_none() {
@@ -362,13 +426,26 @@ impl<R: Read> CsvSource<R> {
             None
         };
         if let Some(what) = missing {
-            let columns = self.header.split(',').count();
             return Err(Error::input(
                 &self.name,
                 format!(
-                    "line {}: the {what} field is missing; every row needs the {columns} \
+                    "line {}: the {what} field is missing; every row needs the {} \
                      columns of the header ({})",
-                    self.line_no, self.header
+                    self.line_no,
+                    self.columns,
+                    echo(&self.header)
+                ),
+            ));
+        }
+        if fields != self.columns {
+            return Err(Error::input(
+                &self.name,
+                format!(
+                    "line {}: {fields} fields where the header has {} columns ({}); every row \
+                     needs exactly the header's columns",
+                    self.line_no,
+                    self.columns,
+                    echo(&self.header)
                 ),
             ));
         }
@@ -383,10 +460,33 @@ impl<R: Read> CsvSource<R> {
             _ => Err(Error::input(
                 &self.name,
                 format!(
-                    "line {}: the {what} field {f:?} is not a finite number",
-                    self.line_no
+                    "line {}: the {what} field {:?} is not a finite number",
+                    self.line_no,
+                    echo(f)
                 ),
             )),
+        }
+    }
+
+    /// Refuses a value `v` (from `field`) of a code column that no code of its width is.
+    fn check_code(&self, v: f64, field: &str) -> Result<()> {
+        match self.code {
+            Some((bits, lo, hi)) if v.fract() != 0.0 || v < lo || v > hi => Err(Error::input(
+                &self.name,
+                format!(
+                    "line {}: the value field {:?} is not a {bits}-bit code; the column {} \
+                     holds whole numbers from {lo} to {hi}",
+                    self.line_no,
+                    echo(field.trim()),
+                    echo(
+                        self.header
+                            .split(',')
+                            .nth(self.value_col)
+                            .unwrap_or_default()
+                    )
+                ),
+            )),
+            _ => Ok(()),
         }
     }
 
@@ -403,9 +503,11 @@ impl<R: Read> CsvSource<R> {
         Error::input(
             &self.name,
             format!(
-                "line {line}: the time column steps by {step} s where the first rows step by \
-                 {period_s} s; the samples must be evenly spaced (gaps or resets cannot be \
-                 analysed)"
+                "line {line}: the time column steps by {} s where the first rows step by \
+                 {} s; the samples must be evenly spaced (gaps or resets cannot be \
+                 analysed)",
+                short(step),
+                short(period_s)
             ),
         )
     }
@@ -453,6 +555,7 @@ mod tests {
             rate_hz: rate,
             fallback_rate_hz: None,
             name: "c.csv".into(),
+            length_bytes: Some(text.len() as u64),
         };
         let mut s = CsvSource::new(text.as_bytes(), &o)?;
         let mut all = Vec::new();
@@ -495,5 +598,94 @@ mod tests {
         assert!(e.to_string().contains("empty"), "{e}");
         let e = read("time_s,value_V\n0,1\n0.001\n", None).unwrap_err();
         assert!(e.to_string().contains("missing"), "{e}");
+    }
+
+    /// Every time unit the header may name scales the time column to seconds: 1000 rows a
+    /// unit apart give 1/(seconds per unit) Hz (SI Brochure Table 8 for min and h).
+    #[test]
+    fn time_units_scale_the_rate() {
+        for (name, hz) in [
+            ("time_s", 1.0),
+            ("time (ms)", 1e3),
+            ("time [us]", 1e6),
+            ("t (\u{b5}s)", 1e6),
+            ("time_ns", 1e9),
+            ("time_min", 1.0 / 60.0),
+            ("Time_H", 1.0 / 3600.0),
+            ("time", 1.0),
+        ] {
+            let text = format!("{name},value_V\n0,1\n1,2\n2,3\n");
+            let (i, v) = read(&text, None).unwrap();
+            assert!(
+                ((i.sample_rate_hz - hz) / hz).abs() < 1e-12,
+                "{name}: {}",
+                i.sample_rate_hz
+            );
+            assert_eq!(v, [1.0, 2.0, 3.0]);
+        }
+    }
+
+    #[test]
+    fn a_time_unit_not_known_is_refused_with_the_column() {
+        let e = read("time_d,value_V\n0,1\n1,2\n", None).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "c.csv: line 1: the time column \"time_d\" is in \"d\", a unit not read; expected \
+             one of s, sec, seconds, ms, us, \u{b5}s, \u{3bc}s, ns, min, h (e.g. time_ms or \
+             time (ms))"
+        );
+        assert_eq!(e.exit_code(), 2);
+    }
+
+    /// A byte-order mark before the header (U+FEFF) leaves the time column its name.
+    #[test]
+    fn a_byte_order_mark_keeps_the_time_column() {
+        let (i, v) = read("\u{feff}time_ms,value_V\n0,1\n0.5,2\n", None).unwrap();
+        assert_eq!(i.sample_rate_hz, 2000.0);
+        assert_eq!(i.values, Values::Physical(Unit::Volt));
+        assert_eq!(v, [1.0, 2.0]);
+    }
+
+    #[test]
+    fn codes_outside_their_width_and_extra_fields_are_refused() {
+        let (_, v) = read("code_i16\n-32768\n32767\n", Some(8.0)).unwrap();
+        assert_eq!(v, [-32768.0 / 32767.0, 1.0]);
+        let e = read("code_i16\n1\n40000\n", Some(8.0)).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "c.csv: line 3: the value field \"40000\" is not a 16-bit code; the column \
+             code_i16 holds whole numbers from -32768 to 32767"
+        );
+        let e = read("code_i24\n1.5\n", Some(8.0)).unwrap_err();
+        assert!(
+            e.to_string().contains("\"1.5\" is not a 24-bit code"),
+            "{e}"
+        );
+        let e = read("time_s,value_V\n0,1\n0.001,2,7\n", None).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "c.csv: line 3: 3 fields where the header has 2 columns (time_s,value_V); every \
+             row needs exactly the header's columns"
+        );
+    }
+
+    /// A long field is quoted to 60 characters and "…"; tiny numbers print in exponent form.
+    #[test]
+    fn messages_quote_long_fields_and_tiny_numbers_briefly() {
+        let text = format!("time_s,value_V\n0,1\n0.001,{}\n", "x".repeat(100_000));
+        let e = read(&text, None).unwrap_err().to_string();
+        assert_eq!(
+            e,
+            format!(
+                "c.csv: line 3: the value field \"{}…\" is not a finite number",
+                "x".repeat(60)
+            )
+        );
+        let e = read("time_s,value_V\n0,1\n1e-300,1\n2e-300,1\n9e-300,1\n", None).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "c.csv: line 5: the time column steps by 7e-300 s where the first rows step by \
+             1e-300 s; the samples must be evenly spaced (gaps or resets cannot be analysed)"
+        );
     }
 }

@@ -86,6 +86,9 @@ pub struct SourceOptions {
     pub fallback_rate_hz: Option<f64>,
     /// The file's name for messages.
     pub name: String,
+    /// The input's length in bytes when known (a regular file), so a WAV reader can tell a
+    /// size past the end of the file, and bytes after its samples, before reading them.
+    pub length_bytes: Option<u64>,
 }
 
 /// Opens a stream of samples over `input`, reading the header now.
@@ -289,6 +292,30 @@ pub(crate) fn decode_le(bytes: &[u8], sf: SampleFormat, stride: usize, out: &mut
     }
 }
 
+/// Longest text from a file echoed in a message, in characters.
+const ECHO_CHARS: usize = 60;
+
+/// `text` from a file as a message quotes it: its first [`ECHO_CHARS`] characters, and "…"
+/// when there were more (a field of megabytes is not worth printing whole).
+pub(crate) fn echo(text: &str) -> String {
+    match text.char_indices().nth(ECHO_CHARS) {
+        Some((at, _)) => format!("{}…", &text[..at]),
+        None => text.to_string(),
+    }
+}
+
+/// A number from a file or an option as a message shows it: Rust's shortest round-trip digits,
+/// in exponent form outside 1e−4 ≤ |v| < 1e16 so a value such as 1e−300 does not print as
+/// 300 digits (the same text as `{}` inside that range).
+pub(crate) fn short(v: f64) -> String {
+    let a = v.abs();
+    if v == 0.0 || !v.is_finite() || (1e-4..1e16).contains(&a) {
+        format!("{v}")
+    } else {
+        format!("{v:e}")
+    }
+}
+
 /// A sample rate given by the user or a file, checked to be finite and positive (Hz).
 pub(crate) fn check_rate(rate: f64, what: &str, name: &str) -> Result<f64> {
     if rate.is_finite() && rate > 0.0 {
@@ -296,7 +323,7 @@ pub(crate) fn check_rate(rate: f64, what: &str, name: &str) -> Result<f64> {
     } else {
         Err(Error::input(
             name,
-            format!("{what}: sample rate {rate} Hz must be positive"),
+            format!("{what}: sample rate {} Hz must be positive", short(rate)),
         ))
     }
 }
@@ -354,6 +381,20 @@ mod tests {
             "{e}"
         );
         assert_eq!(e.exit_code(), 2);
+    }
+
+    #[test]
+    fn echoed_text_and_numbers_stay_short() {
+        assert_eq!(echo("abc"), "abc");
+        let long = "é".repeat(61);
+        assert_eq!(echo(&long), format!("{}…", "é".repeat(60)));
+        assert_eq!(echo(&long[..120]), "é".repeat(60));
+        assert_eq!(short(0.001), "0.001");
+        assert_eq!(short(48000.0), "48000");
+        assert_eq!(short(1e-300), "1e-300");
+        assert_eq!(short(-2.5e-7), "-2.5e-7");
+        assert_eq!(short(3e20), "3e20");
+        assert_eq!(short(0.0), "0");
     }
 
     #[test]

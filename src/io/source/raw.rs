@@ -109,6 +109,7 @@ mod tests {
             rate_hz: Some(10.0),
             fallback_rate_hz: None,
             name: "x.i24".into(),
+            length_bytes: None,
         };
         let bytes = [0u8; 3 * 5 + 2];
         let mut s = RawSource::new(&bytes[..], &o).unwrap();

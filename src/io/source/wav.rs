@@ -7,8 +7,13 @@
 //!
 //! Chunks before `data` that are not `fmt ` (`fact`, `LIST`, `JUNK`, ...) are skipped, with
 //! their pad byte. A `data` size of 0xFFFFFFFF or 0 (placeholders of writers that stream) is
-//! read to the end of the stream, with a note. A stream that ends before the announced data
-//! size is an error that says how much is missing; so is a stream ending inside a sample.
+//! read to the end of the stream, with a note; a size of 0 is a placeholder only when `data`
+//! is the last chunk, so a 0 followed by another chunk's header (a four-character code,
+//! RIFF's chunk id, and a size that fits the file) is an empty chunk and refused. A stream
+//! that ends before the announced data size is an error that says how much is missing; so is
+//! a stream ending inside a sample. When the file's length is known
+//! ([`SourceOptions::length_bytes`]) a size past its end is reported as such before any
+//! sample is read, and bytes after the samples (other chunks) get a note.
 
 use std::io::Read;
 
@@ -48,6 +53,8 @@ pub struct WavSource<R: Read> {
     announced: Option<u64>,
     /// Data bytes read so far.
     read: u64,
+    /// Bytes read ahead of the samples (to look for a chunk header), handed out first.
+    lead: Vec<u8>,
 }
 
 fn le16(b: &[u8]) -> u16 {
@@ -144,7 +151,16 @@ impl<R: Read> WavSource<R> {
             )));
         };
         let frame_bytes = sample_format.bytes() * channels as usize;
-        let remaining = data_bytes(pre.ds64_data, chunk, frame_bytes, &name, &mut notes)?;
+        let mut input = input;
+        let length = options.length_bytes;
+        let remaining = data_bytes(pre.ds64_data, chunk, frame_bytes, &name, length)?;
+        let lead = match remaining {
+            Some(n) => {
+                after_the_samples(chunk.at + 8 + n, n, length, &mut notes);
+                Vec::new()
+            }
+            None => placeholder(&mut input, chunk, length, &name, &mut notes)?,
+        };
         if channels > 1 {
             notes.push(format!(
                 "{channels} channels stored; the first channel is analysed"
@@ -156,7 +172,8 @@ impl<R: Read> WavSource<R> {
             if r != sample_rate_hz {
                 // A note is printed text, not an error: it keeps its words.
                 notes.push(format!(
-                    "sample rate {r} Hz from --rate replaces the header's {rate} Hz"
+                    "sample rate {} Hz from --rate replaces the header's {rate} Hz",
+                    super::short(r)
                 ));
             }
             sample_rate_hz = r;
@@ -188,8 +205,65 @@ impl<R: Read> WavSource<R> {
             data_at: at,
             announced: remaining,
             read: 0,
+            lead,
         })
     }
+}
+
+/// The note on bytes after a `data` chunk's `n` bytes of samples, which end at byte `end`
+/// (its pad byte aside), when the file's `length` says there are some.
+fn after_the_samples(end: u64, n: u64, length: Option<u64>, notes: &mut Vec<String>) {
+    let end = end + (n & 1);
+    if let Some(len) = length.filter(|&l| l > end) {
+        notes.push(format!(
+            "{} bytes after the \"data\" chunk (byte {end} to {len}) are not read as samples",
+            len - end
+        ));
+    }
+}
+
+/// Reads past a placeholder size (0xFFFFFFFF or 0) of the `data` chunk `chunk`: refuses a 0
+/// followed by another chunk's header, else notes that the samples run to the end of the
+/// stream. Returns the bytes read ahead, which are samples.
+fn placeholder<R: Read>(
+    input: &mut R,
+    chunk: &Chunk,
+    length: Option<u64>,
+    name: &str,
+    notes: &mut Vec<String>,
+) -> Result<Vec<u8>> {
+    let mut lead = Vec::new();
+    if chunk.size == 0 {
+        let mut next = [0u8; 8];
+        let got = read_full(input, &mut next, name)?;
+        let start = chunk.at + 8;
+        // A chunk id is four printable ASCII characters, the first not a space (RIFF's
+        // FOURCC); its size must fit what the file has left, when that is known.
+        let id = &next[..4];
+        let fits = |size: u32| length.is_none_or(|l| start + 8 + u64::from(size) <= l);
+        if got == 8
+            && id.iter().all(|b| (0x20..0x7F).contains(b))
+            && id[0] != b' '
+            && fits(le32(&next[4..8]))
+        {
+            return Err(Error::input(
+                name,
+                format!(
+                    "the \"data\" chunk at byte {} has size 0 and is followed by a {:?} \
+                     chunk at byte {start}: a size of 0 means \"to the end of the file\" only \
+                     when \"data\" is the last chunk, so this file holds no samples",
+                    chunk.at,
+                    String::from_utf8_lossy(id)
+                ),
+            ));
+        }
+        lead.extend_from_slice(&next[..got]);
+    }
+    notes.push(format!(
+        "the data size field is a streaming placeholder ({:#x}); read to the end of the file",
+        chunk.size
+    ));
+    Ok(lead)
 }
 
 /// The 12-byte RIFF header, and whether the container is RF64 (or BW64).
@@ -285,10 +359,26 @@ fn data_bytes(
     chunk: &Chunk,
     frame_bytes: usize,
     name: &str,
-    notes: &mut Vec<String>,
+    length: Option<u64>,
 ) -> Result<Option<u64>> {
     let bad = |m: String| Error::input(name, m);
     let (at, size) = (chunk.at, chunk.size);
+    // A size past the end of a file of known length: missing bytes, whatever the frame size.
+    let announced = match (ds64_data, size) {
+        (Some(data), u32::MAX) => Some(data),
+        (_, 0 | u32::MAX) => None,
+        _ => Some(u64::from(size)),
+    };
+    if let (Some(n), Some(len)) = (announced, length)
+        && at + 8 + n > len
+    {
+        let short = at + 8 + n - len;
+        return Err(bad(format!(
+            "truncated: the \"data\" chunk at byte {at} announces {n} bytes of samples but \
+             the file ends at byte {len} ({short} missing, about {} samples)",
+            short / frame_bytes as u64
+        )));
+    }
     Ok(if let (Some(data), u32::MAX) = (ds64_data, size) {
         if data % frame_bytes as u64 != 0 {
             return Err(bad(format!(
@@ -299,10 +389,6 @@ fn data_bytes(
         }
         Some(data)
     } else if size == u32::MAX || size == 0 {
-        notes.push(format!(
-            "the data size field is a streaming placeholder ({size:#x}); read \
-             to the end of the file"
-        ));
         None
     } else {
         if size as usize % frame_bytes != 0 {
@@ -425,7 +511,11 @@ impl<R: Read> SampleSource for WavSource<R> {
         if want == 0 {
             return Ok(0);
         }
-        let got = read_full(&mut self.input, &mut self.buf[..want], &self.name)?;
+        // Bytes read ahead of the samples come first.
+        let lead = self.lead.len().min(want);
+        self.buf[..lead].copy_from_slice(&self.lead[..lead]);
+        self.lead.drain(..lead);
+        let got = lead + read_full(&mut self.input, &mut self.buf[lead..want], &self.name)?;
         let whole = got - got % fb;
         // The data chunk's samples start 8 bytes after its header.
         let end = self.data_at + 8 + self.read + got as u64;
@@ -475,6 +565,7 @@ mod tests {
             rate_hz: None,
             fallback_rate_hz: None,
             name: "t.wav".into(),
+            length_bytes: None,
         }
     }
 
@@ -502,7 +593,20 @@ mod tests {
     }
 
     fn read_all(bytes: &[u8]) -> Result<(StreamInfo, Vec<f64>)> {
-        let mut src = open_source(bytes, &opts())?;
+        read_with(bytes, &opts())
+    }
+
+    /// As [`read_all`], the file's length known as for a regular file.
+    fn read_file(bytes: &[u8]) -> Result<(StreamInfo, Vec<f64>)> {
+        let o = SourceOptions {
+            length_bytes: Some(bytes.len() as u64),
+            ..opts()
+        };
+        read_with(bytes, &o)
+    }
+
+    fn read_with(bytes: &[u8], o: &SourceOptions) -> Result<(StreamInfo, Vec<f64>)> {
+        let mut src = open_source(bytes, o)?;
         let mut all = Vec::new();
         let mut block = Vec::new();
         while src.read_block(&mut block, 1000)? > 0 {
@@ -644,5 +748,77 @@ mod tests {
             }
         };
         assert!(e.to_string().contains("truncated"), "{e}");
+    }
+
+    /// Our 16-bit file of 10 samples is 44 + 20 bytes; its `data` chunk is at byte 36 with
+    /// the size at bytes 40..44 (RIFF/WAVE 1.0 layout).
+    fn ten_samples() -> Vec<u8> {
+        let b = written(SampleFormat::I16, &[0.5; 10]);
+        assert_eq!((b.len(), &b[36..40]), (64, &b"data"[..]));
+        b
+    }
+
+    /// A size of 0 is a placeholder only for the last chunk: with samples to the end it reads
+    /// them (length known or not); followed by a chunk it is refused, naming both.
+    #[test]
+    fn a_zero_data_size_is_a_placeholder_only_at_the_end() {
+        let mut b = ten_samples();
+        b[40..44].copy_from_slice(&0u32.to_le_bytes());
+        for (info, y) in [read_all(&b).unwrap(), read_file(&b).unwrap()] {
+            assert_eq!(y, [16384.0 / 32767.0; 10]);
+            assert_eq!(info.frames, None);
+            assert_eq!(
+                info.notes,
+                [
+                    "the data size field is a streaming placeholder (0x0); read to the end of the file"
+                ]
+            );
+        }
+        let mut c = b[..44].to_vec();
+        c.extend_from_slice(b"LIST\x14\0\0\0");
+        c.extend_from_slice(&b[44..]);
+        for e in [read_all(&c).unwrap_err(), read_file(&c).unwrap_err()] {
+            assert_eq!(
+                e.to_string(),
+                "t.wav: the \"data\" chunk at byte 36 has size 0 and is followed by a \"LIST\" \
+                 chunk at byte 44: a size of 0 means \"to the end of the file\" only when \
+                 \"data\" is the last chunk, so this file holds no samples"
+            );
+            assert_eq!(e.exit_code(), 2);
+        }
+        // Nothing after the header: no samples, no error from the reader.
+        let (_, y) = read_file(&b[..44]).unwrap();
+        assert!(y.is_empty());
+    }
+
+    /// With the file's length known, a size past its end is a truncation (not a frame
+    /// mismatch), and bytes after the samples get a note.
+    #[test]
+    fn data_sizes_are_held_to_the_files_length() {
+        let mut b = ten_samples();
+        b[40..44].copy_from_slice(&1001u32.to_le_bytes());
+        let e = read_file(&b).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            "t.wav: truncated: the \"data\" chunk at byte 36 announces 1001 bytes of samples \
+             but the file ends at byte 64 (981 missing, about 490 samples)"
+        );
+        // Without the length the size is judged alone.
+        assert!(
+            read_all(&b)
+                .unwrap_err()
+                .to_string()
+                .contains("whole number")
+        );
+        let mut b = ten_samples();
+        b[40..44].copy_from_slice(&12u32.to_le_bytes());
+        let (info, y) = read_file(&b).unwrap();
+        assert_eq!(y.len(), 6);
+        assert_eq!(
+            info.notes,
+            ["8 bytes after the \"data\" chunk (byte 56 to 64) are not read as samples"]
+        );
+        let (info, _) = read_file(&ten_samples()).unwrap();
+        assert!(info.notes.is_empty(), "{:?}", info.notes);
     }
 }

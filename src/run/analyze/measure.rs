@@ -37,9 +37,16 @@ pub(super) struct Measured {
 pub(super) fn segment_length_of(s: &Setup) -> Result<usize> {
     let n_hint = s.capture.sample_count(&s.info)?;
     if n_hint < 16 {
+        // The hint may count header bytes as samples (a WAV whose size is a placeholder):
+        // so few are counted exactly for the message.
+        let mut n = 0u64;
+        s.capture
+            .pass(&s.scale, &AtomicBool::new(false), &mut |x| {
+                n += x.len() as u64
+            })?;
         return Err(Error::input(
             &s.name,
-            format!("{n_hint} samples: too few to analyse; a density estimate needs at least 16"),
+            format!("{n} samples: too few to analyse; a density estimate needs at least 16"),
         ));
     }
     segment_length(

@@ -81,6 +81,28 @@ impl Capture<'_> {
         }
     }
 
+    /// The length in bytes of the regular file at `path`; `None` when it cannot be looked at
+    /// (opening it then says why) or is a folder. Refuses a pipe, device or socket: the
+    /// capture is read twice (statistics, then the density against them), and a stream gives
+    /// its bytes once.
+    pub(super) fn length_of(path: &Path) -> Result<Option<u64>> {
+        let Ok(m) = fs::metadata(path) else {
+            return Ok(None);
+        };
+        if m.is_file() {
+            return Ok(Some(m.len()));
+        }
+        if m.is_dir() {
+            return Ok(None);
+        }
+        Err(Error::input(
+            path.display().to_string(),
+            "is a pipe, device or socket, not a file: analyze reads a capture twice (its \
+             statistics, then its density against them) and a stream cannot be read twice; \
+             write it to a file first",
+        ))
+    }
+
     /// How the report names the container: the file's format, or `memory`.
     pub(super) fn container(&self, info: &StreamInfo) -> &'static str {
         match self {

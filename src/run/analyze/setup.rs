@@ -44,12 +44,17 @@ struct Parsed {
 
 impl<'a> Setup<'a> {
     pub(super) fn new(a: &'a Analysis<'_>) -> Result<Setup<'a>> {
-        let (name, manifest) = match &a.input {
-            Input::Path(p) => (
-                p.display().to_string(),
-                SideManifest::read(&manifest_path(p))?,
-            ),
-            Input::Samples { .. } => (a.s.label.clone().unwrap_or("samples".into()), None),
+        let (name, manifest, length_bytes) = match &a.input {
+            Input::Path(p) => {
+                // First: a pipe is refused before anything else reads it.
+                let length = Capture::length_of(p)?;
+                (
+                    p.display().to_string(),
+                    SideManifest::read(&manifest_path(p))?,
+                    length,
+                )
+            }
+            Input::Samples { .. } => (a.s.label.clone().unwrap_or("samples".into()), None, None),
         };
         let mut profile = load_profile(a.profile.as_ref())?;
         let samples_unit = match &a.input {
@@ -73,6 +78,7 @@ impl<'a> Setup<'a> {
                     rate_hz: parsed.rate,
                     fallback_rate_hz: manifest.as_ref().and_then(|m| m.sample_rate_hz),
                     name: name.clone(),
+                    length_bytes,
                 },
             },
             Input::Samples { samples, rate_hz } => Capture::Memory {

@@ -11,9 +11,9 @@ use super::pump::lock;
 use super::summary::quantisation_note;
 use crate::error::{Error, Result, Setting};
 use crate::io::adc::Dither;
-use crate::io::sink::{Format, SinkSpec, wav_plan};
+use crate::io::sink::{Format, SampleFormat, SinkSpec, wav_plan};
 use crate::model::density;
-use crate::profile::{Dimension, Profile, parse_quantity};
+use crate::profile::{Dimension, Profile, format_quantity, parse_quantity};
 use crate::stop::Stop;
 use crate::synth::tone;
 use crate::synth::{
@@ -87,7 +87,9 @@ pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Bui
         (true, Some(d)) => Some(Generator::from_design_until(profile, d, 0, 0, stop)?),
         _ => None,
     };
+    not_all_zero(plan, expected_rms * expected_rms, None)?;
     let scale = scale(plan, s, expected_rms)?;
+    not_all_zero(plan, expected_rms * expected_rms, Some(&scale))?;
     let profile = &plan.profile;
     if let Some(note) = floor_note(plan, &scale, fs) {
         plan.notes.push(note);
@@ -232,6 +234,81 @@ fn scale(plan: &Plan, s: &Settings, expected_rms: f64) -> Result<Scale> {
         full_scale: Some(expected_rms / rms_digital_from_dbfs(level)),
         level_dbfs: Some(level),
     })
+}
+
+/// How many expected RMS a stored value must be able to reach: a Gaussian exceeds 10σ with
+/// probability 1.5e−23 per sample (common practice: the normal tail), and a tone's peak is
+/// √2 times its RMS, so a run whose 10·RMS stores as 0 stores only zeros.
+const REACH: f64 = 10.0;
+
+/// Refuses a run whose every stored value would be 0, before anything is written (exit 2, as
+/// a value that cannot be used). Without `scale`: the expected mean square `mean_square`
+/// (unit², noise, tones, bursts and offset) below the smallest normal double (IEEE 754
+/// binary64, 2.2e−308), where densities have underflowed. With it: [`REACH`] times the
+/// expected RMS below half a code step of an integer format (the writers round half away
+/// from zero) or below the smallest f32 (2^−149 ≈ 1.4e−45, IEEE 754 binary32) for f32. ADC codes are
+/// not judged: their range, not zero, sets what a small signal becomes.
+fn not_all_zero(plan: &Plan, mean_square: f64, scale: Option<&Scale>) -> Result<()> {
+    let unit = plan.profile.unit.symbol();
+    let Some(scale) = scale else {
+        if mean_square >= f64::MIN_POSITIVE {
+            return Ok(());
+        }
+        return Err(Error::setting(
+            Setting::Profile,
+            format!(
+                "{}: every sample would be 0: the expected RMS of the output, {} {unit}, is \
+                 below 1.5e-154 {unit}, the smallest a double holds the square of (its \
+                 densities or levels underflow); give larger values",
+                plan.file,
+                crate::io::source::short(mean_square.sqrt())
+            ),
+        ));
+    };
+    if plan.adc.is_some() {
+        return Ok(());
+    }
+    let reach = REACH * mean_square.sqrt();
+    let sf = plan.sample_format;
+    let fs = scale.full_scale.unwrap_or(1.0);
+    let floor = match sf.lsb(fs) {
+        Some(lsb) => (reach < lsb / 2.0).then(|| {
+            format!(
+                "half a code step of {sf} at a full scale of {}, {}",
+                format_quantity(fs, unit),
+                format_quantity(lsb / 2.0, unit)
+            )
+        }),
+        None if sf == SampleFormat::F32 && ((reach / fs) as f32) == 0.0 => {
+            // The smallest positive f32 (a subnormal), 2^−149.
+            let tiny = f64::from(f32::from_bits(1));
+            Some(match scale.full_scale {
+                Some(_) => format!(
+                    "the smallest f32 times the full scale of {}, {}",
+                    format_quantity(fs, unit),
+                    format_quantity(tiny * fs, unit)
+                ),
+                None => format!("the smallest f32, {}", format_quantity(tiny, unit)),
+            })
+        }
+        None => None,
+    };
+    let Some(floor) = floor else {
+        return Ok(());
+    };
+    let (setting, advice) = match (scale.level_dbfs, scale.full_scale) {
+        (Some(_), _) => (Setting::Level, "a higher level"),
+        (None, Some(_)) => (Setting::FullScale, "a smaller full scale"),
+        (None, None) => (Setting::SampleFormat, "f64 or a full scale"),
+    };
+    Err(Error::setting(
+        setting,
+        format!(
+            "every stored value would be 0: {REACH} times the expected RMS, {}, is below {floor}; \
+             use {advice}",
+            format_quantity(reach, unit)
+        ),
+    ))
 }
 
 /// The note on the stored codes' quantisation noise density when it comes near the profile's

@@ -90,11 +90,15 @@ pub(super) fn quantisation_note(
     let margin_db = 20.0 * (lowest / q_density).log10();
     let unit = format!("{}/√Hz", profile.unit.symbol());
     (margin_db < 10.0).then(|| {
+        // The sign picks the words, so the number printed is never negative.
+        let how = if margin_db < 0.0 {
+            format!("{:.1} dB above", -margin_db)
+        } else {
+            format!("only {margin_db:.1} dB below")
+        };
         format!(
-            "the {what} ({}) is only {:.1} dB below the lowest density in \
-             the band ({}): use {advice}",
+            "the {what} ({}) is {how} the lowest density in the band ({}): use {advice}",
             format_quantity(q_density, &unit),
-            margin_db,
             format_quantity(lowest, &unit)
         )
     })
