@@ -2593,6 +2593,51 @@ fn cases() -> Vec<Case> {
                 "the smallest f32",
             ],
         ),
+        // issue 22: wording (values refused where they are written, nothing ignored silently)
+        profile(
+            "a density that overflows its power",
+            W.replace("\"10 nV/rtHz\"", "1e308"),
+            &[
+                "p.toml:6",
+                "floor[0].density",
+                "at most 1e30 V/√Hz",
+                "got 100e306 V/√Hz",
+            ],
+        ),
+        profile(
+            "a tone amplitude that overflows",
+            format!("{W}[[tone]]\nfrequency = \"1 kHz\"\npeak = 1e308\n"),
+            &["p.toml:9", "tone[0].peak", "at most 1e30 V"],
+        ),
+        profile(
+            "a resistance that overflows",
+            format!("{HEAD}[[resistor]]\nresistance = \"1e40 Ohm\"\n"),
+            &["p.toml:6", "resistor[0].resistance", "at most 1e30 Ω"],
+        ),
+        profile(
+            "a current density that overflows",
+            format!("{HEAD}{}", AMP.replace("\"1 pA/rtHz\"", "1e300")),
+            &["amplifier[0].current_density", "at most 1e30 A/√Hz"],
+        ),
+        profile(
+            "one correlation coefficient with one channel",
+            format!("correlation = 0.3\n{W}"),
+            &["p.toml:1", "correlation", "one channel", "channels = 2"],
+        ),
+        Case::new("analyze: --resolution coarser than 16-sample segments")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--resolution", "10kHz"])
+            .expect(&["option --resolution", "at least 16", "at most"]),
+        Case::new("analyze: --full-scale in amperes against a manifest in volts")
+            .file("m.csv", &big)
+            .file("m.csv.json", r#"{"unit": "V"}"#)
+            .args(&["analyze", "m.csv", "--full-scale", "1uA"])
+            .expect(&[
+                "option --full-scale",
+                "in A",
+                "in V",
+                "the capture's manifest",
+            ]),
     ]
 }
 

@@ -28,8 +28,8 @@ pub const FIRST_BIN: usize = 3;
 /// The Welch segment length L (even, samples) for a capture of `samples` samples at
 /// `sample_rate_hz` Hz.
 ///
-/// * With `resolution_hz` (the bin width fs/L): L = 2·round(fs/(2·resolution)), at least 16
-///   samples and at most the record.
+/// * With `resolution_hz` (the bin width fs/L): L = 2·round(fs/(2·resolution)); a resolution
+///   that needs fewer than 16 samples or more than the record is refused.
 /// * Otherwise the largest power of two ≤ N/8 (so at least 15 segments at 50 % overlap, ν ≳
 ///   28 per bin), at most [`MAX_DEFAULT_SEGMENT`], at least 256 (or the largest power of two
 ///   ≤ N/2 for shorter records); with a profile's `band_low_hz`, no longer than the power of
@@ -54,7 +54,19 @@ pub fn segment_length(
                 "expected a positive frequency such as 0.1Hz",
             ));
         }
-        let l = 2 * (sample_rate_hz / (2.0 * r)).round().max(8.0) as usize;
+        let half = (sample_rate_hz / (2.0 * r)).round();
+        if half < 8.0 {
+            return Err(Error::setting(
+                Setting::Resolution,
+                format!(
+                    "a resolution of {r} Hz needs segments of {:.1} samples, but a density \
+                     estimate needs at least 16; ask for at most {:.4} Hz",
+                    sample_rate_hz / r,
+                    sample_rate_hz / 16.0
+                ),
+            ));
+        }
+        let l = 2 * half as usize;
         if l > n {
             return Err(Error::setting(
                 Setting::Resolution,

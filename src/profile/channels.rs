@@ -113,7 +113,18 @@ pub(super) fn validate_channels(
                     ),
                 ));
             };
-            if n > 1 {
+            if n == 1 {
+                // One channel has no pair: a coefficient here would be ignored silently.
+                return Err(err(
+                    "correlation",
+                    span,
+                    format!(
+                        "{rho} correlates pairs of channels, but this profile has one channel; \
+                         set channels = 2 or more, or remove correlation"
+                    ),
+                ));
+            }
+            {
                 let low = -1.0 / (n as f64 - 1.0);
                 if rho < low - tolerance(n) {
                     return Err(err(

@@ -379,8 +379,22 @@ fn edit_distance(a: &str, b: &str) -> usize {
     prev[b.len()]
 }
 
-/// A number or a string with a unit, resolved to SI base units and checked finite.
+/// A number or a string with a unit, resolved to SI base units, checked finite and, for
+/// densities, levels and resistances, at most [`MAX_MAGNITUDE`] in magnitude.
 pub(super) fn quantity(
+    cx: &Cx<'_>,
+    value: &Value,
+    span: Range<usize>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+) -> Result<f64> {
+    let x = finite_quantity(cx, value, span.clone(), key, dim, unit)?;
+    within_magnitude(cx, x, span, key, dim, unit)
+}
+
+/// A number or a string with a unit, resolved to SI base units and checked finite.
+pub(super) fn finite_quantity(
     cx: &Cx<'_>,
     value: &Value,
     span: Range<usize>,
@@ -412,6 +426,41 @@ pub(super) fn quantity(
     }
     Ok(x)
 }
+
+/// `x` itself if it is a density, level or resistance of at most [`MAX_MAGNITUDE`] in
+/// magnitude (or of another dimension); an error naming the key otherwise.
+pub(super) fn within_magnitude(
+    cx: &Cx<'_>,
+    x: f64,
+    span: Range<usize>,
+    key: &str,
+    dim: Dimension,
+    unit: Unit,
+) -> Result<f64> {
+    let scaled = matches!(
+        dim,
+        Dimension::Density | Dimension::Amplitude | Dimension::Resistance
+    );
+    if scaled && x.abs() > MAX_MAGNITUDE {
+        let unit_symbol = symbol(dim, unit);
+        return Err(cx.err(
+            key,
+            Some(span),
+            format!(
+                "expected at most {} in magnitude (larger values overflow the sums of powers \
+                 over sources and samples), got {}",
+                format_quantity(MAX_MAGNITUDE, &unit_symbol),
+                format_quantity(x, &unit_symbol)
+            ),
+        ));
+    }
+    Ok(x)
+}
+
+/// The largest magnitude of a density (unit/√Hz), level or amplitude (unit) or resistance (Ω)
+/// a profile may hold: far beyond anything physical, and small enough that squares summed
+/// over many sources and 2^63 samples stay finite in f64 (1e30² · 2^63 ≈ 1e79).
+pub const MAX_MAGNITUDE: f64 = 1e30;
 
 fn spanned_quantity(
     cx: &Cx<'_>,

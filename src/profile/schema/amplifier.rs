@@ -124,7 +124,15 @@ impl At<'_, '_> {
         let (cx, key) = (self.cx, self.key(k));
         // Current noise is in A/√Hz whatever the profile's unit: say so rather than suggest
         // changing the profile's unit.
-        let x = spanned_quantity(cx, v, &key, Dimension::Density, Unit::Ampere).map_err(|_| {
+        let x = finite_quantity(
+            cx,
+            v.get_ref(),
+            v.span(),
+            &key,
+            Dimension::Density,
+            Unit::Ampere,
+        )
+        .map_err(|_| {
             cx.err(
                 &key,
                 Some(v.span()),
@@ -135,6 +143,7 @@ impl At<'_, '_> {
                 ),
             )
         })?;
+        let x = within_magnitude(cx, x, v.span(), &key, Dimension::Density, Unit::Ampere)?;
         if x >= 0.0 {
             Ok(x)
         } else {

@@ -61,12 +61,28 @@ impl<'a> Setup<'a> {
             Input::Samples { .. } => Some(samples_unit(&a.s, profile.as_ref(), &name)?),
             Input::Path(_) => None,
         };
-        let unit_hint = profile
+        // The unit of the capture's values, and who says so (for errors).
+        let (unit_hint, unit_from) = profile
             .as_ref()
-            .map(|p| p.unit.symbol())
-            .or(manifest.as_ref().and_then(|m| m.unit).map(|u| u.symbol()))
-            .or(samples_unit.map(Unit::symbol))
-            .unwrap_or("V");
+            .map(|p| (p.unit.symbol(), "the profile"))
+            .or(manifest
+                .as_ref()
+                .and_then(|m| m.unit)
+                .map(|u| (u.symbol(), "the capture's manifest")))
+            .or(samples_unit.map(|u| (u.symbol(), "the samples' label")))
+            .or(a.s.full_scale.as_deref().and_then(unit_written_in))
+            .unwrap_or(("V", "the default (no profile or manifest says otherwise)"));
+        if let Some(fs) = &a.s.full_scale {
+            if let Some((other, _)) = unit_written_in(fs).filter(|(u, _)| *u != unit_hint) {
+                return Err(Error::setting(
+                    Setting::FullScale,
+                    format!(
+                        "{fs:?} is in {other}, but the capture's values are in {unit_hint} \
+                         (said by {unit_from}); write the full scale in {unit_hint}"
+                    ),
+                ));
+            }
+        }
         let sample_format = sample_format(&a.s, &a.input, manifest.as_ref(), &name)?;
         let parsed = Parsed::new(&a.s, sample_format, unit_hint)?;
         let capture = match &a.input {
@@ -194,6 +210,18 @@ fn sample_format(
         }
     }
     Ok(named.or(stated))
+}
+
+/// The unit a full scale is written in, with where that came from: `("A", …)` for a value
+/// in amperes, `("V", …)` for one in volts, `None` for a bare number (which takes the
+/// capture's unit).
+fn unit_written_in(full_scale: &str) -> Option<(&'static str, &'static str)> {
+    let reads_in = |u| parse_quantity(full_scale, Dimension::Amplitude, u).is_ok();
+    match (reads_in("V"), reads_in("A")) {
+        (true, false) => Some(("V", "the unit of the full scale")),
+        (false, true) => Some(("A", "the unit of the full scale")),
+        _ => None,
+    }
 }
 
 impl Parsed {
