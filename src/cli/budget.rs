@@ -4,8 +4,8 @@
 use std::path::PathBuf;
 
 use noisewright::model::budget::to_json;
-use noisewright::run::budget::{budget_bands, budget_text, write_budget_chart};
-use noisewright::{Profile, Result, budget};
+use noisewright::run::budget::{budget_bands, budget_of, budget_text, write_budget_chart};
+use noisewright::{Profile, Result};
 
 /// Options of `noisewright budget`.
 #[derive(Debug, Clone, clap::Args)]
@@ -33,7 +33,7 @@ pub struct BudgetArgs {
 pub fn run(args: &BudgetArgs) -> Result<String> {
     let profile = Profile::from_path(&args.profile)?;
     let bands = budget_bands(&profile, &args.bands, args.order)?;
-    let b = budget(&profile, &bands);
+    let b = budget_of(&profile, &bands)?;
     if let Some(path) = &args.plot {
         write_budget_chart(&profile, &b, path)?;
     }

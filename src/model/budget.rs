@@ -273,15 +273,23 @@ pub struct BandBudget {
     pub enbw_ratio: f64,
     /// ∫_low^∞ w(f) df in Hz: the bandwidth a white density is integrated over.
     pub noise_bandwidth_hz: f64,
-    /// Total RMS in the profile unit (closed form when every source has one, else numeric).
+    /// The band RMS in the profile unit: the target density (every source and every burst's
+    /// continuous density) through the band's declared edges, integrated over
+    /// [`low_hz`](Self::low_hz), [`high_hz`](Self::high_hz) only ([`band_rms`]). The figure
+    /// tones' SNR is quoted against, and the one `generate` and `analyze` print.
+    pub band_rms: f64,
+    /// The analog total RMS in the profile unit: through the band's filter from `low_hz` to
+    /// infinity, its roll-off tail included (closed form when every source has one, else
+    /// numeric).
     pub rms: f64,
     /// Total RMS by numeric integration of the summed density.
     pub rms_numeric: f64,
     /// Total RMS in closed form, when every source has one.
     pub rms_closed_form: Option<f64>,
-    /// Peak-to-peak as 6σ (±3σ, exceeded by 0.27 % of Gaussian samples), profile unit.
+    /// Peak-to-peak as 6σ of the analog total [`rms`](Self::rms) (±3σ, exceeded by 0.27 %
+    /// of Gaussian samples), profile unit.
     pub p2p_6sigma: f64,
-    /// Peak-to-peak as 6.6σ (±3.3σ, ≈ 0.1 %), profile unit.
+    /// Peak-to-peak as 6.6σ of the analog total (±3.3σ, ≈ 0.1 %), profile unit.
     pub p2p_6_6sigma: f64,
     /// Each source's RMS and share, in profile order.
     pub sources: Vec<SourceShare>,
@@ -351,6 +359,12 @@ pub struct Budget {
     /// The resistance in Ω whose thermal noise at 25 °C equals the white floor: e²/(4kT) in a
     /// volt profile, 4kT/i² in an ampere profile.
     pub floor_resistance_ohm: f64,
+    /// The file RMS of the noise in the profile unit: what a file generated from the profile
+    /// holds (its designed density up to fs/2, bursts included, their mean excluded). Made
+    /// from the design, so [`budget`] leaves it `None`; [`crate::run::budget::budget_of`]
+    /// fills it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub file_noise_rms: Option<f64>,
 }
 
 /// Share of the band's power at or above which a single source gets a note.
@@ -404,7 +418,17 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
         densities,
         white_floor: white.sqrt(),
         floor_resistance_ohm,
+        file_noise_rms: None,
     }
+}
+
+/// The band RMS of `profile` in `band`, in the profile unit: √∫ over [low, high] of every
+/// Gaussian source's density and every burst's continuous density, each weighted by the
+/// band's declared edges. One definition for `generate`, `budget` and `analyze`.
+pub fn band_rms(profile: &Profile, band: &BandSpec) -> f64 {
+    BandInputs::new(profile, band)
+        .variance_between(band.low_hz, band.high_hz)
+        .sqrt()
 }
 
 /// Powers of ten in `[lo, hi]` (with a relative slack of 1e−9 at both ends).
@@ -646,7 +670,7 @@ fn share_notes(
 
 /// Notes on what the figures leave out: a band beyond the profile's, the bursts' DC means,
 /// and the part of the band above fs/2 (`to_nyquist` and `total` variances in unit²).
-fn reach_notes(inputs: &BandInputs<'_>, to_nyquist: f64, total: f64) -> Vec<String> {
+fn reach_notes(inputs: &BandInputs<'_>) -> Vec<String> {
     let (profile, band) = (inputs.profile, inputs.band);
     let q = |x: f64| format_quantity(x, profile.unit.symbol());
     let hz = |x: f64| format_quantity(x, "Hz");
@@ -668,18 +692,10 @@ fn reach_notes(inputs: &BandInputs<'_>, to_nyquist: f64, total: f64) -> Vec<Stri
             q(m.mean())
         ));
     }
-    if to_nyquist < 0.99 * total {
-        notes.push(format!(
-            "{} of it lies below fs/2 = {} (all a file at {} can carry)",
-            q(to_nyquist.sqrt()),
-            hz(profile.sample_rate_hz / 2.0),
-            hz(profile.sample_rate_hz)
-        ));
-    }
     notes
 }
 
-/// The profile's tones against the band's noise of `total` unit².
+/// The profile's tones against the band's noise: its band RMS squared, `total` unit².
 fn tone_budgets(profile: &Profile, band: &BandSpec, total: f64) -> Vec<ToneBudget> {
     profile
         .tones
@@ -709,10 +725,12 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
     let amplifier_var = class_variance(&sources, SourceClass::Amplifier);
     let per_decade = decade_rms(&inputs);
     let to_nyquist = inputs.variance_between(band.low_hz, profile.sample_rate_hz / 2.0);
+    let band_variance = inputs.variance_between(band.low_hz, band.high_hz);
     let mut notes = share_notes(&sources, resistor_var, amplifier_var, profile.unit.symbol());
-    notes.extend(reach_notes(&inputs, to_nyquist, total));
+    notes.extend(reach_notes(&inputs));
     let rms = total.sqrt();
     BandBudget {
+        band_rms: band_variance.sqrt(),
         low_hz: band.low_hz,
         high_hz: band.high_hz,
         order: band.order,
@@ -729,7 +747,7 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         resistor_rms: resistor_var.sqrt(),
         amplifier_rms: amplifier_var.sqrt(),
         notes,
-        tones: tone_budgets(profile, band, total),
+        tones: tone_budgets(profile, band, band_variance),
     }
 }
 
@@ -776,6 +794,14 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
         write_band_sources(b, unit, width, out)?;
         write_band_details(b, unit, out)?;
     }
+    if let Some(f) = budget.file_noise_rms {
+        writeln!(
+            out,
+            "\nfile RMS of the noise {} (what a file generated from the profile holds, up to \
+             fs/2)",
+            format_quantity(f, unit)
+        )?;
+    }
     writeln!(out)?;
     write_density_table(budget, width, out)
 }
@@ -821,14 +847,22 @@ fn write_band_sources(
     let closed = b.rms_closed_form.map_or("none".to_string(), q);
     writeln!(
         out,
-        "  {:<width$}  {:>12}  (closed form {closed}, numeric {})",
+        "  {:<width$}  {:>12}  (analog: through the band's filter to infinity; closed form \
+         {closed}, numeric {})",
         "total",
         q(b.rms),
         q(b.rms_numeric)
     )?;
     writeln!(
         out,
-        "  peak-to-peak {} (6\u{3c3}), {} (6.6\u{3c3})",
+        "  band RMS {} (the target over {} .. {} with its declared edges)",
+        q(b.band_rms),
+        hz(b.low_hz),
+        hz(b.high_hz)
+    )?;
+    writeln!(
+        out,
+        "  peak-to-peak {} (6\u{3c3}), {} (6.6\u{3c3}) of the analog total",
         q(b.p2p_6sigma),
         q(b.p2p_6_6sigma)
     )
@@ -849,7 +883,7 @@ fn write_band_details(b: &BandBudget, unit: &str, out: &mut dyn Write) -> io::Re
     for t in &b.tones {
         writeln!(
             out,
-            "  tone {} at {}{}: {} peak ({} RMS), SNR {:.2} dB against this band's noise, \
+            "  tone {} at {}{}: {} peak ({} RMS), SNR {:.2} dB against the band RMS, \
              ENOB {:.2} bits (IEEE 1241, SINAD = SNR)",
             t.name,
             hz(t.frequency_hz),
@@ -1173,7 +1207,9 @@ mod tests {
 
     // Exact math: ∫_lo^top d²/(1+(f/h)²) df = d²·h·(atan(top/h) − atan(lo/h)).
     #[test]
-    fn the_part_below_nyquist_is_reported_when_the_roll_off_reaches_past_it() {
+    fn the_part_below_nyquist_and_the_band_rms_have_their_closed_forms() {
+        // A first-order low-pass on a white density e²: ∫ e²/(1 + (f/h)²) df = e²·h·atan(f/h)
+        // (REFERENCES §6).
         let p = profile("[[floor]]\ndensity = \"1 nV/rtHz\"\n");
         let band = BandSpec {
             low_hz: 10.0,
@@ -1184,15 +1220,13 @@ mod tests {
         let h = 20e3f64;
         let want = 1e-18 * h * ((24e3 / h).atan() - (10.0 / h).atan());
         assert!(rel(b.rms_to_nyquist.powi(2), want) < 1e-9);
-        assert!(
-            b.notes.iter().any(|n| n.contains("below fs/2 = 24 kHz")),
-            "{:?}",
-            b.notes
-        );
-        // A brick-wall band inside fs/2 loses nothing and gets no such note.
+        // The band RMS stops at the band's upper edge: atan(1) − atan(10/h).
+        let band_want = 1e-18 * h * (1f64.atan() - (10.0 / h).atan());
+        assert!(rel(b.band_rms.powi(2), band_want) < 1e-9);
+        // A brick-wall band inside fs/2 loses nothing: all three figures agree.
         let inside = &budget(&p, &[BandSpec { order: 0, ..band }]).bands[0];
         assert!(rel(inside.rms_to_nyquist, inside.rms) < 1e-12);
-        assert!(!inside.notes.iter().any(|n| n.contains("fs/2")));
+        assert!(rel(inside.band_rms, inside.rms) < 1e-9);
     }
 
     #[test]

@@ -52,6 +52,23 @@ pub fn budget_bands<S: AsRef<str>>(
     Ok(bands)
 }
 
+/// The budget of `profile` in `bands` as `budget` prints it: [`crate::budget`] with the file
+/// RMS of the noise ([`file_noise_rms`]) filled in.
+pub fn budget_of(profile: &Profile, bands: &[BandSpec]) -> Result<Budget> {
+    let mut b = crate::model::budget::budget(profile, bands);
+    b.file_noise_rms = Some(file_noise_rms(profile)?);
+    Ok(b)
+}
+
+/// The file RMS of the noise of `profile`, in its unit: the expected RMS (AC) of the noise a
+/// streamed file holds, i.e. the designed density up to fs/2 plus every burst's variance
+/// ([`crate::synth::Generator::noise_variance`]); the same number `generate` prints.
+pub fn file_noise_rms(profile: &Profile) -> Result<f64> {
+    Ok(crate::synth::Generator::new(profile, 0)?
+        .noise_variance()
+        .sqrt())
+}
+
 /// The budget as the text `budget` prints (RMS in the profile's unit, densities per √Hz).
 pub fn budget_text(budget: &Budget) -> String {
     let mut out = Vec::new();

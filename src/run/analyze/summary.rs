@@ -20,7 +20,7 @@ pub(super) fn tone_text(json: &serde_json::Value, unit: &str) -> String {
         let db = |k: &str| t[k].as_f64().map_or("-".into(), |v| format!("{v:.2} dB"));
         s += &format!(
             "  tone            {} at {}: measured {} peak (designed {}, ±{} 1σ for white \
-             noise), SNR {} (designed {})\n",
+             noise), SNR {} (designed {} against the band RMS)\n",
             t["name"].as_str().unwrap_or(""),
             format_quantity(t["frequency_hz"].as_f64().unwrap_or(0.0), "Hz"),
             q("measured_peak"),
@@ -40,6 +40,15 @@ pub(super) fn summary_text(
     profile: Option<&Profile>,
 ) -> String {
     let mut s = head(r);
+    if let Some(e) = json.get("profile_rms") {
+        let q = |k: &str| format_quantity(e[k].as_f64().unwrap_or(f64::NAN), &r.unit);
+        s += &format!(
+            "  profile RMS     band {} (the target over the band), file {} (the noise up to \
+             fs/2)\n",
+            q("band_rms"),
+            q("file_noise_rms")
+        );
+    }
     s += &density_table(r);
     s += &tail(r, json, profile);
     s

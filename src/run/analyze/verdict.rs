@@ -12,6 +12,7 @@ use crate::analysis::capture::CaptureReport;
 use crate::analysis::compare::{Comparison, compare_with_design};
 use crate::analysis::tones::{ToneFit, without_tones};
 use crate::error::{Error, Result};
+use crate::model::budget::{BandSpec, band_rms};
 use crate::model::tone::enob;
 use crate::profile::format_quantity;
 
@@ -64,7 +65,15 @@ pub(super) fn tones(
             }
         })
         .sum();
-    let expected = d.tone_snr(p.band.low_hz, p.band.high_hz, q_psd * fs / 2.0);
+    // Designed SNR: against the band RMS (as generate and budget quote it) plus the
+    // quantisation noise in the band, the noise the measured SNR counts too.
+    let band_power = band_rms(p, &BandSpec::of_profile(p)).powi(2);
+    let q_band = q_psd * (p.band.high_hz - p.band.low_hz);
+    let expected: Vec<f64> = p
+        .tones
+        .iter()
+        .map(|t| crate::model::tone::snr_db(t.power(), band_power, q_band))
+        .collect();
     let sigma_a = (d.noise_variance() * 2.0 / m.stats.count() as f64).sqrt();
     let mut tone_json = Vec::new();
     for (i, t) in p.tones.iter().enumerate() {
@@ -78,7 +87,7 @@ pub(super) fn tones(
             "measured_rms": m.map(|m| m.peak / std::f64::consts::SQRT_2),
             "measured_phase_deg": m.map(|m| m.phase_rad.to_degrees()),
             "peak_std_white": sigma_a,
-            "expected_snr_db": expected[i].0,
+            "expected_snr_db": expected[i],
             "measured_snr_db": measured_snr,
             "measured_enob_bits": measured_snr.map(enob),
             "excluded_bins": [excluded[i].start, excluded[i].end],

@@ -12,6 +12,7 @@ use super::summary::quantisation_note;
 use crate::error::{Error, Result, Setting};
 use crate::io::adc::Dither;
 use crate::io::sink::{Format, SampleFormat, SinkSpec, wav_plan};
+use crate::model::budget::{BandSpec, band_rms};
 use crate::model::density;
 use crate::profile::{Dimension, Profile, format_quantity, parse_quantity};
 use crate::stop::Stop;
@@ -41,8 +42,10 @@ pub(super) struct Built {
     pub(super) expected_mean: f64,
     /// Expected RMS (unit), AC + DC.
     pub(super) expected_rms: f64,
-    /// The target density integrated over the band (unit²).
+    /// The band RMS squared (unit²): [`crate::model::budget::band_rms`] of the profile's band.
     pub(super) band_variance: f64,
+    /// The file's noise variance (unit², AC): the design (or loop buffer) without tones.
+    pub(super) noise_variance: f64,
     /// The one-channel streaming generator (its bursts' models), when that is the engine.
     pub(super) generator: Option<Rc<RefCell<Generator>>>,
     /// The several-channel generator, when that is the engine.
@@ -63,8 +66,7 @@ pub(super) struct Built {
 pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Built> {
     let profile = &plan.profile;
     let fs = profile.sample_rate_hz;
-    let target_psd = |f: f64| density::target_psd(profile, f);
-    let band_variance = density::integrate(&target_psd, profile.band.low_hz, profile.band.high_hz);
+    let band_variance = band_rms(profile, &BandSpec::of_profile(profile)).powi(2);
     let parts: Arc<Mutex<Vec<Vec<f64>>>> = Arc::default();
     // One design for the run: every channel's engine and the tones' figures share it (a loop
     // buffer is made from the target density and needs it only for the figures).
@@ -72,8 +74,8 @@ pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Bui
     let design = (!s.loop_buffer || has_figures)
         .then(|| design_profile_until(profile, stop).map(Arc::new))
         .transpose()?;
-    let (engine, expected_variance, generator, multi) =
-        engine(plan, s, design.clone(), &parts, stop)?;
+    let (engine, noise_variance, generator, multi) = engine(plan, s, design.clone(), &parts, stop)?;
+    let expected_variance = noise_variance + profile.tones.iter().map(|t| t.power()).sum::<f64>();
     // Bursts are DC-coupled: the expected RMS is AC + DC, √(variance + mean²).
     let expected_mean = match (&generator, &multi) {
         (Some(g), _) => g.borrow().mean(),
@@ -123,6 +125,7 @@ pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Bui
     Ok(Built {
         engine,
         expected_variance,
+        noise_variance,
         expected_mean,
         expected_rms,
         band_variance,
@@ -143,7 +146,7 @@ type Engines = (
     Option<Rc<RefCell<ChannelGenerator>>>,
 );
 
-/// The engine and its expected variance (unit²): a loop buffer, several channels, or one
+/// The engine and the expected variance of its noise (unit², tones not included): a loop buffer, several channels, or one
 /// channel (writing its per-source parts into `parts` when CSV columns per source are asked).
 fn engine(
     plan: &Plan,
@@ -160,8 +163,7 @@ fn engine(
         let mut buffer = periodic_buffer_until(&target_psd, fs, n, s.seed, stop)?;
         // Tones (whole cycles, checked by the plan) and the offset, from sample index 0.
         tone::add_deterministic(&profile.tones, profile.offset, fs, 0, &mut buffer);
-        let var = periodic_variance(&target_psd, fs, n)
-            + profile.tones.iter().map(|t| t.power()).sum::<f64>();
+        let var = periodic_variance(&target_psd, fs, n);
         let mut pos = 0;
         let engine: Engine = Box::new(move |out: &mut [f64]| {
             for x in out {
@@ -176,7 +178,7 @@ fn engine(
         let m = Rc::new(RefCell::new(ChannelGenerator::from_design_until(
             profile, design, s.seed, plan.start, stop,
         )?));
-        let var = m.borrow().generator().variance();
+        let var = m.borrow().generator().noise_variance();
         let engine_m = m.clone();
         let engine: Engine =
             Box::new(move |out: &mut [f64]| engine_m.borrow_mut().fill_frames(out));
@@ -185,7 +187,7 @@ fn engine(
     let g = Rc::new(RefCell::new(Generator::from_design_until(
         profile, design, s.seed, plan.start, stop,
     )?));
-    let var = g.borrow().variance();
+    let var = g.borrow().noise_variance();
     let engine_g = g.clone();
     let engine: Engine = if plan.per_source {
         let parts = parts.clone();

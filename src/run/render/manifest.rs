@@ -92,11 +92,11 @@ pub(super) fn burst_manifest(
 pub(super) fn tone_manifest(
     manifest: &mut Manifest,
     profile: &Profile,
-    g: &Generator,
+    band_variance: f64,
     adc: Option<&Adc>,
 ) {
     use serde_json::json;
-    let f = tone_figures(profile, g, adc);
+    let f = tone_figures(profile, band_variance, adc);
     let (snr, noise_rms) = (&f.noise, f.noise_rms);
     let extra = &mut manifest.extra;
     extra.insert("offset".into(), json!(profile.offset));

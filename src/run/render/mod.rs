@@ -103,8 +103,12 @@ pub struct RenderReport {
     pub expected_rms: f64,
     /// The RMS of the written values, in the profile's unit (before quantisation).
     pub measured_rms: f64,
-    /// The RMS of the target density integrated over the profile's band, in its unit.
+    /// The band RMS in the profile unit: the target density (bursts included) through the
+    /// band's declared edges over [low, high] ([`crate::model::budget::band_rms`]).
     pub band_rms: f64,
+    /// The file RMS of the noise in the profile unit (AC): what the output holds of the noise,
+    /// up to fs/2, without offset, tones or bursts' mean.
+    pub file_noise_rms: f64,
     /// Samples clipped at full scale or clamped to an ADC's end codes (0 unless clipping was
     /// allowed).
     pub clipped: u64,

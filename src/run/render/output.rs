@@ -116,6 +116,7 @@ pub(super) fn write(
         expected_rms: built.expected_rms,
         measured_rms: measured.all.rms(),
         band_rms: built.band_variance.sqrt(),
+        file_noise_rms: built.noise_variance.sqrt(),
         clipped: sink_report.clipped,
         frames: measured.all.count() / channels.max(1) as u64,
         path,
@@ -148,6 +149,7 @@ fn closed_report(built: &Built) -> RenderReport {
         expected_rms: built.expected_rms,
         measured_rms: f64::NAN,
         band_rms: built.band_variance.sqrt(),
+        file_noise_rms: built.noise_variance.sqrt(),
         clipped: 0,
         frames: 0,
         path: None,
@@ -228,14 +230,26 @@ fn manifest_doc(
     manifest.start_s = plan.start as f64 / fs;
     manifest.notes = notes.to_vec();
     manifest.extra.extend(built.container_keys.clone());
+    // The band RMS and the file RMS of the noise, as `budget` and `analyze` print them.
+    manifest
+        .extra
+        .insert("band_rms".into(), built.band_variance.sqrt().into());
+    manifest
+        .extra
+        .insert("file_noise_rms".into(), built.noise_variance.sqrt().into());
     if let Some(a) = &plan.adc {
         manifest.extra.insert("adc".into(), a.to_json(fs));
     }
     if let Some(g) = &built.generator {
         burst_manifest(&mut manifest, &g.borrow(), profile, plan.per_source, spec);
     }
-    if let Some(fg) = &built.figures {
-        tone_manifest(&mut manifest, profile, fg, plan.adc.as_ref());
+    if built.figures.is_some() {
+        tone_manifest(
+            &mut manifest,
+            profile,
+            built.band_variance,
+            plan.adc.as_ref(),
+        );
     }
     if let Some(m) = &built.multi {
         burst_manifest(&mut manifest, m.borrow().generator(), profile, false, spec);
@@ -265,8 +279,11 @@ fn summary(
         shown,
         s,
         &built.scale,
-        built.band_variance.sqrt(),
-        built.expected_rms,
+        [
+            built.band_variance.sqrt(),
+            built.noise_variance.sqrt(),
+            built.expected_rms,
+        ],
         &measured.all,
         report.clipped,
         plan.adc.as_ref(),
@@ -284,7 +301,7 @@ fn summary(
         text += &burst_summary(&g.borrow(), profile, var, mean);
     }
     if let Some(fg) = &built.figures {
-        text += &tone_summary(profile, fg, plan.adc.as_ref());
+        text += &tone_summary(profile, fg, built.band_variance, plan.adc.as_ref());
     }
     if let Some(m) = &built.multi {
         text += &burst_summary(m.borrow().generator(), profile, var, mean);

@@ -105,13 +105,14 @@ pub(super) fn quantisation_note(
 }
 
 #[allow(clippy::too_many_arguments)]
+/// The run's summary; `figures` are the band RMS, the file RMS of the noise and the expected
+/// RMS of the samples (AC + DC), in the profile unit.
 pub(super) fn summary_text(
     profile: &Profile,
     out: &str,
     s: &Settings,
     scale: &Scale,
-    band_rms: f64,
-    expected_rms: f64,
+    figures: [f64; 3],
     stats: &RunningStats,
     clipped: u64,
     adc: Option<&Adc>,
@@ -139,21 +140,25 @@ pub(super) fn summary_text(
             ""
         }
     );
+    let [band_rms, file_noise_rms, expected_rms] = figures;
     s += &format!(
-        "  expected RMS    {} in the band, {} in the output\n",
+        "  expected RMS    band {} (the target over the band), file {} (the noise up to fs/2)\n",
         q(band_rms),
-        q(expected_rms)
+        q(file_noise_rms)
     );
-    // With bursts or tones the Gaussian convention does not hold; their summary gives the
-    // figure. An offset moves the samples, not their spread: p-p is 6σ of the AC part.
-    if profile.bursts.is_empty() && profile.tones.is_empty() {
-        let sigma = (expected_rms * expected_rms - profile.offset * profile.offset)
-            .max(0.0)
-            .sqrt();
+    if (expected_rms - file_noise_rms).abs() > 1e-9 * expected_rms {
         s += &format!(
-            "  peak-to-peak    {} (6σ), {} (6.6σ) expected\n",
-            q(6.0 * sigma),
-            q(6.6 * sigma)
+            "                  {} in all (AC + DC: with the offset, tones and bursts' mean)\n",
+            q(expected_rms)
+        );
+    }
+    // With bursts or tones the Gaussian convention does not hold; their summary gives the
+    // figure. An offset moves the samples, not their spread: p-p is 6σ of the noise.
+    if profile.bursts.is_empty() && profile.tones.is_empty() {
+        s += &format!(
+            "  peak-to-peak    {} (6σ), {} (6.6σ) of the file RMS expected\n",
+            q(6.0 * file_noise_rms),
+            q(6.6 * file_noise_rms)
         );
     }
     s += &format!(
@@ -216,38 +221,52 @@ pub(super) fn channel_summary(
     s
 }
 
-/// Each tone's expected SNR (dB) and ENOB (bits) against the profile's in-band noise (the
-/// Gaussian design plus bursts integrated over the band, [`Generator::tone_snr`]), and the
-/// in-band noise RMS (unit); with ADC codes also the same figures with the converter's added
-/// noise in the band (its white density [`Adc::added_noise_psd`] times the band width).
+/// Each tone's expected SNR (dB) and ENOB (bits) against the band RMS
+/// ([`crate::model::budget::band_rms`], the same figure `budget` quotes), and the band RMS
+/// (unit); with ADC codes also the same figures with the converter's added noise in the band
+/// (its white density [`Adc::added_noise_psd`] times the band width).
 pub(super) struct ToneFigures {
     pub(super) noise: Vec<(f64, f64)>,
     pub(super) with_adc: Option<Vec<(f64, f64)>>,
     pub(super) noise_rms: f64,
 }
 
-pub(super) fn tone_figures(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> ToneFigures {
+/// The tones' figures of `profile` against `band_variance` (unit², the band RMS squared).
+pub(super) fn tone_figures(
+    profile: &Profile,
+    band_variance: f64,
+    adc: Option<&Adc>,
+) -> ToneFigures {
     let (lo, hi) = (profile.band.low_hz, profile.band.high_hz);
+    let against = |extra: f64| -> Vec<(f64, f64)> {
+        profile
+            .tones
+            .iter()
+            .map(|t| {
+                let snr = crate::model::tone::snr_db(t.power(), band_variance, extra);
+                (snr, crate::model::tone::enob(snr))
+            })
+            .collect()
+    };
     ToneFigures {
-        noise: g.tone_snr(lo, hi, 0.0),
-        with_adc: adc.map(|a| {
-            g.tone_snr(
-                lo,
-                hi,
-                a.added_noise_psd(profile.sample_rate_hz) * (hi - lo),
-            )
-        }),
-        noise_rms: g.band_noise_power(lo, hi).sqrt(),
+        noise: against(0.0),
+        with_adc: adc.map(|a| against(a.added_noise_psd(profile.sample_rate_hz) * (hi - lo))),
+        noise_rms: band_variance.sqrt(),
     }
 }
 
 /// Summary lines for the tones and offset (empty without either): per tone its frequency,
 /// peak and RMS amplitude, SNR against the in-band noise and ENOB (SINAD = SNR: no
 /// distortion is modelled), and the peak-to-peak with the tones (noise 6σ + Σ 2A).
-pub(super) fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) -> String {
+pub(super) fn tone_summary(
+    profile: &Profile,
+    g: &Generator,
+    band_variance: f64,
+    adc: Option<&Adc>,
+) -> String {
     let u = profile.unit.symbol();
     let q = |v: f64| format_quantity(v, u);
-    let f = tone_figures(profile, g, adc);
+    let f = tone_figures(profile, band_variance, adc);
     let (snr, noise_rms) = (&f.noise, f.noise_rms);
     let mut s = String::new();
     if profile.offset != 0.0 {
@@ -266,7 +285,7 @@ pub(super) fn tone_summary(profile: &Profile, g: &Generator, adc: Option<&Adc>) 
             t.phase_rad.to_degrees()
         );
         s += &format!(
-            "                  SNR {snr_db:.2} dB against {} noise in the band, ENOB {enob:.2} bits \
+            "                  SNR {snr_db:.2} dB against the band RMS {}, ENOB {enob:.2} bits \
              (IEEE 1241, SINAD = SNR: no distortion modelled)\n",
             q(noise_rms)
         );
