@@ -629,13 +629,13 @@ fn many_sources(n: usize, low: &str) -> String {
 
 /// SIGINT 0.5 s into a long computation before any sample is written (the design of many
 /// sources down to a low band edge, a loop buffer of many sources, a burst's catch-up to a
-/// far `--start-sample` at 1000 jumps per sample, an analysis designing its profile): each
+/// far `--start-sample` at 1000 jumps per sample, a budget, an analysis designing its profile): each
 /// run notices it within 1.5 s, ends by SIGINT and leaves nothing in its folder.
 #[test]
 fn long_computations_stop_within_a_second_and_a_half_of_sigint() {
     let burst = "sample_rate = \"100 kHz\"\n[band]\nlow = \"1 Hz\"\nhigh = \"40 kHz\"\n\
                  [[burst]]\nlevels = [\"0 uV\", \"1 uV\"]\ndwell = [\"10 ns\", \"10 ns\"]\n";
-    let rows: [(&str, String, Vec<&str>); 4] = [
+    let rows: [(&str, String, Vec<&str>); 5] = [
         (
             "design",
             many_sources(256, "1 mHz"),
@@ -668,6 +668,11 @@ fn long_computations_stop_within_a_second_and_a_half_of_sigint() {
             .into_iter()
             .chain(["-o", "x.raw"])
             .collect(),
+        ),
+        (
+            "budget",
+            many_sources(256, "1 mHz"),
+            vec!["budget", "p.toml", "--plot", "x.svg"],
         ),
         (
             "analysis design",

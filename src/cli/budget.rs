@@ -2,9 +2,10 @@
 //! or an SVG chart.
 
 use std::path::PathBuf;
+use std::sync::atomic::AtomicBool;
 
 use noisewright::model::budget::to_json;
-use noisewright::run::budget::{budget_bands, budget_of, budget_text, write_budget_chart};
+use noisewright::run::budget::{budget_bands, budget_text, budget_until, write_budget_chart};
 use noisewright::{Profile, Result};
 
 /// Options of `noisewright budget`.
@@ -30,10 +31,10 @@ pub struct BudgetArgs {
 }
 
 /// Run `budget`; returns the text (or JSON) to print.
-pub fn run(args: &BudgetArgs) -> Result<String> {
+pub fn run(args: &BudgetArgs, interrupted: &AtomicBool) -> Result<String> {
     let profile = Profile::from_path(&args.profile)?;
     let bands = budget_bands(&profile, &args.bands, args.order)?;
-    let b = budget_of(&profile, &bands)?;
+    let b = budget_until(&profile, &bands, interrupted)?;
     if let Some(path) = &args.plot {
         write_budget_chart(&profile, &b, path)?;
     }

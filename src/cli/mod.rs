@@ -54,7 +54,7 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
             }
             Ok(())
         }
-        Command::Budget(args) => print_out(&budget::run(args)?),
+        Command::Budget(args) => print_out(&budget::run(args, interrupted)?),
         Command::Analyze(args) => {
             let report = analyze::run(args, interrupted)?;
             print_out(&analyze::output(args, &report))?;

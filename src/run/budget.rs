@@ -3,6 +3,9 @@
 //! [`crate::model::budget::to_json`]), and its chart written as SVG.
 
 use std::path::Path;
+use std::sync::atomic::AtomicBool;
+use std::sync::{Arc, mpsc};
+use std::time::Duration;
 
 use super::PendingFile;
 use super::guard::{Read, Written, check_outputs};
@@ -10,6 +13,8 @@ use crate::error::{Error, Result, Setting};
 use crate::model::budget::{BandSpec, Budget, parse_band, write_text};
 use crate::profile::{MAX_ORDER, Profile};
 use crate::report::chart::{budget_chart, write_density_svg};
+use crate::stop::Stop;
+use crate::synth::{Generator, design_profile_until};
 
 /// The bands to budget, from texts such as `0.1Hz..10Hz` (Hz, brick-wall lower edge) and one
 /// Butterworth `order` for every upper edge (0 = brick wall; `None`: the profile's
@@ -55,18 +60,45 @@ pub fn budget_bands<S: AsRef<str>>(
 /// The budget of `profile` in `bands` as `budget` prints it: [`crate::budget`] with the file
 /// RMS of the noise ([`file_noise_rms`]) filled in.
 pub fn budget_of(profile: &Profile, bands: &[BandSpec]) -> Result<Budget> {
-    let mut b = crate::model::budget::budget(profile, bands);
-    b.file_noise_rms = Some(file_noise_rms(profile)?);
-    Ok(b)
+    budget_until(profile, bands, &AtomicBool::new(false))
+}
+
+/// [`budget_of`], ending with [`Error::Interrupted`] within about 50 ms of `flag` becoming
+/// true: the design polls it, and the budget's integrals run on a thread of their own that
+/// is left to finish unseen (they write nothing).
+pub fn budget_until(profile: &Profile, bands: &[BandSpec], flag: &AtomicBool) -> Result<Budget> {
+    let stop = Stop::on(flag);
+    let design = Arc::new(design_profile_until(profile, stop)?);
+    let file = Generator::from_design_until(profile, design, 0, 0, stop)?
+        .noise_variance()
+        .sqrt();
+    let (tx, rx) = mpsc::channel();
+    let (p, b) = (profile.clone(), bands.to_vec());
+    std::thread::spawn(move || {
+        // The receiver is gone only after an interruption: nothing to tell then.
+        let _ = tx.send(crate::model::budget::budget(&p, &b));
+    });
+    loop {
+        match rx.recv_timeout(Duration::from_millis(50)) {
+            Ok(mut budget) => {
+                budget.file_noise_rms = Some(file);
+                return Ok(budget);
+            }
+            Err(mpsc::RecvTimeoutError::Timeout) => stop.check()?,
+            Err(mpsc::RecvTimeoutError::Disconnected) => {
+                return Err(Error::Unsupported(
+                    "the budget's computation ended without a result".into(),
+                ));
+            }
+        }
+    }
 }
 
 /// The file RMS of the noise of `profile`, in its unit: the expected RMS (AC) of the noise a
 /// streamed file holds, i.e. the designed density up to fs/2 plus every burst's variance
 /// ([`crate::synth::Generator::noise_variance`]); the same number `generate` prints.
 pub fn file_noise_rms(profile: &Profile) -> Result<f64> {
-    Ok(crate::synth::Generator::new(profile, 0)?
-        .noise_variance()
-        .sqrt())
+    Ok(Generator::new(profile, 0)?.noise_variance().sqrt())
 }
 
 /// The budget as the text `budget` prints (RMS in the profile's unit, densities per √Hz).
