@@ -12,8 +12,12 @@
 //! residual offset does not ring through the first window (the construction SciPy's
 //! `signal.sosfilt_zi` documents, which the cross-check uses).
 //!
-//! **The windows** are consecutive, `round(window·fs)` samples each, from the first sample; a
-//! last window that is not full is not used. Samples are in the capture's unit.
+//! **The windows** are consecutive, `round(window·fs)` samples each, after a settling time in
+//! which the high-pass's start transient (the step from the first sample to the signal that
+//! follows) decays to 1/1000: its slowest pole decays at `2π·f_lo·sin(π/(2n))` per second
+//! (n = [`HIGH_PASS_ORDER`]), so the first `round(ln(1000)/(2π·f_lo·sin(π/(2n)))·fs)` samples
+//! (15.5 s at 0.1 Hz) are filtered but not used ([`settling_s`]). A last window that is not
+//! full is not used. Samples are in the capture's unit.
 
 use std::f64::consts::PI;
 
@@ -81,6 +85,13 @@ pub fn band_filter(lo_hz: f64, hi_hz: f64, fs: f64) -> Vec<Section> {
     s
 }
 
+/// The settling time of the band filter with its high-pass at `lo_hz`, s (see the module
+/// docs).
+pub fn settling_s(lo_hz: f64) -> f64 {
+    let decay = 2.0 * PI * lo_hz * (PI / f64::from(2 * HIGH_PASS_ORDER)).sin();
+    1000f64.ln() / decay
+}
+
 /// Power gain of `sections` at `f_hz`, rate `fs` Hz (dimensionless).
 pub fn power_gain(sections: &[Section], f_hz: f64, fs: f64) -> f64 {
     sections.iter().map(|s| s.power_gain(f_hz, fs)).product()
@@ -92,6 +103,8 @@ pub struct WindowPeaks {
     sections: Vec<Section>,
     state: Vec<[f64; 2]>,
     window: usize,
+    /// Samples still to filter before the first window.
+    settle: usize,
     started: bool,
     in_window: usize,
     lo: f64,
@@ -100,12 +113,14 @@ pub struct WindowPeaks {
 }
 
 impl WindowPeaks {
-    /// Windows of `window` samples (≥ 1) of the record filtered by `sections`.
-    pub fn new(sections: Vec<Section>, window: usize) -> WindowPeaks {
+    /// Windows of `window` samples (≥ 1) of the record filtered by `sections`, after the first
+    /// `settle` samples.
+    pub fn new(sections: Vec<Section>, window: usize, settle: usize) -> WindowPeaks {
         WindowPeaks {
             state: vec![[0.0; 2]; sections.len()],
             sections,
             window: window.max(1),
+            settle,
             started: false,
             in_window: 0,
             lo: f64::INFINITY,
@@ -136,6 +151,10 @@ impl WindowPeaks {
                 z[0] = s.b[1] * u - s.a[0] * y + z[1];
                 z[1] = s.b[2] * u - s.a[1] * y;
                 u = y;
+            }
+            if self.settle > 0 {
+                self.settle -= 1;
+                continue;
             }
             self.lo = self.lo.min(u);
             self.hi = self.hi.max(u);
@@ -200,13 +219,14 @@ mod tests {
     #[test]
     fn windows_of_a_constant_and_a_sine() {
         let fs = 1000.0;
-        let mut w = WindowPeaks::new(band_filter(0.1, 10.0, fs), 10_000);
+        let mut w = WindowPeaks::new(band_filter(0.1, 10.0, fs), 10_000, 5000);
         w.push(&vec![3.0; 35_000]);
         assert_eq!(w.peaks().len(), 3);
+        assert!((settling_s(0.1) - 15.547).abs() < 1e-3);
         assert!(w.peaks().iter().all(|p| p.abs() < 1e-12), "{:?}", w.peaks());
         let sections = band_filter(0.1, 10.0, fs);
         let gain = power_gain(&sections, 2.0, fs).sqrt();
-        let mut w = WindowPeaks::new(sections, 10_000);
+        let mut w = WindowPeaks::new(sections, 10_000, 0);
         let x: Vec<f64> = (0..100_000)
             .map(|n| 0.5 * (2.0 * PI * 2.0 * n as f64 / fs).sin())
             .collect();

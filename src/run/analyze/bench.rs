@@ -14,7 +14,7 @@ use crate::analysis::spurs::{Spur, bins_around, find_spurs};
 use crate::analysis::tones::{leakage_bins, split_around};
 use crate::analysis::trend::Trend;
 use crate::analysis::window_pp::{
-    HIGH_PASS_ORDER, LOW_PASS_ORDER, band_filter, median, power_gain,
+    HIGH_PASS_ORDER, LOW_PASS_ORDER, band_filter, median, power_gain, settling_s,
 };
 use crate::error::{Error, Result, Setting};
 use crate::model::density::{integrate_pieces, target_psd};
@@ -77,8 +77,14 @@ impl BenchSpec {
         })
     }
 
-    /// The window in samples at `fs` Hz, when the band fits below fs/2; a band or window that
-    /// was asked for and cannot be measured is refused.
+    /// Samples filtered before the first window at `fs` Hz ([`settling_s`]).
+    pub(super) fn settle_samples(&self, fs: f64) -> usize {
+        (settling_s(self.pp_band.0) * fs).round() as usize
+    }
+
+    /// The window in samples at `fs` Hz, when the band fits below fs/2 and the record holds the
+    /// settling time and a window; a band or window that was asked for and cannot be measured
+    /// is refused.
     pub(super) fn pp_window_samples(&self, fs: f64, samples: u64, name: &str) -> Result<Option<usize>> {
         let hi = self.pp_band.1;
         let window = (self.pp_window_s * fs).round();
@@ -99,12 +105,16 @@ impl BenchSpec {
                 ),
             );
         }
-        if window < 1.0 || window > samples as f64 {
+        let settle = self.settle_samples(fs) as f64;
+        if window < 1.0 || window + settle > samples as f64 {
             return refuse(
                 Setting::PpWindow,
                 format!(
-                    "a window of {} needs {window} samples, but {name} holds {samples} ({})",
+                    "a window of {} after the filter's settling time of {} needs {} samples, \
+                     but {name} holds {samples} ({})",
                     format_quantity(self.pp_window_s, "s"),
+                    format_quantity(settle / fs, "s"),
+                    window + settle,
                     format_quantity(samples as f64 / fs, "s")
                 ),
             );
@@ -283,6 +293,7 @@ pub(super) fn pp_json(s: &Setup, m: &Measured, bench: &BenchSpec, window: usize)
         "band_hi_hz": hi,
         "window_s": bench.pp_window_s,
         "window_samples": window,
+        "settling_s": bench.settle_samples(fs) as f64 / fs,
         "windows": p.len(),
         "filter": format!(
             "Butterworth high-pass order {HIGH_PASS_ORDER} and low-pass order {LOW_PASS_ORDER}, \

@@ -83,7 +83,7 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
     let pp_window = s.bench.pp_window_samples(fs, st.count(), &s.name)?;
     let peaks = pp_window.map(|w| {
         let (lo, hi) = s.bench.pp_band;
-        WindowPeaks::new(band_filter(lo, hi, fs), w)
+        WindowPeaks::new(band_filter(lo, hi, fs), w, s.bench.settle_samples(fs))
     });
     let removed = if s.bench.keep_drift {
         Trend::none()
