@@ -51,7 +51,10 @@ fn capture(s: &Scratch, mains: f64, seed: u64) -> Option<(std::path::PathBuf, Va
         seed.to_string().into(),
     ];
     let out = python_script("bench_capture.py", &args, &format!("seed {seed}"))?;
-    Some((path, serde_json::from_str(&out).expect("the script prints JSON")))
+    Some((
+        path,
+        serde_json::from_str(&out).expect("the script prints JSON"),
+    ))
 }
 
 /// `analyze --json` of `cap` at 1 kHz with `extra` arguments: its exit code and JSON.
@@ -67,7 +70,10 @@ fn analyze(cap: &Path, dir: &Path, extra: &[&str]) -> (i32, Value) {
     let o = run(&args, dir);
     let code = o.status.code().unwrap_or(-1);
     assert!(code == 0 || code == 1, "exit {code}: {}", text(&o.stderr));
-    (code, serde_json::from_slice(&o.stdout).expect("analyze prints JSON"))
+    (
+        code,
+        serde_json::from_slice(&o.stdout).expect("analyze prints JSON"),
+    )
 }
 
 /// Every injected line is listed once, within one bin of its frequency, with an RMS within
@@ -95,7 +101,11 @@ fn check_spurs(j: &Value, truth: &Value, mains: f64, seed: u64) {
                 assert_eq!(s["mains"]["family_hz"].as_f64(), Some(mains), "seed {seed}");
                 assert_eq!(s["mains"]["harmonic"].as_u64(), Some(h), "seed {seed}");
             }
-            None => assert!(s["mains"].is_null(), "seed {seed}: {f} Hz named {}", s["mains"]),
+            None => assert!(
+                s["mains"].is_null(),
+                "seed {seed}: {f} Hz named {}",
+                s["mains"]
+            ),
         }
     }
 }
@@ -115,13 +125,21 @@ fn hum_drift_and_spurs_pass_against_the_true_profile() {
     let (code, j) = analyze(
         &cap,
         &s,
-        &["--profile", p.to_str().unwrap(), "--fit", fit.to_str().unwrap()],
+        &[
+            "--profile",
+            p.to_str().unwrap(),
+            "--fit",
+            fit.to_str().unwrap(),
+        ],
     );
     assert_eq!(code, 0, "seed {SEED_50}: {:#?}", j["comparison"]);
     assert_eq!(j["pass"], true);
     let offset = j["dc"]["offset"].as_f64().unwrap();
     // The shaped noise has no mean (its DC bin is zero); the lines add < 1e−10 V over 400 s.
-    assert!((offset - 2.5e-3).abs() < 1e-9, "seed {SEED_50}: offset {offset}");
+    assert!(
+        (offset - 2.5e-3).abs() < 1e-9,
+        "seed {SEED_50}: offset {offset}"
+    );
     let slope = j["drift"]["slope_per_s"].as_f64().unwrap();
     let sigma = truth["noise_slope_sigma"].as_f64().unwrap();
     assert!(
@@ -153,10 +171,22 @@ fn the_same_capture_fails_a_wrong_profile_and_with_its_drift_kept() {
         &TRUE_PROFILE.replace("50 nV/rtHz", "100 nV/rtHz"),
     );
     let (code, j) = analyze(&cap, &s, &["--profile", wrong.to_str().unwrap()]);
-    assert_eq!((code, &j["pass"]), (1, &Value::Bool(false)), "seed {SEED_50}");
+    assert_eq!(
+        (code, &j["pass"]),
+        (1, &Value::Bool(false)),
+        "seed {SEED_50}"
+    );
     let p = s.file("true.toml", TRUE_PROFILE);
-    let (code, j) = analyze(&cap, &s, &["--profile", p.to_str().unwrap(), "--keep-drift"]);
-    assert_eq!((code, &j["pass"]), (1, &Value::Bool(false)), "seed {SEED_50}");
+    let (code, j) = analyze(
+        &cap,
+        &s,
+        &["--profile", p.to_str().unwrap(), "--keep-drift"],
+    );
+    assert_eq!(
+        (code, &j["pass"]),
+        (1, &Value::Bool(false)),
+        "seed {SEED_50}"
+    );
     assert_eq!(j["drift"]["removed"], false);
 }
 
@@ -187,7 +217,11 @@ fn windowed_peak_to_peak_matches_a_direct_computation() {
     let p = s.file("true.toml", TRUE_PROFILE);
     for (band, window, extra) in [
         ((0.1, 10.0), 10.0, vec![]),
-        ((0.5, 20.0), 4.0, vec!["--pp-band", "0.5Hz..20Hz", "--pp-window", "4s"]),
+        (
+            (0.5, 20.0),
+            4.0,
+            vec!["--pp-band", "0.5Hz..20Hz", "--pp-window", "4s"],
+        ),
     ] {
         let mut args = vec!["--profile", p.to_str().unwrap()];
         args.extend(extra);
@@ -201,20 +235,26 @@ fn windowed_peak_to_peak_matches_a_direct_computation() {
                     .map(|v| OsString::from(format!("{v}"))),
             )
             .collect();
-        let Some(out) = python_script("bench_capture.py", &args, &format!("seed {SEED_50}"))
-        else {
+        let Some(out) = python_script("bench_capture.py", &args, &format!("seed {SEED_50}")) else {
             return;
         };
         let r: Value = serde_json::from_str(&out).unwrap();
         assert_eq!(pp["windows"], r["windows"], "band {band:?}");
         for k in ["median", "max"] {
             let (a, b) = (pp[k].as_f64().unwrap(), r[k].as_f64().unwrap());
-            assert!((a / b - 1.0).abs() < 1e-9, "band {band:?} {k}: {a} vs SciPy {b}");
+            assert!(
+                (a / b - 1.0).abs() < 1e-9,
+                "band {band:?} {k}: {a} vs SciPy {b}"
+            );
         }
         let (lo, hi): (f64, f64) = band;
         let sigma = (2.5e-15 * (hi - lo + 2.0 * (hi / lo).ln())).sqrt();
         let six = pp["expected_6sigma"].as_f64().unwrap();
-        assert!((six / (6.0 * sigma) - 1.0).abs() < 1e-6, "{six} vs {}", 6.0 * sigma);
+        assert!(
+            (six / (6.0 * sigma) - 1.0).abs() < 1e-6,
+            "{six} vs {}",
+            6.0 * sigma
+        );
         let more = pp["expected_6_6sigma"].as_f64().unwrap();
         assert!((more / six - 1.1).abs() < 1e-12);
     }
@@ -246,7 +286,10 @@ fn exclusions_and_the_window_asked_for() {
     let df = 1000.0 / 32768.0;
     let (gap_lo, gap_hi) = (980.5 * df, 986.5 * df);
     for b in j["density"]["bands"].as_array().unwrap() {
-        let (lo, hi) = (b["f_lo_hz"].as_f64().unwrap(), b["f_hi_hz"].as_f64().unwrap());
+        let (lo, hi) = (
+            b["f_lo_hz"].as_f64().unwrap(),
+            b["f_hi_hz"].as_f64().unwrap(),
+        );
         assert!(
             hi <= gap_lo + 1e-9 || lo >= gap_hi - 1e-9,
             "band {lo}..{hi} keeps a bin of 30 Hz"
@@ -264,11 +307,20 @@ fn exclusions_and_the_window_asked_for() {
         &s,
     );
     assert_eq!(o.status.code(), Some(2), "{}", text(&o.stderr));
-    assert!(text(&o.stderr).contains("option --pp-window"), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains("option --pp-window"),
+        "{}",
+        text(&o.stderr)
+    );
     let short = s.path("short.f64");
     std::fs::write(&short, &std::fs::read(&cap).unwrap()[..8 * 20_000]).unwrap();
     let o = run_ok(
-        &[OsString::from("analyze"), short.into(), "--rate".into(), "1kHz".into()],
+        &[
+            OsString::from("analyze"),
+            short.into(),
+            "--rate".into(),
+            "1kHz".into(),
+        ],
         &s,
     );
     assert!(!text(&o.stdout).contains("window p-p"));

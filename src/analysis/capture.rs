@@ -165,11 +165,13 @@ impl SecondPass {
         self.moments.push(x);
         let (t, i0) = (self.removed, self.index);
         self.buffer.clear();
-        self.buffer.extend(
-            x.iter()
-                .enumerate()
-                .map(|(j, v)| if t.samples == 0 { *v } else { v - t.at(i0 + j as u64) }),
-        );
+        self.buffer.extend(x.iter().enumerate().map(|(j, v)| {
+            if t.samples == 0 {
+                *v
+            } else {
+                v - t.at(i0 + j as u64)
+            }
+        }));
         self.index += x.len() as u64;
         self.welch.push(&self.buffer);
         if let Some(p) = &mut self.peaks {

@@ -249,10 +249,7 @@ pub fn find_spurs(spectrum: &Spectrum, skip: &[Range<usize>], false_alarm: f64) 
             _ => runs.push(vec![(k, f)]),
         }
     }
-    out.spurs = runs
-        .into_iter()
-        .map(|run| measure(spectrum, run))
-        .collect();
+    out.spurs = runs.into_iter().map(|run| measure(spectrum, run)).collect();
     name_mains(&mut out.spurs, spectrum.bin_width_hz());
     out
 }

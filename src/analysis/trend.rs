@@ -161,7 +161,10 @@ mod tests {
             let t = f.finish();
             let nf = n as f64;
             let textbook = (12.0 / (nf * (nf * nf - 1.0))).sqrt();
-            assert!((t.slope_se_white / textbook - 1.0).abs() < 0.01, "seed {seed}");
+            assert!(
+                (t.slope_se_white / textbook - 1.0).abs() < 0.01,
+                "seed {seed}"
+            );
             assert!(
                 t.slope_per_sample.abs() < 5.3 * t.slope_se_white,
                 "seed {seed}: slope {} se {}",

@@ -237,7 +237,10 @@ mod tests {
         let last = w.peaks()[9];
         let swing = 2.0 * 0.5 * gain;
         let miss = 1.0 - (PI * 2.0 / fs).cos();
-        assert!(last <= swing + 1e-9 && last >= swing * (1.0 - miss), "{last} vs {swing}");
+        assert!(
+            last <= swing + 1e-9 && last >= swing * (1.0 - miss),
+            "{last} vs {swing}"
+        );
         assert_eq!(median(&[3.0, 1.0, 2.0, 10.0]), 2.5);
     }
 }

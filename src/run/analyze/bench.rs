@@ -85,7 +85,12 @@ impl BenchSpec {
     /// The window in samples at `fs` Hz, when the band fits below fs/2 and the record holds the
     /// settling time and a window; a band or window that was asked for and cannot be measured
     /// is refused.
-    pub(super) fn pp_window_samples(&self, fs: f64, samples: u64, name: &str) -> Result<Option<usize>> {
+    pub(super) fn pp_window_samples(
+        &self,
+        fs: f64,
+        samples: u64,
+        name: &str,
+    ) -> Result<Option<usize>> {
         let hi = self.pp_band.1;
         let window = (self.pp_window_s * fs).round();
         let refuse = |setting: Setting, why: String| {

@@ -289,7 +289,11 @@ fn spur_text(json: &serde_json::Value, unit: &str) -> String {
             if lo == hi {
                 format_quantity(lo, "Hz")
             } else {
-                format!("{}..{}", format_quantity(lo, "Hz"), format_quantity(hi, "Hz"))
+                format!(
+                    "{}..{}",
+                    format_quantity(lo, "Hz"),
+                    format_quantity(hi, "Hz")
+                )
             }
         })
         .collect();
