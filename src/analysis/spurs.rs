@@ -290,8 +290,10 @@ fn measure(s: &Spectrum, run: Vec<(usize, Floor)>) -> Spur {
 }
 
 /// Names the spurs that are mains harmonics: each spur within tolerance of h·50 Hz or h·60 Hz
-/// ([`MAINS_TOLERANCE`], at least 1.5 bins of `bin_hz`) belongs to that family; a spur that
-/// fits both takes the family with more members found (50 Hz on a tie).
+/// ([`MAINS_TOLERANCE`], at least 1.5 bins of `bin_hz`) belongs to that family, provided the
+/// family's fundamental or second harmonic is among the spurs (every round frequency is some
+/// multiple of 50 Hz: a lone 1 kHz line is not hum); a spur that fits both families takes the
+/// one with more members found (50 Hz on a tie).
 pub fn name_mains(spurs: &mut [Spur], bin_hz: f64) {
     let harmonic_of = |f: f64, m: f64| {
         let h = (f / m).round();
@@ -299,10 +301,14 @@ pub fn name_mains(spurs: &mut [Spur], bin_hz: f64) {
         (h >= 1.0 && h <= f64::from(MAX_HARMONIC) && (f - h * m).abs() <= tol).then_some(h as u32)
     };
     let members = |m: f64| {
-        spurs
+        let rooted = spurs
+            .iter()
+            .any(|s| matches!(harmonic_of(s.frequency_hz, m), Some(1 | 2)));
+        let count = spurs
             .iter()
             .filter(|s| harmonic_of(s.frequency_hz, m).is_some())
-            .count()
+            .count();
+        if rooted { count } else { 0 }
     };
     let (n50, n60) = (members(MAINS_HZ[0]), members(MAINS_HZ[1]));
     let order = if n60 > n50 {
@@ -310,8 +316,9 @@ pub fn name_mains(spurs: &mut [Spur], bin_hz: f64) {
     } else {
         MAINS_HZ
     };
+    let eligible = |m: f64| if m == MAINS_HZ[0] { n50 > 0 } else { n60 > 0 };
     for s in spurs.iter_mut() {
-        s.mains = order.iter().find_map(|&m| {
+        s.mains = order.iter().filter(|&&m| eligible(m)).find_map(|&m| {
             harmonic_of(s.frequency_hz, m).map(|harmonic| Mains {
                 family_hz: m,
                 harmonic,

@@ -113,7 +113,8 @@ fn spur_at(f: f64) -> Spur {
 }
 
 /// Mains families: 50 Hz and harmonics 2, 3, 6 (300 Hz is also 60 Hz × 5; the family with
-/// more members wins), a grid 0.2 Hz off still named, and a spur off any harmonic not named.
+/// more members wins), a grid 0.2 Hz off still named, a spur off any harmonic not named, and
+/// round lines without their family's fundamental or second harmonic not named.
 #[test]
 fn mains_families_are_named() {
     let mut s: Vec<Spur> = [50.2, 100.0, 150.1, 300.0, 73.3]
@@ -144,5 +145,9 @@ fn mains_families_are_named() {
             harmonic: 5
         })
     );
+    // Round lines with no fundamental or second harmonic of their family are not hum.
+    let mut s: Vec<Spur> = [1000.0, 2500.0].into_iter().map(spur_at).collect();
+    name_mains(&mut s, 0.03);
+    assert!(s.iter().all(|s| s.mains.is_none()));
     assert_eq!(bins_around(50.0, 50.0, 0.5, 1000), 98..103);
 }
