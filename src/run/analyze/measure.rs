@@ -94,8 +94,16 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
     // the capture again.
     let moments = CentralMoments::new(st.mean(), st.std(), st.min(), st.max(), HIST_BINS);
     let mut second_pass = SecondPass::new(moments, fs, seg_len, removed, peaks);
+    // The levels are looked for with the drift taken out too (keeping the offset: levels are
+    // absolute values).
     let (levels, second) = rayon::join(
-        || first.levels.detect(quantum),
+        || match s.bench.keep_drift {
+            true => first.levels.detect(quantum),
+            false => first
+                .levels
+                .less_line(trend.slope_per_sample, trend.centre)
+                .detect(quantum),
+        },
         || {
             s.capture
                 .pass(&s.scale, interrupted, &mut |x| second_pass.push(x))
