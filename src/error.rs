@@ -147,10 +147,18 @@ pub enum Setting {
     Order,
     /// The physical unit of samples given in memory.
     Unit,
+    /// Keeping a capture's offset and drift in its density estimate.
+    KeepDrift,
+    /// Frequencies left out of a verdict and a fit.
+    Exclude,
+    /// The band of a low-frequency peak-to-peak measurement.
+    PpBand,
+    /// The window of a low-frequency peak-to-peak measurement.
+    PpWindow,
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 28] = [
+const SETTINGS: [Setting; 32] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
@@ -179,6 +187,10 @@ const SETTINGS: [Setting; 28] = [
     Setting::Band,
     Setting::Order,
     Setting::Unit,
+    Setting::KeepDrift,
+    Setting::Exclude,
+    Setting::PpBand,
+    Setting::PpWindow,
 ];
 
 /// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
@@ -217,6 +229,10 @@ impl Setting {
             Setting::Band => "band",
             Setting::Order => "order",
             Setting::Unit => "unit",
+            Setting::KeepDrift => "keep_drift",
+            Setting::Exclude => "exclude",
+            Setting::PpBand => "pp_band",
+            Setting::PpWindow => "pp_window",
         }
     }
 

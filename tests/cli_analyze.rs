@@ -105,9 +105,11 @@ fn engine_noise(profile: &str, n: usize, seed: u64) -> Vec<f64> {
 // Against numpy and SciPy (reference libraries).
 
 /// The band densities of `analyze` equal the same bands formed from scipy.signal.welch's
-/// bins (periodic Hann, 50 % overlap, no detrending, density scaling) of the same samples, to
-/// 1e−9 relative; mean, RMS and std equal numpy's to 1e−12 relative; and RMS² = σ² + μ²
-/// (REFERENCES §8, common practice) holds with a DC offset of 3σ.
+/// bins (periodic Hann, 50 % overlap, no detrending of segments, density scaling) of the same
+/// samples, to 1e−9 relative: with `--keep-drift` of the samples as they are, and by default of
+/// the samples less the least-squares line `analyze` reports (`dc`, `drift`); mean, RMS and std
+/// equal numpy's to 1e−12 relative; and RMS² = σ² + μ² (REFERENCES §8, common practice) holds
+/// with a DC offset of 3σ.
 #[test]
 fn density_and_statistics_equal_scipy_and_numpy() {
     let s = Scratch::new("ref");
@@ -116,7 +118,10 @@ fn density_and_statistics_equal_scipy_and_numpy() {
     x.iter_mut().for_each(|v| *v += dc);
     let raw = s.path("rec.f64");
     write_f64(&raw, &x);
-    let (code, j, err) = analyze(&raw, &["--rate", "48kHz", "--resolution", "10Hz"]);
+    let (code, j, err) = analyze(
+        &raw,
+        &["--rate", "48kHz", "--resolution", "10Hz", "--keep-drift"],
+    );
     assert_eq!(code, 0, "{err}");
     let l = j["density"]["segment_length"].as_u64().unwrap() as usize;
     assert_eq!(l, 4800);
@@ -147,16 +152,40 @@ fn density_and_statistics_equal_scipy_and_numpy() {
         rel(rms * rms, sd * sd + mean * mean) < 1e-14,
         "RMS² = σ² + μ² (seed {SEED})"
     );
-    // SciPy's bins, grouped into the same bands.
+    if !bands_equal_scipy(&s, &raw, &j, l) {
+        return;
+    }
+    // By default the line is taken out first: the same bands of SciPy's estimate of the
+    // samples less the reported line.
+    let (_, d, err) = analyze(&raw, &["--rate", "48kHz", "--resolution", "10Hz"]);
+    assert_eq!(d["drift"]["removed"], true, "{err}");
+    let (offset, slope) = (
+        num(&d["dc"], "offset"),
+        num(&d["drift"], "slope_per_s") / 48e3,
+    );
+    let centre = ((1u64 << 18) - 1) as f64 / 2.0;
+    let detrended: Vec<f64> = x
+        .iter()
+        .enumerate()
+        .map(|(n, v)| v - (offset + slope * (n as f64 - centre)))
+        .collect();
+    let raw_d = s.path("rec-detrended.f64");
+    write_f64(&raw_d, &detrended);
+    bands_equal_scipy(&s, &raw_d, &d, l);
+}
+
+/// The bands of `j` against scipy.signal.welch's bins of `raw` (segments of `l`), grouped the
+/// same way, to 1e−9 relative; false when the reference is skipped.
+fn bands_equal_scipy(s: &Scratch, raw: &Path, j: &serde_json::Value, l: usize) -> bool {
     let out_path = s.path("welch.f64");
     let args: Vec<OsString> = vec![
-        raw.clone().into(),
+        raw.into(),
         out_path.clone().into(),
         os("48000"),
         os(&l.to_string()),
     ];
     if common::python_script("welch_ref.py", &args, &format!("seed {SEED}")).is_none() {
-        return;
+        return false;
     }
     let v = read_f64(&out_path);
     let psd = &v[v.len() / 2..];
@@ -176,6 +205,7 @@ fn density_and_statistics_equal_scipy_and_numpy() {
         start += m;
     }
     assert_eq!(start, psd.len());
+    true
 }
 
 // ---------------------------------------------------------------------------------------------

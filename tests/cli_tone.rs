@@ -183,10 +183,46 @@ fn analyze_passes_a_tone_bearing_capture_and_reports_the_amplitude() {
     assert!((snr - want).abs() < 0.1, "seed 6: SNR {snr} vs {want}");
     let ex = t["excluded_bins"].as_array().unwrap();
     assert!(ex[1].as_u64().unwrap() > ex[0].as_u64().unwrap() + 4);
-    // The same capture judged against the noise alone fails: the tones' power is real.
+    // The same capture judged against the noise alone: the tones it does not expect are
+    // found as spurs (neither named as mains), each within 5.3 of its stated 1σ of its RMS,
+    // and left out of the verdict, which passes.
     let q = s.file("noise.toml", HEAD);
     let o = run(
-        &["analyze", "a.f64", "--profile", q.to_str().unwrap()],
+        &[
+            "analyze",
+            "a.f64",
+            "--profile",
+            q.to_str().unwrap(),
+            "--json",
+        ],
+        &s.dir,
+    );
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+    let j: serde_json::Value = serde_json::from_str(&text(&o.stdout)).unwrap();
+    let found = j["spurs"]["found"].as_array().unwrap();
+    assert_eq!(found.len(), 2, "seed 6: {found:#?}");
+    for (sp, (f, rms)) in found
+        .iter()
+        .zip([(1000.0, 1e-3 / 2f64.sqrt()), (2500.0, 0.2e-3)])
+    {
+        assert!(
+            (sp["frequency_hz"].as_f64().unwrap() - f).abs() < 1.0,
+            "{sp}"
+        );
+        let (m, se) = (sp["rms"].as_f64().unwrap(), sp["rms_se"].as_f64().unwrap());
+        assert!(
+            (m - rms).abs() < 5.3 * se,
+            "seed 6: {f} Hz: {m} ± {se} vs {rms}"
+        );
+        assert!(sp["mains"].is_null(), "{sp}");
+    }
+    // The noise itself is still judged: against a floor 2 dB higher the capture fails.
+    let hi = s.file(
+        "noise-hi.toml",
+        &HEAD.replace("1 uV/rtHz", "1.2589254 uV/rtHz"),
+    );
+    let o = run(
+        &["analyze", "a.f64", "--profile", hi.to_str().unwrap()],
         &s.dir,
     );
     assert_eq!(o.status.code(), Some(1), "{}", text(&o.stdout));

@@ -1638,6 +1638,34 @@ fn cases() -> Vec<Case> {
             .file("c.csv", &big)
             .args(&["analyze", "c.csv", "--tolerance=-1dB"])
             .expect(&["option --tolerance", "non-negative", "\"-1dB\""]),
+        Case::new("analyze: --exclude unparseable")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--exclude", "50Hz,hum"])
+            .expect(&["option --exclude", "not a frequency", "\"hum\""]),
+        Case::new("analyze: --exclude range reversed")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--exclude", "60Hz..40Hz"])
+            .expect(&["option --exclude", "positive and increasing"]),
+        Case::new("analyze: --pp-band not a range")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--pp-band", "10Hz"])
+            .expect(&["option --pp-band", "not a range", "0.1Hz..10Hz"]),
+        Case::new("analyze: --pp-band above half the rate")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--pp-band", "1Hz..1MHz"])
+            .expect(&["option --pp-band", "not below half the rate"]),
+        Case::new("analyze: --pp-window unparseable")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--pp-window", "long"])
+            .expect(&["option --pp-window", "time such as"]),
+        Case::new("analyze: --pp-window 0")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--pp-window", "0s"])
+            .expect(&["option --pp-window", "positive time"]),
+        Case::new("analyze: --pp-window longer than the record")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--pp-window", "1h"])
+            .expect(&["option --pp-window", "settling time", "holds"]),
         Case::new("analyze: --sample-format unknown")
             .file("c.raw", [0u8; 128])
             .args(&[

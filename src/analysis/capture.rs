@@ -1,10 +1,11 @@
 //! Everything `analyze` measures on a capture, computed in two streaming passes with bounded
 //! memory, and its JSON form.
 //!
-//! * Pass 1 ([`FirstPass`]): running statistics, the Welch estimate, the first samples of the
-//!   trace (for a picture) and the decimated trace for burst levels.
-//! * Pass 2 ([`super::moments::CentralMoments`]): skewness, kurtosis, σ-fractions and the
-//!   histogram, about the mean and σ of pass 1.
+//! * Pass 1 ([`FirstPass`]): running statistics, the least-squares offset and drift, the first
+//!   samples of the trace (for a picture) and the decimated trace for burst levels.
+//! * Pass 2 ([`SecondPass`]): skewness, kurtosis, σ-fractions and the histogram, about the mean
+//!   and σ of pass 1; the Welch estimate and the windowed low-frequency peak-to-peak, of the
+//!   samples less the line of pass 1 (or of the samples as they are, when the drift is kept).
 //!
 //! All values are in the capture's physical unit u (after scaling), densities in u²/Hz (PSD)
 //! or u/√Hz (density).
@@ -15,7 +16,9 @@ use super::compare::{Comparison, chi2_interval};
 use super::levels::{LevelTrace, Levels};
 use super::moments::{CentralMoments, SIGMA_LEVELS, gaussian_within};
 use super::stats::RunningStats;
+use super::trend::{Trend, TrendFit};
 use super::welch::{BandEstimate, Spectrum, Welch};
+use super::window_pp::WindowPeaks;
 use crate::error::{Error, Result, Setting};
 
 /// Longest default segment, in samples.
@@ -102,8 +105,8 @@ pub fn segment_length(
 pub struct FirstPass {
     /// Running statistics (unit).
     pub stats: RunningStats,
-    /// The Welch estimator (Hann, 50 % overlap).
-    pub welch: Welch,
+    /// The least-squares line through the samples (unit, unit per sample).
+    pub trend: TrendFit,
     /// The first samples (unit), up to `trace_len`.
     pub trace: Vec<f64>,
     trace_len: usize,
@@ -112,11 +115,11 @@ pub struct FirstPass {
 }
 
 impl FirstPass {
-    /// For samples at `sample_rate_hz` Hz, segments of `seg_len`, keeping `trace_len` samples.
-    pub fn new(sample_rate_hz: f64, seg_len: usize, trace_len: usize) -> FirstPass {
+    /// For samples at `sample_rate_hz` Hz, keeping `trace_len` samples.
+    pub fn new(sample_rate_hz: f64, trace_len: usize) -> FirstPass {
         FirstPass {
             stats: RunningStats::new(),
-            welch: Welch::new(seg_len, seg_len / 2, sample_rate_hz),
+            trend: TrendFit::new(),
             trace: Vec::with_capacity(trace_len),
             trace_len,
             levels: LevelTrace::new(sample_rate_hz),
@@ -126,10 +129,66 @@ impl FirstPass {
     /// Adds the next physical samples.
     pub fn push(&mut self, x: &[f64]) {
         self.stats.push(x);
-        self.welch.push(x);
+        self.trend.push(x);
         let room = self.trace_len - self.trace.len();
         self.trace.extend_from_slice(&x[..room.min(x.len())]);
         self.levels.push(x);
+    }
+}
+
+/// Pass 2 over a capture's physical samples: the moments of the samples as they are, and the
+/// density and windowed peak-to-peak of the samples less a line.
+#[derive(Debug)]
+pub struct SecondPass {
+    /// Moments and histogram (unit).
+    pub moments: CentralMoments,
+    /// The Welch estimator (Hann, 50 % overlap), fed the samples less `removed`.
+    pub welch: Welch,
+    /// Peak-to-peak over windows of the band-limited samples less `removed`, if asked for.
+    pub peaks: Option<WindowPeaks>,
+    removed: Trend,
+    index: u64,
+    buffer: Vec<f64>,
+}
+
+impl SecondPass {
+    /// Moments as given; segments of `seg_len` at `sample_rate_hz` Hz; the line `removed`
+    /// ([`Trend::none`] keeps the samples as they are) taken out before the Welch estimate and
+    /// the windows.
+    pub fn new(
+        moments: CentralMoments,
+        sample_rate_hz: f64,
+        seg_len: usize,
+        removed: Trend,
+        peaks: Option<WindowPeaks>,
+    ) -> SecondPass {
+        SecondPass {
+            moments,
+            welch: Welch::new(seg_len, seg_len / 2, sample_rate_hz),
+            peaks,
+            removed,
+            index: 0,
+            buffer: Vec::new(),
+        }
+    }
+
+    /// Adds the next physical samples.
+    pub fn push(&mut self, x: &[f64]) {
+        self.moments.push(x);
+        let (t, i0) = (self.removed, self.index);
+        self.buffer.clear();
+        self.buffer.extend(x.iter().enumerate().map(|(j, v)| {
+            if t.samples == 0 {
+                *v
+            } else {
+                v - t.at(i0 + j as u64)
+            }
+        }));
+        self.index += x.len() as u64;
+        self.welch.push(&self.buffer);
+        if let Some(p) = &mut self.peaks {
+            p.push(&self.buffer);
+        }
     }
 }
 

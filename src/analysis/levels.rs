@@ -127,6 +127,19 @@ impl LevelTrace {
         }
     }
 
+    /// The trace less a line of `slope` unit per sample through sample index `centre`: point
+    /// i averages samples i·m .. (i + 1)·m, so it loses the line's value at i·m + (m − 1)/2,
+    /// exactly what the line contributed to it. The line's value at `centre` stays, so levels
+    /// stay absolute (with the offset in them) when `centre` is the record's middle.
+    pub fn less_line(&self, slope: f64, centre: f64) -> LevelTrace {
+        let mut t = self.clone();
+        let m = self.m as f64;
+        for (i, p) in t.points.iter_mut().enumerate() {
+            *p -= slope * (i as f64 * m + (m - 1.0) / 2.0 - centre);
+        }
+        t
+    }
+
     /// Samples per point of the kept trace.
     pub fn samples_per_point(&self) -> usize {
         self.m
@@ -387,6 +400,31 @@ mod tests {
             assert!((d - 0.1).abs() < 1e-9, "{d}");
         }
         assert!((l.occupancy[0] - 0.5).abs() < 1e-3);
+    }
+
+    /// Two levels on a drift of 20 level spacings over the record are lost in it, and found
+    /// again, at their values at the record's middle, once the line is taken out.
+    #[test]
+    fn levels_on_a_drift_are_found_once_it_is_taken_out() {
+        let n = 200_000usize;
+        let slope = 40.0 / n as f64;
+        let x: Vec<f64> = (0..n)
+            .map(|i| {
+                let level = if (i / 100) % 2 == 0 { -1.0 } else { 1.0 };
+                level + slope * i as f64 + 0.01 * (((i * 7919) % 101) as f64 / 50.0 - 1.0)
+            })
+            .collect();
+        let mut t = LevelTrace::new(1000.0);
+        t.push(&x);
+        assert!(t.detect(None).is_none());
+        let centre = (n as f64 - 1.0) / 2.0;
+        let l = t
+            .less_line(slope, centre)
+            .detect(None)
+            .expect("two clear levels");
+        let mid = slope * centre;
+        assert!((l.levels[0] - (mid - 1.0)).abs() < 1e-3, "{:?}", l.levels);
+        assert!((l.levels[1] - (mid + 1.0)).abs() < 1e-3, "{:?}", l.levels);
     }
 
     #[test]

@@ -1,11 +1,15 @@
 //! Measuring samples: Welch density estimates, running statistics, moments, comparison with
-//! a designed density, burst levels, and the two-pass analysis of a capture.
+//! a designed density, burst levels, the two-pass analysis of a capture, and what a bench adds
+//! to a capture (offset and drift, spurs, low-frequency peak-to-peak).
 
 pub mod capture;
 pub mod compare;
 pub mod fit;
 pub mod levels;
 pub mod moments;
+pub mod spurs;
 pub mod stats;
 pub mod tones;
+pub mod trend;
 pub mod welch;
+pub mod window_pp;

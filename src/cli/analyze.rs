@@ -49,6 +49,21 @@ pub struct AnalyzeArgs {
     /// in the file's manifest, else bin 3 to fs/4.
     #[arg(long, value_name = "OUT.toml")]
     pub fit: Option<PathBuf>,
+    /// Keep the offset and linear drift in the density estimate, the verdict, the fit and the
+    /// windowed peak-to-peak (by default the least-squares line is taken out first).
+    #[arg(long = "keep-drift")]
+    pub keep_drift: bool,
+    /// Frequencies to leave out of the verdict and the fit, e.g. `50Hz,150Hz` or a range
+    /// `1kHz..1.2kHz` (each with ±2 bins, the window's main lobe); repeatable.
+    #[arg(long, value_name = "F[,F…]")]
+    pub exclude: Vec<String>,
+    /// Band of the windowed peak-to-peak, e.g. `0.1Hz..10Hz` (the default, measured when the
+    /// record holds a window).
+    #[arg(long = "pp-band", value_name = "LO..HI")]
+    pub pp_band: Option<String>,
+    /// Window of the windowed peak-to-peak, e.g. `10s` (the default).
+    #[arg(long = "pp-window", value_name = "T")]
+    pub pp_window: Option<String>,
 }
 
 /// Runs `analyze`: reads, measures and judges the capture, writes the files asked for, and
@@ -59,12 +74,16 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalysisRepor
     if let Some(p) = &args.profile {
         analysis = analysis.profile_path(p);
     }
+    let exclude = (!args.exclude.is_empty()).then(|| args.exclude.join(","));
     let texts = [
         (Setting::FullScale, &args.full_scale),
         (Setting::Rate, &args.rate),
         (Setting::SampleFormat, &args.sample_format),
         (Setting::Resolution, &args.resolution),
         (Setting::Tolerance, &args.tolerance),
+        (Setting::Exclude, &exclude),
+        (Setting::PpBand, &args.pp_band),
+        (Setting::PpWindow, &args.pp_window),
     ];
     for (setting, text) in texts {
         if let Some(t) = text {
@@ -80,7 +99,7 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalysisRepor
     if let Some(p) = &args.fit {
         analysis = analysis.fit(p);
     }
-    analysis.run()
+    analysis.keep_drift(args.keep_drift).run()
 }
 
 /// What `analyze` prints: the JSON object with `--json`, else the text summary.

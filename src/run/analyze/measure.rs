@@ -1,18 +1,22 @@
-//! The measurement: the Welch segment length, pass 1 (statistics, density, trace), the
-//! burst-level search beside pass 2 (moments, histogram), the density's bands, and the
-//! report that gathers them.
+//! The measurement: the Welch segment length, pass 1 (statistics, offset and drift, trace),
+//! the burst-level search beside pass 2 (moments, histogram, and the density and windowed
+//! peak-to-peak of the samples less the drift), the density's bands, and the report that
+//! gathers them.
 
 use std::sync::atomic::AtomicBool;
 
 use super::setup::Setup;
 use crate::analysis::capture::{
-    BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, rms_per_decade, segment_length,
+    BANDS_PER_DECADE, CaptureReport, FIRST_BIN, FirstPass, SecondPass, rms_per_decade,
+    segment_length,
 };
 use crate::analysis::compare::Comparison;
 use crate::analysis::levels::Levels;
 use crate::analysis::moments::CentralMoments;
 use crate::analysis::stats::RunningStats;
+use crate::analysis::trend::Trend;
 use crate::analysis::welch::{BandEstimate, Spectrum};
+use crate::analysis::window_pp::{WindowPeaks, band_filter};
 use crate::error::{Error, Result};
 
 /// Samples of the trace kept for the picture.
@@ -31,6 +35,11 @@ pub(super) struct Measured {
     pub(super) trace: Vec<f64>,
     /// The quantisation floor of an integer format, unit²/Hz (0 otherwise).
     pub(super) q_psd: f64,
+    /// The least-squares line through the record (unit, unit per sample).
+    pub(super) trend: Trend,
+    /// The windowed peak-to-peak, when measured, and its window in samples.
+    pub(super) peaks: Option<WindowPeaks>,
+    pub(super) pp_window: usize,
 }
 
 /// The Welch segment length (samples) for the capture's estimated length and the settings.
@@ -60,7 +69,7 @@ pub(super) fn segment_length_of(s: &Setup) -> Result<usize> {
 /// Both passes over the capture, with segments of `seg_len` samples.
 pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Result<Measured> {
     let fs = s.info.sample_rate_hz;
-    let mut first = FirstPass::new(fs, seg_len, TRACE_SAMPLES);
+    let mut first = FirstPass::new(fs, TRACE_SAMPLES);
     s.capture
         .pass(&s.scale, interrupted, &mut |x| first.push(x))?;
     let st = first.stats;
@@ -77,19 +86,45 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
         (Some(sf), None) if sf.is_integer() => sf.lsb(1.0),
         _ => None,
     };
+    let trend = first.trend.finish();
+    let pp_window = s.bench.pp_window_samples(fs, st.count(), &s.name)?;
+    let peaks = pp_window.map(|w| {
+        let (lo, hi) = s.bench.pp_band;
+        WindowPeaks::new(band_filter(lo, hi, fs), w, s.bench.settle_samples(fs))
+    });
+    let removed = if s.bench.keep_drift {
+        Trend::none()
+    } else {
+        trend
+    };
     // The burst-level search needs only pass 1's trace: it runs on the pool while pass 2 reads
     // the capture again.
-    let mut moments = CentralMoments::new(st.mean(), st.std(), st.min(), st.max(), HIST_BINS);
+    let moments = CentralMoments::new(st.mean(), st.std(), st.min(), st.max(), HIST_BINS);
+    let mut second_pass = SecondPass::new(moments, fs, seg_len, removed, peaks);
+    // The levels are looked for with the drift taken out too (keeping the offset: levels are
+    // absolute values).
     let (levels, second) = rayon::join(
-        || first.levels.detect(quantum),
+        || match s.bench.keep_drift {
+            true => first.levels.detect(quantum),
+            false => first
+                .levels
+                .less_line(trend.slope_per_sample, trend.centre)
+                .detect(quantum),
+        },
         || {
             s.capture
-                .pass(&s.scale, interrupted, &mut |x| moments.push(x))
+                .pass(&s.scale, interrupted, &mut |x| second_pass.push(x))
         },
     );
     second?;
+    let SecondPass {
+        moments,
+        welch,
+        peaks,
+        ..
+    } = second_pass;
 
-    let spectrum = first.welch.finish();
+    let spectrum = welch.finish();
     if spectrum.segments == 0 {
         return Err(Error::Unsupported(format!(
             "{} has {} samples, fewer than one {seg_len}-sample segment; ask for a coarser \
@@ -120,6 +155,9 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
         bands,
         trace: first.trace,
         q_psd,
+        trend,
+        peaks,
+        pp_window: pp_window.unwrap_or(0),
     })
 }
 

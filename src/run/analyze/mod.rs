@@ -10,6 +10,7 @@
 //! with the design, `fit` fits a profile, `output` writes the pictures and the report, and
 //! `summary` words the results.
 
+mod bench;
 mod fit;
 mod measure;
 mod output;
@@ -52,6 +53,11 @@ struct Settings {
     plot: Option<PathBuf>,
     report: Option<PathBuf>,
     fit: Option<PathBuf>,
+    /// Keep the offset and drift in the density estimate.
+    keep_drift: bool,
+    exclude: Option<String>,
+    pp_band: Option<String>,
+    pp_window: Option<String>,
 }
 
 /// What is analysed.
@@ -213,9 +219,11 @@ impl<'a> Analysis<'a> {
 
     /// A setting given as text, spelled as the profile's quantities are (`2V`, `48kHz`,
     /// `0.1Hz`, `1dB`, `i24` …): [`Setting::FullScale`], [`Setting::Rate`],
-    /// [`Setting::SampleFormat`], [`Setting::Resolution`] or [`Setting::Tolerance`]; checked
-    /// when the analysis starts, with the same messages as the typed setters. Others are
-    /// refused here: use their setters.
+    /// [`Setting::SampleFormat`], [`Setting::Resolution`], [`Setting::Tolerance`],
+    /// [`Setting::Exclude`] (frequencies or ranges, comma-separated: `50Hz,150Hz,1kHz..1.2kHz`),
+    /// [`Setting::PpBand`] (`0.1Hz..10Hz`) or [`Setting::PpWindow`] (`10s`); checked when the
+    /// analysis starts, with the same messages as the typed setters. Others are refused here:
+    /// use their setters.
     pub fn text(mut self, setting: Setting, text: &str) -> Result<Analysis<'a>> {
         let t = Some(text.to_string());
         let s = &mut self.s;
@@ -225,6 +233,9 @@ impl<'a> Analysis<'a> {
             Setting::SampleFormat => s.sample_format = t,
             Setting::Resolution => s.resolution = t,
             Setting::Tolerance => s.tolerance = t,
+            Setting::Exclude => s.exclude = t,
+            Setting::PpBand => s.pp_band = t,
+            Setting::PpWindow => s.pp_window = t,
             other => {
                 return Err(Error::setting(
                     other,
@@ -306,6 +317,46 @@ impl<'a> Analysis<'a> {
         self
     }
 
+    /// Keeps the capture's offset and linear drift in the density estimate, the verdict, the
+    /// fit and the windowed peak-to-peak (they are still reported). Default: the least-squares
+    /// line through the record is taken out first.
+    pub fn keep_drift(mut self, keep: bool) -> Self {
+        self.s.keep_drift = keep;
+        self
+    }
+
+    /// Frequencies left out of the verdict and the fit, Hz, each as a range `(lo, hi)` (equal
+    /// ends for one frequency): the Welch bins from `lo` to `hi` and the Hann main lobe (±2
+    /// bins) beyond. Default: none (spurs found are left out all the same).
+    pub fn exclude_hz(mut self, ranges: &[(f64, f64)]) -> Self {
+        let parts: Vec<String> = ranges
+            .iter()
+            .map(|&(lo, hi)| {
+                if lo == hi {
+                    format!("{lo:e}")
+                } else {
+                    format!("{lo:e}..{hi:e}")
+                }
+            })
+            .collect();
+        self.s.exclude = Some(parts.join(","));
+        self
+    }
+
+    /// The band of the windowed peak-to-peak, Hz (`lo` > 0, `hi` below half the rate).
+    /// Default 0.1 Hz to 10 Hz, measured only when the record holds a window and the rate the
+    /// band; a band or window given must be measurable.
+    pub fn pp_band_hz(mut self, lo_hz: f64, hi_hz: f64) -> Self {
+        self.s.pp_band = Some(format!("{lo_hz:e}..{hi_hz:e}"));
+        self
+    }
+
+    /// The window of the windowed peak-to-peak, s (> 0). Default 10 s.
+    pub fn pp_window_s(mut self, window_s: f64) -> Self {
+        self.s.pp_window = Some(format!("{window_s:e}"));
+        self
+    }
+
     /// Polled between blocks: when it becomes true the analysis stops with
     /// [`Error::Interrupted`] and leaves none of its output files.
     pub fn interrupt_on(mut self, flag: &'a AtomicBool) -> Self {
@@ -332,8 +383,12 @@ impl<'a> Analysis<'a> {
         let outputs = output::Outputs::create(&self.s)?;
         let mut measured = measure::measure(&setup, seg_len, interrupted)?;
         let mut notes = setup.notes.clone();
-        let tones = verdict::tones(&setup, &mut measured, &mut notes, interrupted)?;
+        let (tones, tone_bins) = verdict::tones(&setup, &mut measured, &mut notes, interrupted)?;
+        let (spurs, excluded) = bench::lines(&setup, &mut measured, &tone_bins, &setup.bench);
         let comparison = verdict::compare(&setup, &measured, &mut notes);
+        let fs = setup.info.sample_rate_hz;
+        let (dc, drift) = bench::drift_json(&measured.trend, fs, !setup.bench.keep_drift);
+        let pp = bench::pp_json(&setup, &measured, &setup.bench, measured.pp_window);
         let report = measure::report(&setup, measured, comparison, notes);
         let mut json = report.to_json();
         if !tones.is_empty() {
@@ -346,6 +401,11 @@ impl<'a> Analysis<'a> {
                 "file_noise_rms": d.noise_variance().sqrt(),
             });
         }
+        json["dc"] = dc;
+        json["drift"] = drift;
+        json["spurs"] = spurs;
+        json["excluded"] = excluded;
+        json["window_peak_to_peak"] = pp;
         let fitted = match &self.s.fit {
             Some(path) => {
                 let (toml, fit_json) = fit::fit(&setup, &report)?;

@@ -3,6 +3,7 @@
 //! resolution and the tolerance; then the capture's header, its scale, and the profile's
 //! design at the capture's rate.
 
+use super::bench::BenchSpec;
 use super::read::Capture;
 use super::{Analysis, DEFAULT_TOLERANCE_DB, Input, ProfileInput, Settings};
 use crate::error::{Error, Result, Setting};
@@ -31,6 +32,8 @@ pub(super) struct Setup<'a> {
     /// The bin width asked for, Hz.
     pub(super) resolution: Option<f64>,
     pub(super) tolerance_db: f64,
+    /// Drift, exclusions and the windowed peak-to-peak.
+    pub(super) bench: BenchSpec,
 }
 
 /// The settings given as text, parsed.
@@ -40,6 +43,7 @@ struct Parsed {
     full_scale: Option<f64>,
     resolution: Option<f64>,
     tolerance_db: f64,
+    bench: BenchSpec,
 }
 
 impl<'a> Setup<'a> {
@@ -140,6 +144,7 @@ impl<'a> Setup<'a> {
             design,
             resolution: parsed.resolution,
             tolerance_db: parsed.tolerance_db,
+            bench: parsed.bench,
         })
     }
 
@@ -225,8 +230,8 @@ fn unit_written_in(full_scale: &str) -> Option<(&'static str, &'static str)> {
 }
 
 impl Parsed {
-    /// Parses the rate, full scale, resolution and tolerance, in that order; quantities with
-    /// a unit of their own are read in `unit_hint`.
+    /// Parses the rate, full scale, resolution, tolerance, exclusions, peak-to-peak band and
+    /// window, in that order; quantities with a unit of their own are read in `unit_hint`.
     fn new(s: &Settings, sample_format: Option<SampleFormat>, unit_hint: &str) -> Result<Parsed> {
         let quantity = |text: &Option<String>, dim: Dimension, setting: Setting| {
             text.as_ref()
@@ -254,6 +259,7 @@ impl Parsed {
             full_scale,
             resolution,
             tolerance_db,
+            bench: BenchSpec::new(s)?,
         })
     }
 }

@@ -49,6 +49,7 @@ pub(super) fn summary_text(
             q("file_noise_rms")
         );
     }
+    s += &drift_text(json, &r.unit);
     s += &density_table(r);
     s += &tail(r, json, profile);
     s
@@ -207,6 +208,8 @@ fn tail(r: &CaptureReport, json: &serde_json::Value, profile: Option<&Profile>) 
             );
         }
     }
+    s += &spur_text(json, u);
+    s += &pp_text(json, u);
     if let Some(fit) = json.get("fit") {
         s += &format!(
             "  fit             floor {}, corner {}, slope {:.3} -> {}\n",
@@ -235,4 +238,107 @@ fn tail(r: &CaptureReport, json: &serde_json::Value, profile: Option<&Profile>) 
         );
     }
     s
+}
+
+/// The offset and drift line (from `json["dc"]` and `json["drift"]`).
+fn drift_text(json: &serde_json::Value, unit: &str) -> String {
+    let (dc, drift) = (&json["dc"], &json["drift"]);
+    let num = |v: &serde_json::Value| v.as_f64().unwrap_or(f64::NAN);
+    format!(
+        "  offset, drift   {} at the middle of the record; drift {} (±{} 1σ for white noise), {} \
+         over the record; {}\n",
+        format_quantity(num(&dc["offset"]), unit),
+        format_quantity(num(&drift["slope_per_s"]), &format!("{unit}/s")),
+        format_quantity(num(&drift["slope_se_white_per_s"]), &format!("{unit}/s")),
+        format_quantity(num(&drift["change_over_record"]), unit),
+        if drift["removed"].as_bool().unwrap_or(false) {
+            "both taken out before the density estimate"
+        } else {
+            "both kept in the density estimate, as asked"
+        }
+    )
+}
+
+/// The spurs found and the frequencies left out (from `json["spurs"]`, `json["excluded"]`).
+fn spur_text(json: &serde_json::Value, unit: &str) -> String {
+    let sp = &json["spurs"];
+    let num = |v: &serde_json::Value| v.as_f64().unwrap_or(f64::NAN);
+    let found = sp["found"].as_array().map_or(&[][..], |v| v.as_slice());
+    let mut s = format!(
+        "  spurs           {} above the local floor (false-alarm probability {} in all, {:.2e} \
+         per bin over {} bins); left out of the verdict and the fit\n",
+        found.len(),
+        num(&sp["false_alarm"]),
+        num(&sp["false_alarm_per_bin"]),
+        sp["bins_searched"].as_u64().unwrap_or(0)
+    );
+    for p in found {
+        let mains = match p["mains"].as_object() {
+            Some(m) => format!(
+                " — mains {} Hz, harmonic {}",
+                num(&m["family_hz"]),
+                m["harmonic"].as_u64().unwrap_or(0)
+            ),
+            None => String::new(),
+        };
+        s += &format!(
+            "    {:<12} {} RMS (±{} 1σ), {:.1} dB above the floor{mains}\n",
+            format_quantity(num(&p["frequency_hz"]), "Hz"),
+            format_quantity(num(&p["rms"]), unit),
+            format_quantity(num(&p["rms_se"]), unit),
+            num(&p["height_db"]),
+        );
+    }
+    let excluded: Vec<String> = json["excluded"]
+        .as_array()
+        .map_or(&[][..], |v| v.as_slice())
+        .iter()
+        .map(|e| {
+            let (lo, hi) = (num(&e["f_lo_hz"]), num(&e["f_hi_hz"]));
+            if lo == hi {
+                format_quantity(lo, "Hz")
+            } else {
+                format!(
+                    "{}..{}",
+                    format_quantity(lo, "Hz"),
+                    format_quantity(hi, "Hz")
+                )
+            }
+        })
+        .collect();
+    if !excluded.is_empty() {
+        s += &format!(
+            "  excluded        {} (as asked): left out of the verdict and the fit\n",
+            excluded.join(", ")
+        );
+    }
+    s
+}
+
+/// The windowed peak-to-peak line (from `json["window_peak_to_peak"]`; none when not measured).
+fn pp_text(json: &serde_json::Value, unit: &str) -> String {
+    let pp = &json["window_peak_to_peak"];
+    if pp.is_null() {
+        return String::new();
+    }
+    let num = |k: &str| pp[k].as_f64().unwrap_or(f64::NAN);
+    let mut s = format!(
+        "  window p-p      {}..{}, {} windows of {}: median {}, largest {}",
+        format_quantity(num("band_lo_hz"), "Hz"),
+        format_quantity(num("band_hi_hz"), "Hz"),
+        pp["windows"].as_u64().unwrap_or(0),
+        format_quantity(num("window_s"), "s"),
+        format_quantity(num("median"), unit),
+        format_quantity(num("max"), unit),
+    );
+    if pp["sigma_band"].is_number() {
+        s += &format!(
+            "; profile 6σ {}, 6.6σ {} (σ {} in the band, {} through the filter)",
+            format_quantity(num("expected_6sigma"), unit),
+            format_quantity(num("expected_6_6sigma"), unit),
+            format_quantity(num("sigma_band"), unit),
+            format_quantity(num("sigma_filtered"), unit),
+        );
+    }
+    s + "\n"
 }

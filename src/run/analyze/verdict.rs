@@ -1,6 +1,7 @@
 //! The capture against its profile: the profile's tones fitted (their leakage taken out of
 //! the bands), each band compared with the designed density, and the verdict.
 
+use std::ops::Range;
 use std::sync::atomic::AtomicBool;
 
 use serde_json::Value;
@@ -18,18 +19,19 @@ use crate::profile::format_quantity;
 
 /// Tones of the profile: leaves the bins their leakage reaches out of every band (so the
 /// comparison and the floor fit see the noise only) and fits their amplitudes in a third
-/// pass. Returns one JSON object per tone (none without a profile or its tones).
+/// pass. Returns one JSON object per tone and the bins each tone's leakage covers (none
+/// without a profile or its tones).
 pub(super) fn tones(
     s: &Setup,
     m: &mut Measured,
     notes: &mut Vec<String>,
     interrupted: &AtomicBool,
-) -> Result<Vec<Value>> {
+) -> Result<(Vec<Value>, Vec<Range<usize>>)> {
     let (Some(p), Some(d)) = (&s.profile, &s.design) else {
-        return Ok(Vec::new());
+        return Ok((Vec::new(), Vec::new()));
     };
     if p.tones.is_empty() {
-        return Ok(Vec::new());
+        return Ok((Vec::new(), Vec::new()));
     }
     let fs = s.info.sample_rate_hz;
     let q_psd = m.q_psd;
@@ -98,7 +100,7 @@ pub(super) fn tones(
          leakage reaches are left out of the comparison and the fit",
         p.tones.len()
     ));
-    Ok(tone_json)
+    Ok((tone_json, excluded))
 }
 
 /// Each band inside the profile's band against the designed density plus the quantisation
