@@ -627,7 +627,20 @@ fn many_sources(n: usize, low: &str) -> String {
     t
 }
 
-/// SIGINT 0.5 s into a long computation before any sample is written (the design of many
+/// A `[[table]]` of `n` points of 1 nV/√Hz, log-spaced from 1 mHz to 10 kHz.
+fn table_of(n: usize) -> String {
+    let points: Vec<String> = (0..n)
+        .map(|i| {
+            format!(
+                "[{:e}, 1e-9]",
+                1e-3 * 1e7f64.powf(i as f64 / (n - 1) as f64)
+            )
+        })
+        .collect();
+    format!("[[table]]\npoints = [{}]\n", points.join(", "))
+}
+
+/// SIGINT 0.25 s into a long computation before any sample is written (the design of many
 /// sources down to a low band edge, a loop buffer of many sources, a burst's catch-up to a
 /// far `--start-sample` at 1000 jumps per sample, a budget, an analysis designing its profile): each
 /// run notices it within 1.5 s, ends by SIGINT and leaves nothing in its folder.
@@ -638,7 +651,7 @@ fn long_computations_stop_within_a_second_and_a_half_of_sigint() {
     let rows: [(&str, String, Vec<&str>); 5] = [
         (
             "design",
-            many_sources(256, "1 mHz"),
+            many_sources(255, "10 uHz") + &table_of(100_000),
             vec!["generate", "p.toml", "--samples", "1000", "-o", "x.raw"],
         ),
         (
@@ -671,12 +684,14 @@ fn long_computations_stop_within_a_second_and_a_half_of_sigint() {
         ),
         (
             "budget",
-            many_sources(256, "1 mHz"),
+            // 255 floors and a table at the limit of 100 000 points down to 10 µHz (here and in
+            // the design rows): about a second of work on an idle machine, four times the wait.
+            many_sources(255, "10 uHz") + &table_of(100_000),
             vec!["budget", "p.toml", "--plot", "x.svg"],
         ),
         (
             "analysis design",
-            many_sources(256, "1 mHz"),
+            many_sources(255, "10 uHz") + &table_of(100_000),
             vec![
                 "analyze",
                 "c.f32",
@@ -692,7 +707,7 @@ fn long_computations_stop_within_a_second_and_a_half_of_sigint() {
         s.file("p.toml", &profile);
         std::fs::write(s.path("c.f32"), vec![0u8; 4 * 4096]).unwrap();
         let mut child = start(&args, &s);
-        std::thread::sleep(Duration::from_millis(500));
+        std::thread::sleep(Duration::from_millis(250));
         if let Some(status) = child.try_wait().unwrap() {
             panic!("{row}: the run ended ({status}) before the signal");
         }
