@@ -34,9 +34,15 @@ fn main() -> ExitCode {
     match run(&cli, &interrupted) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
+            // The profile of generate and budget is a positional argument, not an option.
+            let prefix = match (&e, &cli.command) {
+                (_, cli::Command::Analyze(_)) => "option",
+                (Error::Setting { setting, .. }, _) if *setting == Setting::Profile => "argument",
+                _ => "option",
+            };
             eprintln!(
                 "noisewright: error: {}",
-                e.describe("option", &|s| flag(&cli, s))
+                e.describe(prefix, &|s| flag(&cli, s))
             );
             if let (Error::Interrupted, s @ 1..) = (&e, signal.load(Ordering::SeqCst)) {
                 // Ending by the signal (its default action) rather than by exit lets a

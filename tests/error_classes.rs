@@ -1022,11 +1022,14 @@ fn cases() -> Vec<Case> {
         // ---------------- generate: the profile argument and the length ----------------
         Case::new("generate: profile file missing")
             .args(&["generate", "nope.toml"])
-            .expect(&["PROFILE", "cannot read nope.toml"]),
+            .expect(&["argument PROFILE", "cannot read nope.toml"]),
+        Case::new("generate: a profile that never ends")
+            .args(&["generate", "/dev/zero", "-o", "x.raw", "--samples", "10"])
+            .expect(&["argument PROFILE", "/dev/zero", "16 MiB"]),
         Case::new("generate: profile not UTF-8")
             .file("p.toml", b"sample_rate = \"48 kHz\"\n\xff\xfe\n")
             .args(&["generate", "p.toml", "-o", "x.wav"])
-            .expect(&["PROFILE", "cannot read p.toml", "valid UTF-8"]),
+            .expect(&["argument PROFILE", "cannot read p.toml", "valid UTF-8"]),
         generate(
             "--duration unparseable",
             &["-o", "x.wav", "--duration", "ten"],
@@ -1572,7 +1575,10 @@ fn cases() -> Vec<Case> {
         // ---------------- budget ----------------
         Case::new("budget: profile file missing")
             .args(&["budget", "nope.toml"])
-            .expect(&["PROFILE", "cannot read nope.toml"]),
+            .expect(&["argument PROFILE", "cannot read nope.toml"]),
+        Case::new("budget: a profile that never ends")
+            .args(&["budget", "/dev/zero"])
+            .expect(&["argument PROFILE", "/dev/zero", "16 MiB"]),
         Case::new("budget: --band without ..")
             .file("w.toml", W)
             .args(&["budget", "w.toml", "--band", "10Hz-20Hz"])
