@@ -68,10 +68,7 @@ pub fn budget_of(profile: &Profile, bands: &[BandSpec]) -> Result<Budget> {
 /// is left to finish unseen (they write nothing).
 pub fn budget_until(profile: &Profile, bands: &[BandSpec], flag: &AtomicBool) -> Result<Budget> {
     let stop = Stop::on(flag);
-    let design = Arc::new(design_profile_until(profile, stop)?);
-    let file = Generator::from_design_until(profile, design, 0, 0, stop)?
-        .noise_variance()
-        .sqrt();
+    let file = file_noise_rms_until(profile, stop)?;
     let (tx, rx) = mpsc::channel();
     let (p, b) = (profile.clone(), bands.to_vec());
     std::thread::spawn(move || {
@@ -98,7 +95,14 @@ pub fn budget_until(profile: &Profile, bands: &[BandSpec], flag: &AtomicBool) ->
 /// streamed file holds, i.e. the designed density up to fs/2 plus every burst's variance
 /// ([`crate::synth::Generator::noise_variance`]); the same number `generate` prints.
 pub fn file_noise_rms(profile: &Profile) -> Result<f64> {
-    Ok(Generator::new(profile, 0)?.noise_variance().sqrt())
+    file_noise_rms_until(profile, Stop::default())
+}
+
+/// [`file_noise_rms`], its design polling `stop`.
+fn file_noise_rms_until(profile: &Profile, stop: Stop<'_>) -> Result<f64> {
+    let design = Arc::new(design_profile_until(profile, stop)?);
+    let g = Generator::from_design_until(profile, design, 0, 0, stop)?;
+    Ok(g.noise_variance().sqrt())
 }
 
 /// The budget as the text `budget` prints (RMS in the profile's unit, densities per √Hz).
