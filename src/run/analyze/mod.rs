@@ -26,7 +26,6 @@ use std::sync::atomic::AtomicBool;
 use crate::analysis::capture::CaptureReport;
 use crate::error::{Error, Result, Setting};
 use crate::io::sink::SampleFormat;
-use crate::model::budget::{BandSpec, band_rms};
 use crate::profile::{Profile, Unit};
 
 /// A tone's leakage is left out of the bins where it exceeds this fraction of the designed
@@ -394,10 +393,10 @@ impl<'a> Analysis<'a> {
         if !tones.is_empty() {
             json["tones"] = serde_json::json!(tones);
         }
-        if let (Some(p), Some(d)) = (&setup.profile, &setup.design) {
+        if let (Some(band), Some(d)) = (setup.band_rms, &setup.design) {
             // The profile's own figures, by the functions `generate` and `budget` use.
             json["profile_rms"] = serde_json::json!({
-                "band_rms": band_rms(p, &BandSpec::of_profile(p)),
+                "band_rms": band,
                 "file_noise_rms": d.noise_variance().sqrt(),
             });
         }

@@ -10,6 +10,7 @@ use crate::error::{Error, Result, Setting};
 use crate::io::manifest::SideManifest;
 use crate::io::sink::{Format, SampleFormat};
 use crate::io::source::{Scale, SourceOptions, StreamInfo};
+use crate::model::budget::{BandSpec, band_rms};
 use crate::profile::{Dimension, Profile, Unit, format_quantity, parse_quantity};
 use crate::run::manifest_path;
 use crate::stop::Stop;
@@ -29,6 +30,9 @@ pub(super) struct Setup<'a> {
     pub(super) notes: Vec<String>,
     /// The profile's whole design at the capture's rate.
     pub(super) design: Option<Generator>,
+    /// The profile's band RMS (unit, [`crate::model::budget::band_rms`]): the figure its
+    /// tones' SNR is quoted against and `profile_rms` reports.
+    pub(super) band_rms: Option<f64>,
     /// The bin width asked for, Hz.
     pub(super) resolution: Option<f64>,
     pub(super) tolerance_db: f64,
@@ -133,6 +137,9 @@ impl<'a> Setup<'a> {
             }
             None => None,
         };
+        let band_rms = profile
+            .as_ref()
+            .map(|p| band_rms(p, &BandSpec::of_profile(p)));
         Ok(Setup {
             name,
             capture,
@@ -142,6 +149,7 @@ impl<'a> Setup<'a> {
             scale,
             notes,
             design,
+            band_rms,
             resolution: parsed.resolution,
             tolerance_db: parsed.tolerance_db,
             bench: parsed.bench,

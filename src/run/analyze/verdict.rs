@@ -13,7 +13,6 @@ use crate::analysis::capture::CaptureReport;
 use crate::analysis::compare::{Comparison, compare_with_design};
 use crate::analysis::tones::{ToneFit, without_tones};
 use crate::error::{Error, Result};
-use crate::model::budget::{BandSpec, band_rms};
 use crate::model::tone::enob;
 use crate::profile::format_quantity;
 
@@ -69,7 +68,7 @@ pub(super) fn tones(
         .sum();
     // Designed SNR: against the band RMS (as generate and budget quote it) plus the
     // quantisation noise in the band, the noise the measured SNR counts too.
-    let band_power = band_rms(p, &BandSpec::of_profile(p)).powi(2);
+    let band_power = s.band_rms.unwrap_or(0.0).powi(2);
     let q_band = q_psd * (p.band.high_hz - p.band.low_hz);
     let expected: Vec<f64> = p
         .tones
