@@ -305,7 +305,23 @@ pub struct BandBudget {
     pub notes: Vec<String>,
     /// The profile's tones against this band's noise, in profile order.
     pub tones: Vec<ToneBudget>,
+    /// The integrated noise: RMS in the profile unit from `low_hz` up to each frequency,
+    /// 20 points per decade up to `high_hz` (the last is [`band_rms`](Self::band_rms)).
+    pub integrated: Integrated,
 }
+
+/// Integrated noise: the RMS from a band's low edge up to each frequency (common practice
+/// for reading how much of a band's RMS lies below a frequency).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Integrated {
+    /// Upper ends of the integral in Hz, increasing.
+    pub frequency_hz: Vec<f64>,
+    /// RMS in the profile unit from the band's low edge up to each frequency.
+    pub rms: Vec<f64>,
+}
+
+/// Points per decade of an [`Integrated`] curve.
+pub const INTEGRATED_PER_DECADE: usize = 20;
 
 /// One tone of the profile against a band's noise.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -746,7 +762,39 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         amplifier_rms: amplifier_var.sqrt(),
         notes,
         tones: tone_budgets(profile, band, band_variance),
+        integrated: integrated(&inputs),
     }
+}
+
+/// The band's integrated noise from its low to its high edge, [`INTEGRATED_PER_DECADE`]
+/// points per decade, each piece integrated once and summed (powers add).
+fn integrated(inputs: &BandInputs<'_>) -> Integrated {
+    let band = inputs.band;
+    let frequency_hz = log_spaced(band.low_hz, band.high_hz, INTEGRATED_PER_DECADE);
+    let mut variance = 0.0;
+    let mut from = band.low_hz;
+    let rms = frequency_hz
+        .iter()
+        .map(|&f| {
+            variance += inputs.variance_between(from, f);
+            from = f;
+            variance.sqrt()
+        })
+        .collect();
+    Integrated { frequency_hz, rms }
+}
+
+/// `per_decade` frequencies per decade from `lo` to `hi` Hz (both included, at least two),
+/// evenly spaced in log f.
+pub fn log_spaced(lo: f64, hi: f64, per_decade: usize) -> Vec<f64> {
+    let n = (((hi / lo).log10() * per_decade as f64).ceil() as usize).max(1);
+    (0..=n)
+        .map(|i| match i {
+            0 => lo,
+            i if i == n => hi,
+            i => lo * (hi / lo).powf(i as f64 / n as f64),
+        })
+        .collect()
 }
 
 /// Parse a band such as `0.1Hz..10Hz`, `"20 Hz .. 20 kHz"` or `1..100` (bare numbers in Hz),
@@ -948,7 +996,7 @@ fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io
 /// "p2p_6sigma", "p2p_6_6sigma", "rms_to_nyquist", "sources": [ { "name", "class", "rms", "share",
 /// "rms_numeric", "rms_closed_form" } ], "per_decade": [ { "low_hz", "high_hz", "rms" } ],
 /// "resistor_rms", "amplifier_rms", "notes", "tones": [ { "name", "frequency_hz", "peak",
-/// "rms", "in_band", "snr_db", "enob_bits" } ] } ], "source_names", "densities": [ {
+/// "rms", "in_band", "snr_db", "enob_bits" } ], "integrated": { "frequency_hz", "rms" } } ], "source_names", "densities": [ {
 /// "frequency_hz", "sources", "total" } ], "white_floor", "floor_resistance_ohm" }`. RMS values
 /// are in `unit`, densities in `unit`/√Hz, frequencies in Hz, shares 0..1.
 pub fn to_json(budget: &Budget) -> serde_json::Value {
