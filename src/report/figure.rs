@@ -21,12 +21,12 @@ pub const HEIGHT: f64 = 520.0;
 /// Up to 12 colours told apart on screen and in print (a categorical palette, common
 /// practice), used in turn for a profile's sources.
 pub const PALETTE: [&str; 12] = [
-    "#1f77b4", "#ff7f0e", "#2ca02c", "#d62728", "#9467bd", "#8c564b", "#e377c2", "#17becf",
-    "#bcbd22", "#7f7f7f", "#393b79", "#8c6d31",
+    "#ff7f0e", "#2ca02c", "#d62728", "#9467bd", "#8c564b", "#e377c2", "#17becf", "#bcbd22",
+    "#7f7f7f", "#393b79", "#8c6d31", "#1f77b4",
 ];
 
 /// Dash patterns used in turn with [`PALETTE`], so neighbours differ in colour and dash.
-pub const DASHES: [&str; 4] = ["", "7 3", "2 2", "9 3 2 3"];
+pub const DASHES: [&str; 4] = ["7 3", "", "2 2", "9 3 2 3"];
 
 /// How a line is drawn: colour, width in pixels and an SVG dash pattern ("" = solid).
 #[derive(Debug, Clone, PartialEq)]
@@ -533,9 +533,9 @@ impl Figure {
         let frame = self.frame(legend_w, rows);
         let mut s = String::new();
         s += "<rect width=\"100%\" height=\"100%\" fill=\"#ffffff\"/>\n";
-        let _ = write!(
+        let _ = writeln!(
             s,
-            "<clipPath id=\"{id}-clip\"><rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"/></clipPath>\n",
+            "<clipPath id=\"{id}-clip\"><rect x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\"/></clipPath>",
             n(frame.left),
             n(frame.top),
             n(frame.right - frame.left),
@@ -562,12 +562,19 @@ impl Figure {
         s += &self.grid_and_axes(&frame);
         let _ = writeln!(s, "<g id=\"{id}-data\" clip-path=\"url(#{id}-clip)\">");
         for (i, m) in self.marks.iter().enumerate() {
-            s += &self.mark(m, &frame, &format!("{id}-mark-{i}"));
+            let attrs = format!(
+                "id=\"{id}-mark-{i}\" data-name=\"{}\"",
+                html_escape(m.name())
+            );
+            s += &self.mark(m, &frame, &attrs);
         }
         s += "</g>\n";
         let _ = writeln!(
             s,
-            "<rect id=\"{id}-plot-area\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"none\" stroke=\"#333333\" stroke-width=\"1\"/>",
+            "<rect id=\"{id}-plot-area\" data-x-axis=\"{} {} {}\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"none\" stroke=\"#333333\" stroke-width=\"1\"/>",
+            self.x.lo,
+            self.x.hi,
+            if self.x.log { "log" } else { "linear" },
             n(frame.left),
             n(frame.top),
             n(frame.right - frame.left),
@@ -672,13 +679,14 @@ impl Figure {
         s
     }
 
-    /// One mark as SVG in the plot area's pixels, with `id`.
+    /// One mark as SVG in the plot area's pixels, with the attributes `id` (its id and
+    /// name).
     fn mark(&self, m: &Mark, f: &Frame, id: &str) -> String {
         let px = |p: (f64, f64)| f.px(&self.x, &self.y, p);
         match m {
             Mark::Line { points, pen, .. } => {
                 let d = path_data(points.iter().map(|&p| px(p)));
-                format!("<path id=\"{id}\" d=\"{d}\" {}/>\n", stroke(pen))
+                format!("<path {id} d=\"{d}\" {}/>\n", stroke(pen))
             }
             Mark::Area {
                 upper,
@@ -695,11 +703,11 @@ impl Figure {
                     .collect();
                 let d = path_data(pts.into_iter());
                 format!(
-                    "<path id=\"{id}\" d=\"{d} Z\" fill=\"{color}\" fill-opacity=\"{opacity}\" stroke=\"none\"/>\n"
+                    "<path {id} d=\"{d} Z\" fill=\"{color}\" fill-opacity=\"{opacity}\" stroke=\"none\"/>\n"
                 )
             }
             Mark::Bars { bars, color, .. } => {
-                let mut s = format!("<g id=\"{id}\" fill=\"{color}\" fill-opacity=\"0.6\">");
+                let mut s = format!("<g {id} fill=\"{color}\" fill-opacity=\"0.6\">");
                 for &(x0, x1, y) in bars {
                     let (a, top) = px((x0, y));
                     let (b, _) = px((x1, y));
@@ -718,7 +726,7 @@ impl Figure {
                 s + "</g>\n"
             }
             Mark::Dots { points, color, .. } => {
-                let mut s = format!("<g id=\"{id}\" fill=\"{color}\">");
+                let mut s = format!("<g {id} fill=\"{color}\">");
                 for &p in points {
                     let (x, y) = px(p);
                     if x.is_finite() && y.is_finite() {
@@ -737,7 +745,7 @@ impl Figure {
                 let (a, _) = px((*x0, self.y.lo.max(f64::MIN_POSITIVE)));
                 let (b, _) = px((*x1, self.y.lo.max(f64::MIN_POSITIVE)));
                 format!(
-                    "<rect id=\"{id}\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"{color}\" fill-opacity=\"{opacity}\"/>\n",
+                    "<rect {id} x=\"{}\" y=\"{}\" width=\"{}\" height=\"{}\" fill=\"{color}\" fill-opacity=\"{opacity}\"/>\n",
                     n(a.min(b)),
                     n(f.top),
                     n((b - a).abs().max(1.5)),
@@ -755,7 +763,7 @@ impl Figure {
                     (f.left, y, f.right, y)
                 };
                 format!(
-                    "<line id=\"{id}\" x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" {}/>\n",
+                    "<line {id} x1=\"{}\" y1=\"{}\" x2=\"{}\" y2=\"{}\" {}/>\n",
                     n(x1),
                     n(y1),
                     n(x2),
@@ -789,8 +797,15 @@ fn path_data(points: impl Iterator<Item = (f64, f64)>) -> String {
     d.trim_end().to_string()
 }
 
-/// Figures stacked top to bottom in one SVG document, each [`WIDTH`] × [`HEIGHT`] pixels.
+/// Figures stacked top to bottom in one SVG document, each [`WIDTH`] × [`HEIGHT`] pixels;
+/// their ids are `figure-0`, `figure-1`, … (`figure-0-plot-area`, `figure-0-legend`).
 pub fn page(figures: &[Figure]) -> String {
+    page_numbered(figures, 0)
+}
+
+/// [`page`] with ids numbered from `first`, so several documents inlined in one HTML page
+/// keep their ids (and clip paths) apart.
+pub fn page_numbered(figures: &[Figure], first: usize) -> String {
     let h = HEIGHT * figures.len() as f64;
     let mut s = format!(
         "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{}\" height=\"{}\" viewBox=\"0 0 {} {}\" \
@@ -798,12 +813,13 @@ pub fn page(figures: &[Figure]) -> String {
         WIDTH, h, WIDTH, h
     );
     for (i, f) in figures.iter().enumerate() {
+        let id = first + i;
         let _ = writeln!(
             s,
-            "<g id=\"figure-{i}\" transform=\"translate(0 {})\">",
+            "<g id=\"figure-{id}\" transform=\"translate(0 {})\">",
             n(HEIGHT * i as f64)
         );
-        s += &f.body(&format!("figure-{i}"));
+        s += &f.body(&format!("figure-{id}"));
         s += "</g>\n";
     }
     s += "</svg>\n";

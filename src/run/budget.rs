@@ -187,7 +187,7 @@ mod tests {
     }
 
     #[test]
-    fn white_floor_budget_is_its_closed_form() {
+    fn floor_density_budget_is_its_closed_form() {
         // A brick-wall band of white noise holds e·√(high − low) (closed form).
         let p = Profile::from_toml_str(PROFILE, "t").unwrap();
         let bands = budget_bands(&p, &["100Hz..10100Hz"], Some(0)).unwrap();
