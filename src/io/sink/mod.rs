@@ -1033,7 +1033,7 @@ mod tests {
             let mut lines = text.lines();
             assert_eq!(
                 lines.next(),
-                Some(format!("time_s,code_{coding}_{bits}bit").as_str())
+                Some(format!("time_s,code_{}_{bits}bit", coding.tag()).as_str())
             );
             let csv: Vec<i64> = lines
                 .map(|l| l.split_once(',').unwrap().1.parse().unwrap())
