@@ -10,6 +10,7 @@ mod generator;
 mod guard;
 mod pending;
 pub mod render;
+pub mod shard;
 
 use std::io;
 use std::path::{Path, PathBuf};
