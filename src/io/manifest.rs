@@ -6,7 +6,7 @@
 use std::io::Write;
 use std::path::Path;
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use super::sink::{Format, SampleFormat, SinkReport, SinkSpec};
 use crate::analysis::stats::RunningStats;
@@ -18,7 +18,7 @@ use crate::units::DBFS_CONVENTION;
 ///
 /// Physical quantities are in `unit` (volts or amperes); measured values are of the physical
 /// samples handed to the sink, before scaling, clipping and quantisation.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Manifest {
     /// noisewright's version that wrote the file.
     pub version: String,
@@ -185,6 +185,10 @@ pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
     out.flush().map_err(|e| Error::io(ctx, e))
 }
 
+/// The note of a WAV written as RF64.
+pub const RF64_NOTE: &str = "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers \
+                             without RF64 support cannot open it";
+
 /// What the manifest says about the container beyond `format`, as keys for its `extra` map
 /// and notes for its `notes` (both empty for CSV and raw):
 ///
@@ -206,11 +210,7 @@ pub fn container_facts(
             let plan = super::sink::wav_plan(frames, spec.channels, spec.sample_format)?;
             keys.insert("container".into(), json!(plan.container.name()));
             if plan.container == super::sink::WavContainer::Rf64 {
-                notes.push(
-                    "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers without \
-                     RF64 support cannot open it"
-                        .to_string(),
-                );
+                notes.push(RF64_NOTE.to_string());
             }
         }
         Format::Npy => {
