@@ -160,22 +160,23 @@ pub(super) fn in_order(mut pieces: Vec<Piece>) -> Result<Vec<Piece>> {
     }
     let count = pieces[0].shard.count;
     let (lo, hi) = (pieces[0].shard.index, pieces[pieces.len() - 1].shard.index);
-    if lo != 0 || hi != count - 1 {
-        let (edge, which) = if lo != 0 {
-            (&pieces[0], format!("0/{count} to {}/{count}", lo - 1))
-        } else {
-            (&pieces[pieces.len() - 1], format!("{}/{count} to {}/{count}", hi + 1, count - 1))
-        };
-        return Err(Error::input(
-            edge.shown(),
-            format!(
-                "is shard {}, but shards {which} are missing: the run has {count} shards \
-                 and every one is needed",
-                edge.shard
-            ),
-        ));
-    }
-    Ok(pieces)
+    let (edge, missing) = match (lo, hi) {
+        (0, h) if h == count - 1 => return Ok(pieces),
+        (0, h) => (&pieces[pieces.len() - 1], (h + 1, count - 1)),
+        (l, _) => (&pieces[0], (0, l - 1)),
+    };
+    let which = match missing {
+        (a, b) if a == b => format!("shard {a}/{count} is missing"),
+        (a, b) => format!("shards {a}/{count} to {b}/{count} are missing"),
+    };
+    Err(Error::input(
+        edge.shown(),
+        format!(
+            "is shard {}, but {which}: the run was cut into {count} shards and every one is \
+             needed",
+            edge.shard
+        ),
+    ))
 }
 
 /// Refuses `p` when it is not a part of the same run as `first`, naming what differs.

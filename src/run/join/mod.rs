@@ -219,8 +219,8 @@ fn check_extension(path: &Path, format: Format, sample_format: &str) -> Result<(
              samples; join copies their bytes and does not convert: name it .{}",
             path.display(),
             match format {
-                Format::Raw => "raw or .bin",
-                f => f.name(),
+                Format::Raw => format!("{sample_format}, .raw or .bin"),
+                f => f.name().to_string(),
             }
         ),
     ))
