@@ -81,7 +81,15 @@ fn tool(dir: &Path, program: &str, args: &[&str]) {
 /// time, one job per shard index.
 fn shards_by_parallel(dir: &Path, profile: &str, pattern: &str, count: u64, opts: &[&str]) {
     let shard = format!("{{}}/{count}");
-    let mut args = vec!["--will-cite", "--halt", "now,fail=1", "-j", "2", BIN, "generate"];
+    let mut args = vec![
+        "--will-cite",
+        "--halt",
+        "now,fail=1",
+        "-j",
+        "2",
+        BIN,
+        "generate",
+    ];
     args.extend([profile, "-o", pattern, "--shard", &shard]);
     args.extend_from_slice(opts);
     args.push(":::");
@@ -122,12 +130,25 @@ fn join_and_compare(dir: &Path, files: &[String], out: &str, single: &str) {
     args.extend(["-o", out]);
     let o = run_ok(&args, dir);
     let summary = text(&o.stdout);
-    assert!(summary.contains(&format!("joined {} shards", files.len())), "{summary}");
-    let (a, b) = (std::fs::read(dir.join(single)).unwrap(), std::fs::read(dir.join(out)).unwrap());
+    assert!(
+        summary.contains(&format!("joined {} shards", files.len())),
+        "{summary}"
+    );
+    let (a, b) = (
+        std::fs::read(dir.join(single)).unwrap(),
+        std::fs::read(dir.join(out)).unwrap(),
+    );
     assert_eq!(a.len(), b.len(), "{out} against {single} (seed {SEED})");
     let first = a.iter().zip(&b).position(|(x, y)| x != y);
-    assert!(first.is_none(), "{out}: first differing byte {first:?} (seed {SEED})");
-    compare_manifests(&manifest(&dir.join(single)), &manifest(&dir.join(out)), files.len());
+    assert!(
+        first.is_none(),
+        "{out}: first differing byte {first:?} (seed {SEED})"
+    );
+    compare_manifests(
+        &manifest(&dir.join(single)),
+        &manifest(&dir.join(out)),
+        files.len(),
+    );
 }
 
 /// Sums of n ≈ 10^5 terms in f64 agree to n·ε ≈ 2·10^-11 relative at worst (Higham,
@@ -163,13 +184,20 @@ fn compare_manifests(single: &Value, joined: &Value, shards: usize) {
         for (i, burst) in bursts.iter().enumerate() {
             let occ = &burst["measured_occupancy"];
             for (j, x) in occ.as_array().unwrap().iter().enumerate() {
-                close(x, &b["extra"]["bursts"][i]["measured_occupancy"][j], "occupancy");
+                close(
+                    x,
+                    &b["extra"]["bursts"][i]["measured_occupancy"][j],
+                    "occupancy",
+                );
             }
             a["extra"]["bursts"][i]["measured_occupancy"] = Value::Null;
             b["extra"]["bursts"][i]["measured_occupancy"] = Value::Null;
         }
     }
-    assert_eq!(a, b, "the joined manifest says something else than the single run's");
+    assert_eq!(
+        a, b,
+        "the joined manifest says something else than the single run's"
+    );
 }
 
 /// The done-when case: 8 shards by GNU parallel, two at a time, in each joinable format.
@@ -234,7 +262,16 @@ fn five_shards_by_xargs_join_to_the_single_run() {
     let s = Scratch::new("xargs");
     s.file("mono.toml", MONO);
     let i24 = ["--sample-format", "i24"];
-    let adc = ["--bits", "12", "--range", "-100uV..100uV", "--code", "offset", "--dither", "tpdf"];
+    let adc = [
+        "--bits",
+        "12",
+        "--range",
+        "-100uV..100uV",
+        "--code",
+        "offset",
+        "--dither",
+        "tpdf",
+    ];
     for (ext, extra) in [("wav", &i24[..]), ("u16", &adc[..])] {
         let opts = options("77777", extra);
         let single = format!("single.{ext}");
@@ -256,7 +293,11 @@ fn the_library_makes_and_joins_shards() {
     let s = Scratch::new("library");
     let profile = Profile::from_toml_str(MONO, "mono.toml").unwrap();
     let single = s.path("single.npy");
-    Render::new(&profile).seed(5).samples(30_001).to_path(&single).unwrap();
+    Render::new(&profile)
+        .seed(5)
+        .samples(30_001)
+        .to_path(&single)
+        .unwrap();
     let mut files = Vec::new();
     for k in 0..3 {
         let r = Render::new(&profile)
@@ -274,7 +315,10 @@ fn the_library_makes_and_joins_shards() {
         std::fs::read(s.path("joined.npy")).unwrap(),
         "seed 5"
     );
-    assert_eq!(report.fingerprint, manifest(&single)["extra"]["fingerprint"]);
+    assert_eq!(
+        report.fingerprint,
+        manifest(&single)["extra"]["fingerprint"]
+    );
 }
 
 /// A refused join: exit 2, the message names `file` and says `what`, and the folder holds
@@ -307,7 +351,13 @@ fn broken_sets_of_shards_are_refused_naming_the_file() {
     make("mono.toml", "seed7-1.f64", "1/4", "7", &[]);
     make("other.toml", "other-1.f64", "1/4", SEED, &[]);
     make("mono.toml", "cut3-1.f64", "1/3", SEED, &[]);
-    make("mono.toml", "loud-1.f64", "1/4", SEED, &["--full-scale", "1mV"]);
+    make(
+        "mono.toml",
+        "loud-1.f64",
+        "1/4",
+        SEED,
+        &["--full-scale", "1mV"],
+    );
     let set = |names: &[&str]| -> Vec<String> { names.iter().map(|n| n.to_string()).collect() };
     let join = |files: Vec<String>, out: &str| -> Vec<String> {
         let mut v = vec!["join".to_string()];
@@ -316,14 +366,46 @@ fn broken_sets_of_shards_are_refused_naming_the_file() {
         v
     };
     let cases: Vec<(Vec<String>, &str, &str)> = vec![
-        (set(&["s-0.f64", "s-1.f64", "s-3.f64"]), "s-3.f64", "shard 2/4 is missing"),
-        (set(&["s-0.f64", "s-1.f64", "s-2.f64"]), "s-2.f64", "shard 3/4 is missing"),
-        (set(&["s-1.f64", "s-2.f64", "s-3.f64"]), "s-1.f64", "shard 0/4 is missing"),
-        (set(&["s-0.f64", "s-1.f64", "s-1.f64", "s-2.f64", "s-3.f64"]), "s-1.f64", "is shard 1/4 again"),
-        (set(&["s-0.f64", "seed7-1.f64", "s-2.f64", "s-3.f64"]), "seed7-1.f64", "has seed 7"),
-        (set(&["s-0.f64", "other-1.f64", "s-2.f64", "s-3.f64"]), "other-1.f64", "another profile"),
-        (set(&["s-0.f64", "cut3-1.f64", "s-2.f64", "s-3.f64"]), "cut3-1.f64", "different cuts"),
-        (set(&["s-0.f64", "loud-1.f64", "s-2.f64", "s-3.f64"]), "loud-1.f64", "full_scale"),
+        (
+            set(&["s-0.f64", "s-1.f64", "s-3.f64"]),
+            "s-3.f64",
+            "shard 2/4 is missing",
+        ),
+        (
+            set(&["s-0.f64", "s-1.f64", "s-2.f64"]),
+            "s-2.f64",
+            "shard 3/4 is missing",
+        ),
+        (
+            set(&["s-1.f64", "s-2.f64", "s-3.f64"]),
+            "s-1.f64",
+            "shard 0/4 is missing",
+        ),
+        (
+            set(&["s-0.f64", "s-1.f64", "s-1.f64", "s-2.f64", "s-3.f64"]),
+            "s-1.f64",
+            "is shard 1/4 again",
+        ),
+        (
+            set(&["s-0.f64", "seed7-1.f64", "s-2.f64", "s-3.f64"]),
+            "seed7-1.f64",
+            "has seed 7",
+        ),
+        (
+            set(&["s-0.f64", "other-1.f64", "s-2.f64", "s-3.f64"]),
+            "other-1.f64",
+            "another profile",
+        ),
+        (
+            set(&["s-0.f64", "cut3-1.f64", "s-2.f64", "s-3.f64"]),
+            "cut3-1.f64",
+            "different cuts",
+        ),
+        (
+            set(&["s-0.f64", "loud-1.f64", "s-2.f64", "s-3.f64"]),
+            "loud-1.f64",
+            "full_scale",
+        ),
     ];
     for (files, file, what) in cases {
         let args = join(files, "whole.f64");
@@ -353,7 +435,10 @@ fn broken_files_are_refused(s: &Scratch) {
         std::fs::write(s.path(name), &bytes[..keep]).unwrap();
         bytes
     };
-    let wav = cut("s-2.wav", std::fs::metadata(s.path("s-2.wav")).unwrap().len() as usize - 1);
+    let wav = cut(
+        "s-2.wav",
+        std::fs::metadata(s.path("s-2.wav")).unwrap().len() as usize - 1,
+    );
     check(&all("wav"), "whole.wav", "s-2.wav", "is truncated");
     std::fs::write(s.path("s-2.wav"), wav).unwrap();
     let len = std::fs::metadata(s.path("s-1.csv")).unwrap().len() as usize;
@@ -371,16 +456,43 @@ fn broken_files_are_refused(s: &Scratch) {
     m = serde_json::from_str(&original).unwrap();
     m["seed"] = 30.into();
     std::fs::write(&mp, serde_json::to_string_pretty(&m).unwrap()).unwrap();
-    check(&all("f64"), "whole.f64", "s-2.f64.json", "was changed after generate");
+    check(
+        &all("f64"),
+        "whole.f64",
+        "s-2.f64.json",
+        "was changed after generate",
+    );
     std::fs::write(&mp, original).unwrap();
     // A file made without --shard, a format that is not joined, a conversion.
-    run_ok(&["generate", "mono.toml", "-o", "plain.f64", "--samples", "10", "-q"], s);
-    check(&["plain.f64".into()], "whole.f64", "plain.f64.json", "is not a shard");
+    run_ok(
+        &[
+            "generate",
+            "mono.toml",
+            "-o",
+            "plain.f64",
+            "--samples",
+            "10",
+            "-q",
+        ],
+        s,
+    );
+    check(
+        &["plain.f64".into()],
+        "whole.f64",
+        "plain.f64.json",
+        "is not a shard",
+    );
     check(&all("wav"), "whole.npy", "whole.npy", "does not convert");
     // The output is one of the shards.
     check(&all("f64"), "s-0.f64", "s-0.f64", "shard");
     // Undamaged again, the set joins.
-    run_ok(&join_args(&all("f64"), "whole.f64").iter().map(String::as_str).collect::<Vec<_>>(), s);
+    run_ok(
+        &join_args(&all("f64"), "whole.f64")
+            .iter()
+            .map(String::as_str)
+            .collect::<Vec<_>>(),
+        s,
+    );
 }
 
 /// `--shard` beside a start, a loop or an endless stream, and impossible K/N, are refused
@@ -390,22 +502,53 @@ fn shard_settings_that_cannot_work_are_refused() {
     let s = Scratch::new("settings");
     s.file("mono.toml", MONO);
     for (extra, what) in [
-        (&["--shard", "8/8", "--samples", "100"][..], "shard 8/8 does not exist"),
+        (
+            &["--shard", "8/8", "--samples", "100"][..],
+            "shard 8/8 does not exist",
+        ),
         (&["--shard", "3", "--samples", "100"][..], "expected K/N"),
         (&["--shard", "0/0", "--samples", "100"][..], "N = 0"),
-        (&["--shard", "1/4", "--start-sample", "5"][..], "cannot be used with --start"),
-        (&["--shard", "1/4", "--loop"][..], "cannot be used with --loop"),
-        (&["--shard", "1/4", "--samples", "3"][..], "more than it has samples"),
+        (
+            &["--shard", "1/4", "--start-sample", "5"][..],
+            "cannot be used with --start",
+        ),
+        (
+            &["--shard", "1/4", "--loop"][..],
+            "cannot be used with --loop",
+        ),
+        (
+            &["--shard", "1/4", "--samples", "3"][..],
+            "more than it has samples",
+        ),
     ] {
         let mut args = vec!["generate", "mono.toml", "-o", "x-{shard}.f64"];
         args.extend_from_slice(extra);
         let o = run(&args, &s);
         let err = text(&o.stderr);
         assert_eq!(o.status.code(), Some(2), "{extra:?}: {err}");
-        assert!(err.contains("--shard") && err.contains(what), "{extra:?}: {err}");
+        assert!(
+            err.contains("--shard") && err.contains(what),
+            "{extra:?}: {err}"
+        );
         assert!(outputs(&s, &[]).is_empty(), "{extra:?}");
     }
-    let o = run(&["generate", "mono.toml", "-o", "-", "--duration", "inf", "--shard", "0/2"], &s);
+    let o = run(
+        &[
+            "generate",
+            "mono.toml",
+            "-o",
+            "-",
+            "--duration",
+            "inf",
+            "--shard",
+            "0/2",
+        ],
+        &s,
+    );
     assert_eq!(o.status.code(), Some(2));
-    assert!(text(&o.stderr).contains("without an end"), "{}", text(&o.stderr));
+    assert!(
+        text(&o.stderr).contains("without an end"),
+        "{}",
+        text(&o.stderr)
+    );
 }

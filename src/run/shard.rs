@@ -130,8 +130,14 @@ mod tests {
 
     #[test]
     fn k_over_n_parses_and_bad_text_is_named() {
-        assert_eq!("3/8".parse::<Shard>().unwrap(), Shard { index: 3, count: 8 });
-        assert_eq!(" 0 / 1".parse::<Shard>().unwrap(), Shard { index: 0, count: 1 });
+        assert_eq!(
+            "3/8".parse::<Shard>().unwrap(),
+            Shard { index: 3, count: 8 }
+        );
+        assert_eq!(
+            " 0 / 1".parse::<Shard>().unwrap(),
+            Shard { index: 0, count: 1 }
+        );
         for bad in ["8/8", "3", "a/8", "-1/8", "3/0", "3/8/9", ""] {
             let e = bad.parse::<Shard>().unwrap_err();
             assert_eq!(e.exit_code(), 2, "{bad}");
@@ -142,9 +148,15 @@ mod tests {
     #[test]
     fn the_placeholder_takes_the_padded_index() {
         let s = Shard::new(3, 12).unwrap();
-        assert_eq!(s.file_name(Path::new("out/n-{shard}.wav")), Path::new("out/n-03.wav"));
+        assert_eq!(
+            s.file_name(Path::new("out/n-{shard}.wav")),
+            Path::new("out/n-03.wav")
+        );
         let s = Shard::new(7, 8).unwrap();
-        assert_eq!(s.file_name(Path::new("{shard}/a{shard}.npy")), Path::new("7/a7.npy"));
+        assert_eq!(
+            s.file_name(Path::new("{shard}/a{shard}.npy")),
+            Path::new("7/a7.npy")
+        );
         assert_eq!(s.file_name(Path::new("plain.wav")), Path::new("plain.wav"));
     }
 }

@@ -46,7 +46,10 @@ pub(super) fn read_piece(path: &Path) -> Result<Piece> {
     let shown = path.display().to_string();
     let mp = manifest_path(path);
     if !path.is_file() {
-        return Err(Error::input(&shown, "no such file (expected a shard's file)"));
+        return Err(Error::input(
+            &shown,
+            "no such file (expected a shard's file)",
+        ));
     }
     if !mp.is_file() {
         return Err(Error::input(
@@ -195,7 +198,9 @@ fn same_run(first: &Piece, p: &Piece) -> Result<()> {
             }))
             .find(|(k, a, b)| a != b && !(k == "extra.adc" && same_adc(a, b)));
         let what = match differs {
-            Some((k, a, _)) if k == "seed" => format!("has seed {a}, {other} has seed {}", first.manifest.seed),
+            Some((k, a, _)) if k == "seed" => {
+                format!("has seed {a}, {other} has seed {}", first.manifest.seed)
+            }
             Some((k, _, _)) if k == "profile" => {
                 format!("was made from another profile than {other} (their profile keys differ)")
             }

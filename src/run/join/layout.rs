@@ -43,7 +43,11 @@ impl Layout {
     /// The layout of the files a manifest describes; C headers are refused (their array
     /// text cannot be joined by copying).
     pub(super) fn of(m: &Manifest, shown: &str) -> Result<Layout> {
-        let channels = m.extra.get("channels").and_then(|c| c.as_u64()).unwrap_or(1) as u16;
+        let channels = m
+            .extra
+            .get("channels")
+            .and_then(|c| c.as_u64())
+            .unwrap_or(1) as u16;
         let value_bytes = match m.sample_format.parse::<SampleFormat>() {
             Ok(sf) => sf.bytes() as u64,
             Err(_) => Container::from_extension(&m.sample_format)
@@ -51,7 +55,10 @@ impl Layout {
                 .ok_or_else(|| {
                     Error::input(
                         shown,
-                        format!("its manifest's sample_format {:?} is unknown", m.sample_format),
+                        format!(
+                            "its manifest's sample_format {:?} is unknown",
+                            m.sample_format
+                        ),
                     )
                 })?,
         };
@@ -63,9 +70,8 @@ impl Layout {
             },
             Format::Npy => {
                 let descr = m.extra.get("npy_dtype").and_then(|d| d.as_str());
-                let descr = descr.ok_or_else(|| {
-                    Error::input(shown, "its manifest has no extra.npy_dtype")
-                })?;
+                let descr = descr
+                    .ok_or_else(|| Error::input(shown, "its manifest has no extra.npy_dtype"))?;
                 // '<f4', '|u1' …: the width in bytes ends the dtype string (i24 is '<i4').
                 let value_bytes = descr[2..].parse().unwrap_or(value_bytes);
                 Layout::Npy {
@@ -152,7 +158,11 @@ pub(super) fn copy_samples(
     let header = layout.header(frames)?;
     let want = header.len() as u64 + data + pad;
     if len != want {
-        let how = if len < want { "truncated" } else { "longer than it should be" };
+        let how = if len < want {
+            "truncated"
+        } else {
+            "longer than it should be"
+        };
         return Err(Error::input(
             &shown,
             format!(
@@ -258,7 +268,11 @@ fn copy_csv(
         reader.consume(k);
     }
     if rows != frames || last != b'\n' {
-        let part = if last != b'\n' { " and a part of one" } else { "" };
+        let part = if last != b'\n' {
+            " and a part of one"
+        } else {
+            ""
+        };
         return Err(Error::input(
             shown,
             format!(

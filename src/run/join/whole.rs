@@ -66,9 +66,13 @@ pub(super) fn whole_manifest(pieces: &[Piece], layout: &Layout) -> Result<Manife
 fn combine_lists(pieces: &[Piece], weights: &[f64], extra: &mut serde_json::Map<String, Value>) {
     let n: f64 = weights.iter().sum();
     let list = |p: &Piece, key: &str| -> Vec<f64> {
-        p.manifest.extra.get(key).and_then(Value::as_array).map_or(Vec::new(), |a| {
-            a.iter().map(|x| x.as_f64().unwrap_or(f64::NAN)).collect()
-        })
+        p.manifest
+            .extra
+            .get(key)
+            .and_then(Value::as_array)
+            .map_or(Vec::new(), |a| {
+                a.iter().map(|x| x.as_f64().unwrap_or(f64::NAN)).collect()
+            })
     };
     if extra.contains_key("measured_rms_per_channel") {
         let mut sum = vec![0.0; list(&pieces[0], "measured_rms_per_channel").len()];
