@@ -36,8 +36,11 @@ pub(super) struct Plan {
     /// CSV columns per source.
     pub(super) per_source: bool,
     /// The shard this run makes, and the frames of the whole run it is a part of.
-    pub(super) shard: Option<(Shard, u64)>,
+    pub(super) shard: Option<ShardOfRun>,
 }
+
+/// A shard and the frames of the whole run it is a part of.
+pub(super) type ShardOfRun = (Shard, u64);
 
 impl Plan {
     pub(super) fn new(profile: &Profile, s: &Settings, target: Target) -> Result<Plan> {
@@ -372,7 +375,7 @@ fn shard_part(
     shard: Option<Shard>,
     start: u64,
     samples: Option<u64>,
-) -> Result<(u64, Option<u64>, Option<(Shard, u64)>)> {
+) -> Result<(u64, Option<u64>, Option<ShardOfRun>)> {
     let Some(shard) = shard else {
         return Ok((start, samples, None));
     };
