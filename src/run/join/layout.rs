@@ -48,7 +48,7 @@ impl Layout {
             .get("channels")
             .and_then(|c| c.as_u64())
             .unwrap_or(1) as u16;
-        let value_bytes = match m.sample_format.parse::<SampleFormat>() {
+        let value_bytes_of_format = match m.sample_format.parse::<SampleFormat>() {
             Ok(sf) => sf.bytes() as u64,
             Err(_) => Container::from_extension(&m.sample_format)
                 .map(|c| c.bytes() as u64)
@@ -73,7 +73,8 @@ impl Layout {
                 let descr = descr
                     .ok_or_else(|| Error::input(shown, "its manifest has no extra.npy_dtype"))?;
                 // '<f4', '|u1' …: the width in bytes ends the dtype string (i24 is '<i4').
-                let value_bytes = descr[2..].parse().unwrap_or(value_bytes);
+                let value_bytes = descr.get(2..).and_then(|w| w.parse().ok());
+                let value_bytes = value_bytes.unwrap_or(value_bytes_of_format);
                 Layout::Npy {
                     descr: descr.to_string(),
                     channels,
@@ -81,7 +82,7 @@ impl Layout {
                 }
             }
             Format::Raw => Layout::Raw {
-                frame_bytes: value_bytes * u64::from(channels),
+                frame_bytes: value_bytes_of_format * u64::from(channels),
             },
             Format::Csv => Layout::Csv,
             Format::C => {
@@ -291,4 +292,44 @@ pub(super) fn finish(layout: &Layout, frames: u64, out: &mut dyn Write) -> Resul
             .map_err(|e| Error::io("writing the joined file", e))?;
     }
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A whole run past 4 GiB gets the RF64 header the WAV writer would write (EBU Tech
+    /// 3306), though every shard is a plain RIFF file: the header follows the whole length.
+    #[test]
+    fn the_whole_header_follows_the_whole_length() {
+        let layout = Layout::Wav {
+            channels: 1,
+            sample_format: SampleFormat::F32,
+            rate: 1_000_000,
+        };
+        let shard = 100_000_000; // 400 MB: RIFF
+        let whole = 16 * shard; // 6.4 GB: RF64
+        assert_eq!(&layout.header(shard).unwrap()[..4], b"RIFF");
+        let h = layout.header(whole).unwrap();
+        assert_eq!(&h[..4], b"RF64");
+        assert_eq!(
+            h,
+            wav_header(whole, 1, SampleFormat::F32, 1_000_000).unwrap()
+        );
+        assert_eq!(layout.data_bytes(whole).unwrap(), Some((4 * whole, 0)));
+        // i24 mono: an odd number of frames has an odd data size and a pad byte.
+        let i24 = Layout::Wav {
+            channels: 1,
+            sample_format: SampleFormat::I24,
+            rate: 48_000,
+        };
+        assert_eq!(i24.data_bytes(7).unwrap(), Some((21, 1)));
+        let npy = Layout::Npy {
+            descr: "<i2".into(),
+            channels: 2,
+            value_bytes: 2,
+        };
+        assert_eq!(npy.header(9).unwrap(), npy_header("<i2", &[9, 2]));
+        assert_eq!(npy.data_bytes(9).unwrap(), Some((36, 0)));
+    }
 }

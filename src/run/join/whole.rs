@@ -44,7 +44,7 @@ pub(super) fn whole_manifest(pieces: &[Piece], layout: &Layout) -> Result<Manife
         } => wav_plan(total, *channels, *sample_format)?.container == WavContainer::Rf64,
         _ => false,
     };
-    m.notes = merged_notes(pieces, rf64);
+    m.notes = merged_notes(pieces.iter().flat_map(|p| &p.manifest.notes), rf64);
     let extra = &mut m.extra;
     extra.remove("shard");
     extra.insert("joined".into(), json!({ "shards": pieces.len() }));
@@ -107,10 +107,10 @@ fn combine_lists(pieces: &[Piece], weights: &[f64], extra: &mut serde_json::Map<
 /// The shards' notes as a single run words them: each note once; a note that starts with a
 /// count (clipped samples) with the counts summed; the RF64 note when the whole is RF64
 /// (where `generate` puts it: after the notes about the settings, before the counts).
-fn merged_notes(pieces: &[Piece], rf64: bool) -> Vec<String> {
+fn merged_notes<'a>(notes: impl Iterator<Item = &'a String>, rf64: bool) -> Vec<String> {
     let mut plain: Vec<String> = Vec::new();
     let mut counted: Vec<(u64, String)> = Vec::new();
-    for note in pieces.iter().flat_map(|p| &p.manifest.notes) {
+    for note in notes {
         if note == RF64_NOTE {
             continue;
         }
@@ -131,4 +131,24 @@ fn merged_notes(pieces: &[Piece], rf64: bool) -> Vec<String> {
     }
     plain.extend(counted.into_iter().map(|(c, rest)| format!("{c} {rest}")));
     plain
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn notes_are_worded_as_a_single_run_words_them() {
+        let clip = "samples clipped at full scale (--allow-clipping)";
+        let rate = "sample rate 96 kHz from --rate replaces the profile's 48 kHz".to_string();
+        let shards = [
+            vec![rate.clone(), format!("3 {clip}")],
+            vec![rate.clone()],
+            vec![rate.clone(), format!("4 {clip}"), RF64_NOTE.to_string()],
+        ];
+        let riff = merged_notes(shards.iter().flatten(), false);
+        assert_eq!(riff, [rate.clone(), format!("7 {clip}")]);
+        let rf64 = merged_notes(shards.iter().flatten(), true);
+        assert_eq!(rf64, [rate, RF64_NOTE.to_string(), format!("7 {clip}")]);
+    }
 }
