@@ -483,6 +483,27 @@ fn broken_files_are_refused(s: &Scratch) {
         "is not a shard",
     );
     check(&all("wav"), "whole.npy", "whole.npy", "does not convert");
+    // C headers are made as shards but not joined.
+    for k in ["0/2", "1/2"] {
+        let args = [
+            "generate",
+            "mono.toml",
+            "-o",
+            "h{shard}.h",
+            "--samples",
+            "10",
+            "--shard",
+            k,
+            "-q",
+        ];
+        run_ok(&args, s);
+    }
+    check(
+        &["h0.h".into(), "h1.h".into()],
+        "whole.h",
+        "h0.h",
+        "is a C header",
+    );
     // The output is one of the shards.
     check(&all("f64"), "s-0.f64", "s-0.f64", "shard");
     // Undamaged again, the set joins.
@@ -532,6 +553,23 @@ fn shard_settings_that_cannot_work_are_refused() {
         );
         assert!(outputs(&s, &[]).is_empty(), "{extra:?}");
     }
+    // Without -o, a shard goes to out/<profile stem>-<index>.wav.
+    run_ok(
+        &[
+            "generate",
+            "mono.toml",
+            "--samples",
+            "100",
+            "--shard",
+            "1/2",
+            "-q",
+        ],
+        &s,
+    );
+    assert_eq!(
+        outputs(&s.path("out"), &[]),
+        ["mono-1.wav", "mono-1.wav.json"]
+    );
     let o = run(
         &[
             "generate",

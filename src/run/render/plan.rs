@@ -77,6 +77,15 @@ impl Plan {
             }
             t => t,
         };
+        // A C array is named after the output without the shard's index, so every shard of
+        // a run names it alike.
+        let array_stem = match &target {
+            Target::File(p) if shard.is_some() => {
+                Some(p.to_string_lossy().replace(SHARD_PLACEHOLDER, ""))
+            }
+            Target::File(p) => Some(p.to_string_lossy().into_owned()),
+            _ => None,
+        };
         let target = match (target, shard) {
             (Target::File(p), Some(sh)) => Target::File(sh.file_name(&p)),
             (t, _) => t,
@@ -88,7 +97,7 @@ impl Plan {
         };
         check_extension(extension.as_deref(), format, adc.as_ref())?;
         let sample_format = sample_format_of(s, &target, extension.as_deref(), format)?;
-        let array_name = array_name(s, format, &target)?;
+        let array_name = array_name(s, format, &target, array_stem.as_deref().map(Path::new))?;
         let samples = length(s, &target, fs, profile.unit.symbol())?;
         let start = start_index(s, fs, profile.unit.symbol())?;
         let (start, samples, shard) = shard_part(s, shard, start, samples)?;
@@ -288,8 +297,14 @@ fn sample_format_of(
     Ok(given)
 }
 
-/// The C array's name (C headers only): as set, else the file's stem made an identifier.
-fn array_name(s: &Settings, format: Format, target: &Target) -> Result<Option<String>> {
+/// The C array's name (C headers only): as set, else the stem of `named_after` (the output
+/// file's name) made an identifier.
+fn array_name(
+    s: &Settings,
+    format: Format,
+    target: &Target,
+    named_after: Option<&Path>,
+) -> Result<Option<String>> {
     if matches!(format, Format::Npy | Format::C) && target.is_stream() {
         return Err(Error::setting(
             Setting::Output,
@@ -312,8 +327,9 @@ fn array_name(s: &Settings, format: Format, target: &Target) -> Result<Option<St
                  give \u{1}format\u{1} c"
             ),
         )),
-        (None, Format::C, Target::File(p)) => Ok(Some(crate::io::sink::default_array_name(
-            &p.file_stem()
+        (None, Format::C, Target::File(_)) => Ok(Some(crate::io::sink::default_array_name(
+            &named_after
+                .and_then(Path::file_stem)
                 .map_or(String::new(), |s| s.to_string_lossy().into_owned()),
         ))),
         (None, _, _) => Ok(None),
