@@ -103,6 +103,8 @@ pub enum Setting {
     Start,
     /// The start of a segment as a sample index.
     StartSample,
+    /// One of several consecutive parts of a run (`K/N`).
+    Shard,
     /// The sample rate.
     Rate,
     /// One periodic buffer instead of a stream.
@@ -158,13 +160,14 @@ pub enum Setting {
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 32] = [
+const SETTINGS: [Setting; 33] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
     Setting::Samples,
     Setting::Start,
     Setting::StartSample,
+    Setting::Shard,
     Setting::Rate,
     Setting::Loop,
     Setting::Format,
@@ -207,6 +210,7 @@ impl Setting {
             Setting::Samples => "samples",
             Setting::Start => "start",
             Setting::StartSample => "start_sample",
+            Setting::Shard => "shard",
             Setting::Rate => "rate",
             Setting::Loop => "loop",
             Setting::Format => "format",

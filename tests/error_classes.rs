@@ -1155,6 +1155,43 @@ fn cases() -> Vec<Case> {
                 "'--start-sample <N>'",
             ],
         ),
+        // ---------------- generate: shards ----------------
+        generate(
+            "--shard not K/N",
+            &["-o", "x.wav", "--samples", "10", "--shard", "3"],
+            &["option --shard", "expected K/N", "\"3\""],
+        ),
+        generate(
+            "--shard index past the last",
+            &["-o", "x.wav", "--samples", "10", "--shard", "4/4"],
+            &["option --shard", "shard 4/4 does not exist", "0 to 3"],
+        ),
+        generate(
+            "--shard with --start-sample",
+            &[
+                "-o",
+                "x.wav",
+                "--samples",
+                "10",
+                "--shard",
+                "1/2",
+                "--start-sample",
+                "3",
+            ],
+            &[
+                "option --shard",
+                "cannot be used with --start or --start-sample",
+            ],
+        ),
+        generate(
+            "--shard more shards than samples",
+            &["-o", "x.wav", "--samples", "10", "--shard", "1/11"],
+            &[
+                "option --shard",
+                "more than it has samples",
+                "at most 10 shards",
+            ],
+        ),
         // ---------------- generate: rate ----------------
         generate(
             "--rate unparseable",

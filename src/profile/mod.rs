@@ -29,7 +29,7 @@ use crate::error::Result;
 use crate::model::amplifier::{Refer, StagePart};
 
 /// What one unit of output means.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 pub enum Unit {
     /// Volts; densities are in V/√Hz.
     #[serde(rename = "V")]

@@ -66,7 +66,7 @@ const CHUNK_SAMPLES: usize = 16 * 1024;
 pub const FLUSH_BYTES: usize = 64 * 1024;
 
 /// Output container.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Format {
     /// RIFF/WAVE, interleaved frames, with a header written first (needs the total sample

@@ -230,6 +230,16 @@ fn manifest_doc(
     manifest.start_s = plan.start as f64 / fs;
     manifest.notes = notes.to_vec();
     manifest.extra.extend(built.container_keys.clone());
+    if let Some((shard, run_samples)) = plan.shard {
+        manifest.extra.insert(
+            "shard".into(),
+            serde_json::json!({
+                "index": shard.index,
+                "count": shard.count,
+                "run_samples": run_samples,
+            }),
+        );
+    }
     // The band RMS and the file RMS of the noise, as `budget` and `analyze` print them.
     manifest
         .extra
@@ -260,6 +270,7 @@ fn manifest_doc(
             &measured.channels,
         );
     }
+    manifest.set_fingerprint();
     manifest
 }
 
@@ -283,6 +294,9 @@ fn summary(
             plan.start,
             plan.start as f64 / profile.sample_rate_hz
         );
+    }
+    if let Some((shard, total)) = plan.shard {
+        details += &format!("  shard           {shard} of a run of {total} samples\n");
     }
     let (var, mean) = (built.expected_variance, built.expected_mean);
     if let Some(g) = &built.generator {
