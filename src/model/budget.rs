@@ -355,7 +355,7 @@ pub struct Budget {
     /// band edge and any closed-loop pole.
     pub white_floor: f64,
     /// The resistance in Ω whose thermal noise at 25 °C equals the white floor: e²/(4kT) in a
-    /// volt profile, 4kT/i² in an ampere profile.
+    /// volt profile, 4kT/i² in an ampere profile; NaN (JSON null) in a sensor's unit.
     pub floor_resistance_ohm: f64,
     /// The file RMS of the noise in the profile unit: what a file generated from the profile
     /// holds (its designed density up to fs/2, bursts included, their mean excluded). Made
@@ -402,6 +402,8 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
     let floor_resistance_ohm = match profile.unit {
         Unit::Volt => resistance_for_density(white.sqrt(), DEFAULT_TEMPERATURE_K),
         Unit::Ampere => four_kt / white,
+        // A sensor's floor is no resistor's thermal noise.
+        _ => f64::NAN,
     };
     Budget {
         name: profile.name.clone(),
@@ -934,6 +936,14 @@ fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io
     } else {
         "thermal noise \u{221a}(4kTR)"
     };
+    if budget.floor_resistance_ohm.is_nan() {
+        writeln!(
+            out,
+            "white floor {}",
+            format_quantity(budget.white_floor, &density_unit)
+        )?;
+        return Ok(());
+    }
     writeln!(
         out,
         "white floor {}: the {law} of {} at 25 \u{b0}C",

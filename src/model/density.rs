@@ -51,9 +51,10 @@ pub fn source_psd(source: &Source, profile: &Profile, f: f64) -> f64 {
             temperature_k,
         } => {
             let four_kt = 4.0 * BOLTZMANN * temperature_k;
+            // The parser refuses resistors outside volt and ampere profiles.
             match profile.unit {
-                Unit::Volt => four_kt * resistance_ohm,
                 Unit::Ampere => four_kt / resistance_ohm,
+                _ => four_kt * resistance_ohm,
             }
         }
         SourceKind::Table { points } => {
@@ -408,6 +409,7 @@ mod tests {
             label: Default::default(),
             channels: 1,
             correlation: vec![vec![1.0]],
+            sensitivity_v_per_unit: None,
             name: None,
             unit,
             sample_rate_hz: fs,

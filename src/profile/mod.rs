@@ -28,7 +28,8 @@ use crate::error::Result;
 
 use crate::model::amplifier::{Refer, StagePart};
 
-/// What one unit of output means.
+/// What one unit of output means: an electrical quantity, or a sensor's own quantity (the
+/// `unit` key). Values stay in the unit as written: nothing converts between units.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub enum Unit {
     /// Volts; densities are in V/√Hz.
@@ -37,15 +38,72 @@ pub enum Unit {
     /// Amperes; densities are in A/√Hz.
     #[serde(rename = "A")]
     Ampere,
+    /// Pascals (pressure); densities in Pa/√Hz.
+    #[serde(rename = "Pa")]
+    Pascal,
+    /// Kelvin (a temperature channel); densities in K/√Hz.
+    #[serde(rename = "K")]
+    Kelvin,
+    /// Teslas (magnetic flux density); densities in T/√Hz.
+    #[serde(rename = "T")]
+    Tesla,
+    /// Metres (displacement); densities in m/√Hz.
+    #[serde(rename = "m")]
+    Metre,
+    /// Newtons (force); densities in N/√Hz.
+    #[serde(rename = "N")]
+    Newton,
+    /// Metres per second squared (acceleration); densities in (m/s²)/√Hz.
+    #[serde(rename = "m/s\u{b2}")]
+    MetrePerSecondSquared,
+    /// Standard gravity, 9.806 65 m/s² exactly (3rd CGPM, 1901); densities in g/√Hz.
+    #[serde(rename = "g")]
+    StandardGravity,
+    /// Radians per second (angular rate); densities in (rad/s)/√Hz.
+    #[serde(rename = "rad/s")]
+    RadianPerSecond,
+    /// Degrees per second (angular rate); densities in (°/s)/√Hz.
+    #[serde(rename = "\u{b0}/s")]
+    DegreePerSecond,
 }
 
 impl Unit {
-    /// The unit's symbol, `"V"` or `"A"`.
+    /// Every unit, in the order of [`crate::units::UNITS`].
+    pub const ALL: [Unit; 11] = [
+        Unit::Volt,
+        Unit::Ampere,
+        Unit::Pascal,
+        Unit::Kelvin,
+        Unit::Tesla,
+        Unit::Metre,
+        Unit::Newton,
+        Unit::MetrePerSecondSquared,
+        Unit::StandardGravity,
+        Unit::RadianPerSecond,
+        Unit::DegreePerSecond,
+    ];
+
+    /// The unit's display symbol: `"V"`, `"A"`, `"Pa"`, `"K"`, `"T"`, `"m"`, `"N"`,
+    /// `"m/s²"`, `"g"`, `"rad/s"` or `"°/s"`.
     pub fn symbol(self) -> &'static str {
-        match self {
-            Unit::Volt => "V",
-            Unit::Ampere => "A",
-        }
+        self.spec().symbol
+    }
+
+    /// The unit's spellings and practice forms.
+    pub fn spec(self) -> &'static crate::units::UnitSpec {
+        &crate::units::UNITS[self as usize]
+    }
+
+    /// The unit written as `text` (a symbol or a spelling such as `deg/s`, `m/s^2`), if any.
+    pub fn from_text(text: &str) -> Option<Unit> {
+        Unit::ALL
+            .into_iter()
+            .find(|u| u.symbol() == text || u.spec().spellings.contains(&text))
+    }
+
+    /// Whether the unit is electrical (V or A): resistors and amplifier stages need it.
+    pub fn is_electrical(self) -> bool {
+        matches!(self, Unit::Volt | Unit::Ampere)
     }
 }
 
@@ -156,6 +214,10 @@ pub struct Profile {
     pub tones: Vec<Tone>,
     /// DC value in the unit added to every sample (the `offset` key; 0 without it).
     pub offset: f64,
+    /// Volts at the sensor's output per unit of its quantity (the `sensitivity` key, e.g.
+    /// 0.02 for "20 mV/g"): the full scale and an ADC range may then be given in volts.
+    /// `None` without the key (never set in a volt profile).
+    pub sensitivity_v_per_unit: Option<f64>,
     /// Channels per frame, 1 ≤ N ≤ [`MAX_CHANNELS`] (the `channels` key, default 1).
     pub channels: usize,
     /// The N×N correlation matrix between channels (dimensionless; symmetric, unit diagonal,
@@ -302,6 +364,7 @@ impl Profile {
                 "given_as": t.convention,
             })).collect::<Vec<_>>(),
             "offset": self.offset,
+            "sensitivity_v_per_unit": self.sensitivity_v_per_unit,
             "channels": self.channels,
             "correlation": self.correlation,
         })
@@ -362,5 +425,38 @@ mod tests {
         assert_eq!(s[2]["kind"], "table");
         assert_eq!(s[2]["points"][0]["frequency_hz"], 1.0);
         assert_eq!(s[2]["points"][0]["density_per_rthz"], 3e-12);
+    }
+
+    #[test]
+    fn sensor_units_and_sensitivity_are_read_and_recorded() {
+        let p = parse_profile(
+            "unit = \"g\"\nsensitivity = \"20 mV/g\"\nsample_rate = \"1 kHz\"\n[band]\n\
+             low = \"0.1 Hz\"\nhigh = \"400 Hz\"\n[[floor]]\ndensity = \"25 ug/rtHz\"\n",
+            "t",
+        )
+        .unwrap();
+        assert_eq!(p.unit, Unit::StandardGravity);
+        assert_eq!(p.sensitivity_v_per_unit, Some(0.02));
+        let j = p.to_json();
+        assert_eq!(j["unit"], "g");
+        assert_eq!(j["sensitivity_v_per_unit"], 0.02);
+        assert_eq!(j["sources"][0]["density_per_rthz"], 25e-6);
+        for (text, unit, symbol) in [
+            ("deg/s", Unit::DegreePerSecond, "\u{b0}/s"),
+            ("\u{b0}/s", Unit::DegreePerSecond, "\u{b0}/s"),
+            ("m/s^2", Unit::MetrePerSecondSquared, "m/s\u{b2}"),
+            ("rad/s", Unit::RadianPerSecond, "rad/s"),
+            ("Pa", Unit::Pascal, "Pa"),
+            ("K", Unit::Kelvin, "K"),
+            ("T", Unit::Tesla, "T"),
+            ("m", Unit::Metre, "m"),
+            ("N", Unit::Newton, "N"),
+        ] {
+            assert_eq!(Unit::from_text(text), Some(unit), "{text}");
+            assert_eq!(unit.symbol(), symbol);
+            // The serde name is the symbol too (manifests and JSON documents).
+            assert_eq!(serde_json::to_value(unit).unwrap(), symbol);
+        }
+        assert_eq!(Unit::from_text("mV"), None);
     }
 }

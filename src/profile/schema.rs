@@ -83,6 +83,7 @@ const TOP_KEYS: &[&str] = &[
     "burst",
     "tone",
     "offset",
+    "sensitivity",
     "channels",
     "correlation",
 ];
@@ -111,6 +112,7 @@ struct RawProfile {
     #[serde(default)]
     tone: Vec<Spanned<RawTone>>,
     offset: Option<Spanned<Value>>,
+    sensitivity: Option<Spanned<Value>>,
     channels: Option<Spanned<Value>>,
     correlation: Option<Spanned<Value>>,
 }
@@ -439,7 +441,7 @@ pub(super) fn within_magnitude(
 ) -> Result<f64> {
     let scaled = matches!(
         dim,
-        Dimension::Density | Dimension::Amplitude | Dimension::Resistance
+        Dimension::Density | Dimension::Amplitude | Dimension::Resistance | Dimension::RateWalk
     );
     if scaled && x.abs() > MAX_MAGNITUDE {
         let unit_symbol = symbol(dim, unit);
@@ -481,6 +483,7 @@ fn symbol(dim: Dimension, unit: Unit) -> String {
         Dimension::Resistance => "\u{3a9}".into(),
         Dimension::Density => format!("{}/\u{221a}Hz", unit.symbol()),
         Dimension::Amplitude => unit.symbol().into(),
+        Dimension::RateWalk => format!("{}\u{b7}s^-\u{bd}", unit.symbol()),
     }
 }
 
@@ -556,6 +559,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
     let bursts = validate_bursts(cx, &raw.burst, unit, fs)?;
     let tones = validate_tones(cx, &raw.tone, unit, fs)?;
     let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
+    let sensitivity_v_per_unit = validate_sensitivity(cx, raw.sensitivity.as_ref(), unit)?;
     if sources.is_empty() && bursts.is_empty() {
         return Err(cx.err(
             "sources",
@@ -578,9 +582,41 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         bursts,
         tones,
         offset,
+        sensitivity_v_per_unit,
         channels,
         correlation,
     })
+}
+
+/// The `sensitivity` key: volts per unit of a sensor's quantity, positive; refused in a volt
+/// profile (its values are volts already).
+fn validate_sensitivity(
+    cx: &Cx<'_>,
+    v: Option<&Spanned<Value>>,
+    unit: Unit,
+) -> Result<Option<f64>> {
+    let Some(v) = v else { return Ok(None) };
+    let sym = unit.symbol();
+    if unit == Unit::Volt {
+        return Err(cx.err(
+            "sensitivity",
+            Some(v.span()),
+            "turns a sensor's quantity into volts, but this profile's unit is V already; \
+             remove sensitivity or set the sensor's unit (e.g. unit = \"g\")",
+        ));
+    }
+    let x = match v.get_ref() {
+        Value::String(t) => crate::units::parse_sensitivity(t, sym),
+        Value::Float(x) => crate::units::parse_sensitivity(&format!("{x:e}"), sym),
+        Value::Integer(i) => crate::units::parse_sensitivity(&i.to_string(), sym),
+        other => Err(format!(
+            "expected a sensitivity such as \"20 mV/{}\", got {}",
+            unit.spec().spellings[0],
+            a(other.type_str())
+        )),
+    };
+    x.map(Some)
+        .map_err(|m| cx.err("sensitivity", Some(v.span()), m))
 }
 
 /// Refuses more than [`MAX_SOURCES`] source tables, naming the first one past the limit (in
@@ -623,15 +659,18 @@ fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
 fn validate_unit(cx: &Cx<'_>, unit: Option<&Spanned<String>>) -> Result<Unit> {
     match unit {
         None => Ok(Unit::Volt),
-        Some(u) => match u.get_ref().as_str() {
-            "V" => Ok(Unit::Volt),
-            "A" => Ok(Unit::Ampere),
-            other => Err(cx.err(
+        Some(u) => Unit::from_text(u.get_ref().trim()).ok_or_else(|| {
+            cx.err(
                 "unit",
                 Some(u.span()),
-                format!("expected \"V\" (volts) or \"A\" (amperes), got \"{other}\""),
-            )),
-        },
+                format!(
+                    "expected \"V\" (volts) or \"A\" (amperes), or a sensor's unit: \"Pa\", \
+                     \"K\", \"T\", \"m\", \"N\", \"m/s^2\", \"g\", \"rad/s\" or \"deg/s\" \
+                     (values then take SI prefixes, e.g. \"25 ug/rtHz\"), got \"{}\"",
+                    u.get_ref()
+                ),
+            )
+        }),
     }
 }
 
@@ -799,6 +838,18 @@ fn validate_resistors(
     for (i, r) in resistors.iter().enumerate() {
         let key = |k: &str| format!("resistor[{i}].{k}");
         let span = Some(r.span());
+        if !unit.is_electrical() {
+            return Err(cx.err(
+                &format!("resistor[{i}]"),
+                span,
+                format!(
+                    "a resistor's thermal noise is a voltage (or a current), but this profile's \
+                     unit is {}; write it as a [[floor]] in {}/\u{221a}Hz or set unit = \"V\"",
+                    unit.symbol(),
+                    unit.symbol()
+                ),
+            ));
+        }
         let r = r.get_ref();
         let rv = r
             .resistance
