@@ -328,6 +328,21 @@ fn cases() -> Vec<Case> {
             &["p.toml:6", "resistor[0]", "unit is Pa", "[[floor]]"],
         ),
         profile(
+            "inertial: no term",
+            format!("unit = \"deg/s\"\n{HEAD}[[inertial]]\nname = \"gyro\"\n"),
+            &["p.toml:6", "inertial[0]", "random_walk (N)"],
+        ),
+        profile(
+            "inertial: a density for the bias instability",
+            format!("unit = \"deg/s\"\n{HEAD}[[inertial]]\nbias_instability = \"0.2 deg/rth\"\n"),
+            &[
+                "p.toml:7",
+                "inertial[0].bias_instability",
+                "is a density",
+                "expects an amplitude",
+            ],
+        ),
+        profile(
             "sensitivity in a volt profile",
             format!("sensitivity = \"20 mV/g\"\n{W}"),
             &["p.toml:1", "sensitivity", "unit is V already"],

@@ -17,6 +17,7 @@ pub use burst::{
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
+pub use schema::inertial::INERTIAL_KEYS;
 pub use schema::{
     DEFAULT_TEMPERATURE_K, MAX_ORDER, MAX_SOURCES, MAX_TABLE_POINTS, MIN_LOW_TO_RATE, parse_profile,
 };
@@ -173,6 +174,61 @@ pub enum SourceKind {
         /// Closed-loop pole GBW/G_n in Hz, if a GBW was given.
         pole_hz: Option<f64>,
     },
+    /// One term of an `[[inertial]]` table: a power law in f whose Allan deviation has the
+    /// term's slope (see [`InertialTerm`]).
+    Inertial {
+        /// Which term.
+        term: InertialTerm,
+        /// N in unit·s^½ (= unit/√Hz), B in unit, or K in unit·s^−½.
+        coefficient: f64,
+    },
+}
+
+/// One of the three inertial noise terms of IEEE Std 952-1997 Annex C (also IEEE Std
+/// 1554-2005), as the one-sided density (unit²/Hz) it becomes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum InertialTerm {
+    /// Random walk N (unit·s^½, e.g. an angle random walk in (°/s)/√Hz = °/√s): white,
+    /// G = 2N², Allan deviation N/√τ.
+    RandomWalk,
+    /// Bias instability B (unit): G = B²/(π f) within the band, Allan deviation flat at
+    /// B·√(2 ln 2/π) ≈ 0.664·B.
+    BiasInstability,
+    /// Rate random walk K (unit·s^−½): G = K²/(2π² f²) within the band, Allan deviation
+    /// K·√(τ/3) for τ ≪ 1/(2π·band.low).
+    RateRandomWalk,
+}
+
+impl InertialTerm {
+    /// The profile key and JSON name: `random_walk`, `bias_instability`, `rate_random_walk`.
+    pub fn key(self) -> &'static str {
+        match self {
+            InertialTerm::RandomWalk => "random_walk",
+            InertialTerm::BiasInstability => "bias_instability",
+            InertialTerm::RateRandomWalk => "rate_random_walk",
+        }
+    }
+
+    /// The term's words in a source name: `random walk`, `bias instability`, `rate random
+    /// walk`.
+    pub fn words(self) -> &'static str {
+        match self {
+            InertialTerm::RandomWalk => "random walk",
+            InertialTerm::BiasInstability => "bias instability",
+            InertialTerm::RateRandomWalk => "rate random walk",
+        }
+    }
+
+    /// The unit of the coefficient for a profile in `unit`: `unit·s^½` (N), `unit` (B),
+    /// `unit·s^-½` (K).
+    pub fn coefficient_unit(self, unit: &str) -> String {
+        match self {
+            InertialTerm::RandomWalk => format!("{unit}\u{b7}s^\u{bd}"),
+            InertialTerm::BiasInstability => unit.to_string(),
+            InertialTerm::RateRandomWalk => format!("{unit}\u{b7}s^-\u{bd}"),
+        }
+    }
 }
 
 /// How messages name a profile, and the file it was read from (absolute, so a later change
@@ -335,6 +391,12 @@ impl Profile {
                     "density_per_rthz": density,
                     "corner_hz": corner_hz,
                     "pole_hz": pole_hz,
+                }),
+                SourceKind::Inertial { term, coefficient } => json!({
+                    "name": s.name,
+                    "kind": "inertial",
+                    "term": term.key(),
+                    "coefficient": coefficient,
                 }),
             })
             .collect();

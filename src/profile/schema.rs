@@ -47,6 +47,7 @@ use crate::error::{Error, Result};
 use crate::units::expectation;
 
 mod amplifier;
+pub(super) mod inertial;
 
 /// Temperature of a resistor without a `temperature` key: 25 °C in kelvin.
 pub const DEFAULT_TEMPERATURE_K: f64 = 298.15;
@@ -84,6 +85,7 @@ const TOP_KEYS: &[&str] = &[
     "tone",
     "offset",
     "sensitivity",
+    "inertial",
     "channels",
     "correlation",
 ];
@@ -111,6 +113,8 @@ struct RawProfile {
     burst: Vec<Spanned<RawBurst>>,
     #[serde(default)]
     tone: Vec<Spanned<RawTone>>,
+    #[serde(default)]
+    inertial: Vec<Spanned<inertial::RawInertial>>,
     offset: Option<Spanned<Value>>,
     sensitivity: Option<Spanned<Value>>,
     channels: Option<Spanned<Value>>,
@@ -271,8 +275,12 @@ fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
                     a(other.type_str())
                 ),
             )),
-            ("floor" | "resistor" | "table" | "amplifier" | "burst" | "tone", value) => {
+            (
+                "floor" | "resistor" | "table" | "amplifier" | "burst" | "tone" | "inertial",
+                value,
+            ) => {
                 let allowed = match name {
+                    "inertial" => inertial::INERTIAL_KEYS,
                     "floor" => FLOOR_KEYS,
                     "resistor" => RESISTOR_KEYS,
                     "amplifier" => amplifier::KEYS,
@@ -556,6 +564,7 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
     for (i, a) in raw.amplifier.iter().enumerate() {
         sources.extend(amplifier::validate(cx, i, a, unit)?);
     }
+    sources.extend(inertial::validate_inertial(cx, &raw.inertial, unit)?);
     let bursts = validate_bursts(cx, &raw.burst, unit, fs)?;
     let tones = validate_tones(cx, &raw.tone, unit, fs)?;
     let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
@@ -564,8 +573,8 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         return Err(cx.err(
             "sources",
             None,
-            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]] \
-             or [[burst]]",
+            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]], \
+             [[inertial]] or [[burst]]",
         ));
     }
 
@@ -622,7 +631,7 @@ fn validate_sensitivity(
 /// Refuses more than [`MAX_SOURCES`] source tables, naming the first one past the limit (in
 /// the order floor, resistor, table, amplifier, burst).
 fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
-    let kinds: [(&str, Vec<Range<usize>>); 5] = [
+    let kinds: [(&str, Vec<Range<usize>>); 6] = [
         ("floor", raw.floor.iter().map(|t| t.span()).collect()),
         ("resistor", raw.resistor.iter().map(|t| t.span()).collect()),
         ("table", raw.table.iter().map(|t| t.span()).collect()),
@@ -631,6 +640,7 @@ fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
             raw.amplifier.iter().map(|t| t.span()).collect(),
         ),
         ("burst", raw.burst.iter().map(|t| t.span()).collect()),
+        ("inertial", raw.inertial.iter().map(|t| t.span()).collect()),
     ];
     let total: usize = kinds.iter().map(|(_, v)| v.len()).sum();
     if total <= MAX_SOURCES {
@@ -1367,7 +1377,7 @@ corner = "100 Hz"
         assert_eq!((k.as_str(), l), ("sources", None));
         assert!(
             msg.contains(
-                "at least one [[floor]], [[resistor]], [[table]], [[amplifier]] or [[burst]]"
+                "at least one [[floor]], [[resistor]], [[table]], [[amplifier]], [[inertial]] or [[burst]]"
             ),
             "{msg}"
         );
