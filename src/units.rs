@@ -442,17 +442,31 @@ pub fn parse_sensitivity(text: &str, unit: &str) -> Result<f64, String> {
 
 /// Parse an amplitude (a full scale, an end of an ADC range) in the profile's `unit`, or, for
 /// a sensor profile with a sensitivity of `volts_per_unit` V per unit, in volts at the
-/// sensor's output (`"1.65V"` with 20 mV/g is 82.5 g). Returns the value in the unit.
+/// sensor's output (`"1.65V"` with 20 mV/g is 82.5 g). Returns the value in the unit; a
+/// value in volts is divided by the sensitivity and rounded to 15 significant digits (more
+/// than the decimal inputs carry), so the binary quotient's last-bit error does not show:
+/// 1.65 V at 0.4 V/g is exactly 4.125 g, not 4.124999999999999 g.
 pub fn parse_amplitude(text: &str, unit: &str, volts_per_unit: Option<f64>) -> Result<f64, String> {
     match (
         parse_quantity(text, Dimension::Amplitude, unit),
         volts_per_unit,
     ) {
         (Err(e), Some(s)) if unit != "V" => parse_quantity(text, Dimension::Amplitude, "V")
-            .map(|v| v / s)
+            .map(|v| at_15_digits(v / s))
             .map_err(|_| format!("{e}; or in V at the sensor's output (its sensitivity)")),
         (x, _) => x,
     }
+}
+
+/// The volts at a sensor's output for `value` in its unit at `volts_per_unit` V per unit,
+/// rounded to 15 significant digits like [`parse_amplitude`] (4.125 g at 0.4 V/g is 1.65 V).
+pub fn volts(value: f64, volts_per_unit: f64) -> f64 {
+    at_15_digits(value * volts_per_unit)
+}
+
+/// `x` rounded to 15 significant decimal digits.
+fn at_15_digits(x: f64) -> f64 {
+    format!("{x:.14e}").parse().unwrap_or(x)
 }
 
 /// A lexed decimal number: mantissa text (sign, digits, optional point) and its exponent.
