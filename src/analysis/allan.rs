@@ -262,7 +262,7 @@ pub struct InertialFit {
 pub fn fit_terms(tau_s: &[f64], adev: &[f64], edf: &[f64]) -> InertialFit {
     let q = bias_instability_factor().powi(2);
     let basis = |t: f64| [1.0 / t, q, t / 3.0];
-    let mut best: Option<(f64, [f64; 3], [Option<f64>; 3], f64)> = None;
+    let mut best: Option<(f64, InertialFit)> = None;
     for mask in 1u8..8 {
         let used: Vec<usize> = (0..3).filter(|k| mask & (1 << k) != 0).collect();
         if used.len() > tau_s.len() {
@@ -283,22 +283,30 @@ pub fn fit_terms(tau_s: &[f64], adev: &[f64], edf: &[f64]) -> InertialFit {
             u3[k] = Some(cov[j].sqrt() * scale);
         }
         if best.as_ref().is_none_or(|b| chi2 < b.0) {
-            best = Some((chi2, c3, u3, chi2 / dof));
+            best = Some((chi2, terms_of(c3, u3, chi2 / dof)));
         }
     }
-    let Some((_, c, u, reduced_chi2)) = best else {
-        return InertialFit::default();
+    best.map(|b| b.1).unwrap_or_default()
+}
+
+/// N, B, K from the σ² coefficients N², B², K² and their 1σ `u`: σ_N = σ_{N²}/(2N), and
+/// likewise for B and K.
+fn terms_of(c: [f64; 3], u: [Option<f64>; 3], reduced_chi2: f64) -> InertialFit {
+    let v = c.map(f64::sqrt);
+    let half = |k: usize| {
+        u[k].map(|s| {
+            if v[k] > 0.0 {
+                s / (2.0 * v[k])
+            } else {
+                s.sqrt()
+            }
+        })
     };
-    // The coefficients are N², B², K²: σ_N = σ_{N²}/(2N), and likewise for B and K.
-    let n = c[0].sqrt();
-    let b = c[1].sqrt();
-    let k = c[2].sqrt();
-    let half = |v: f64, u: Option<f64>| u.map(|s| if v > 0.0 { s / (2.0 * v) } else { s.sqrt() });
     InertialFit {
-        random_walk: n,
-        bias_instability: b,
-        rate_random_walk: k,
-        uncertainty: [half(n, u[0]), half(b, u[1]), half(k, u[2])],
+        random_walk: v[0],
+        bias_instability: v[1],
+        rate_random_walk: v[2],
+        uncertainty: [half(0), half(1), half(2)],
         reduced_chi2,
     }
 }

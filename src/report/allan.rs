@@ -101,7 +101,7 @@ fn draw(
             .label("profile")
             .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLACK.stroke_width(2)));
     }
-    let lines: [(f64, &str, RGBColor, fn(f64, f64) -> f64); 3] = [
+    let lines: [FittedLine; 3] = [
         (
             fit.random_walk,
             "N/\u{221a}\u{3c4}",
@@ -140,6 +140,9 @@ fn draw(
     root.present()?;
     Ok(())
 }
+
+/// A fitted term's line: coefficient, label, colour, and σ(coefficient, τ).
+type FittedLine = (f64, &'static str, RGBColor, fn(f64, f64) -> f64);
 
 /// The confidence of the intervals drawn.
 fn dev_confidence() -> f64 {
