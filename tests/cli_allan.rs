@@ -242,6 +242,28 @@ fn accelerometer_writes_16_bit_codes_through_its_sensitivity() {
     assert_eq!(sensor["sensitivity_v_per_unit"], 0.4);
     assert_eq!(floats(&sensor["range"]), [-4.125, 4.125]);
     assert_eq!(floats(&sensor["range_v"]), [-1.65, 1.65]);
+    // A full scale in volts reads through the sensitivity the same way.
+    let scaled = dir.join("a.f32");
+    run_ok(
+        &[
+            "generate",
+            &p,
+            "--full-scale",
+            "1.65V",
+            "--format",
+            "raw",
+            "--sample-format",
+            "f32",
+            "--duration",
+            "1s",
+            "-o",
+            scaled.to_str().unwrap(),
+        ],
+        &dir,
+    );
+    let fsm = common::manifest(&scaled);
+    assert_eq!(fsm["extra"]["sensor"]["full_scale"], 4.125);
+    assert_eq!(fsm["extra"]["sensor"]["full_scale_v"], 1.65);
     let x = common::read_f64(&phys);
     let bytes = std::fs::read(&codes).unwrap();
     let c: Vec<i16> = bytes

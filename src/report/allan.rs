@@ -7,10 +7,7 @@ use plotters::prelude::*;
 use crate::analysis::allan::{AllanDeviation, InertialFit};
 use crate::model::allan::bias_instability_factor;
 use crate::profile::format_quantity;
-use crate::report::html_escape;
-
-/// Picture size in pixels.
-const SIZE: (u32, u32) = (900, 540);
+use crate::report::chart::{Fallible, svg};
 
 /// The SVG text of the picture; `profile_adev` (unit, at the same τ) adds the profile's
 /// curve; `title` names the profile. A picture that cannot be drawn says why in its place.
@@ -21,23 +18,8 @@ pub fn allan_svg(
     unit: &str,
     title: Option<&str>,
 ) -> String {
-    let mut buf = String::new();
-    let result = {
-        let root = SVGBackend::with_string(&mut buf, SIZE).into_drawing_area();
-        draw(root, dev, fit, profile_adev, unit, title)
-    };
-    match result {
-        Ok(()) => buf,
-        Err(e) => format!(
-            "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{}\" height=\"60\"><text x=\"10\" \
-             y=\"30\">picture not drawn: {}</text></svg>",
-            SIZE.0,
-            html_escape(&e.to_string())
-        ),
-    }
+    svg(|root| draw(root, dev, fit, profile_adev, unit, title))
 }
-
-type Fallible = std::result::Result<(), Box<dyn std::error::Error>>;
 
 fn draw(
     root: DrawingArea<SVGBackend<'_>, plotters::coord::Shift>,

@@ -255,9 +255,11 @@ pub fn budget_chart(profile: &Profile, budget: &Budget) -> DensityChart {
 /// Picture size in pixels.
 const SIZE: (u32, u32) = (900, 540);
 
-type Fallible = std::result::Result<(), Box<dyn std::error::Error>>;
+pub(super) type Fallible = std::result::Result<(), Box<dyn std::error::Error>>;
 
-fn svg(
+/// The SVG text `draw` makes on a white picture of [`SIZE`]; a picture that cannot be drawn
+/// says why in its place.
+pub(super) fn svg(
     draw: impl FnOnce(DrawingArea<SVGBackend<'_>, plotters::coord::Shift>) -> Fallible,
 ) -> String {
     let mut buf = String::new();
