@@ -1,5 +1,6 @@
-//! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s"; the
-//! physical constants the models use.
+//! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s", a
+//! sensor's "25 ug/rtHz", "0.2 deg/rth", "3 deg/h" and sensitivity "20 mV/g" ([`UNITS`]);
+//! the physical constants the models use.
 //!
 //! A quantity is a decimal number (optional sign, optional fraction, optional exponent such as
 //! `4e-9`), optional whitespace, then a unit made of an optional SI prefix and a unit symbol.

@@ -165,8 +165,9 @@ fn identify(tau: &[f64], adev: &[f64]) -> Vec<NoiseType> {
 
 /// Equivalent degrees of freedom of the overlapping Allan variance with `n` phase points at
 /// averaging factor `m` (the approximations of D. A. Howe, D. W. Allan, J. A. Barnes, 1981,
-/// as tabulated in Riley, NIST SP 1065, 2008, §5.3; quoted from memory, checked by the
-/// simulation in `tests/allan_statistics.rs`). At least 1.
+/// as tabulated in Riley, NIST SP 1065, 2008, §5.3; quoted from memory: the closed-form
+/// checks of `tests/allan_statistics.rs` rest on the intervals they give, but no test
+/// measures the degrees of freedom themselves). At least 1.
 pub fn edf(noise: NoiseType, n: f64, m: f64) -> f64 {
     let v = match noise {
         NoiseType::White => {

@@ -339,8 +339,13 @@ impl Profile {
     ///   "tones": [
     ///     { "name": "tone 1", "frequency_hz": 1000.0, "peak": 1e-3, "rms": 7.07e-4,
     ///       "phase_deg": 90.0, "given_as": "peak" } ],
-    ///   "offset": 1.65 }                    // in the unit
+    ///   "offset": 1.65,                     // in the unit
+    ///   "sensitivity_v_per_unit": 0.02 | null }
     /// ```
+    ///
+    /// An `[[inertial]]` term is a source `{ "name", "kind": "inertial", "term":
+    /// "random_walk" | "bias_instability" | "rate_random_walk", "coefficient" }` (N in
+    /// unit·s^½, B in unit, K in unit·s^−½).
     pub fn to_json(&self) -> serde_json::Value {
         use serde_json::json;
         let sources: Vec<serde_json::Value> = self

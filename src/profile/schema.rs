@@ -2,7 +2,8 @@
 //!
 //! ```toml
 //! name = "bench preamp"        # optional display name
-//! unit = "V"                   # "V" or "A"; optional, default "V"
+//! unit = "V"                   # "V", "A" or a sensor's unit ("g", "deg/s", "Pa" …); default "V"
+//! sensitivity = "20 mV/g"      # optional in a sensor profile: volts per unit
 //! sample_rate = "48 kHz"       # required; a string with a unit or a number in Hz
 //! [band]                       # required
 //! low = "0.1 Hz"               # required, > 0
@@ -21,6 +22,8 @@
 //! [[amplifier]]                # an op-amp stage, expanded into named parts: see `amplifier`
 //! topology = "non-inverting"
 //! offset = "1.65 V"            # optional DC value added to every sample (see [`super::Tone`])
+//! [[inertial]]                 # N, B, K of an inertial sensor: see `inertial`
+//! random_walk = "0.2 deg/rth"
 //! [[tone]]                     # a sine added to the noise: frequency, peak or rms, phase
 //! frequency = "1 kHz"
 //! peak = "1 mV"

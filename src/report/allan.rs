@@ -59,6 +59,7 @@ fn draw(
         .build_cartesian_2d((t0..t1).log_scale(), (y0..y1).log_scale())?;
     chart
         .configure_mesh()
+        .max_light_lines(4)
         .x_desc("averaging time \u{3c4}")
         .y_desc(format!("Allan deviation ({unit})"))
         .x_label_formatter(&|v| format_quantity(*v, "s"))
@@ -107,7 +108,13 @@ fn draw(
         if c <= 0.0 {
             continue;
         }
-        let pts: Vec<(f64, f64)> = [t0, t1].iter().map(|&t| (t, law(c, t))).collect();
+        // Points inside the frame only: plotters moves a point outside it onto the edge,
+        // which would bend a line that leaves the frame.
+        let pts: Vec<(f64, f64)> = (0..=200)
+            .map(|j| t0 * (t1 / t0).powf(f64::from(j) / 200.0))
+            .map(|t| (t, law(c, t)))
+            .filter(|&(_, y)| (y0..=y1).contains(&y))
+            .collect();
         chart
             .draw_series(LineSeries::new(pts, colour.stroke_width(1)))?
             .label(format!("fit {name}"))
