@@ -157,10 +157,12 @@ pub enum Setting {
     PpBand,
     /// The window of a low-frequency peak-to-peak measurement.
     PpWindow,
+    /// An Allan deviation picture's output file.
+    AllanPlot,
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 33] = [
+const SETTINGS: [Setting; 34] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
@@ -194,6 +196,7 @@ const SETTINGS: [Setting; 33] = [
     Setting::Exclude,
     Setting::PpBand,
     Setting::PpWindow,
+    Setting::AllanPlot,
 ];
 
 /// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
@@ -237,6 +240,7 @@ impl Setting {
             Setting::Exclude => "exclude",
             Setting::PpBand => "pp_band",
             Setting::PpWindow => "pp_window",
+            Setting::AllanPlot => "allan_plot",
         }
     }
 

@@ -311,6 +311,50 @@ fn cases() -> Vec<Case> {
             ],
         ),
         profile(
+            "sensor unit: a density where a level is expected",
+            format!(
+                "unit = \"deg/s\"\noffset = \"0.2 deg/rth\"\n{HEAD}[[floor]]\ndensity = \"3 mdeg/s/rtHz\"\n"
+            ),
+            &[
+                "p.toml:2",
+                "offset",
+                "\"0.2 deg/rth\" is a density",
+                "expects an amplitude",
+            ],
+        ),
+        profile(
+            "sensor unit: a resistor",
+            format!("unit = \"Pa\"\n{HEAD}[[resistor]]\nresistance = \"1 kOhm\"\n"),
+            &["p.toml:6", "resistor[0]", "unit is Pa", "[[floor]]"],
+        ),
+        profile(
+            "inertial: no term",
+            format!("unit = \"deg/s\"\n{HEAD}[[inertial]]\nname = \"gyro\"\n"),
+            &["p.toml:6", "inertial[0]", "random_walk (N)"],
+        ),
+        profile(
+            "inertial: a density for the bias instability",
+            format!("unit = \"deg/s\"\n{HEAD}[[inertial]]\nbias_instability = \"0.2 deg/rth\"\n"),
+            &[
+                "p.toml:7",
+                "inertial[0].bias_instability",
+                "is a density",
+                "expects an amplitude",
+            ],
+        ),
+        profile(
+            "sensitivity in a volt profile",
+            format!("sensitivity = \"20 mV/g\"\n{W}"),
+            &["p.toml:1", "sensitivity", "unit is V already"],
+        ),
+        profile(
+            "sensitivity in the wrong unit",
+            format!(
+                "unit = \"g\"\nsensitivity = \"20 mV/Pa\"\n{HEAD}[[floor]]\ndensity = \"25 ug/rtHz\"\n"
+            ),
+            &["p.toml:2", "sensitivity", "volts per g", "\"20 mV/Pa\""],
+        ),
+        profile(
             "no sources",
             HEAD,
             &["p.toml: sources", "at least one [[floor]]"],

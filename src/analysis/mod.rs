@@ -2,6 +2,7 @@
 //! a designed density, burst levels, the two-pass analysis of a capture, and what a bench adds
 //! to a capture (offset and drift, spurs, low-frequency peak-to-peak).
 
+pub mod allan;
 pub mod capture;
 pub mod compare;
 pub mod fit;

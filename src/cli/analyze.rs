@@ -64,6 +64,14 @@ pub struct AnalyzeArgs {
     /// Window of the windowed peak-to-peak, e.g. `10s` (the default).
     #[arg(long = "pp-window", value_name = "T")]
     pub pp_window: Option<String>,
+    /// Measure the overlapping Allan deviation of the capture (a rate) at octave τ with 95 %
+    /// intervals, fit the random walk N, bias instability B and rate random walk K, and with
+    /// --profile check each τ against the profile's own Allan deviation.
+    #[arg(long)]
+    pub allan: bool,
+    /// Write an SVG picture of the Allan deviation (implies --allan).
+    #[arg(long = "allan-plot", value_name = "OUT.svg")]
+    pub allan_plot: Option<PathBuf>,
 }
 
 /// Runs `analyze`: reads, measures and judges the capture, writes the files asked for, and
@@ -99,7 +107,13 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalysisRepor
     if let Some(p) = &args.fit {
         analysis = analysis.fit(p);
     }
-    analysis.keep_drift(args.keep_drift).run()
+    if let Some(p) = &args.allan_plot {
+        analysis = analysis.allan_plot(p);
+    }
+    analysis
+        .keep_drift(args.keep_drift)
+        .allan(args.allan || args.allan_plot.is_some())
+        .run()
 }
 
 /// What `analyze` prints: the JSON object with `--json`, else the text summary.

@@ -344,10 +344,15 @@ impl SideManifest {
             }
         }
         if let Some(u) = obj.get("unit").filter(|u| !u.is_null()) {
-            m.unit = Some(match u.as_str() {
-                Some("V") => Unit::Volt,
-                Some("A") => Unit::Ampere,
-                _ => return Err(bad("unit", "\"V\" or \"A\"", u)),
+            m.unit = Some(match u.as_str().and_then(Unit::from_text) {
+                Some(unit) => unit,
+                None => {
+                    return Err(bad(
+                        "unit",
+                        "\"V\" or \"A\", or a sensor's unit such as \"g\"",
+                        u,
+                    ));
+                }
             });
         }
         if let Some(r) = obj.get("sample_rate_hz").filter(|r| !r.is_null()) {

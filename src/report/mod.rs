@@ -2,6 +2,7 @@
 //! density, histogram and trace of an analysis) and the HTML report that holds an analysis's
 //! pictures inline ([`html`]).
 
+pub mod allan;
 pub mod chart;
 pub mod figure;
 pub mod html;

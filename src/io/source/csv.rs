@@ -107,9 +107,11 @@ fn time_scale(name: &str) -> Option<f64> {
 fn value_meaning(name: &str) -> (Values, Option<SampleFormat>) {
     let n = name.trim();
     match n {
-        "value_V" => (Values::Physical(Unit::Volt), None),
-        "value_A" => (Values::Physical(Unit::Ampere), None),
         "value_fs" => (Values::Digital, None),
+        _ if n.strip_prefix("value_").and_then(Unit::from_text).is_some() => {
+            let unit = n.strip_prefix("value_").and_then(Unit::from_text);
+            (Values::Physical(unit.expect("checked")), None)
+        }
         _ => match n
             .strip_prefix("code_")
             .and_then(|s| s.parse::<SampleFormat>().ok())

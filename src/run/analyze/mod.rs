@@ -10,6 +10,7 @@
 //! with the design, `fit` fits a profile, `output` writes the pictures and the report, and
 //! `summary` words the results.
 
+mod allan;
 mod bench;
 mod fit;
 mod measure;
@@ -58,6 +59,10 @@ struct Settings {
     exclude: Option<String>,
     pp_band: Option<String>,
     pp_window: Option<String>,
+    /// Measure the overlapping Allan deviation.
+    allan: bool,
+    /// Draw the Allan deviation here.
+    allan_plot: Option<PathBuf>,
 }
 
 /// What is analysed.
@@ -357,6 +362,22 @@ impl<'a> Analysis<'a> {
         self
     }
 
+    /// Measures the overlapping Allan deviation of the capture (as a rate) at octave τ with
+    /// its 95 % intervals, fits the inertial terms N, B and K, and with a profile checks each
+    /// τ against the profile's own Allan deviation: JSON `allan` (see
+    /// [`crate::analysis::allan`]).
+    pub fn allan(mut self, on: bool) -> Self {
+        self.s.allan = on;
+        self
+    }
+
+    /// Writes an SVG picture of the Allan deviation at `path` (implies [`Analysis::allan`]).
+    pub fn allan_plot(mut self, path: impl AsRef<Path>) -> Self {
+        self.s.allan = true;
+        self.s.allan_plot = Some(path.as_ref().to_path_buf());
+        self
+    }
+
     /// Polled between blocks: when it becomes true the analysis stops with
     /// [`Error::Interrupted`] and leaves none of its output files.
     pub fn interrupt_on(mut self, flag: &'a AtomicBool) -> Self {
@@ -418,18 +439,36 @@ impl<'a> Analysis<'a> {
             }
             None => None,
         };
+        let allan = match self.s.allan {
+            true => Some(allan::measure(&setup, interrupted)?),
+            false => None,
+        };
+        if let Some(a) = &allan {
+            json["allan"] = a.json.clone();
+        }
+        let allan_svg = allan.as_ref().and_then(|a| {
+            self.s
+                .allan_plot
+                .as_ref()
+                .map(|_| a.svg(&report.unit, setup.profile.as_ref()))
+        });
         let left_out_hz = pictures::left_out_hz(&left_out, report.spectrum.bin_width_hz());
         outputs.write(
             &report,
             &json,
             fitted.as_deref(),
+            allan_svg.as_deref(),
             &setup,
             &left_out_hz,
             integrated.as_ref(),
         )?;
-        let summary = summary::summary_text(&report, &json, setup.profile.as_ref())
+        let mut summary = summary::summary_text(&report, &json, setup.profile.as_ref())
             + &summary::tone_text(&json, &report.unit);
-        let verdict = verdict::verdict(&report, &setup);
+        let mut verdict = verdict::verdict(&report, &setup);
+        if let Some(a) = &allan {
+            summary += &a.text(&report.unit);
+            verdict = a.judge(verdict);
+        }
         Ok(AnalysisReport {
             json,
             summary,

@@ -44,6 +44,7 @@ pub(super) fn check_paths(a: &Analysis) -> Result<()> {
         (Setting::Fit, &s.fit),
         (Setting::Plot, &s.plot),
         (Setting::Report, &s.report),
+        (Setting::AllanPlot, &s.allan_plot),
     ]
     .into_iter()
     .filter_map(|(setting, path)| {
@@ -62,6 +63,7 @@ pub(super) struct Outputs {
     fit: Option<PendingFile>,
     plot: Option<PendingFile>,
     report: Option<PendingFile>,
+    allan_plot: Option<PendingFile>,
 }
 
 impl Outputs {
@@ -73,6 +75,7 @@ impl Outputs {
             fit: pending(&s.fit)?,
             plot: pending(&s.plot)?,
             report: pending(&s.report)?,
+            allan_plot: pending(&s.allan_plot)?,
         })
     }
 
@@ -84,10 +87,14 @@ impl Outputs {
         report: &CaptureReport,
         json: &serde_json::Value,
         fit_toml: Option<&str>,
+        allan_svg: Option<&str>,
         s: &Setup,
         left_out: &[(f64, f64)],
         integrated: Option<&IntegratedNoise>,
     ) -> Result<()> {
+        if let (Some(out), Some(svg)) = (&self.allan_plot, allan_svg) {
+            out.write_all(svg.as_bytes())?;
+        }
         if let (Some(out), Some(toml)) = (&self.fit, fit_toml) {
             out.write_all(toml.as_bytes())?;
         }
@@ -121,7 +128,7 @@ impl Outputs {
             }
         }
         commit_all(
-            [self.fit, self.plot, self.report]
+            [self.fit, self.plot, self.report, self.allan_plot]
                 .into_iter()
                 .flatten()
                 .collect(),

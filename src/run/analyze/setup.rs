@@ -229,10 +229,10 @@ fn sample_format(
 /// in amperes, `("V", …)` for one in volts, `None` for a bare number (which takes the
 /// capture's unit).
 fn unit_written_in(full_scale: &str) -> Option<(&'static str, &'static str)> {
-    let reads_in = |u| parse_quantity(full_scale, Dimension::Amplitude, u).is_ok();
-    match (reads_in("V"), reads_in("A")) {
-        (true, false) => Some(("V", "the unit of the full scale")),
-        (false, true) => Some(("A", "the unit of the full scale")),
+    let reads_in = |u: &Unit| parse_quantity(full_scale, Dimension::Amplitude, u.symbol()).is_ok();
+    let mut units = Unit::ALL.iter().filter(|u| reads_in(u));
+    match (units.next(), units.next()) {
+        (Some(u), None) => Some((u.symbol(), "the unit of the full scale")),
         _ => None,
     }
 }
@@ -301,10 +301,9 @@ fn scale(
 ) -> Result<Scale> {
     // A full scale was parsed in the unit of the profile or manifest (volts when neither
     // says), so that is the unit of the scaled values.
-    let full_scale_unit = parsed.full_scale.map(|_| match unit_hint {
-        "A" => Unit::Ampere,
-        _ => Unit::Volt,
-    });
+    let full_scale_unit = parsed
+        .full_scale
+        .map(|_| Unit::from_text(unit_hint).unwrap_or(Unit::Volt));
     let full_scale_mark = Setting::FullScale.mark().to_string();
     let profile_name = profile.map_or(full_scale_mark.as_str(), |p| p.label());
     Scale::resolve(

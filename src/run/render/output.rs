@@ -250,6 +250,25 @@ fn manifest_doc(
     if let Some(a) = &plan.adc {
         manifest.extra.insert("adc".into(), a.to_json(fs));
     }
+    if let Some(v_per_unit) = profile.sensitivity_v_per_unit {
+        use crate::units::volts;
+        let full_scale = built.scale.full_scale;
+        manifest.extra.insert(
+            "sensor".into(),
+            serde_json::json!({
+                "unit": profile.unit.symbol(),
+                "sensitivity_v_per_unit": v_per_unit,
+                "full_scale": full_scale,
+                "full_scale_v": full_scale.map(|x| volts(x, v_per_unit)),
+                "range": plan.adc.as_ref().map(|a| [a.lo(), a.hi()]),
+                "range_v": plan
+                    .adc
+                    .as_ref()
+                    .map(|a| [volts(a.lo(), v_per_unit), volts(a.hi(), v_per_unit)]),
+                "lsb_v": plan.adc.as_ref().map(|a| a.lsb() * v_per_unit),
+            }),
+        );
+    }
     if let Some(g) = &built.generator {
         burst_manifest(&mut manifest, &g.borrow(), profile, plan.per_source, spec);
     }

@@ -624,7 +624,8 @@ fn adc_from_settings(s: &Settings, profile: &Profile) -> Result<Option<Adc>> {
             ),
         ));
     };
-    let (lo, hi) = parse_range(range, unit).map_err(|m| Error::setting(Setting::Range, m))?;
+    let (lo, hi) = parse_range(range, unit, profile.sensitivity_v_per_unit)
+        .map_err(|m| Error::setting(Setting::Range, m))?;
     let coding = s.code.as_deref().map(str::parse::<Coding>).transpose()?;
     let dither = match s.dither.as_deref() {
         Some(d) => d.parse::<Dither>()?,
