@@ -507,7 +507,7 @@ mod tests {
         let j = p.to_json();
         assert_eq!(j["unit"], "g");
         assert_eq!(j["sensitivity_v_per_unit"], 0.02);
-        assert_eq!(j["sources"][0]["density_per_rthz"], 25e-6);
+        assert_eq!(j["sources"][0]["density"], 25e-6);
         for (text, unit, symbol) in [
             ("deg/s", Unit::DegreePerSecond, "\u{b0}/s"),
             ("\u{b0}/s", Unit::DegreePerSecond, "\u{b0}/s"),
