@@ -155,10 +155,12 @@ pub enum Setting {
     PpBand,
     /// The window of a low-frequency peak-to-peak measurement.
     PpWindow,
+    /// The channels of a capture to analyse.
+    Channel,
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 32] = [
+const SETTINGS: [Setting; 33] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
@@ -191,6 +193,7 @@ const SETTINGS: [Setting; 32] = [
     Setting::Exclude,
     Setting::PpBand,
     Setting::PpWindow,
+    Setting::Channel,
 ];
 
 /// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
@@ -233,6 +236,7 @@ impl Setting {
             Setting::Exclude => "exclude",
             Setting::PpBand => "pp_band",
             Setting::PpWindow => "pp_window",
+            Setting::Channel => "channel",
         }
     }
 
