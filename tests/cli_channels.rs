@@ -449,6 +449,15 @@ fn every_container_gives_every_channel_and_channel_picks() {
         assert_eq!(code, 0, "{}: {stderr} (seed {SEED})", f.display());
         assert_eq!(j["channels"].as_array().unwrap().len(), 3);
     }
+    // Without its manifest the CSV's column names (`ch0_value_V` …) still say volts.
+    let bare = dir.path("bare.csv");
+    std::fs::copy(&csv, &bare).unwrap();
+    let (code, j, stderr) = analyze_json(&dir, &bare, &["--profile", pa]);
+    assert_eq!(code, 0, "{stderr} (seed {SEED})");
+    assert_eq!(
+        (j["unit"].as_str(), j["channels"].as_array().map(Vec::len)),
+        (Some("V"), Some(3))
+    );
     let (code, j, stderr) = analyze_json(
         &dir,
         &wav,

@@ -23,7 +23,7 @@
 //!   (what `generate` makes), Bartlett's variance of r is (1 − ρ²)²/N' exactly to first order,
 //!   so var z = 1/N' (derivation: the channel's cross-correlation is ρ times its
 //!   autocorrelation). Taking the measured densities for the true ones makes N' slightly small
-//!   (E[Ĝ²] = G²(1 + O(1/ν))): the interval errs on the wide side.
+//!   (the mean of Ĝ² is G²·(1 + O(1/ν))): the interval errs on the wide side.
 //! * **Coherence.** In a band B of Welch bins, `Ĉ = |Σ_k Σ_s X_i X_j*|² / (Σ_k Σ_s |X_i|² ·
 //!   Σ_k Σ_s |X_j|²)` over the bins k ∈ B and the segments s (periodic Hann window, 50 %
 //!   overlap, no detrending of the segments: the densities' segments). For a band of one bin

@@ -107,9 +107,16 @@ fn time_scale(name: &str) -> Option<f64> {
     }
 }
 
-/// What a value column's name says it holds, and for code columns the integer format.
+/// What a value column's name says it holds (`ch<k>_` before it names a channel), and for code
+/// columns the integer format.
 fn value_meaning(name: &str) -> (Values, Option<SampleFormat>) {
     let n = name.trim();
+    // A channel's column, as `generate` names it: `ch<k>_` before the name.
+    let n = n
+        .strip_prefix("ch")
+        .and_then(|r| r.split_once('_'))
+        .filter(|(k, _)| !k.is_empty() && k.bytes().all(|b| b.is_ascii_digit()))
+        .map_or(n, |(_, rest)| rest);
     match n {
         "value_V" => (Values::Physical(Unit::Volt), None),
         "value_A" => (Values::Physical(Unit::Ampere), None),
