@@ -611,6 +611,23 @@ mod tests {
     }
 
     #[test]
+    fn value_columns_are_channels_read_frame_by_frame() {
+        // Five rows, read three frames at a time: whole frames, channel 0 first.
+        let text = "time_s,ch0_value_V,ch1_value_V\n0,1,-1\n0.001,2,-2\n0.002,3,-3\n\
+                    0.003,4,-4\n0.004,5,-5\n";
+        let (info, v) = read(text, None).unwrap();
+        assert_eq!(info.channels, 2);
+        assert_eq!(info.values, Values::Physical(Unit::Volt));
+        assert_eq!(info.sample_rate_hz, 1000.0);
+        assert_eq!(v, [1.0, -1.0, 2.0, -2.0, 3.0, -3.0, 4.0, -4.0, 5.0, -5.0]);
+        let e = read("time_s,ch0_value_V,ch1_value_V\n0,1,-1\n0.001,2\n", None).unwrap_err();
+        assert!(
+            e.to_string().contains("line 3: the value field is missing"),
+            "{e}"
+        );
+    }
+
+    #[test]
     fn time_column_gives_the_rate_and_names_give_the_meaning() {
         let (i, v) = read(
             "time_s,value_V\n0,1\n0.001,2\n# note\n\n0.002,3\n0.003,4\n",

@@ -125,6 +125,37 @@ mod tests {
     use super::*;
 
     #[test]
+    fn channels_come_interleaved_in_whole_frames() {
+        let o = SourceOptions {
+            format: Format::Raw,
+            sample_format: Some(SampleFormat::I16),
+            rate_hz: Some(10.0),
+            fallback_rate_hz: None,
+            name: "x.i16".into(),
+            length_bytes: None,
+            channels: Some(3),
+        };
+        let bytes: Vec<u8> = [1i16, 2, 3, 4, 5, 6]
+            .iter()
+            .flat_map(|c| c.to_le_bytes())
+            .collect();
+        let mut s = RawSource::new(&bytes[..], &o).unwrap();
+        assert_eq!(s.info().channels, 3);
+        let mut v = Vec::new();
+        // One frame asked for: three values.
+        assert_eq!(s.read_block(&mut v, 1).unwrap(), 3);
+        assert_eq!(v, [1.0 / 32767.0, 2.0 / 32767.0, 3.0 / 32767.0]);
+        assert_eq!(s.read_block(&mut v, 9).unwrap(), 3);
+        assert_eq!(s.read_block(&mut v, 9).unwrap(), 0);
+        let mut s = RawSource::new(&bytes[..4 * 2], &o).unwrap();
+        let e = s.read_block(&mut v, 9).unwrap_err();
+        assert!(
+            e.to_string().contains("inside a frame of 3 channels"),
+            "{e}"
+        );
+    }
+
+    #[test]
     fn partial_sample_is_an_error_and_options_are_required() {
         let o = SourceOptions {
             format: Format::Raw,

@@ -22,6 +22,7 @@ use serde_json::{Value, json};
 
 use super::setup::Setup;
 use super::{FALSE_ALARM, Measurement};
+use crate::analysis::capture::CaptureReport;
 use crate::analysis::coherence::{
     CrossEstimate, CrossPass, fisher_interval, fisher_p_value, msc_interval, msc_p_value, pairs,
 };
@@ -164,6 +165,28 @@ fn designed_matrix(s: &Setup) -> std::result::Result<Option<Vec<Vec<f64>>>, Stri
     ))
 }
 
+/// The bands judged (those inside the profile's band, as indices into the first channel's
+/// bands) and, for every band, the designed density's share S/(S + q) of what a channel holds
+/// (q the quantisation floor, unit²/Hz).
+fn band_design(s: &Setup, first: &CaptureReport, q_psd: f64) -> (Vec<usize>, Vec<f64>) {
+    let (Some(p), Some(d)) = (&s.profile, &s.design) else {
+        return (Vec::new(), Vec::new());
+    };
+    let inside = bands_inside(&first.bands, &p.band);
+    let judged = (0..first.bands.len())
+        .filter(|&b| inside.iter().any(|i| i.bins == first.bands[b].bins))
+        .collect();
+    let share = first
+        .bands
+        .iter()
+        .map(|b| {
+            let sd = expected_band_psd(&|f| d.density(f), &first.spectrum, b.bins.clone());
+            sd / (sd + q_psd)
+        })
+        .collect();
+    (judged, share)
+}
+
 /// The frames pass and the verdict; `each` holds the channels measured one by one.
 pub(super) fn measure(
     s: &Setup,
@@ -198,14 +221,9 @@ pub(super) fn measure(
     // and the tones (the same in every channel).
     let fs = s.info.sample_rate_hz;
     let q_psd = super::measure::quantisation_psd(s);
-    let judged: Vec<usize> = match (&s.profile, &design) {
-        (Some(p), Some(_)) => {
-            let inside = bands_inside(&first.bands, &p.band);
-            (0..first.bands.len())
-                .filter(|&b| inside.iter().any(|i| i.bins == first.bands[b].bins))
-                .collect()
-        }
-        _ => Vec::new(),
+    let (judged, band_design) = match &design {
+        Some(_) => band_design(s, first, q_psd),
+        None => (Vec::new(), Vec::new()),
     };
     let n_pairs = picked.len() * (picked.len() - 1) / 2;
     let tests = match design {
@@ -213,17 +231,6 @@ pub(super) fn measure(
         None => 0,
     };
     let alpha = (tests > 0).then(|| FALSE_ALARM / tests as f64);
-    let band_design: Vec<f64> = match &s.design {
-        Some(d) if design.is_some() => first
-            .bands
-            .iter()
-            .map(|b| {
-                let sd = expected_band_psd(&|f| d.density(f), &first.spectrum, b.bins.clone());
-                sd / (sd + q_psd)
-            })
-            .collect(),
-        _ => Vec::new(),
-    };
     let zero_lag = |rho: f64| {
         let d = s.design.as_ref().expect("a design with a profile");
         let tone_power: f64 = s
