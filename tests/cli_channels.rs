@@ -382,6 +382,15 @@ fn one_channel_with_the_wrong_density_fails_alone() {
         [&Value::Bool(true), &Value::Bool(false), &Value::Bool(true)]
     );
     assert_eq!(j["correlation"]["pass"], true, "(seed {SEED})");
+    // The library's facade gives the same per channel.
+    let report = noisewright::Analysis::of_path(&x)
+        .profile_path(&p)
+        .run()
+        .unwrap();
+    let passed: Vec<bool> = report.channels.iter().map(|c| c.verdict.passed()).collect();
+    assert_eq!(passed, [true, false, true]);
+    assert!(!report.verdict.passed());
+    assert_eq!(report.correlation.as_ref().and_then(|c| c.pass), Some(true));
     // The text names it in the channel's line and prints its band table alone.
     let o = run(
         &[
