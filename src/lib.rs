@@ -13,7 +13,8 @@
 //!   [`RenderReport`].
 //! - [`Analysis`]: everything `analyze` does, on a capture file or samples in memory, with
 //!   or without a profile; it returns an [`AnalysisReport`] holding the object
-//!   `analyze --json` prints, the summary and a [`Verdict`].
+//!   `analyze --json` prints, the summary and a [`Verdict`] (for a capture of several
+//!   channels, each channel's result and their correlation too).
 //! - [`budget`]: what each source contributes in a band ([`Budget`]); [`run::budget`] turns
 //!   band texts into [`BandSpec`]s and gives the text and chart `budget` prints (its JSON:
 //!   [`model::budget::to_json`]).

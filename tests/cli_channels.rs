@@ -391,6 +391,8 @@ fn one_channel_with_the_wrong_density_fails_alone() {
     assert_eq!(passed, [true, false, true]);
     assert!(!report.verdict.passed());
     assert_eq!(report.correlation.as_ref().and_then(|c| c.pass), Some(true));
+    let svg = report.correlation.as_ref().unwrap().coherence_svg();
+    assert!(svg.contains("coherence, 3 of 3 pairs"), "{svg}");
     // The text names it in the channel's line and prints its band table alone.
     let o = run(
         &[

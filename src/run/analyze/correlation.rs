@@ -295,6 +295,32 @@ pub(super) fn measure(
 }
 
 impl CorrelationReport {
+    /// The coherence figure as SVG text: the failing pairs first, then the others in row
+    /// order, at most [`crate::report::coherence::MAX_CURVES`] of them.
+    pub fn coherence_svg(&self) -> String {
+        use crate::report::coherence::{CoherenceCurve, CoherencePoint, coherence_svg};
+        let mut order: Vec<&PairReport> = self.pairs.iter().filter(|p| p.failed()).collect();
+        order.extend(self.pairs.iter().filter(|p| !p.failed()));
+        let curves: Vec<CoherenceCurve> = order
+            .iter()
+            .map(|p| CoherenceCurve {
+                label: format!("{}–{}", p.channels.0, p.channels.1),
+                points: p
+                    .bands
+                    .iter()
+                    .map(|b| CoherencePoint {
+                        f_hz: b.f_center_hz,
+                        coherence: b.coherence,
+                        lo: b.ci95.0,
+                        hi: b.ci95.1,
+                        designed: b.designed,
+                    })
+                    .collect(),
+            })
+            .collect();
+        coherence_svg(&curves, self.pairs.len())
+    }
+
     /// The `correlation` object of `analyze --json`.
     pub fn to_json(&self) -> Value {
         let e = &self.estimate;
