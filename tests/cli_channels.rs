@@ -186,11 +186,11 @@ fn analyze_json(dir: &Scratch, file: &Path, args: &[&str]) -> (i32, Value, Strin
     (o.status.code().unwrap_or(-1), json, stderr)
 }
 
-/// The Welch bins of a band from its edges in the JSON: f_lo = (start − ½)·Δf, f_hi =
+/// The Welch bins of a band from its edges in the JSON: low = (start − ½)·Δf, high =
 /// (end − ½)·Δf.
 fn band_bins(b: &Value, df: f64) -> std::ops::Range<usize> {
     let at = |k: &str| (b[k].as_f64().unwrap() / df + 0.5).round() as usize;
-    at("f_lo_hz")..at("f_hi_hz")
+    at("low_hz")..at("high_hz")
 }
 
 /// The measured matrix is `numpy.corrcoef`'s and the coherence `scipy.signal.coherence`'s on

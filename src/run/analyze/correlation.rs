@@ -78,7 +78,7 @@ pub struct PairReport {
 /// The coherence of a pair in one band.
 #[derive(Debug, Clone)]
 pub struct BandCoherence {
-    /// Band edges and centre, Hz.
+    /// Lower edge, Hz.
     pub f_lo_hz: f64,
     /// Upper edge, Hz.
     pub f_hi_hz: f64,
@@ -128,11 +128,11 @@ impl PairReport {
             .min_by(|a, b| a.p_value.partial_cmp(&b.p_value).expect("finite"))
         {
             parts.push(format!(
-                "coherence outside its limits in {} band(s), worst {:.4} at {:.4e} Hz where \
-                 {:.4} is designed (p = {:.1e})",
+                "coherence outside its limits in {} band(s), worst {:.4} at {} where {:.4} is \
+                 designed (p = {:.1e})",
                 bad.len(),
                 w.coherence,
-                w.f_center_hz,
+                crate::profile::format_quantity(w.f_center_hz, "Hz"),
                 w.designed.unwrap_or(f64::NAN),
                 w.p_value.unwrap_or(f64::NAN)
             ));
@@ -357,7 +357,7 @@ impl CorrelationReport {
                     "p_value": p.p_value,
                     "pass": p.pass,
                     "coherence": p.bands.iter().map(|b| json!({
-                        "f_lo_hz": b.f_lo_hz, "f_hi_hz": b.f_hi_hz, "f_center_hz": b.f_center_hz,
+                        "low_hz": b.f_lo_hz, "high_hz": b.f_hi_hz, "center_hz": b.f_center_hz,
                         "coherence": b.coherence,
                         "ci95_lo": b.ci95.0, "ci95_hi": b.ci95.1,
                         "averages": b.averages,
