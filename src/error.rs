@@ -159,10 +159,12 @@ pub enum Setting {
     PpWindow,
     /// An Allan deviation picture's output file.
     AllanPlot,
+    /// The channels of a capture to analyse.
+    Channel,
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 34] = [
+const SETTINGS: [Setting; 35] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
@@ -197,6 +199,7 @@ const SETTINGS: [Setting; 34] = [
     Setting::PpBand,
     Setting::PpWindow,
     Setting::AllanPlot,
+    Setting::Channel,
 ];
 
 /// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
@@ -241,6 +244,7 @@ impl Setting {
             Setting::PpBand => "pp_band",
             Setting::PpWindow => "pp_window",
             Setting::AllanPlot => "allan_plot",
+            Setting::Channel => "channel",
         }
     }
 

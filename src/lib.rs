@@ -13,7 +13,8 @@
 //!   [`RenderReport`].
 //! - [`Analysis`]: everything `analyze` does, on a capture file or samples in memory, with
 //!   or without a profile; it returns an [`AnalysisReport`] holding the object
-//!   `analyze --json` prints, the summary and a [`Verdict`].
+//!   `analyze --json` prints, the summary and a [`Verdict`] (for a capture of several
+//!   channels, each channel's result and their correlation too).
 //! - [`Join`]: the shards of one run (`generate --shard K/N`, [`run::shard`]) put back into
 //!   one file and its manifest, byte for byte what a single run writes, checked to be every
 //!   part of one run once; it returns a [`JoinReport`].

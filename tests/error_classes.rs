@@ -2163,6 +2163,38 @@ fn cases() -> Vec<Case> {
             .file("d.wav/inner", b"")
             .args(&["analyze", "d.wav"])
             .expect(&["d.wav", "is a folder", "capture file"]),
+        // ---------------- capture files: several channels ----------------
+        capture(
+            "CSV value columns of different kinds",
+            "m.csv",
+            b"time_s,ch0_value_V,ch1_value_fs\n0,1,0.5\n0.001,2,0.25\n".to_vec(),
+            &[],
+            &[
+                "m.csv",
+                "line 1",
+                "ch0_value_V",
+                "ch1_value_fs",
+                "different kinds",
+            ],
+        ),
+        capture(
+            "raw ending inside a frame of its channels",
+            "f.f64",
+            vec![0u8; 8 * (2 * 40 + 1)],
+            &["--rate", "1kHz"],
+            &[],
+        )
+        .file("f.f64.json", r#"{"extra": {"channels": 2}}"#)
+        .expect(&["f.f64", "inside a frame of 2 channels", "channel count"]),
+        Case::new("analyze: --channel beyond the capture's channels")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--channel", "1"])
+            .expect(&["option --channel", "channel 1", "c.csv holds 1 channel(s)"]),
+        Case::new("analyze: profile of another channel count")
+            .file("p.toml", format!("channels = 2\n{W}"))
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--profile", "p.toml"])
+            .expect(&["option --profile", "describes 2 channels", "c.csv holds 1"]),
         // ---------------- capture files: CSV ----------------
         capture(
             "CSV not UTF-8",

@@ -72,6 +72,14 @@ pub struct AnalyzeArgs {
     /// Write an SVG picture of the Allan deviation (implies --allan).
     #[arg(long = "allan-plot", value_name = "OUT.svg")]
     pub allan_plot: Option<PathBuf>,
+    /// Analyse only channel N of a multi-channel capture (0-based); repeatable. Default: every
+    /// channel.
+    #[arg(long = "channel", value_name = "N")]
+    pub channel: Vec<usize>,
+    /// Print the band table of every channel of a multi-channel capture (by default only of
+    /// the channels that fail).
+    #[arg(long = "band-tables")]
+    pub band_tables: bool,
 }
 
 /// Runs `analyze`: reads, measures and judges the capture, writes the files asked for, and
@@ -113,6 +121,8 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalysisRepor
     analysis
         .keep_drift(args.keep_drift)
         .allan(args.allan || args.allan_plot.is_some())
+        .channels(&args.channel)
+        .band_tables(args.band_tables)
         .run()
 }
 

@@ -271,6 +271,9 @@ pub struct SideManifest {
     /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
     /// `high_hz`, `order`), when the manifest records one.
     pub band: Option<Band>,
+    /// Channels interleaved in the file (`extra.channels`, else `profile.channels`), when the
+    /// manifest records more than one.
+    pub channels: Option<u16>,
     /// The manifest's file name, for messages.
     pub file: String,
 }
@@ -374,6 +377,20 @@ impl SideManifest {
                     order: b["order"].as_u64().unwrap_or(0) as u32,
                 });
             }
+        }
+        let channels = v["extra"]["channels"]
+            .as_u64()
+            .or(v["profile"]["channels"].as_u64());
+        if let Some(c) = channels.filter(|&c| c > 1) {
+            let max = crate::profile::MAX_CHANNELS as u64;
+            let c = u16::try_from(c).ok().filter(|&c| u64::from(c) <= max);
+            m.channels = Some(c.ok_or_else(|| {
+                bad(
+                    "extra.channels",
+                    "a channel count from 1 to 64",
+                    &v["extra"]["channels"],
+                )
+            })?);
         }
         Ok(m)
     }

@@ -24,6 +24,9 @@ pub fn allan_svg(
     }
 }
 
+/// A fitted term's line: coefficient, legend text, pen number and σ(coefficient, τ).
+type FittedLine = (f64, &'static str, usize, fn(f64, f64) -> f64);
+
 /// The figure: intervals shaded, measured points, the profile's curve, the fitted lines
 /// (unit against τ in s). `None` without a positive deviation.
 pub fn allan_figure(
@@ -74,7 +77,7 @@ pub fn allan_figure(
     let grid: Vec<f64> = (0..=200)
         .map(|j| t0 * (t1 / t0).powf(f64::from(j) / 200.0))
         .collect();
-    let lines: [(f64, &str, usize, fn(f64, f64) -> f64); 3] = [
+    let lines: [FittedLine; 3] = [
         (fit.random_walk, "fit N/\u{221a}\u{3c4}", 2, |c, t| {
             c / t.sqrt()
         }),

@@ -31,7 +31,7 @@ pub(super) fn measure(s: &Setup, interrupted: &AtomicBool) -> Result<AllanRun> {
     let n_hint = s.capture.sample_count(&s.info)?;
     let mut stream = AllanStream::new(&octave_ms(n_hint));
     s.capture
-        .pass(&s.scale, interrupted, &mut |x| stream.push(x))?;
+        .pass(s.channel, &s.scale, interrupted, &mut |x| stream.push(x))?;
     let dev = stream.finish(1.0 / fs);
     if dev.tau_s.is_empty() {
         return Err(Error::input(

@@ -58,6 +58,17 @@ pub(super) fn check_paths(a: &Analysis) -> Result<()> {
     check_outputs(&written, &read)
 }
 
+/// What the pictures need beyond the measurement.
+#[derive(Clone, Copy)]
+pub(super) struct Extras<'a> {
+    /// The Allan deviation picture, when asked for.
+    pub(super) allan_svg: Option<&'a str>,
+    /// Spans left out of the verdict (tones, spurs, excluded), Hz.
+    pub(super) left_out: &'a [(f64, f64)],
+    /// The integrated noise.
+    pub(super) integrated: Option<&'a IntegratedNoise>,
+}
+
 /// The output files asked for, under temporary names until [`Outputs::write`] renames them.
 pub(super) struct Outputs {
     fit: Option<PendingFile>,
@@ -87,11 +98,14 @@ impl Outputs {
         report: &CaptureReport,
         json: &serde_json::Value,
         fit_toml: Option<&str>,
-        allan_svg: Option<&str>,
         s: &Setup,
-        left_out: &[(f64, f64)],
-        integrated: Option<&IntegratedNoise>,
+        extra: &Extras<'_>,
     ) -> Result<()> {
+        let Extras {
+            allan_svg,
+            left_out,
+            integrated,
+        } = *extra;
         if let (Some(out), Some(svg)) = (&self.allan_plot, allan_svg) {
             out.write_all(svg.as_bytes())?;
         }

@@ -38,6 +38,10 @@ pub(super) struct Setup<'a> {
     pub(super) tolerance_db: f64,
     /// Drift, exclusions and the windowed peak-to-peak.
     pub(super) bench: BenchSpec,
+    /// The channel the per-channel steps measure now (0-based).
+    pub(super) channel: usize,
+    /// The channels analysed, in order (0-based; every channel unless some were picked).
+    pub(super) channels: Vec<usize>,
 }
 
 /// The settings given as text, parsed.
@@ -103,6 +107,12 @@ impl<'a> Setup<'a> {
                     fallback_rate_hz: manifest.as_ref().and_then(|m| m.sample_rate_hz),
                     name: name.clone(),
                     length_bytes,
+                    // A raw file holds as many channels as its manifest, else its profile,
+                    // says.
+                    channels: manifest.as_ref().and_then(|m| m.channels).or(profile
+                        .as_ref()
+                        .map(|p| p.channels as u16)
+                        .filter(|&c| c > 1)),
                 },
             },
             Input::Samples { samples, rate_hz } => Capture::Memory {
@@ -114,6 +124,7 @@ impl<'a> Setup<'a> {
         };
         // The header alone, to settle the scale, rate and segment length before the passes.
         let info = capture.header()?;
+        let channels = super::channels::picked(&a.s.channels, &info, profile.as_ref(), &name)?;
         let scale = scale(
             &info,
             manifest.as_ref(),
@@ -153,6 +164,8 @@ impl<'a> Setup<'a> {
             resolution: parsed.resolution,
             tolerance_db: parsed.tolerance_db,
             bench: parsed.bench,
+            channel: channels[0],
+            channels,
         })
     }
 
