@@ -276,6 +276,17 @@ fn profile_file(dir: &Scratch, name: &str, text: &str) -> String {
 /// `analyze --plot` and `--report` of a capture: the plot's two figures and each of the
 /// report's pictures keep the layout rules and draw what the capture needs.
 fn analyze_pictures(dir: &Scratch, capture: &str, profile: &str, tag: &str) -> (String, String) {
+    analyze_pictures_of(dir, capture, profile, tag, 2)
+}
+
+/// [`analyze_pictures`] with `figures` figures in the plot.
+fn analyze_pictures_of(
+    dir: &Scratch,
+    capture: &str,
+    profile: &str,
+    tag: &str,
+    figures: usize,
+) -> (String, String) {
     let plot = dir.path(&format!("{tag}.svg"));
     let report = dir.path(&format!("{tag}.html"));
     let o = common::run(
@@ -297,7 +308,7 @@ fn analyze_pictures(dir: &Scratch, capture: &str, profile: &str, tag: &str) -> (
         common::text(&o.stderr)
     );
     let (plot, report) = (read(&plot), read(&report));
-    check_layout(&format!("{tag} plot"), &plot, 2);
+    check_layout(&format!("{tag} plot"), &plot, figures);
     for (k, svg) in svgs_in(&report).iter().enumerate() {
         check_layout(&format!("{tag} report picture {k}"), svg, 1);
     }
@@ -424,4 +435,41 @@ fn many_sources_and_burst_levels_are_drawn() {
         &["measured", "burst levels"],
     );
     assert!(!histogram.contains(".0<"), "counts are integers");
+}
+
+/// A capture of three correlated channels: the plot holds the first channel's density and
+/// integrated noise, the other two channels' densities and the coherence of every pair with
+/// its design, all laid out by the same rules.
+#[test]
+fn several_channels_show_each_density_and_the_coherence() {
+    let dir = Scratch::new("channel-figures");
+    let p = profile_file(
+        &dir,
+        "three.toml",
+        "name = \"three axes (invented)\"\nsample_rate = \"8 kHz\"\nchannels = 3\n\
+         correlation = [[1, 0.6, 0.1], [0.6, 1, -0.3], [0.1, -0.3, 1]]\n\
+         [band]\nlow = \"10 Hz\"\nhigh = \"2 kHz\"\n\
+         [[floor]]\ndensity = \"10 nV/rtHz\"\ncorner = \"50 Hz\"\n",
+    );
+    run_ok(
+        &["generate", &p, "-o", "three.wav", "--duration", "4s"],
+        &dir,
+    );
+    let (plot, report) = analyze_pictures_of(&dir, "three.wav", &p, "three", 5);
+    check_series(
+        "three channels",
+        &plot,
+        5,
+        9.0,
+        &["measured", "0–1", "0–1 designed", "1–2"],
+    );
+    assert!(
+        plot.contains("three.wav channel 2 density"),
+        "each channel is named"
+    );
+    assert_eq!(
+        svgs_in(&report).len(),
+        7,
+        "five spectral figures, histogram and trace"
+    );
 }

@@ -214,7 +214,7 @@ const LIMIT: &str = "#c0392b";
 fn analysis_title(v: &AnalysisView<'_>, what: &str) -> String {
     match (&v.report.comparison, v.profile) {
         (Some(c), p) => format!(
-            "{} {what} against {}: {} ({} of {} bands within limits)",
+            "{} {what} against {}: {}, {} of {} bands",
             v.file,
             p.and_then(|p| p.name.as_deref()).unwrap_or("the profile"),
             if c.pass { "PASS" } else { "FAIL" },

@@ -216,8 +216,14 @@ impl Axis {
         } else if self.counts {
             format!("{}", v.round() as i64)
         } else if self.unit.is_empty() {
-            let s = format_quantity(v, "");
-            s.trim_end().to_string()
+            // A plain number: six decimals at most, trailing zeros dropped (0.2, not 200 m).
+            let s = format!("{v:.6}");
+            let s = s.trim_end_matches('0').trim_end_matches('.');
+            if s.is_empty() || s == "-" {
+                "0".into()
+            } else {
+                s.to_string()
+            }
         } else {
             format_quantity(v, &self.unit)
         }
@@ -863,6 +869,9 @@ mod tests {
             ..Axis::log("n", "", 0.5, 3e4)
         };
         assert_eq!(c.tick_label(10000.0), "10000");
+        let plain = Axis::linear("coherence", "", 0.0, 1.0);
+        assert_eq!(plain.tick_label(0.8), "0.8");
+        assert_eq!(plain.tick_label(1.0), "1");
     }
 
     #[test]

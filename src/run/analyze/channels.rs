@@ -17,6 +17,8 @@ use crate::analysis::coherence::nearest_correlation;
 use crate::error::{Error, Result, Setting};
 use crate::io::source::StreamInfo;
 use crate::profile::{Profile, format_quantity};
+use crate::report::chart::{AnalysisView, density_figure};
+use crate::report::figure::Figure;
 
 /// Pairs listed one per line in the summary up to this many channels; above it only the
 /// pairs that fail are.
@@ -132,11 +134,14 @@ pub(super) fn several(
     if overall.judged() {
         json["pass"] = json!(overall.passed());
     }
-    // The pictures and the report show the first channel analysed.
+    // The pictures and the report show the first channel analysed in full, the others'
+    // densities and the coherence.
+    let more = more_figures(s, &each, corr.as_ref());
     let extras = Extras {
         allan_svg: None,
         left_out: &each[0].left_out_hz,
         integrated: each[0].integrated.as_ref(),
+        more: &more,
     };
     outputs.write(first, &json, fitted.as_deref(), s, &extras)?;
     let text = summary_text(s, &each, &verdicts, corr.as_ref(), &json, a.s.band_tables);
@@ -390,4 +395,33 @@ fn verdict_line(s: &Setup, verdicts: &[Verdict], corr: Option<&CorrelationReport
         pairs,
         p.name.as_deref().unwrap_or("the profile")
     )
+}
+
+/// Most channels after the first whose density is drawn (each is a figure).
+const MAX_CHANNEL_FIGURES: usize = 8;
+
+/// The density figures of the channels after the first (at most [`MAX_CHANNEL_FIGURES`]),
+/// then the coherence figure.
+fn more_figures(s: &Setup, each: &[Measurement], corr: Option<&CorrelationReport>) -> Vec<Figure> {
+    let mut figs: Vec<Figure> = s
+        .channels
+        .iter()
+        .zip(each)
+        .skip(1)
+        .take(MAX_CHANNEL_FIGURES)
+        .filter_map(|(k, m)| {
+            let file = format!("{} channel {k}", s.name);
+            density_figure(&AnalysisView {
+                report: &m.report,
+                file: &file,
+                profile: s.profile.as_ref(),
+                design: s.design.as_ref(),
+                left_out: &m.left_out_hz,
+                tones: &[],
+                integrated: None,
+            })
+        })
+        .collect();
+    figs.extend(corr.and_then(CorrelationReport::coherence_figure));
+    figs
 }

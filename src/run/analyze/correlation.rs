@@ -298,7 +298,17 @@ impl CorrelationReport {
     /// The coherence figure as SVG text: the failing pairs first, then the others in row
     /// order, at most [`crate::report::coherence::MAX_CURVES`] of them.
     pub fn coherence_svg(&self) -> String {
-        use crate::report::coherence::{CoherenceCurve, CoherencePoint, coherence_svg};
+        crate::report::coherence::coherence_svg(&self.curves(), self.pairs.len())
+    }
+
+    /// The coherence figure ([`Self::coherence_svg`]'s), `None` without a band.
+    pub fn coherence_figure(&self) -> Option<crate::report::figure::Figure> {
+        crate::report::coherence::coherence_figure(&self.curves(), self.pairs.len())
+    }
+
+    /// Each pair's coherence band by band, the failing pairs first.
+    fn curves(&self) -> Vec<crate::report::coherence::CoherenceCurve> {
+        use crate::report::coherence::{CoherenceCurve, CoherencePoint};
         let mut order: Vec<&PairReport> = self.pairs.iter().filter(|p| p.failed()).collect();
         order.extend(self.pairs.iter().filter(|p| !p.failed()));
         let curves: Vec<CoherenceCurve> = order
@@ -318,7 +328,7 @@ impl CorrelationReport {
                     .collect(),
             })
             .collect();
-        coherence_svg(&curves, self.pairs.len())
+        curves
     }
 
     /// The `correlation` object of `analyze --json`.

@@ -476,6 +476,7 @@ impl<'a> Analysis<'a> {
             allan_svg: allan_svg.as_deref(),
             left_out: &left_out_hz,
             integrated: integrated.as_ref(),
+            more: &[],
         };
         outputs.write(&report, &json, fitted.as_deref(), &setup, &extras)?;
         let mut summary = summary::summary_text(&report, &json, setup.profile.as_ref())

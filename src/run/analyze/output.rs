@@ -9,7 +9,7 @@ use crate::analysis::capture::CaptureReport;
 use crate::analysis::integrated::IntegratedNoise;
 use crate::error::{Result, Setting};
 use crate::report::chart::{AnalysisView, analysis_figures};
-use crate::report::figure::page;
+use crate::report::figure::{Figure, page};
 use crate::report::html::{self, ReportFigures};
 use crate::run::guard::{Read, Written, check_outputs};
 use crate::run::{PendingFile, commit_all, manifest_path};
@@ -67,6 +67,8 @@ pub(super) struct Extras<'a> {
     pub(super) left_out: &'a [(f64, f64)],
     /// The integrated noise.
     pub(super) integrated: Option<&'a IntegratedNoise>,
+    /// Further spectral figures (the other channels' densities, the coherence).
+    pub(super) more: &'a [Figure],
 }
 
 /// The output files asked for, under temporary names until [`Outputs::write`] renames them.
@@ -105,6 +107,7 @@ impl Outputs {
             allan_svg,
             left_out,
             integrated,
+            more,
         } = *extra;
         if let (Some(out), Some(svg)) = (&self.allan_plot, allan_svg) {
             out.write_all(svg.as_bytes())?;
@@ -128,7 +131,8 @@ impl Outputs {
                 tones: &tones,
                 integrated,
             };
-            let (figures, amplitude) = analysis_figures(&view);
+            let (mut figures, amplitude) = analysis_figures(&view);
+            figures.extend(more.iter().cloned());
             if let Some(out) = &self.plot {
                 out.write_all(page(&figures).as_bytes())?;
             }
