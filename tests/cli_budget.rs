@@ -132,14 +132,16 @@ fn plot_writes_an_svg_with_every_source_and_the_band_edges() {
     let s = std::fs::read_to_string(&svg).unwrap();
     assert!(s.starts_with("<svg"));
     for needle in [
-        "receiver: voltage noise",
-        "receiver: Rf thermal (20 k\u{3a9})",
-        "\ntotal\n",
-        "\nlow\n",
-        "\nhigh\n",
+        ">receiver: voltage noise<",
+        ">receiver: Rf thermal (20 k\u{3a9})<",
+        ">total<",
+        ">band edges<",
+        ">integrated noise<",
     ] {
         assert!(s.contains(needle), "no {needle:?} in the chart");
     }
+    // Both edges drawn in both figures (layout is checked in tests/figures.rs).
+    assert_eq!(s.matches("data-name=\"band edges\"").count(), 4);
     let left: Vec<_> = std::fs::read_dir(&dir)
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
