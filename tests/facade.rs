@@ -218,6 +218,11 @@ fn render_cases(p: &Path, base: &Path) {
             );
             assert!(a == b, "{what}: {f} differs");
         }
+        // The report holds the manifest it wrote.
+        let written: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(lib_dir.join(format!("{name}.json"))).unwrap())
+                .unwrap();
+        assert_eq!(report.manifest.as_ref(), Some(&written), "{what}: manifest");
         let summary = String::from_utf8(summary).unwrap();
         assert_eq!(
             report.summary.replace(lib_dir.to_str().unwrap(), "OUT"),
@@ -249,7 +254,7 @@ fn render_streams_to_a_writer_what_generate_streams_to_standard_output() {
         .unwrap();
     assert_eq!(*buffer.lock().unwrap(), cli);
     assert_eq!(report.frames, 5000);
-    assert!(report.path.is_none() && report.manifest_path.is_none());
+    assert!(report.path.is_none() && report.manifest_path.is_none() && report.manifest.is_none());
 }
 
 #[test]
