@@ -76,7 +76,22 @@ impl Generator {
     ///
     /// # Panics
     /// With several channels, if `out.len()` is not a whole number of frames.
+    ///
+    /// Called from a thread outside any rayon pool, the call runs on a worker of rayon's
+    /// global pool (all cores, or `RAYON_NUM_THREADS`), so the engine's parallel steps share
+    /// the cores; the values are the same on any pool.
     pub fn fill(&mut self, out: &mut [f64]) {
+        if rayon::current_thread_index().is_none() && rayon::current_num_threads() > 1 {
+            // One hand-off per call; the engine's steps then run on the pool's workers (off
+            // a worker they would run one after another on this thread).
+            rayon::scope(|_| self.fill_here(out));
+        } else {
+            self.fill_here(out);
+        }
+    }
+
+    /// [`Generator::fill`] on the calling thread's pool (or alone, off any pool).
+    fn fill_here(&mut self, out: &mut [f64]) {
         match &mut self.inner {
             Inner::One(g) => g.fill(out),
             Inner::Many(m) => m.fill_frames(out),
