@@ -116,6 +116,30 @@ fn generator_starting_at_is_generates_segment_also_with_channels() {
     }
 }
 
+#[test]
+fn generator_refuses_a_start_past_the_engines_last_with_render_s_words() {
+    let last = noisewright::synth::MAX_START - 1;
+    for channels in ["", "channels = 2\n"] {
+        let p = Profile::from_toml_str(
+            &format!(
+                "sample_rate = \"8 kHz\"\n{channels}[band]\nlow = \"10 Hz\"\nhigh = \"3 kHz\"\n\
+                 [[floor]]\ndensity = \"10 nV/rtHz\"\n"
+            ),
+            "inline",
+        )
+        .unwrap();
+        let e = Generator::starting_at(&p, 1, last + 1)
+            .err()
+            .expect("refused");
+        let r = Render::new(&p)
+            .samples(1)
+            .start_sample(last + 1)
+            .to_writer(std::io::sink());
+        assert_eq!(e.to_string(), r.unwrap_err().to_string());
+        assert!(e.to_string().contains(&format!("sample {last}")), "{e}");
+    }
+}
+
 /// The outputs compared: file name, the command's options (U: the profile's unit), and the
 /// same run as a Render.
 type Case = (

@@ -51,6 +51,8 @@ def test_a_bad_profile_raises_profile_error_with_the_clis_message(cli, tmp_path)
     (lambda: noisewright.generate(MIC, 10, seed=2**64), ValueError, "argument seed"),
     (lambda: noisewright.generate(MIC, 10, start="0"), TypeError, "argument start"),
     (lambda: noisewright.generate(42, 10), TypeError, "argument profile"),
+    (lambda: noisewright.generate(MIC, 10, start=2**63), ValueError, "argument start"),
+    (lambda: noisewright.Generator(MIC, start=2**64 - 1), ValueError, "last possible start"),
     (lambda: noisewright.Generator(MIC).fill(np.zeros(8, dtype=np.float32)), TypeError,
      "float64"),
     (lambda: noisewright.Generator(MIC).fill([0.0, 1.0]), TypeError, "float64"),

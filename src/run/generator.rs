@@ -1,9 +1,24 @@
 //! [`Generator`]: a profile's samples pulled into the caller's buffers, one channel or several
 //! interleaved, exactly the values `generate` writes as raw f64.
 
-use crate::error::Result;
+use crate::error::{Error, Result, Setting};
 use crate::profile::Profile;
 use crate::synth::{self, ChannelGenerator};
+
+/// Refuses a first frame at or past [`synth::MAX_START`], the last the engine can seek to.
+pub(crate) fn check_start_sample(n: u64) -> Result<()> {
+    let limit = synth::MAX_START;
+    if n >= limit {
+        return Err(Error::setting(
+            Setting::StartSample,
+            format!(
+                "{n} is beyond the last possible start, sample {}",
+                limit - 1
+            ),
+        ));
+    }
+    Ok(())
+}
 
 /// A profile's noise (with its bursts, tones and offset) as a pull stream in physical units
 /// (the profile's unit, V or A): the same values, bit for bit, that a [`crate::Render`] (and
@@ -45,8 +60,10 @@ impl Generator {
     }
 
     /// The run of `profile` and `seed` from frame `start_sample` on (0-based): its samples
-    /// are those the run from 0 makes from there.
+    /// are those the run from 0 makes from there. A start at or past
+    /// [`synth::MAX_START`] is refused ([`Setting::StartSample`]).
     pub fn starting_at(profile: &Profile, seed: u64, start_sample: u64) -> Result<Generator> {
+        check_start_sample(start_sample)?;
         let inner = if profile.channels > 1 {
             Inner::Many(Box::new(ChannelGenerator::starting_at(
                 profile,
