@@ -5,6 +5,10 @@ use crate::error::{Error, Result, Setting};
 use crate::profile::Profile;
 use crate::synth::{self, ChannelGenerator};
 
+/// Samples the engine makes per step when a caller's buffer is larger, as `generate` does
+/// (its working buffers, a burst's column among them, are this size, not the caller's).
+pub(crate) const BLOCK_SAMPLES: usize = 1 << 16;
+
 /// Refuses a first frame at or past [`synth::MAX_START`], the last the engine can seek to.
 pub(crate) fn check_start_sample(n: u64) -> Result<()> {
     let limit = synth::MAX_START;
@@ -107,11 +111,17 @@ impl Generator {
         }
     }
 
-    /// [`Generator::fill`] on the calling thread's pool (or alone, off any pool).
+    /// [`Generator::fill`] on the calling thread's pool (or alone, off any pool), in blocks
+    /// of about [`BLOCK_SAMPLES`] samples: the engine's working buffers stay that size
+    /// however large `out` is.
     fn fill_here(&mut self, out: &mut [f64]) {
-        match &mut self.inner {
-            Inner::One(g) => g.fill(out),
-            Inner::Many(m) => m.fill_frames(out),
+        let ch = self.channels();
+        let block = (BLOCK_SAMPLES / ch).max(1024) * ch;
+        for part in out.chunks_mut(block) {
+            match &mut self.inner {
+                Inner::One(g) => g.fill(part),
+                Inner::Many(m) => m.fill_frames(part),
+            }
         }
     }
 
