@@ -11,9 +11,9 @@ use nw::{Analysis, Render, Setting};
 
 use crate::convert::{Quantity, json_to_py, lib, profile_arg, whole, whole_or};
 
-/// Writes `path` (its format from the extension: .wav, .csv, .npy, .h, raw otherwise) and its
-/// manifest `path.json`, exactly as `noisewright generate PROFILE -o path` does with the same
-/// settings, and returns the manifest as a dict (None when `path` is a device or a pipe,
+/// Writes `path` (its format from the extension: .wav, .csv, .npy, .h, .f64 and the other raw
+/// ones) and its manifest `path.json`, exactly as `noisewright generate PROFILE -o path` does
+/// with the same settings, and returns the manifest as a dict (None when `path` is a device or a pipe,
 /// which has no manifest).
 ///
 /// `samples` or `seconds` (a number, or a text such as "2 min") give the length, default
