@@ -130,6 +130,20 @@ pub fn profile_arg(obj: &Bound<'_, PyAny>) -> PyResult<Arc<nw::Profile>> {
     )?))
 }
 
+/// `numpy.<function>(obj, dtype=numpy.float64)` (`asarray`, `ascontiguousarray`, `zeros` …),
+/// as a float64 array of any number of dimensions.
+pub fn float64_array<'py>(
+    py: Python<'py>,
+    function: &str,
+    obj: impl IntoPyObject<'py>,
+) -> PyResult<Bound<'py, numpy::PyArrayDyn<f64>>> {
+    let numpy = py.import("numpy")?;
+    let kwargs = pyo3::types::PyDict::new(py);
+    kwargs.set_item("dtype", numpy.getattr("float64")?)?;
+    let a = numpy.call_method(function, (obj,), Some(&kwargs))?;
+    Ok(a.cast_into::<numpy::PyArrayDyn<f64>>()?)
+}
+
 /// A JSON value as the Python object `json.loads` makes of it (dicts, lists, floats, ints,
 /// str, bool, None).
 pub fn json_to_py<'py>(py: Python<'py>, value: &serde_json::Value) -> PyResult<Bound<'py, PyAny>> {

@@ -3,12 +3,11 @@
 
 use std::sync::Mutex;
 
-use numpy::{PyArrayDyn, PyArrayMethods, PyReadonlyArrayDyn, PyUntypedArrayMethods};
+use numpy::{PyArrayDyn, PyArrayMethods, PyUntypedArrayMethods};
 use pyo3::exceptions::{PyRuntimeError, PyValueError};
 use pyo3::prelude::*;
-use pyo3::types::PyDict;
 
-use crate::convert::{count, lib, profile_arg, whole_or};
+use crate::convert::{count, float64_array, lib, profile_arg, whole_or};
 
 /// A profile's noise as a stream of samples in its unit (V or A), from a seed and a start
 /// frame: consecutive fill() and read() calls continue the same run, bit for bit what
@@ -30,12 +29,17 @@ impl Generator {
     fn fill_slice(&self, py: Python<'_>, out: &mut [f64]) -> PyResult<()> {
         let frames = (out.len() / self.channels) as u64;
         py.detach(|| {
-            let mut state = self.state.lock().map_err(|_| {
-                PyRuntimeError::new_err("this Generator failed in an earlier call: make a new one")
-            })?;
+            let mut state = self.lock()?;
             state.0.fill(out);
             state.1 += frames;
             Ok(())
+        })
+    }
+
+    /// The engine and the next frame's index, for this call alone (calls take turns).
+    fn lock(&self) -> PyResult<std::sync::MutexGuard<'_, (nw::Generator, u64)>> {
+        self.state.lock().map_err(|_| {
+            PyRuntimeError::new_err("this Generator failed in an earlier call: make a new one")
         })
     }
 
@@ -139,22 +143,17 @@ impl Generator {
         py: Python<'py>,
         f: &Bound<'py, PyAny>,
     ) -> PyResult<Bound<'py, PyArrayDyn<f64>>> {
-        let numpy = py.import("numpy")?;
-        let kwargs = PyDict::new(py);
-        kwargs.set_item("dtype", numpy.getattr("float64")?)?;
-        let f = numpy
-            .call_method("asarray", (f,), Some(&kwargs))?
-            .extract::<PyReadonlyArrayDyn<'py, f64>>()?;
+        let f = float64_array(py, "asarray", f)?;
+        let f = f
+            .try_readonly()
+            .map_err(|e| PyValueError::new_err(format!("argument f: cannot be read now: {e}")))?;
         let nyquist = self.sample_rate_hz / 2.0;
         if let Some(bad) = f.as_array().iter().find(|x| !(**x > 0.0 && **x <= nyquist)) {
             return Err(PyValueError::new_err(format!(
                 "argument f: expected frequencies in (0, {nyquist}] Hz, got {bad}"
             )));
         }
-        let state = self
-            .state
-            .lock()
-            .map_err(|_| PyRuntimeError::new_err("this Generator failed in an earlier call"))?;
+        let state = self.lock()?;
         let d = f.as_array().mapv(|x| state.0.engine().density(x));
         Ok(numpy::PyArray::from_owned_array(py, d))
     }
@@ -174,22 +173,14 @@ impl Generator {
     /// The index of the next frame (start plus the frames made so far).
     #[getter]
     fn position(&self) -> PyResult<u64> {
-        let state = self
-            .state
-            .lock()
-            .map_err(|_| PyRuntimeError::new_err("this Generator failed in an earlier call"))?;
-        Ok(state.1)
+        Ok(self.lock()?.1)
     }
 
     /// The expected RMS of each channel, in the profile's unit (AC + DC: noise, bursts,
     /// tones and offset).
     #[getter]
     fn expected_rms(&self) -> PyResult<f64> {
-        let state = self
-            .state
-            .lock()
-            .map_err(|_| PyRuntimeError::new_err("this Generator failed in an earlier call"))?;
-        Ok(state.0.expected_rms())
+        Ok(self.lock()?.0.expected_rms())
     }
 
     fn __repr__(&self) -> PyResult<String> {
@@ -214,11 +205,7 @@ impl Generator {
 /// A new float64 array of zeros (numpy.zeros: a size numpy cannot allocate raises its
 /// MemoryError or ValueError).
 fn zeros<'py>(py: Python<'py>, shape: &[usize]) -> PyResult<Bound<'py, PyArrayDyn<f64>>> {
-    let numpy = py.import("numpy")?;
-    let kwargs = PyDict::new(py);
-    kwargs.set_item("dtype", numpy.getattr("float64")?)?;
-    let a = numpy.call_method("zeros", (shape.to_vec(),), Some(&kwargs))?;
-    Ok(a.cast_into::<PyArrayDyn<f64>>()?)
+    float64_array(py, "zeros", shape.to_vec())
 }
 
 /// An argument's type for messages, with its dtype when it is an array.

@@ -2,14 +2,13 @@
 //! and `budget` (what `budget --json` prints), each one call into the library with the GIL
 //! released.
 
-use numpy::{PyReadonlyArrayDyn, PyUntypedArrayMethods};
+use numpy::{PyArrayMethods, PyUntypedArrayMethods};
 use pyo3::exceptions::PyValueError;
 use pyo3::prelude::*;
-use pyo3::types::PyDict;
 
 use nw::{Analysis, Render, Setting};
 
-use crate::convert::{Quantity, json_to_py, lib, profile_arg, whole, whole_or};
+use crate::convert::{Quantity, float64_array, json_to_py, lib, profile_arg, whole, whole_or};
 
 /// Writes `path` (its format from the extension: .wav, .csv, .npy, .h, .f64 and the other raw
 /// ones) and its manifest `path.json`, exactly as `noisewright generate PROFILE -o path` does
@@ -104,12 +103,10 @@ pub fn analyze<'py>(
     profile: Option<&Bound<'py, PyAny>>,
 ) -> PyResult<Bound<'py, PyAny>> {
     let profile = profile.map(profile_arg).transpose()?;
-    let numpy = py.import("numpy")?;
-    let kwargs = PyDict::new(py);
-    kwargs.set_item("dtype", numpy.getattr("float64")?)?;
-    let array = numpy
-        .call_method("ascontiguousarray", (samples,), Some(&kwargs))?
-        .extract::<PyReadonlyArrayDyn<'py, f64>>()?;
+    let array = float64_array(py, "ascontiguousarray", samples)?;
+    let array = array
+        .try_readonly()
+        .map_err(|e| PyValueError::new_err(format!("argument samples: cannot be read now: {e}")))?;
     if array.ndim() != 1 {
         return Err(PyValueError::new_err(format!(
             "argument samples: expected one channel, shape (n,), got {:?} (pass one column, \
