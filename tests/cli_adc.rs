@@ -163,7 +163,7 @@ fn without_an_output_name_codes_go_to_a_raw_file_named_after_their_container() {
     assert_eq!(std::fs::read(s.path("out/bench.u16")).unwrap().len(), 200);
     assert_eq!(
         manifest(&s.path("out/bench.u16"))["extra"]["adc"]["coding"],
-        "offset"
+        "offset-binary"
     );
 }
 

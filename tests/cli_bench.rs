@@ -249,13 +249,13 @@ fn windowed_peak_to_peak_matches_a_direct_computation() {
         }
         let (lo, hi): (f64, f64) = band;
         let sigma = (2.5e-15 * (hi - lo + 2.0 * (hi / lo).ln())).sqrt();
-        let six = pp["expected_6sigma"].as_f64().unwrap();
+        let six = pp["expected_p2p_6sigma"].as_f64().unwrap();
         assert!(
             (six / (6.0 * sigma) - 1.0).abs() < 1e-6,
             "{six} vs {}",
             6.0 * sigma
         );
-        let more = pp["expected_6_6sigma"].as_f64().unwrap();
+        let more = pp["expected_p2p_6_6sigma"].as_f64().unwrap();
         assert!((more / six - 1.1).abs() < 1e-12);
     }
 }
@@ -287,8 +287,8 @@ fn exclusions_and_the_window_asked_for() {
     let (gap_lo, gap_hi) = (980.5 * df, 986.5 * df);
     for b in j["density"]["bands"].as_array().unwrap() {
         let (lo, hi) = (
-            b["f_lo_hz"].as_f64().unwrap(),
-            b["f_hi_hz"].as_f64().unwrap(),
+            b["low_hz"].as_f64().unwrap(),
+            b["high_hz"].as_f64().unwrap(),
         );
         assert!(
             hi <= gap_lo + 1e-9 || lo >= gap_hi - 1e-9,

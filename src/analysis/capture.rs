@@ -299,7 +299,7 @@ impl CaptureReport {
             .map(|b| {
                 let (lo, hi) = Self::band_ci95(b);
                 json!({
-                    "f_lo_hz": b.f_lo_hz, "f_hi_hz": b.f_hi_hz, "f_center_hz": b.f_center_hz,
+                    "low_hz": b.f_lo_hz, "high_hz": b.f_hi_hz, "center_hz": b.f_center_hz,
                     "psd": b.psd_mean, "density": b.psd_mean.sqrt(),
                     "density_ci95_lo": lo.sqrt(), "density_ci95_hi": hi.sqrt(),
                     "dof": b.dof, "bins": b.bins.len(),
@@ -319,8 +319,8 @@ impl CaptureReport {
             "peak_to_peak": s.peak_to_peak(),
             "min": s.min(),
             "max": s.max(),
-            "pp_6sigma": 6.0 * sigma,
-            "pp_6_6sigma": 6.6 * sigma,
+            "p2p_6sigma": 6.0 * sigma,
+            "p2p_6_6sigma": 6.6 * sigma,
             "crest_factor": self.crest_factor(),
             "skewness": self.moments.skewness(),
             "excess_kurtosis": self.moments.excess_kurtosis(),
@@ -337,7 +337,7 @@ impl CaptureReport {
                 "bands": bands,
             },
             "rms_per_decade": self.decades.iter().map(|d| json!({
-                "f_lo_hz": d.f_lo_hz, "f_hi_hz": d.f_hi_hz, "rms": d.rms })).collect::<Vec<_>>(),
+                "low_hz": d.f_lo_hz, "high_hz": d.f_hi_hz, "rms": d.rms })).collect::<Vec<_>>(),
             "histogram": {
                 "lo": self.moments.histogram().lo,
                 "hi": self.moments.histogram().hi,
@@ -354,8 +354,8 @@ impl CaptureReport {
                 "bands_checked": c.bands.len(),
                 "bands_failed": c.failed(),
                 "bands": c.bands.iter().map(|b| json!({
-                    "f_lo_hz": b.band.f_lo_hz, "f_hi_hz": b.band.f_hi_hz,
-                    "f_center_hz": b.band.f_center_hz,
+                    "low_hz": b.band.f_lo_hz, "high_hz": b.band.f_hi_hz,
+                    "center_hz": b.band.f_center_hz,
                     "measured_density": b.band.psd_mean.sqrt(),
                     "designed_density": b.expected_psd.sqrt(),
                     "ratio_db": b.ratio_db,

@@ -134,12 +134,12 @@ impl Comparison {
     /// One line on the failed bands, `None` when none failed: how many of how many, and the
     /// worst one's edges (Hz), its 10·log10(measured/expected) and its limits (dB), e.g.
     /// `2 of 31 bands outside their limits; worst 10.0000..12.5000 Hz at +1.92 dB (limits
-    /// -1.71 / +1.52 dB)`.
+    /// -1.71 .. +1.52 dB)`.
     pub fn failure_line(&self) -> Option<String> {
         let w = self.worst()?;
         Some(format!(
             "{} of {} bands outside their limits; worst {:.4}..{:.4} Hz at {:+.2} dB (limits \
-             {:+.2} / {:+.2} dB)",
+             {:+.2} .. {:+.2} dB)",
             self.failed(),
             self.bands.len(),
             w.band.f_lo_hz,

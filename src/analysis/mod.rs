@@ -5,6 +5,7 @@
 pub mod capture;
 pub mod compare;
 pub mod fit;
+pub mod integrated;
 pub mod levels;
 pub mod moments;
 pub mod spurs;

@@ -76,7 +76,8 @@ pub struct GenerateArgs {
     #[arg(long, value_name = "N")]
     pub threads: Option<usize>,
     /// ADC codes: quantise to N-bit integer codes (1 to 32) over --range like an ideal
-    /// converter, mid-tread; CSV or raw output (raw in the smallest u8/u16/u32 or i8/i16/i32).
+    /// converter, mid-tread; CSV, raw, .npy or C header output (raw in the smallest
+    /// u8/u16/u32 or i8/i16/i32).
     #[arg(long, value_name = "N")]
     pub bits: Option<u32>,
     /// The ADC's input range in the profile's unit, e.g. `-1.65V..1.65V` or `0V..3.3V`
@@ -84,7 +85,7 @@ pub struct GenerateArgs {
     #[arg(long, value_name = "LO..HI", allow_hyphen_values = true)]
     pub range: Option<String>,
     /// ADC code numbering: `twos` (two's complement, signed; default when the range holds
-    /// both signs) or `offset` (offset binary, unsigned; default otherwise).
+    /// both signs) or `offset-binary` (unsigned; default otherwise; `offset` is accepted too).
     #[arg(long, value_name = "CODING")]
     pub code: Option<String>,
     /// Dither added before rounding: `tpdf` (triangular, ±1 LSB peak) or `none` (default).

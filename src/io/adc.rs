@@ -82,8 +82,19 @@ pub enum Coding {
 }
 
 impl Coding {
-    /// `"twos"` or `"offset"`, as accepted by [`FromStr`].
+    /// `"twos"` or `"offset-binary"`, as accepted by [`FromStr`].
     pub fn name(self) -> &'static str {
+        match self {
+            Coding::Twos => "twos",
+            Coding::Offset => "offset-binary",
+        }
+    }
+}
+
+impl Coding {
+    /// The short tag in CSV column names (`code_offset_12bit`) and C header comments:
+    /// `twos` or `offset`, as files have always carried it.
+    pub fn tag(self) -> &'static str {
         match self {
             Coding::Twos => "twos",
             Coding::Offset => "offset",
@@ -100,16 +111,16 @@ impl fmt::Display for Coding {
 impl FromStr for Coding {
     type Err = Error;
 
-    /// Parses `twos` or `offset`.
+    /// Parses `twos` or `offset-binary` (also `offset`, its earlier spelling).
     fn from_str(s: &str) -> Result<Coding> {
         match s.trim() {
             "twos" => Ok(Coding::Twos),
-            "offset" => Ok(Coding::Offset),
+            "offset-binary" | "offset" => Ok(Coding::Offset),
             _ => Err(Error::setting(
                 Setting::Code,
                 format!(
-                    "expected twos (two's complement, signed) or offset (offset binary, \
-                     unsigned), got {s:?}"
+                    "expected twos (two's complement, signed) or offset-binary (unsigned), \
+                     got {s:?}"
                 ),
             )),
         }

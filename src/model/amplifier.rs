@@ -128,7 +128,7 @@ impl StagePart {
                 "i_n{} \u{d7} {} ({})",
                 match input {
                     Input::Plus => "+",
-                    Input::Minus => "\u{2212}",
+                    Input::Minus => "-",
                 },
                 resistor.symbol(),
                 ohms(*resistance_ohm)
@@ -352,7 +352,7 @@ mod tests {
             ("voltage noise", 50.00),
             ("Rs thermal (1 k\u{3a9})", 40.58),
             ("i_n+ \u{d7} Rs (1 k\u{3a9})", 10.00),
-            ("i_n\u{2212} \u{d7} Rf (9 k\u{3a9})", 9.00),
+            ("i_n- \u{d7} Rf (9 k\u{3a9})", 9.00),
             ("Rf thermal (9 k\u{3a9})", 12.17),
             ("Rg thermal (1 k\u{3a9})", 36.52),
         ];
@@ -394,7 +394,7 @@ mod tests {
         let gn2 = s.noise_gain().powi(2);
         let net = power("Rf thermal (9 k\u{3a9})") + power("Rg thermal (1 k\u{3a9})");
         assert!((net / (gn2 * four_kt * par) - 1.0).abs() < 1e-14);
-        let cur = power("i_n\u{2212} \u{d7} Rf (9 k\u{3a9})");
+        let cur = power("i_n- \u{d7} Rf (9 k\u{3a9})");
         assert!((cur / (gn2 * (1e-12 * par).powi(2)) - 1.0).abs() < 1e-14);
     }
 
@@ -426,7 +426,7 @@ mod tests {
                 5.5 * (four_kt * 500.0).sqrt()
             ) < 1e-15
         );
-        assert!(rel(get("i_n\u{2212} \u{d7} Rf (9 k\u{3a9})"), 9e-9) < 1e-15);
+        assert!(rel(get("i_n- \u{d7} Rf (9 k\u{3a9})"), 9e-9) < 1e-15);
         assert!(rel(get("Rf thermal (9 k\u{3a9})"), (four_kt * 9e3).sqrt()) < 1e-15);
         assert!(rel(get("Rg thermal (1 k\u{3a9})"), 4.5 * (four_kt * 1e3).sqrt()) < 1e-15);
         assert!(rel(get("Rs thermal (1 k\u{3a9})"), 4.5 * (four_kt * 1e3).sqrt()) < 1e-15);

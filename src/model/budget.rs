@@ -23,6 +23,7 @@ use std::io::{self, Write};
 
 use serde::Serialize;
 
+use crate::model::amplifier::StagePart;
 use crate::model::burst::BurstModel;
 use crate::model::density::{
     BOLTZMANN, butterworth_enbw_ratio, floor_band_variance, integrate_pieces,
@@ -305,7 +306,23 @@ pub struct BandBudget {
     pub notes: Vec<String>,
     /// The profile's tones against this band's noise, in profile order.
     pub tones: Vec<ToneBudget>,
+    /// The integrated noise: RMS in the profile unit from `low_hz` up to each frequency,
+    /// 20 points per decade up to `high_hz` (the last is [`band_rms`](Self::band_rms)).
+    pub integrated: Integrated,
 }
+
+/// Integrated noise: the RMS from a band's low edge up to each frequency (common practice
+/// for reading how much of a band's RMS lies below a frequency).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Integrated {
+    /// Upper ends of the integral in Hz, increasing.
+    pub frequency_hz: Vec<f64>,
+    /// RMS in the profile unit from the band's low edge up to each frequency.
+    pub rms: Vec<f64>,
+}
+
+/// Points per decade of an [`Integrated`] curve.
+pub const INTEGRATED_PER_DECADE: usize = 20;
 
 /// One tone of the profile against a band's noise.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -353,10 +370,13 @@ pub struct Budget {
     pub densities: Vec<DensityRow>,
     /// The white floor in unit/√Hz: √(Σ white levels), above the 1/f corners and below the
     /// band edge and any closed-loop pole.
-    pub white_floor: f64,
-    /// The resistance in Ω whose thermal noise at 25 °C equals the white floor: e²/(4kT) in a
-    /// volt profile, 4kT/i² in an ampere profile.
+    pub floor_density: f64,
+    /// The resistance in Ω whose thermal noise at [`floor_temperature_k`](Self::floor_temperature_k)
+    /// equals the white floor: e²/(4kT) in a volt profile, 4kT/i² in an ampere profile.
     pub floor_resistance_ohm: f64,
+    /// The temperature in K of that resistance: the profile's resistors' when they share one,
+    /// else 25 °C.
+    pub floor_temperature_k: f64,
     /// The file RMS of the noise in the profile unit: what a file generated from the profile
     /// holds (its designed density up to fs/2, bursts included, their mean excluded). Made
     /// from the design, so [`budget`] leaves it `None`; [`crate::run::budget::budget_of`]
@@ -398,9 +418,10 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
         })
         .collect();
     let white: f64 = profile.sources.iter().map(|s| white_psd(s, profile)).sum();
-    let four_kt = 4.0 * BOLTZMANN * DEFAULT_TEMPERATURE_K;
+    let floor_temperature_k = resistor_temperature_k(profile);
+    let four_kt = 4.0 * BOLTZMANN * floor_temperature_k;
     let floor_resistance_ohm = match profile.unit {
-        Unit::Volt => resistance_for_density(white.sqrt(), DEFAULT_TEMPERATURE_K),
+        Unit::Volt => resistance_for_density(white.sqrt(), floor_temperature_k),
         Unit::Ampere => four_kt / white,
     };
     Budget {
@@ -414,9 +435,27 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
             .chain(bursts.iter().map(|m| m.burst().name.clone()))
             .collect(),
         densities,
-        white_floor: white.sqrt(),
+        floor_density: white.sqrt(),
         floor_resistance_ohm,
+        floor_temperature_k,
         file_noise_rms: None,
+    }
+}
+
+/// The temperature in K of the profile's resistors (`[[resistor]]` sources and an amplifier
+/// stage's resistors) when they all share one, else 25 °C.
+fn resistor_temperature_k(profile: &Profile) -> f64 {
+    let mut temps = profile.sources.iter().filter_map(|s| match &s.kind {
+        SourceKind::Resistor { temperature_k, .. } => Some(*temperature_k),
+        SourceKind::AmplifierPart {
+            part: StagePart::Thermal { temperature_k, .. },
+            ..
+        } => Some(*temperature_k),
+        _ => None,
+    });
+    match temps.next() {
+        Some(t) if temps.all(|u| u == t) => t,
+        _ => DEFAULT_TEMPERATURE_K,
     }
 }
 
@@ -644,9 +683,10 @@ fn share_notes(
 ) -> Vec<String> {
     let q = |x: f64| format_quantity(x, unit);
     let mut notes = Vec::new();
+    // With one source there are no others to compare it with.
     if let Some(top) = sources
         .iter()
-        .filter(|s| s.share >= DOMINANT_SHARE)
+        .filter(|s| sources.len() > 1 && s.share >= DOMINANT_SHARE)
         .max_by(|a, b| a.share.total_cmp(&b.share))
     {
         notes.push(format!(
@@ -746,7 +786,39 @@ fn band_budget(profile: &Profile, band: &BandSpec) -> BandBudget {
         amplifier_rms: amplifier_var.sqrt(),
         notes,
         tones: tone_budgets(profile, band, band_variance),
+        integrated: integrated(&inputs),
     }
+}
+
+/// The band's integrated noise from its low to its high edge, [`INTEGRATED_PER_DECADE`]
+/// points per decade, each piece integrated once and summed (powers add).
+fn integrated(inputs: &BandInputs<'_>) -> Integrated {
+    let band = inputs.band;
+    let frequency_hz = log_spaced(band.low_hz, band.high_hz, INTEGRATED_PER_DECADE);
+    let mut variance = 0.0;
+    let mut from = band.low_hz;
+    let rms = frequency_hz
+        .iter()
+        .map(|&f| {
+            variance += inputs.variance_between(from, f);
+            from = f;
+            variance.sqrt()
+        })
+        .collect();
+    Integrated { frequency_hz, rms }
+}
+
+/// `per_decade` frequencies per decade from `lo` to `hi` Hz (both included, at least two),
+/// evenly spaced in log f.
+pub fn log_spaced(lo: f64, hi: f64, per_decade: usize) -> Vec<f64> {
+    let n = (((hi / lo).log10() * per_decade as f64).ceil() as usize).max(1);
+    (0..=n)
+        .map(|i| match i {
+            0 => lo,
+            i if i == n => hi,
+            i => lo * (hi / lo).powf(i as f64 / n as f64),
+        })
+        .collect()
 }
 
 /// Parse a band such as `0.1Hz..10Hz`, `"20 Hz .. 20 kHz"` or `1..100` (bare numbers in Hz),
@@ -842,14 +914,15 @@ fn write_band_sources(
             100.0 * s.share
         )?;
     }
-    let closed = b.rms_closed_form.map_or("none".to_string(), q);
+    let forms = match b.rms_closed_form {
+        Some(c) => format!("closed form {}, numeric {}", q(c), q(b.rms_numeric)),
+        None => format!("no closed form; numeric {}", q(b.rms_numeric)),
+    };
     writeln!(
         out,
-        "  {:<width$}  {:>12}  (analog: through the band's filter to infinity; closed form \
-         {closed}, numeric {})",
+        "  {:<width$}  {:>12}  (analog: through the band's filter to infinity; {forms})",
         "total",
         q(b.rms),
-        q(b.rms_numeric)
     )?;
     writeln!(
         out,
@@ -936,9 +1009,10 @@ fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io
     };
     writeln!(
         out,
-        "white floor {}: the {law} of {} at 25 \u{b0}C",
-        format_quantity(budget.white_floor, &density_unit),
-        format_quantity(budget.floor_resistance_ohm, "\u{3a9}")
+        "white floor {}: the {law} of {} at {}",
+        format_quantity(budget.floor_density, &density_unit),
+        format_quantity(budget.floor_resistance_ohm, "\u{3a9}"),
+        format_quantity(budget.floor_temperature_k - 273.15, "\u{b0}C")
     )?;
     Ok(())
 }
@@ -948,8 +1022,8 @@ fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io
 /// "p2p_6sigma", "p2p_6_6sigma", "rms_to_nyquist", "sources": [ { "name", "class", "rms", "share",
 /// "rms_numeric", "rms_closed_form" } ], "per_decade": [ { "low_hz", "high_hz", "rms" } ],
 /// "resistor_rms", "amplifier_rms", "notes", "tones": [ { "name", "frequency_hz", "peak",
-/// "rms", "in_band", "snr_db", "enob_bits" } ] } ], "source_names", "densities": [ {
-/// "frequency_hz", "sources", "total" } ], "white_floor", "floor_resistance_ohm" }`. RMS values
+/// "rms", "in_band", "snr_db", "enob_bits" } ], "integrated": { "frequency_hz", "rms" } } ], "source_names", "densities": [ {
+/// "frequency_hz", "sources", "total" } ], "floor_density", "floor_resistance_ohm", "floor_temperature_k" }`. RMS values
 /// are in `unit`, densities in `unit`/√Hz, frequencies in Hz, shares 0..1.
 pub fn to_json(budget: &Budget) -> serde_json::Value {
     serde_json::to_value(budget).expect("a budget holds only numbers and strings")
@@ -999,7 +1073,7 @@ mod tests {
             );
         }
         assert!((row.total * 1e9 - 76.22).abs() <= 0.005);
-        assert!((b.white_floor * 1e9 - 76.22).abs() <= 0.005);
+        assert!((b.floor_density * 1e9 - 76.22).abs() <= 0.005);
         let rti = budget(&profile(&format!("{WORKED}refer = \"input\"\n")), &[]);
         assert!((rti.densities[0].total * 1e9 - 7.622).abs() <= 0.0005);
         // Resistor thermal power 40.58² + 12.17² + 36.52² exceeds the amplifier's
@@ -1027,7 +1101,7 @@ mod tests {
     fn johnson_nyquist_values_through_the_budget() {
         let b = budget(&profile("[[resistor]]\nresistance = \"1 kOhm\"\n"), &[]);
         assert!((b.densities[0].sources[0] * 1e9 - 4.0578).abs() <= 0.00005);
-        assert!((b.white_floor * 1e9 - 4.0578).abs() <= 0.00005);
+        assert!((b.floor_density * 1e9 - 4.0578).abs() <= 0.00005);
         assert!((b.floor_resistance_ohm - 1e3).abs() < 1e-9);
         let f = budget(&profile("[[floor]]\ndensity = \"1 nV/rtHz\"\n"), &[]);
         assert!((f.floor_resistance_ohm - 60.73).abs() <= 0.005);
@@ -1039,7 +1113,7 @@ mod tests {
         )
         .unwrap();
         let ab = budget(&a, &[]);
-        assert!((ab.white_floor * 1e12 - 4.058).abs() <= 0.0005);
+        assert!((ab.floor_density * 1e12 - 4.058).abs() <= 0.0005);
         assert!(rel(ab.floor_resistance_ohm, 1e3) < 1e-12);
     }
 

@@ -208,12 +208,12 @@ impl Profile {
     ///   "sample_rate_hz": 48000.0,
     ///   "band": { "low_hz": 20.0, "high_hz": 20000.0, "order": 2 },
     ///   "sources": [
-    ///     { "name": "floor 1", "kind": "floor", "density_per_rthz": 4e-9,
+    ///     { "name": "floor 1", "kind": "floor", "density": 4e-9,
     ///       "corner_hz": 100.0 | null, "slope": 1.0 },
     ///     { "name": "resistor 1 (10 kΩ)", "kind": "resistor",
     ///       "resistance_ohm": 10000.0, "temperature_k": 298.15 },
     ///     { "name": "table 1", "kind": "table",
-    ///       "points": [ { "frequency_hz": 1.0, "density_per_rthz": 3e-8 } ] } ],
+    ///       "points": [ { "frequency_hz": 1.0, "density": 3e-8 } ] } ],
     ///   "bursts": [
     ///     { "name": "burst 1", "levels": [0.0, 3e-6],   // in the unit
     ///       "dwell_s": [0.02, 0.005], "next": [[0.0, 1.0], [1.0, 0.0]],
@@ -236,7 +236,7 @@ impl Profile {
                 } => json!({
                     "name": s.name,
                     "kind": "floor",
-                    "density_per_rthz": density,
+                    "density": density,
                     "corner_hz": corner_hz,
                     "slope": slope,
                 }),
@@ -254,7 +254,7 @@ impl Profile {
                     "kind": "table",
                     "points": points
                         .iter()
-                        .map(|&(f, d)| json!({ "frequency_hz": f, "density_per_rthz": d }))
+                        .map(|&(f, d)| json!({ "frequency_hz": f, "density": d }))
                         .collect::<Vec<_>>(),
                 }),
                 SourceKind::AmplifierPart {
@@ -270,7 +270,7 @@ impl Profile {
                     "stage": stage,
                     "part": part,
                     "refer": refer,
-                    "density_per_rthz": density,
+                    "density": density,
                     "corner_hz": corner_hz,
                     "pole_hz": pole_hz,
                 }),
@@ -353,7 +353,7 @@ mod tests {
         let s = &j["sources"];
         assert_eq!(s[0]["kind"], "floor");
         assert_eq!(s[0]["name"], "floor 1");
-        assert_eq!(s[0]["density_per_rthz"], 2e-12);
+        assert_eq!(s[0]["density"], 2e-12);
         assert_eq!(s[0]["corner_hz"], 5.0);
         assert_eq!(s[0]["slope"], 1.0);
         assert_eq!(s[1]["kind"], "resistor");
@@ -361,6 +361,6 @@ mod tests {
         assert_eq!(s[1]["temperature_k"], 298.15);
         assert_eq!(s[2]["kind"], "table");
         assert_eq!(s[2]["points"][0]["frequency_hz"], 1.0);
-        assert_eq!(s[2]["points"][0]["density_per_rthz"], 3e-12);
+        assert_eq!(s[2]["points"][0]["density"], 3e-12);
     }
 }

@@ -3,6 +3,7 @@
 //! pictures inline ([`html`]).
 
 pub mod chart;
+pub mod figure;
 pub mod html;
 
 /// Escapes `& < > "` for HTML and SVG text and attributes.

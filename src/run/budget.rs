@@ -12,7 +12,8 @@ use super::guard::{Read, Written, check_outputs};
 use crate::error::{Error, Result, Setting};
 use crate::model::budget::{BandSpec, Budget, parse_band, write_text};
 use crate::profile::{MAX_ORDER, Profile};
-use crate::report::chart::{budget_chart, write_density_svg};
+use crate::report::chart::budget_figures;
+use crate::report::figure::page;
 use crate::stop::Stop;
 use crate::synth::{Generator, design_profile_until};
 
@@ -112,8 +113,8 @@ pub fn budget_text(budget: &Budget) -> String {
     String::from_utf8(out).expect("the budget text is UTF-8")
 }
 
-/// Draws every source's density, the total and the band edges of `budget` (made from
-/// `profile`) as a 1000 × 640 px SVG file at `path`. It is written beside the target and
+/// Draws `budget`'s pictures (made from `profile`): every source's density, the total, the
+/// band edges and tones, and each band's integrated noise, as one SVG file at `path`. It is written beside the target and
 /// renamed, so a failure leaves no half-written chart. A path that is the profile's own file
 /// (by any name or link) is refused, as is one that names a folder.
 pub fn write_budget_chart(profile: &Profile, budget: &Budget, path: &Path) -> Result<()> {
@@ -130,10 +131,9 @@ pub fn write_budget_chart(profile: &Profile, budget: &Budget, path: &Path) -> Re
         }],
         profile_file.as_slice(),
     )?;
-    let mut svg = Vec::new();
-    write_density_svg(&budget_chart(profile, budget), 1000, 640, &mut svg)?;
+    let svg = page(&budget_figures(profile, budget));
     let out = PendingFile::create(path)?;
-    out.write_all(&svg)?;
+    out.write_all(svg.as_bytes())?;
     out.commit()
 }
 
@@ -187,7 +187,7 @@ mod tests {
     }
 
     #[test]
-    fn white_floor_budget_is_its_closed_form() {
+    fn floor_density_budget_is_its_closed_form() {
         // A brick-wall band of white noise holds e·√(high − low) (closed form).
         let p = Profile::from_toml_str(PROFILE, "t").unwrap();
         let bands = budget_bands(&p, &["100Hz..10100Hz"], Some(0)).unwrap();

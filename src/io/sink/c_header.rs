@@ -291,7 +291,7 @@ fn preamble(spec: &SinkSpec, frames: u64) -> String {
         s += &format!(" * {}\n", comment_safe(line));
     }
     let stored = match &spec.adc {
-        Some(a) => format!("{}-bit {} ADC codes", a.bits(), a.coding()),
+        Some(a) => format!("{}-bit {} ADC codes", a.bits(), a.coding().tag()),
         None => sf.to_string(),
     };
     s += &format!(

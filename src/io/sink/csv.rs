@@ -222,7 +222,7 @@ fn value_columns(spec: &SinkSpec) -> String {
 /// The value column's name for `spec` (see [`CsvSink`]).
 fn value_column(spec: &SinkSpec) -> String {
     if let Some(adc) = &spec.adc {
-        return format!("code_{}_{}bit", adc.coding(), adc.bits());
+        return format!("code_{}_{}bit", adc.coding().tag(), adc.bits());
     }
     match spec.full_scale {
         None => format!("value_{}", spec.unit.symbol()),

@@ -398,7 +398,7 @@ temperature = "25 C"
                 "pre: voltage noise",
                 "pre: i_n+ \u{d7} Rs (1 k\u{3a9})",
                 "pre: Rs thermal (1 k\u{3a9})",
-                "pre: i_n\u{2212} \u{d7} Rf (9 k\u{3a9})",
+                "pre: i_n- \u{d7} Rf (9 k\u{3a9})",
                 "pre: Rf thermal (9 k\u{3a9})",
                 "pre: Rg thermal (1 k\u{3a9})",
             ]
@@ -423,7 +423,7 @@ temperature = "25 C"
         assert_eq!(rs["part"]["resistance_ohm"], 1e3);
         assert_eq!(rs["corner_hz"], serde_json::Value::Null);
         // REFERENCES §7 [V]: G_n·√(4kT·1 kΩ) = 40.58 nV/√Hz at 25 °C.
-        assert!((rs["density_per_rthz"].as_f64().unwrap() * 1e9 - 40.58).abs() <= 0.005);
+        assert!((rs["density"].as_f64().unwrap() * 1e9 - 40.58).abs() <= 0.005);
         // Per-input current noise overrides the shared value; refer = input divides by 10.
         let q = parse_profile(
             &STAGE.replace(

@@ -228,7 +228,7 @@ pub(super) fn lines(
         .exclude
         .iter()
         .zip(&user)
-        .map(|(&(lo, hi), r)| json!({"f_lo_hz": lo, "f_hi_hz": hi, "excluded_bins": [r.start, r.end]}))
+        .map(|(&(lo, hi), r)| json!({"low_hz": lo, "high_hz": hi, "excluded_bins": [r.start, r.end]}))
         .collect();
     (spurs, json!(excluded))
 }
@@ -294,8 +294,8 @@ pub(super) fn pp_json(s: &Setup, m: &Measured, bench: &BenchSpec, window: usize)
         _ => (None, None),
     };
     json!({
-        "band_lo_hz": lo,
-        "band_hi_hz": hi,
+        "low_hz": lo,
+        "high_hz": hi,
         "window_s": bench.pp_window_s,
         "window_samples": window,
         "settling_s": bench.settle_samples(fs) as f64 / fs,
@@ -309,7 +309,7 @@ pub(super) fn pp_json(s: &Setup, m: &Measured, bench: &BenchSpec, window: usize)
         "max": p.iter().copied().fold(f64::NAN, f64::max),
         "sigma_band": sigma,
         "sigma_filtered": sigma_filtered,
-        "expected_6sigma": sigma.map(|v| 6.0 * v),
-        "expected_6_6sigma": sigma.map(|v| 6.6 * v),
+        "expected_p2p_6sigma": sigma.map(|v| 6.0 * v),
+        "expected_p2p_6_6sigma": sigma.map(|v| 6.6 * v),
     })
 }

@@ -14,6 +14,7 @@ mod bench;
 mod fit;
 mod measure;
 mod output;
+mod pictures;
 mod read;
 mod setup;
 mod summary;
@@ -385,6 +386,8 @@ impl<'a> Analysis<'a> {
         let (tones, tone_bins) = verdict::tones(&setup, &mut measured, &mut notes, interrupted)?;
         let (spurs, excluded) = bench::lines(&setup, &mut measured, &tone_bins, &setup.bench);
         let comparison = verdict::compare(&setup, &measured, &mut notes);
+        let left_out = pictures::left_out_bins(&serde_json::json!(tones), &spurs, &excluded);
+        let integrated = pictures::integrated(&setup, &measured, &left_out);
         let fs = setup.info.sample_rate_hz;
         let (dc, drift) = bench::drift_json(&measured.trend, fs, !setup.bench.keep_drift);
         let pp = bench::pp_json(&setup, &measured, &setup.bench, measured.pp_window);
@@ -405,6 +408,7 @@ impl<'a> Analysis<'a> {
         json["spurs"] = spurs;
         json["excluded"] = excluded;
         json["window_peak_to_peak"] = pp;
+        json["integrated"] = serde_json::json!(integrated);
         let fitted = match &self.s.fit {
             Some(path) => {
                 let (toml, fit_json) = fit::fit(&setup, &report)?;
@@ -414,7 +418,15 @@ impl<'a> Analysis<'a> {
             }
             None => None,
         };
-        outputs.write(&report, &json, fitted.as_deref(), &setup)?;
+        let left_out_hz = pictures::left_out_hz(&left_out, report.spectrum.bin_width_hz());
+        outputs.write(
+            &report,
+            &json,
+            fitted.as_deref(),
+            &setup,
+            &left_out_hz,
+            integrated.as_ref(),
+        )?;
         let summary = summary::summary_text(&report, &json, setup.profile.as_ref())
             + &summary::tone_text(&json, &report.unit);
         let verdict = verdict::verdict(&report, &setup);

@@ -6,8 +6,11 @@ use std::path::PathBuf;
 use super::setup::Setup;
 use super::{Analysis, Input, ProfileInput, Settings};
 use crate::analysis::capture::CaptureReport;
+use crate::analysis::integrated::IntegratedNoise;
 use crate::error::{Result, Setting};
-use crate::report::{chart, html};
+use crate::report::chart::{AnalysisView, analysis_figures};
+use crate::report::figure::page;
+use crate::report::html::{self, ReportFigures};
 use crate::run::guard::{Read, Written, check_outputs};
 use crate::run::{PendingFile, commit_all, manifest_path};
 
@@ -73,31 +76,49 @@ impl Outputs {
         })
     }
 
-    /// Writes the fitted profile's `fit_toml`, the density picture and the report (with
-    /// `json`, every number), then renames them all into place.
+    /// Writes the fitted profile's `fit_toml`, the pictures (density and integrated noise)
+    /// and the report (with `json`, every number, and every picture), then renames them all
+    /// into place. `left_out` lists the spans (Hz) left out of the verdict.
     pub(super) fn write(
         self,
         report: &CaptureReport,
         json: &serde_json::Value,
         fit_toml: Option<&str>,
         s: &Setup,
+        left_out: &[(f64, f64)],
+        integrated: Option<&IntegratedNoise>,
     ) -> Result<()> {
         if let (Some(out), Some(toml)) = (&self.fit, fit_toml) {
             out.write_all(toml.as_bytes())?;
         }
-        let density_svg = (self.plot.is_some() || self.report.is_some())
-            .then(|| chart::density_svg(report, s.profile.as_ref(), s.design.as_ref()));
-        if let (Some(out), Some(svg)) = (&self.plot, &density_svg) {
-            out.write_all(svg.as_bytes())?;
-        }
-        if let Some(out) = &self.report {
-            let html = html::report_html(
+        if self.plot.is_some() || self.report.is_some() {
+            let tones: Vec<f64> = json["tones"]
+                .as_array()
+                .map_or(&[][..], |t| t.as_slice())
+                .iter()
+                .filter_map(|t| t["frequency_hz"].as_f64())
+                .collect();
+            let view = AnalysisView {
                 report,
-                json,
-                density_svg.as_deref().unwrap_or(""),
-                s.profile.as_ref(),
-            );
-            out.write_all(html.as_bytes())?;
+                file: json["file"]["name"].as_str().unwrap_or("capture"),
+                profile: s.profile.as_ref(),
+                design: s.design.as_ref(),
+                left_out,
+                tones: &tones,
+                integrated,
+            };
+            let (figures, amplitude) = analysis_figures(&view);
+            if let Some(out) = &self.plot {
+                out.write_all(page(&figures).as_bytes())?;
+            }
+            if let Some(out) = &self.report {
+                let parts = ReportFigures {
+                    density: figures,
+                    amplitude,
+                };
+                let html = html::report_html(report, json, &parts, s.profile.as_ref());
+                out.write_all(html.as_bytes())?;
+            }
         }
         commit_all(
             [self.fit, self.plot, self.report]

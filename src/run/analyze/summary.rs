@@ -294,7 +294,7 @@ fn spur_text(json: &serde_json::Value, unit: &str) -> String {
         .map_or(&[][..], |v| v.as_slice())
         .iter()
         .map(|e| {
-            let (lo, hi) = (num(&e["f_lo_hz"]), num(&e["f_hi_hz"]));
+            let (lo, hi) = (num(&e["low_hz"]), num(&e["high_hz"]));
             if lo == hi {
                 format_quantity(lo, "Hz")
             } else {
@@ -324,8 +324,8 @@ fn pp_text(json: &serde_json::Value, unit: &str) -> String {
     let num = |k: &str| pp[k].as_f64().unwrap_or(f64::NAN);
     let mut s = format!(
         "  window p-p      {}..{}, {} windows of {}: median {}, largest {}",
-        format_quantity(num("band_lo_hz"), "Hz"),
-        format_quantity(num("band_hi_hz"), "Hz"),
+        format_quantity(num("low_hz"), "Hz"),
+        format_quantity(num("high_hz"), "Hz"),
         pp["windows"].as_u64().unwrap_or(0),
         format_quantity(num("window_s"), "s"),
         format_quantity(num("median"), unit),
@@ -334,8 +334,8 @@ fn pp_text(json: &serde_json::Value, unit: &str) -> String {
     if pp["sigma_band"].is_number() {
         s += &format!(
             "; profile 6σ {}, 6.6σ {} (σ {} in the band, {} through the filter)",
-            format_quantity(num("expected_6sigma"), unit),
-            format_quantity(num("expected_6_6sigma"), unit),
+            format_quantity(num("expected_p2p_6sigma"), unit),
+            format_quantity(num("expected_p2p_6_6sigma"), unit),
             format_quantity(num("sigma_band"), unit),
             format_quantity(num("sigma_filtered"), unit),
         );

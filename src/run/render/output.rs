@@ -278,7 +278,28 @@ fn summary(
     notes: &[String],
 ) -> String {
     let profile = &plan.profile;
-    let mut text = summary_text(
+    // What the run holds besides the Gaussian noise, between the expected and the measured
+    // lines, so every summary keeps one order.
+    let mut details = String::new();
+    if plan.segment {
+        details += &format!(
+            "  start           sample {} ({} s); a segment of the run from 0\n",
+            plan.start,
+            plan.start as f64 / profile.sample_rate_hz
+        );
+    }
+    let (var, mean) = (built.expected_variance, built.expected_mean);
+    if let Some(g) = &built.generator {
+        details += &burst_summary(&g.borrow(), profile, var, mean);
+    }
+    if let Some(fg) = &built.figures {
+        details += &tone_summary(profile, fg, built.band_variance, plan.adc.as_ref());
+    }
+    if let Some(m) = &built.multi {
+        details += &burst_summary(m.borrow().generator(), profile, var, mean);
+        details += &channel_summary(profile, built.expected_rms, &measured.channels);
+    }
+    summary_text(
         profile,
         shown,
         s,
@@ -288,30 +309,12 @@ fn summary(
             built.noise_variance.sqrt(),
             built.expected_rms,
         ],
+        &details,
         &measured.all,
         report.clipped,
         plan.adc.as_ref(),
         notes,
-    );
-    if plan.segment {
-        text += &format!(
-            "  start           sample {} ({} s); a segment of the run from 0\n",
-            plan.start,
-            plan.start as f64 / profile.sample_rate_hz
-        );
-    }
-    let (var, mean) = (built.expected_variance, built.expected_mean);
-    if let Some(g) = &built.generator {
-        text += &burst_summary(&g.borrow(), profile, var, mean);
-    }
-    if let Some(fg) = &built.figures {
-        text += &tone_summary(profile, fg, built.band_variance, plan.adc.as_ref());
-    }
-    if let Some(m) = &built.multi {
-        text += &burst_summary(m.borrow().generator(), profile, var, mean);
-        text += &channel_summary(profile, built.expected_rms, &measured.channels);
-    }
-    text
+    )
 }
 
 /// Round a peak up to two significant digits (a full scale that holds it).

@@ -105,14 +105,17 @@ pub(super) fn quantisation_note(
 }
 
 #[allow(clippy::too_many_arguments)]
-/// The run's summary; `figures` are the band RMS, the file RMS of the noise and the expected
-/// RMS of the samples (AC + DC), in the profile unit.
+/// The run's summary, its lines always in one order: name, band, expected RMS, peak-to-peak
+/// (here, or in `details` with bursts or tones), `details` (segment, bursts, tones,
+/// channels), measured, scale, clipped, seed, notes. `figures` are the band RMS, the file RMS
+/// of the noise and the expected RMS of the samples (AC + DC), in the profile unit.
 pub(super) fn summary_text(
     profile: &Profile,
     out: &str,
     s: &Settings,
     scale: &Scale,
     figures: [f64; 3],
+    details: &str,
     stats: &RunningStats,
     clipped: u64,
     adc: Option<&Adc>,
@@ -161,6 +164,7 @@ pub(super) fn summary_text(
             q(6.6 * file_noise_rms)
         );
     }
+    s += details;
     s += &format!(
         "  measured        RMS {}, std {}, mean {}, peak-to-peak {}\n",
         q(stats.rms()),
