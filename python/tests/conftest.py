@@ -16,6 +16,16 @@ REPO = Path(__file__).resolve().parents[2]
 PROFILES = sorted((REPO / "profiles").glob("*.toml"))
 
 
+def pytest_report_header(config):
+    import numpy
+    import scipy
+
+    import noisewright
+
+    return (f"noisewright {noisewright.__version__} from {noisewright.__file__}; "
+            f"numpy {numpy.__version__}, scipy {scipy.__version__}")
+
+
 def _build_binary() -> Path:
     out = subprocess.run(
         ["cargo", "build", "--release", "--locked", "--bin", "noisewright",
