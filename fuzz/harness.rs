@@ -164,6 +164,8 @@ pub fn capture(data: &[u8]) -> Result<(), Refusal> {
         name: CAPTURE_FILE.into(),
         // Bit 7: the length is known, as for a regular file, or not, as for a stream.
         length_bytes: (sel & 128 == 0).then_some(file.len() as u64),
+        // Bit 4 of a raw selector: two interleaved channels.
+        channels: (format == Format::Raw && sel & 16 != 0).then_some(2),
     };
     let input = Chunked {
         data: file,
@@ -180,7 +182,7 @@ pub fn capture(data: &[u8]) -> Result<(), Refusal> {
         match source.read_block(&mut out, max) {
             Ok(0) => return Ok(()),
             Ok(n) => assert!(
-                n <= max && n == out.len(),
+                n <= max * usize::from(source.info().channels) && n == out.len(),
                 "read_block returned {n} of {max}"
             ),
             Err(e) => return Err(refused(e)),

@@ -103,6 +103,8 @@ pub enum Setting {
     Start,
     /// The start of a segment as a sample index.
     StartSample,
+    /// One of several consecutive parts of a run (`K/N`).
+    Shard,
     /// The sample rate.
     Rate,
     /// One periodic buffer instead of a stream.
@@ -155,16 +157,21 @@ pub enum Setting {
     PpBand,
     /// The window of a low-frequency peak-to-peak measurement.
     PpWindow,
+    /// An Allan deviation picture's output file.
+    AllanPlot,
+    /// The channels of a capture to analyse.
+    Channel,
 }
 
 /// Every setting, for mapping names back.
-const SETTINGS: [Setting; 32] = [
+const SETTINGS: [Setting; 35] = [
     Setting::Profile,
     Setting::Output,
     Setting::Duration,
     Setting::Samples,
     Setting::Start,
     Setting::StartSample,
+    Setting::Shard,
     Setting::Rate,
     Setting::Loop,
     Setting::Format,
@@ -191,6 +198,8 @@ const SETTINGS: [Setting; 32] = [
     Setting::Exclude,
     Setting::PpBand,
     Setting::PpWindow,
+    Setting::AllanPlot,
+    Setting::Channel,
 ];
 
 /// Opens and closes a setting's mark inside a message: a mark is the setting's name between two
@@ -207,6 +216,7 @@ impl Setting {
             Setting::Samples => "samples",
             Setting::Start => "start",
             Setting::StartSample => "start_sample",
+            Setting::Shard => "shard",
             Setting::Rate => "rate",
             Setting::Loop => "loop",
             Setting::Format => "format",
@@ -233,6 +243,8 @@ impl Setting {
             Setting::Exclude => "exclude",
             Setting::PpBand => "pp_band",
             Setting::PpWindow => "pp_window",
+            Setting::AllanPlot => "allan_plot",
+            Setting::Channel => "channel",
         }
     }
 

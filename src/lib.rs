@@ -13,7 +13,11 @@
 //!   [`RenderReport`].
 //! - [`Analysis`]: everything `analyze` does, on a capture file or samples in memory, with
 //!   or without a profile; it returns an [`AnalysisReport`] holding the object
-//!   `analyze --json` prints, the summary and a [`Verdict`].
+//!   `analyze --json` prints, the summary and a [`Verdict`] (for a capture of several
+//!   channels, each channel's result and their correlation too).
+//! - [`Join`]: the shards of one run (`generate --shard K/N`, [`run::shard`]) put back into
+//!   one file and its manifest, byte for byte what a single run writes, checked to be every
+//!   part of one run once; it returns a [`JoinReport`].
 //! - [`budget`]: what each source contributes in a band ([`Budget`]); [`run::budget`] turns
 //!   band texts into [`BandSpec`]s and gives the text and chart `budget` prints (its JSON:
 //!   [`model::budget::to_json`]).
@@ -108,7 +112,9 @@ pub mod units;
 pub use error::{Error, Result, Setting};
 pub use model::budget::{BandSpec, Budget, budget};
 pub use profile::Profile;
-pub use run::{Analysis, AnalysisReport, Generator, Render, RenderReport, Verdict};
+pub use run::{
+    Analysis, AnalysisReport, Generator, Join, JoinReport, Render, RenderReport, Verdict,
+};
 
 /// The README's Rust example, compiled and run as a doctest.
 #[doc = include_str!("../README.md")]

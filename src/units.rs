@@ -1,5 +1,6 @@
-//! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s"; the
-//! physical constants the models use.
+//! Quantities with units: parsing "4 nV/rtHz", "48 kHz", "10 kOhm", "25 C", "10 s", a
+//! sensor's "25 ug/rtHz", "0.2 deg/rth", "3 deg/h" and sensitivity "20 mV/g" ([`UNITS`]);
+//! the physical constants the models use.
 //!
 //! A quantity is a decimal number (optional sign, optional fraction, optional exponent such as
 //! `4e-9`), optional whitespace, then a unit made of an optional SI prefix and a unit symbol.
@@ -27,10 +28,17 @@ pub enum Dimension {
     Temperature,
     /// Ohms (`Ohm`, `Ω`, with SI prefixes).
     Resistance,
-    /// The profile unit per √Hz (`V/rtHz`, `A/√Hz`, `V/sqrt(Hz)`, with SI prefixes).
+    /// The profile unit per √Hz (`V/rtHz`, `A/√Hz`, `V/sqrt(Hz)`, with SI prefixes), which is
+    /// also the unit·s^½ of a random-walk coefficient N: for an angular rate `°/√h`
+    /// (`deg/rth`, 1/60 (°/s)/√Hz), for an acceleration `m/s/√h` (`m/s/rth`).
     Density,
-    /// The profile unit itself (V or A, with SI prefixes), e.g. a full scale.
+    /// The profile unit itself (with SI prefixes), e.g. a full scale or a bias instability B;
+    /// for an angular rate also `°/h` (`deg/h`, 1/3600 °/s).
     Amplitude,
+    /// The profile unit·s^−½ (= unit·√Hz) of a rate random walk coefficient K: the unit per
+    /// √h (`deg/h/rth` = 1/216 000 °/s^1.5, `ug/rth`), per √s (`deg/s/rts`), or the unit per
+    /// second per √Hz (`deg/s/s/rtHz`).
+    RateWalk,
 }
 
 /// SI prefixes accepted in front of a unit symbol, with their decimal exponents.
@@ -50,6 +58,107 @@ const PREFIXES: &[(&str, i32)] = &[
 
 /// Ways of writing "per √Hz" after the numerator unit of a density.
 const PER_ROOT_HZ: &[&str] = &["/rtHz", "/\u{221a}Hz", "/sqrt(Hz)"];
+
+/// Ways of writing "per √h" (inertial practice: 1/√h = 1/(60 √s)).
+const PER_ROOT_HOUR: &[&str] = &["/rth", "/\u{221a}h", "/sqrt(h)"];
+
+/// Ways of writing "per √s".
+const PER_ROOT_SECOND: &[&str] = &["/rts", "/\u{221a}s", "/sqrt(s)"];
+
+/// A unit a profile's values may be in: its display symbol, its spellings (each may carry an
+/// SI prefix) and the spellings of its time integral (the angle of an angular rate, the
+/// velocity of an acceleration), which give the inertial practice forms `°/h`, `°/√h` and
+/// `m/s/√h`.
+#[derive(Debug)]
+pub struct UnitSpec {
+    /// The symbol shown in summaries, JSON documents, headers and plots, e.g. `"°/s"`.
+    pub symbol: &'static str,
+    /// Accepted spellings after an optional SI prefix; the first is the ASCII one.
+    pub spellings: &'static [&'static str],
+    /// Spellings of the unit's time integral (empty when it has none in practice).
+    pub integral: &'static [&'static str],
+    /// What the unit is, for messages (`"angular rate"`).
+    pub quantity: &'static str,
+}
+
+/// Every unit a profile may be in (the `unit` key). Standard gravity `g` is 9.806 65 m/s²
+/// exactly (3rd CGPM, 1901); noisewright keeps values in the unit as written and never
+/// converts between units, so each is exact.
+pub const UNITS: &[UnitSpec] = &[
+    UnitSpec {
+        symbol: "V",
+        spellings: &["V"],
+        integral: &[],
+        quantity: "voltage",
+    },
+    UnitSpec {
+        symbol: "A",
+        spellings: &["A"],
+        integral: &[],
+        quantity: "current",
+    },
+    UnitSpec {
+        symbol: "Pa",
+        spellings: &["Pa"],
+        integral: &[],
+        quantity: "pressure",
+    },
+    UnitSpec {
+        symbol: "K",
+        spellings: &["K"],
+        integral: &[],
+        quantity: "temperature",
+    },
+    UnitSpec {
+        symbol: "T",
+        spellings: &["T"],
+        integral: &[],
+        quantity: "magnetic flux density",
+    },
+    UnitSpec {
+        symbol: "m",
+        spellings: &["m"],
+        integral: &[],
+        quantity: "length",
+    },
+    UnitSpec {
+        symbol: "N",
+        spellings: &["N"],
+        integral: &[],
+        quantity: "force",
+    },
+    UnitSpec {
+        symbol: "m/s\u{b2}",
+        spellings: &["m/s^2", "m/s\u{b2}", "m/s2"],
+        integral: &["m/s"],
+        quantity: "acceleration",
+    },
+    UnitSpec {
+        symbol: "g",
+        spellings: &["g"],
+        integral: &[],
+        quantity: "acceleration",
+    },
+    UnitSpec {
+        symbol: "rad/s",
+        spellings: &["rad/s"],
+        integral: &["rad"],
+        quantity: "angular rate",
+    },
+    UnitSpec {
+        symbol: "\u{b0}/s",
+        spellings: &["deg/s", "\u{b0}/s"],
+        integral: &["deg", "\u{b0}"],
+        quantity: "angular rate",
+    },
+];
+
+/// The unit whose display symbol or one of whose spellings is `text` (no prefix).
+pub fn unit_spec(text: &str) -> Option<&'static UnitSpec> {
+    UNITS
+        .iter()
+        .find(|u| u.symbol == text || u.spellings.contains(&text))
+}
 
 /// Symbols of the ohm (spelled out, OHM SIGN, GREEK CAPITAL OMEGA).
 const OHM: &[&str] = &["Ohm", "ohm", "Ohms", "ohms", "\u{3a9}", "\u{2126}"];
@@ -80,10 +189,12 @@ pub fn parse_quantity(text: &str, dim: Dimension, unit: &str) -> Result<f64, Str
     let value = if unit_text.is_empty() {
         number.value(0)
     } else {
-        match resolve_unit(&unit_text, dim, unit)? {
+        match resolve_unit(&unit_text, dim, unit).map_err(|m| m.replace("\u{1}", trimmed))? {
             Some(Scale::Exp10(e)) => number.value(e),
             Some(Scale::Factor(k)) => number.value(0) * k,
             Some(Scale::Celsius) => number.value(0) + CELSIUS_ZERO_K,
+            Some(Scale::Ratio(e, 1.0)) => number.value(e),
+            Some(Scale::Ratio(e, div)) => number.value(e) / div,
             None => return Err(expected()),
         }
     };
@@ -108,13 +219,43 @@ pub(super) fn expectation(dim: Dimension, unit: &str) -> String {
             "expected a resistance such as \"10 kOhm\" or \"4.7 k\u{3a9}\", or a number in ohms"
                 .into()
         }
-        Dimension::Density => format!(
-            "expected a density such as \"4 n{unit}/rtHz\" (or n{unit}/\u{221a}Hz, \
-             n{unit}/sqrt(Hz)), or a number in {unit}/\u{221a}Hz"
-        ),
-        Dimension::Amplitude => {
-            format!("expected an amplitude such as \"10 u{unit}\", or a number in {unit}")
+        Dimension::Density => {
+            let (ascii, integral) = ascii_and_integral(unit);
+            format!(
+                "expected a density such as \"4 n{ascii}/rtHz\" (or n{unit}/\u{221a}Hz, \
+                 n{ascii}/sqrt(Hz)){}, or a number in {unit}/\u{221a}Hz",
+                integral
+                    .map(|i| format!(", or a random walk such as \"0.2 {i}/rth\" ({i}/\u{221a}h)"))
+                    .unwrap_or_default()
+            )
         }
+        Dimension::Amplitude => {
+            let (ascii, integral) = ascii_and_integral(unit);
+            format!(
+                "expected an amplitude such as \"10 u{ascii}\"{}, or a number in {unit}",
+                integral
+                    .map(|i| format!(" or \"3 {i}/h\""))
+                    .unwrap_or_default()
+            )
+        }
+        Dimension::RateWalk => {
+            let (ascii, integral) = ascii_and_integral(unit);
+            format!(
+                "expected a rate random walk such as \"10 u{ascii}/rth\"{} (a level per \
+                 \u{221a}h) or \"1 u{ascii}/s/rtHz\", or a number in {unit}\u{b7}s^-\u{bd}",
+                integral
+                    .map(|i| format!(" or \"0.5 {i}/h/rth\""))
+                    .unwrap_or_default()
+            )
+        }
+    }
+}
+
+/// The ASCII spelling of a unit symbol and the ASCII spelling of its integral, if any.
+fn ascii_and_integral(unit: &str) -> (&str, Option<&'static str>) {
+    match unit_spec(unit) {
+        Some(spec) => (spec.spellings[0], spec.integral.first().copied()),
+        None => (unit, None),
     }
 }
 
@@ -126,6 +267,9 @@ enum Scale {
     Factor(f64),
     /// Degrees Celsius to kelvin.
     Celsius,
+    /// Multiply by 10^e (via the decimal exponent), then divide by an exact integer
+    /// (60 for √h, 3600 for h).
+    Ratio(i32, f64),
 }
 
 /// Split `s` into an SI prefix and a remainder equal to one of `symbols`.
@@ -158,30 +302,172 @@ fn resolve_unit(u: &str, dim: Dimension, unit: &str) -> Result<Option<Scale>, St
             _ => prefixed(u, &["K"]).map(Scale::Exp10),
         },
         Dimension::Resistance => prefixed(u, OHM).map(Scale::Exp10),
-        Dimension::Density => {
-            let Some(numerator) = PER_ROOT_HZ.iter().find_map(|d| u.strip_suffix(d)) else {
+        Dimension::Density | Dimension::Amplitude | Dimension::RateWalk => {
+            let Some(spec) = unit_spec(unit) else {
                 return Ok(None);
             };
-            numerator_exp(numerator, unit)?.map(Scale::Exp10)
+            if let Some((e, div)) = in_unit(u, spec, dim) {
+                return Ok(Some(Scale::Ratio(e, div)));
+            }
+            return Err(misfit(u, spec, dim));
         }
-        Dimension::Amplitude => numerator_exp(u, unit)?.map(Scale::Exp10),
     })
 }
 
-/// The prefix exponent of `V`/`A` with a prefix; an error if it is the other of the two.
-fn numerator_exp(s: &str, unit: &str) -> Result<Option<i32>, String> {
-    if let Some(e) = prefixed(s, &[unit]) {
-        return Ok(Some(e));
+/// Recognise `u` as a value of `dim` in the unit `spec`: (prefix exponent, exact divisor).
+fn in_unit(u: &str, spec: &UnitSpec, dim: Dimension) -> Option<(i32, f64)> {
+    // Levels: the unit, or its integral per hour (°/h = 1/3600 °/s).
+    let per_hour: Vec<String> = spec.integral.iter().map(|i| format!("{i}/h")).collect();
+    let per_hour: Vec<&str> = per_hour.iter().map(String::as_str).collect();
+    let level = |s: &str| {
+        prefixed(s, spec.spellings)
+            .map(|e| (e, 1.0))
+            .or_else(|| prefixed(s, &per_hour).map(|e| (e, 3600.0)))
+    };
+    let with = |suffixes: &[&str], body: &dyn Fn(&str) -> Option<(i32, f64)>, k: f64| {
+        suffixes
+            .iter()
+            .filter_map(|d| u.strip_suffix(d))
+            .find_map(body)
+            .map(|(e, div)| (e, div * k))
+    };
+    let integral = |s: &str| prefixed(s, spec.integral).map(|e| (e, 1.0));
+    match dim {
+        Dimension::Amplitude => level(u),
+        // unit/√Hz = unit·s^½: the integral per √h (÷60) or per √s.
+        Dimension::Density => with(
+            PER_ROOT_HZ,
+            &|s| prefixed(s, spec.spellings).map(|e| (e, 1.0)),
+            1.0,
+        )
+        .or_else(|| with(PER_ROOT_HOUR, &integral, 60.0))
+        .or_else(|| with(PER_ROOT_SECOND, &integral, 1.0)),
+        // unit·s^−½: a level per √h (÷60) or per √s, or the unit per second per √Hz.
+        Dimension::RateWalk => with(PER_ROOT_HOUR, &level, 60.0)
+            .or_else(|| with(PER_ROOT_SECOND, &level, 1.0))
+            .or_else(|| with(PER_ROOT_HZ, &|s| s.strip_suffix("/s").and_then(level), 1.0)),
+        _ => None,
     }
-    for other in ["V", "A"] {
-        if other != unit && prefixed(s, &[other]).is_some() {
-            return Err(format!(
-                "\"{s}\" is in {other}, but this profile's unit is {unit}; write the value in \
-                 {unit} or set unit = \"{other}\""
-            ));
-        }
+}
+
+/// Why `u` is not a value of `dim` in `spec`'s unit: it is in another unit, or it is a value
+/// of another kind (a density where a level is expected), or it is not a unit at all.
+///
+/// The message quotes the value as U+0001, which [`parse_quantity`] replaces by the text.
+fn misfit(u: &str, spec: &UnitSpec, dim: Dimension) -> String {
+    let kinds = [
+        Dimension::Amplitude,
+        Dimension::Density,
+        Dimension::RateWalk,
+    ];
+    if let Some(other) = UNITS
+        .iter()
+        .find(|o| o.symbol != spec.symbol && kinds.iter().any(|&k| in_unit(u, o, k).is_some()))
+    {
+        return format!(
+            "\"\u{1}\" is in {}, but this profile's unit is {}; write the value in {} or set \
+             unit = \"{}\"",
+            other.symbol, spec.symbol, spec.symbol, other.spellings[0]
+        );
     }
-    Ok(None)
+    if let Some(&k) = kinds
+        .iter()
+        .find(|&&k| k != dim && in_unit(u, spec, k).is_some())
+    {
+        return format!(
+            "\"\u{1}\" is {}, but this key {}",
+            kind_name(k, spec.symbol),
+            expectation(dim, spec.symbol).replacen("expected", "expects", 1)
+        );
+    }
+    format!("{}, got \"\u{1}\"", expectation(dim, spec.symbol))
+}
+
+/// What a value of `dim` is, in words, with its unit.
+fn kind_name(dim: Dimension, unit: &str) -> String {
+    match dim {
+        Dimension::Amplitude => format!("a level in {unit}"),
+        Dimension::Density => format!("a density in {unit}/\u{221a}Hz (unit\u{b7}s^\u{bd})"),
+        _ => format!("a rate random walk in {unit}\u{b7}s^-\u{bd}"),
+    }
+}
+
+/// Parse a sensor's sensitivity such as `"20 mV/g"` or `"4 mV/(deg/s)"`: volts per
+/// `unit` (a profile unit symbol), the number of volts one unit of the quantity gives at the
+/// sensor's output. The denominator may carry a prefix (`"0.02 mV/mg"`) and, for an angular
+/// rate, be a practice form (`"1 uV/(deg/h)"`); a bare number is in V per unit.
+///
+/// The error string says what was expected (callers add the file and key).
+pub fn parse_sensitivity(text: &str, unit: &str) -> Result<f64, String> {
+    let expected = || {
+        let ascii = ascii_and_integral(unit).0;
+        let per = if ascii.contains('/') {
+            format!("({ascii})")
+        } else {
+            ascii.to_string()
+        };
+        format!(
+            "expected a sensitivity in volts per {unit} such as \"20 mV/{per}\", or a number \
+             in V per {unit}, got \"{text}\""
+        )
+    };
+    let trimmed = text.trim();
+    let Some(number) = Number::lex(trimmed) else {
+        return Err(expected());
+    };
+    let u: String = trimmed[number.len..]
+        .chars()
+        .filter(|c| !c.is_whitespace())
+        .collect();
+    let value = if u.is_empty() {
+        number.value(0)
+    } else {
+        let spec = unit_spec(unit).ok_or_else(expected)?;
+        let (volts, per) = u.split_once('/').ok_or_else(expected)?;
+        let e_volts = prefixed(volts, &["V"]).ok_or_else(expected)?;
+        let per = per
+            .strip_prefix('(')
+            .and_then(|p| p.strip_suffix(')'))
+            .unwrap_or(per);
+        let Some((e_per, div)) = in_unit(per, spec, Dimension::Amplitude) else {
+            return Err(expected());
+        };
+        // V·10^a per (10^b/div) unit = 10^(a−b)·div V per unit.
+        number.value(e_volts - e_per) * div
+    };
+    if !(value.is_finite() && value > 0.0) {
+        return Err(format!("{} (it must be positive and finite)", expected()));
+    }
+    Ok(value)
+}
+
+/// Parse an amplitude (a full scale, an end of an ADC range) in the profile's `unit`, or, for
+/// a sensor profile with a sensitivity of `volts_per_unit` V per unit, in volts at the
+/// sensor's output (`"1.65V"` with 20 mV/g is 82.5 g). Returns the value in the unit; a
+/// value in volts is divided by the sensitivity and rounded to 15 significant digits (more
+/// than the decimal inputs carry), so the binary quotient's last-bit error does not show:
+/// 1.65 V at 0.4 V/g is exactly 4.125 g, not 4.124999999999999 g.
+pub fn parse_amplitude(text: &str, unit: &str, volts_per_unit: Option<f64>) -> Result<f64, String> {
+    match (
+        parse_quantity(text, Dimension::Amplitude, unit),
+        volts_per_unit,
+    ) {
+        (Err(e), Some(s)) if unit != "V" => parse_quantity(text, Dimension::Amplitude, "V")
+            .map(|v| at_15_digits(v / s))
+            .map_err(|_| format!("{e}; or in V at the sensor's output (its sensitivity)")),
+        (x, _) => x,
+    }
+}
+
+/// The volts at a sensor's output for `value` in its unit at `volts_per_unit` V per unit,
+/// rounded to 15 significant digits like [`parse_amplitude`] (4.125 g at 0.4 V/g is 1.65 V).
+pub fn volts(value: f64, volts_per_unit: f64) -> f64 {
+    at_15_digits(value * volts_per_unit)
+}
+
+/// `x` rounded to 15 significant decimal digits.
+fn at_15_digits(x: f64) -> f64 {
+    format!("{x:.14e}").parse().unwrap_or(x)
 }
 
 /// A lexed decimal number: mantissa text (sign, digits, optional point) and its exponent.
@@ -453,7 +739,6 @@ mod tests {
             ("1e999 Hz", Frequency),
             ("", Time),
             ("kHz", Frequency),
-            ("4 nV", Density),
             ("4 nV/Hz", Density),
             ("10 kOhm", Frequency),
             ("4e Hz", Frequency),
@@ -548,5 +833,109 @@ mod tests {
             let back = ok(&format_quantity_exact(v, "V"), Amplitude);
             assert_eq!(back.to_bits(), v.to_bits(), "{v:e}");
         }
+    }
+
+    fn in_unit_of(text: &str, dim: Dimension, unit: &str) -> f64 {
+        parse_quantity(text, dim, unit).unwrap_or_else(|e| panic!("{text:?} in {unit}: {e}"))
+    }
+
+    #[test]
+    fn sensor_units_take_si_prefixes_exactly() {
+        // The prefix folds into the decimal exponent: the same f64 as the literal.
+        assert_eq!(in_unit_of("25 ug/rtHz", Density, "g"), 25e-6);
+        assert_eq!(in_unit_of("25 \u{b5}g/\u{221a}Hz", Density, "g"), 25e-6);
+        assert_eq!(in_unit_of("3 mdeg/s/rtHz", Density, "\u{b0}/s"), 3e-3);
+        assert_eq!(in_unit_of("3 m\u{b0}/s/rtHz", Density, "\u{b0}/s"), 3e-3);
+        assert_eq!(in_unit_of("2 mrad/s", Amplitude, "rad/s"), 2e-3);
+        assert_eq!(in_unit_of("1.5 kPa", Amplitude, "Pa"), 1.5e3);
+        assert_eq!(in_unit_of("0.8 Pa/rtHz", Density, "Pa"), 0.8);
+        assert_eq!(in_unit_of("2 mK/rtHz", Density, "K"), 2e-3);
+        assert_eq!(in_unit_of("10 nT/rtHz", Density, "T"), 10e-9);
+        assert_eq!(in_unit_of("4 pm/rtHz", Density, "m"), 4e-12);
+        assert_eq!(in_unit_of("1 mN", Amplitude, "N"), 1e-3);
+        assert_eq!(in_unit_of("60 um/s^2/rtHz", Density, "m/s\u{b2}"), 60e-6);
+        assert_eq!(
+            in_unit_of("60 um/s\u{b2}/rtHz", Density, "m/s\u{b2}"),
+            60e-6
+        );
+        // "m" the unit and "m" the prefix: 1 mm is a millimetre.
+        assert_eq!(in_unit_of("1 mm", Amplitude, "m"), 1e-3);
+        assert_eq!(in_unit_of("1 m", Amplitude, "m"), 1.0);
+        // "T" the unit and "T" the prefix: 1 TT is a terattesla.
+        assert_eq!(in_unit_of("1 TT", Amplitude, "T"), 1e12);
+    }
+
+    // Inertial practice units (IEEE Std 952-1997 Annex C; IEEE Std 1554-2005), derived from
+    // 1 h = 3600 s and √h = 60 √s; each is one correctly rounded division of the decimal
+    // value by an exact integer, so the results equal the f64 quotients below exactly.
+    #[test]
+    fn inertial_practice_units_convert_exactly() {
+        let dps = "\u{b0}/s";
+        // 1 °/√h = 1 °/(60 √s) = (1/60) °·s^-½ = (1/60) (°/s)·s^½ = (1/60) (°/s)/√Hz.
+        assert_eq!(in_unit_of("1 deg/rth", Density, dps), 1.0 / 60.0);
+        assert_eq!(in_unit_of("0.2 \u{b0}/\u{221a}h", Density, dps), 0.2 / 60.0);
+        assert_eq!(in_unit_of("1 deg/rts", Density, dps), 1.0);
+        // 1 °/h = 1 °/(3600 s) = (1/3600) °/s.
+        assert_eq!(in_unit_of("1 deg/h", Amplitude, dps), 1.0 / 3600.0);
+        assert_eq!(in_unit_of("3 \u{b0}/h", Amplitude, dps), 3.0 / 3600.0);
+        // 1 °/h/√h = (1/3600 °/s)/(60 √s) = (1/216 000) (°/s)·s^-½.
+        assert_eq!(in_unit_of("1 deg/h/rth", RateWalk, dps), 1.0 / 216_000.0);
+        assert_eq!(in_unit_of("2 deg/s/s/rtHz", RateWalk, dps), 2.0);
+        // 1 m/s/√h = 1 (m/s)/(60 √s) = (1/60) (m/s²)·s^½ = (1/60) (m/s²)/√Hz.
+        assert_eq!(in_unit_of("1 m/s/rth", Density, "m/s\u{b2}"), 1.0 / 60.0);
+        // A level per √h for any unit: 1 µg/√h = (1/60) µg·s^-½.
+        assert_eq!(in_unit_of("30 ug/rth", RateWalk, "g"), 30e-6 / 60.0);
+        // The practice forms belong to their quantity: no angle in a g profile.
+        assert!(parse_quantity("1 deg/h", Amplitude, "g").is_err());
+    }
+
+    #[test]
+    fn a_unit_that_does_not_fit_names_what_it_is_and_what_is_expected() {
+        let dps = "\u{b0}/s";
+        let e = parse_quantity("0.2 deg/rth", Amplitude, dps).unwrap_err();
+        assert!(e.contains("\"0.2 deg/rth\" is a density"), "{e}");
+        assert!(e.contains("expects an amplitude"), "{e}");
+        let e = parse_quantity("3 deg/h", Density, dps).unwrap_err();
+        assert!(
+            e.contains("is a level in \u{b0}/s") && e.contains("expects a density"),
+            "{e}"
+        );
+        let e = parse_quantity("4 nV", Density, "V").unwrap_err();
+        assert!(e.contains("\"4 nV\" is a level in V"), "{e}");
+        let e = parse_quantity("25 ug/rtHz", Density, "m/s\u{b2}").unwrap_err();
+        assert!(e.contains("is in g") && e.contains("unit = \"g\""), "{e}");
+        let e = parse_quantity("25 furlongs", Amplitude, "g").unwrap_err();
+        assert!(
+            e.starts_with("expected an amplitude") && e.contains("25 furlongs"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn sensitivities_are_volts_per_unit() {
+        assert_eq!(parse_sensitivity("20 mV/g", "g").unwrap(), 20e-3);
+        assert_eq!(parse_sensitivity("0.02 mV/mg", "g").unwrap(), 20e-3);
+        assert_eq!(parse_sensitivity("4 mV/(deg/s)", "\u{b0}/s").unwrap(), 4e-3);
+        assert_eq!(
+            parse_sensitivity("4mV/(\u{b0}/s)", "\u{b0}/s").unwrap(),
+            4e-3
+        );
+        // 1 µV per °/h = 3600 µV per °/s.
+        assert_eq!(
+            parse_sensitivity("1 uV/(deg/h)", "\u{b0}/s").unwrap(),
+            1e-6 * 3600.0
+        );
+        assert_eq!(parse_sensitivity("0.5", "Pa").unwrap(), 0.5);
+        for bad in ["20 mV/Pa", "20 mA/g", "-20 mV/g", "20 mV", "0 V/g"] {
+            let e = parse_sensitivity(bad, "g").unwrap_err();
+            assert!(e.contains("mV/g"), "{bad}: {e}");
+        }
+        // Amplitudes in volts through the sensitivity: 1.65 V at 20 mV/g.
+        assert_eq!(
+            parse_amplitude("1.65V", "g", Some(0.02)).unwrap(),
+            1.65 / 0.02
+        );
+        assert_eq!(parse_amplitude("2 g", "g", Some(0.02)).unwrap(), 2.0);
+        assert!(parse_amplitude("1.65V", "g", None).is_err());
     }
 }

@@ -748,7 +748,8 @@ fn plot_and_report_are_self_contained() {
     );
     assert!(svg.contains("<polyline") || svg.contains("<path"));
     let html = std::fs::read_to_string(html).unwrap();
-    assert_eq!(html.matches("<svg").count(), 3);
+    // Density, integrated noise, histogram and trace.
+    assert_eq!(html.matches("<svg").count(), 4);
     assert!(html.contains("PASS") && html.contains("<table>"));
     for bad in ["<script", "src=", "href=", "@import"] {
         assert!(

@@ -311,6 +311,50 @@ fn cases() -> Vec<Case> {
             ],
         ),
         profile(
+            "sensor unit: a density where a level is expected",
+            format!(
+                "unit = \"deg/s\"\noffset = \"0.2 deg/rth\"\n{HEAD}[[floor]]\ndensity = \"3 mdeg/s/rtHz\"\n"
+            ),
+            &[
+                "p.toml:2",
+                "offset",
+                "\"0.2 deg/rth\" is a density",
+                "expects an amplitude",
+            ],
+        ),
+        profile(
+            "sensor unit: a resistor",
+            format!("unit = \"Pa\"\n{HEAD}[[resistor]]\nresistance = \"1 kOhm\"\n"),
+            &["p.toml:6", "resistor[0]", "unit is Pa", "[[floor]]"],
+        ),
+        profile(
+            "inertial: no term",
+            format!("unit = \"deg/s\"\n{HEAD}[[inertial]]\nname = \"gyro\"\n"),
+            &["p.toml:6", "inertial[0]", "random_walk (N)"],
+        ),
+        profile(
+            "inertial: a density for the bias instability",
+            format!("unit = \"deg/s\"\n{HEAD}[[inertial]]\nbias_instability = \"0.2 deg/rth\"\n"),
+            &[
+                "p.toml:7",
+                "inertial[0].bias_instability",
+                "is a density",
+                "expects an amplitude",
+            ],
+        ),
+        profile(
+            "sensitivity in a volt profile",
+            format!("sensitivity = \"20 mV/g\"\n{W}"),
+            &["p.toml:1", "sensitivity", "unit is V already"],
+        ),
+        profile(
+            "sensitivity in the wrong unit",
+            format!(
+                "unit = \"g\"\nsensitivity = \"20 mV/Pa\"\n{HEAD}[[floor]]\ndensity = \"25 ug/rtHz\"\n"
+            ),
+            &["p.toml:2", "sensitivity", "volts per g", "\"20 mV/Pa\""],
+        ),
+        profile(
             "no sources",
             HEAD,
             &["p.toml: sources", "at least one [[floor]]"],
@@ -1153,6 +1197,43 @@ fn cases() -> Vec<Case> {
                 "'--start <TIME>'",
                 "cannot be used with",
                 "'--start-sample <N>'",
+            ],
+        ),
+        // ---------------- generate: shards ----------------
+        generate(
+            "--shard not K/N",
+            &["-o", "x.wav", "--samples", "10", "--shard", "3"],
+            &["option --shard", "expected K/N", "\"3\""],
+        ),
+        generate(
+            "--shard index past the last",
+            &["-o", "x.wav", "--samples", "10", "--shard", "4/4"],
+            &["option --shard", "shard 4/4 does not exist", "0 to 3"],
+        ),
+        generate(
+            "--shard with --start-sample",
+            &[
+                "-o",
+                "x.wav",
+                "--samples",
+                "10",
+                "--shard",
+                "1/2",
+                "--start-sample",
+                "3",
+            ],
+            &[
+                "option --shard",
+                "cannot be used with --start or --start-sample",
+            ],
+        ),
+        generate(
+            "--shard more shards than samples",
+            &["-o", "x.wav", "--samples", "10", "--shard", "1/11"],
+            &[
+                "option --shard",
+                "more than it has samples",
+                "at most 10 shards",
             ],
         ),
         // ---------------- generate: rate ----------------
@@ -2082,6 +2163,38 @@ fn cases() -> Vec<Case> {
             .file("d.wav/inner", b"")
             .args(&["analyze", "d.wav"])
             .expect(&["d.wav", "is a folder", "capture file"]),
+        // ---------------- capture files: several channels ----------------
+        capture(
+            "CSV value columns of different kinds",
+            "m.csv",
+            b"time_s,ch0_value_V,ch1_value_fs\n0,1,0.5\n0.001,2,0.25\n".to_vec(),
+            &[],
+            &[
+                "m.csv",
+                "line 1",
+                "ch0_value_V",
+                "ch1_value_fs",
+                "different kinds",
+            ],
+        ),
+        capture(
+            "raw ending inside a frame of its channels",
+            "f.f64",
+            vec![0u8; 8 * (2 * 40 + 1)],
+            &["--rate", "1kHz"],
+            &[],
+        )
+        .file("f.f64.json", r#"{"extra": {"channels": 2}}"#)
+        .expect(&["f.f64", "inside a frame of 2 channels", "channel count"]),
+        Case::new("analyze: --channel beyond the capture's channels")
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--channel", "1"])
+            .expect(&["option --channel", "channel 1", "c.csv holds 1 channel(s)"]),
+        Case::new("analyze: profile of another channel count")
+            .file("p.toml", format!("channels = 2\n{W}"))
+            .file("c.csv", &big)
+            .args(&["analyze", "c.csv", "--profile", "p.toml"])
+            .expect(&["option --profile", "describes 2 channels", "c.csv holds 1"]),
         // ---------------- capture files: CSV ----------------
         capture(
             "CSV not UTF-8",

@@ -187,6 +187,7 @@ impl Gen {
                 )
             }
             Dimension::Amplitude => unit.to_string(),
+            Dimension::RateWalk => format!("{unit}/rts"),
         };
         let text = format_quantity_exact(v, &sym);
         // Both spellings of micro, and a space or none before the unit.

@@ -1,8 +1,11 @@
 //! Measuring samples: Welch density estimates, running statistics, moments, comparison with
-//! a designed density, burst levels, the two-pass analysis of a capture, and what a bench adds
+//! a designed density, several channels measured together (correlation and coherence),
+//! burst levels, the two-pass analysis of a capture, and what a bench adds
 //! to a capture (offset and drift, spurs, low-frequency peak-to-peak).
 
+pub mod allan;
 pub mod capture;
+pub mod coherence;
 pub mod compare;
 pub mod fit;
 pub mod integrated;

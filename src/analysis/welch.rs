@@ -335,7 +335,7 @@ pub fn welch(x: &[f64], seg_len: usize, sample_rate_hz: f64) -> Spectrum {
 }
 
 /// The periodic (DFT-even) Hann window of length `len`: `0.5 − 0.5·cos(2πn/len)`.
-fn hann_periodic(len: usize) -> Vec<f64> {
+pub(crate) fn hann_periodic(len: usize) -> Vec<f64> {
     let step = 2.0 * std::f64::consts::PI / len as f64;
     (0..len)
         .map(|n| 0.5 - 0.5 * (step * n as f64).cos())

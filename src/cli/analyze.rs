@@ -64,6 +64,22 @@ pub struct AnalyzeArgs {
     /// Window of the windowed peak-to-peak, e.g. `10s` (the default).
     #[arg(long = "pp-window", value_name = "T")]
     pub pp_window: Option<String>,
+    /// Measure the overlapping Allan deviation of the capture (a rate) at octave τ with 95 %
+    /// intervals, fit the random walk N, bias instability B and rate random walk K, and with
+    /// --profile check each τ against the profile's own Allan deviation.
+    #[arg(long)]
+    pub allan: bool,
+    /// Write an SVG picture of the Allan deviation (implies --allan).
+    #[arg(long = "allan-plot", value_name = "OUT.svg")]
+    pub allan_plot: Option<PathBuf>,
+    /// Analyse only channel N of a multi-channel capture (0-based); repeatable. Default: every
+    /// channel.
+    #[arg(long = "channel", value_name = "N")]
+    pub channel: Vec<usize>,
+    /// Print the band table of every channel of a multi-channel capture (by default only of
+    /// the channels that fail).
+    #[arg(long = "band-tables")]
+    pub band_tables: bool,
 }
 
 /// Runs `analyze`: reads, measures and judges the capture, writes the files asked for, and
@@ -99,7 +115,15 @@ pub fn run(args: &AnalyzeArgs, interrupted: &AtomicBool) -> Result<AnalysisRepor
     if let Some(p) = &args.fit {
         analysis = analysis.fit(p);
     }
-    analysis.keep_drift(args.keep_drift).run()
+    if let Some(p) = &args.allan_plot {
+        analysis = analysis.allan_plot(p);
+    }
+    analysis
+        .keep_drift(args.keep_drift)
+        .allan(args.allan || args.allan_plot.is_some())
+        .channels(&args.channel)
+        .band_tables(args.band_tables)
+        .run()
 }
 
 /// What `analyze` prints: the JSON object with `--json`, else the text summary.

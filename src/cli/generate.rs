@@ -34,6 +34,11 @@ pub struct GenerateArgs {
     /// Start the run at this sample index (0-based) instead of --start.
     #[arg(long = "start-sample", value_name = "N")]
     pub start_sample: Option<u64>,
+    /// Make only shard K (0-based) of N consecutive, equal-as-possible parts of the run that
+    /// --duration/--samples define; `{shard}` in OUT becomes K (zero-padded). The N shards
+    /// joined (`noisewright join`) are the whole run, byte for byte.
+    #[arg(long, value_name = "K/N")]
+    pub shard: Option<String>,
     /// Sample rate, overriding the profile's, e.g. `96 kHz` (reported in the summary and manifest).
     #[arg(long, value_name = "R")]
     pub rate: Option<String>,
@@ -109,6 +114,7 @@ pub fn run(args: &GenerateArgs, interrupted: &AtomicBool) -> Result<RenderReport
     let texts = [
         (Setting::Duration, &args.duration),
         (Setting::Start, &args.start),
+        (Setting::Shard, &args.shard),
         (Setting::Rate, &args.rate),
         (Setting::Format, &args.format),
         (Setting::Name, &args.name),

@@ -3,6 +3,7 @@
 pub mod analyze;
 pub mod budget;
 pub mod generate;
+pub mod join;
 mod stdout;
 
 use std::io::{self, Write};
@@ -29,6 +30,9 @@ pub enum Command {
     /// Measure a capture (WAV, CSV, raw): density, statistics, burst levels; judge it against
     /// a profile (exit 1 when it fails), fit a profile to it, draw pictures.
     Analyze(analyze::AnalyzeArgs),
+    /// Put the shards of one run (generate --shard K/N) back into one file and its manifest,
+    /// byte for byte the single run, after checking they are every part of it once.
+    Join(join::JoinArgs),
 }
 
 /// Run the selected subcommand. Summaries go to standard output, or to standard error when
@@ -36,6 +40,7 @@ pub enum Command {
 pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
     let prints = match &cli.command {
         Command::Generate(args) => !args.quiet || args.output.as_deref() == Some("-"),
+        Command::Join(args) => !args.quiet,
         Command::Budget(_) | Command::Analyze(_) => true,
     };
     if prints {
@@ -55,6 +60,13 @@ pub fn run(cli: &Cli, interrupted: &AtomicBool) -> Result<()> {
             Ok(())
         }
         Command::Budget(args) => print_out(&budget::run(args, interrupted)?),
+        Command::Join(args) => {
+            let report = join::run(args, interrupted)?;
+            if args.quiet {
+                return Ok(());
+            }
+            print_out(&report.summary)
+        }
         Command::Analyze(args) => {
             let report = analyze::run(args, interrupted)?;
             print_out(&analyze::output(args, &report))?;

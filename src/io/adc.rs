@@ -61,7 +61,7 @@ use rand_chacha::ChaCha8Rng;
 use serde_json::json;
 
 use crate::error::{Error, Result, Setting};
-use crate::profile::{Dimension, format_quantity, parse_quantity};
+use crate::profile::format_quantity;
 use crate::synth::{Domain, WhiteStreams};
 
 /// Samples per dither stream: sample `i` draws from stream `i / DITHER_CHUNK` at word
@@ -506,7 +506,14 @@ fn round_in(x: f64) -> f64 {
 /// amplitudes in `unit` (the profile's unit symbol) joined by `..`; bare numbers are in the
 /// unit. Returns `(lo, hi)`; the error says what was expected (the order of the ends is checked
 /// by [`Adc::new`]).
-pub fn parse_range(text: &str, unit: &str) -> std::result::Result<(f64, f64), String> {
+///
+/// With `volts_per_unit` (a sensor profile's sensitivity, V per unit), the ends may be given
+/// in volts at the sensor's output and are returned in the unit.
+pub fn parse_range(
+    text: &str,
+    unit: &str,
+    volts_per_unit: Option<f64>,
+) -> std::result::Result<(f64, f64), String> {
     let Some((a, b)) = text.split_once("..") else {
         return Err(format!(
             "expected a range low..high such as \"-1.65{unit}..1.65{unit}\" or \
@@ -514,7 +521,8 @@ pub fn parse_range(text: &str, unit: &str) -> std::result::Result<(f64, f64), St
         ));
     };
     let end = |s: &str, which: &str| {
-        parse_quantity(s, Dimension::Amplitude, unit).map_err(|m| format!("{which} end: {m}"))
+        crate::units::parse_amplitude(s, unit, volts_per_unit)
+            .map_err(|m| format!("{which} end: {m}"))
     };
     let (lo, hi) = (end(a, "low")?, end(b, "high")?);
     if lo >= hi {
@@ -774,22 +782,37 @@ mod tests {
 
     #[test]
     fn ranges_parse_in_the_profile_unit() {
-        assert_eq!(parse_range("-1.65V..1.65V", "V").unwrap(), (-1.65, 1.65));
-        assert_eq!(parse_range("0V..3.3V", "V").unwrap(), (0.0, 3.3));
         assert_eq!(
-            parse_range(" -500 mV .. 500 mV ", "V").unwrap(),
+            parse_range("-1.65V..1.65V", "V", None).unwrap(),
+            (-1.65, 1.65)
+        );
+        assert_eq!(parse_range("0V..3.3V", "V", None).unwrap(), (0.0, 3.3));
+        assert_eq!(
+            parse_range(" -500 mV .. 500 mV ", "V", None).unwrap(),
             (-0.5, 0.5)
         );
-        assert_eq!(parse_range("0..20mA", "A").unwrap(), (0.0, 0.02));
-        assert!(parse_range("1V..-1V", "V").unwrap_err().contains("below"));
-        assert!(parse_range("1V", "V").unwrap_err().contains("low..high"));
+        assert_eq!(parse_range("0..20mA", "A", None).unwrap(), (0.0, 0.02));
         assert!(
-            parse_range("1Hz..2Hz", "V")
+            parse_range("1V..-1V", "V", None)
+                .unwrap_err()
+                .contains("below")
+        );
+        assert!(
+            parse_range("1V", "V", None)
+                .unwrap_err()
+                .contains("low..high")
+        );
+        assert!(
+            parse_range("1Hz..2Hz", "V", None)
                 .unwrap_err()
                 .contains("low end")
         );
-        assert!(parse_range("0V..1A", "V").unwrap_err().contains("high end"));
-        assert!(parse_range("0V..3.3V", "A").is_err());
+        assert!(
+            parse_range("0V..1A", "V", None)
+                .unwrap_err()
+                .contains("high end")
+        );
+        assert!(parse_range("0V..3.3V", "A", None).is_err());
     }
 
     #[test]

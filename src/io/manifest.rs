@@ -6,7 +6,7 @@
 use std::io::Write;
 use std::path::Path;
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use super::sink::{Format, SampleFormat, SinkReport, SinkSpec};
 use crate::analysis::stats::RunningStats;
@@ -18,7 +18,7 @@ use crate::units::DBFS_CONVENTION;
 ///
 /// Physical quantities are in `unit` (volts or amperes); measured values are of the physical
 /// samples handed to the sink, before scaling, clipping and quantisation.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Manifest {
     /// noisewright's version that wrote the file.
     pub version: String,
@@ -111,6 +111,71 @@ impl Manifest {
     }
 }
 
+/// The keys of a manifest (top level, then under `extra`) whose values decide the bytes of
+/// the noise, apart from where a file starts and how long it is: the version, the canonical
+/// profile (its sample rate replaced by a rate setting), the seed, the container and sample
+/// format, the unit and full scale, the loop, the channels, the ADC (without its
+/// `first_sample`, which is where a file starts), CSV source columns, the C array's name and
+/// the npy dtype. [`fingerprint`] hashes them.
+pub const FINGERPRINT_KEYS: [&str; 9] = [
+    "version",
+    "profile",
+    "seed",
+    "sample_rate_hz",
+    "format",
+    "sample_format",
+    "unit",
+    "full_scale",
+    "loop",
+];
+/// The keys under `extra` that [`fingerprint`] hashes (see [`FINGERPRINT_KEYS`]).
+pub const FINGERPRINT_EXTRA_KEYS: [&str; 5] =
+    ["channels", "adc", "source_columns", "c_name", "npy_dtype"];
+
+/// The fingerprint of a manifest (as JSON): 32 hex digits of the 128-bit FNV-1a hash of the
+/// compact JSON of its [`FINGERPRINT_KEYS`] and [`FINGERPRINT_EXTRA_KEYS`] (object keys in
+/// sorted order, numbers in their shortest round-trip form), so two files with the same
+/// fingerprint are parts of the same run. FNV-1a (Fowler, Noll and Vo; IETF draft
+/// draft-eastlake-fnv, offset basis and prime quoted from memory and checked against its
+/// published empty-string value in the tests) detects mix-ups, not deliberate forgery.
+pub fn fingerprint(doc: &serde_json::Value) -> String {
+    let mut picked = serde_json::Map::new();
+    for key in FINGERPRINT_KEYS {
+        picked.insert(key.into(), doc[key].clone());
+    }
+    let mut extra = serde_json::Map::new();
+    for key in FINGERPRINT_EXTRA_KEYS {
+        let mut v = doc["extra"][key].clone();
+        if let Some(adc) = v.as_object_mut() {
+            adc.remove("first_sample");
+        }
+        extra.insert(key.into(), v);
+    }
+    picked.insert("extra".into(), extra.into());
+    let text = serde_json::Value::Object(picked).to_string();
+    format!("{:032x}", fnv1a_128(text.as_bytes()))
+}
+
+/// FNV-1a, 128 bits (draft-eastlake-fnv: offset basis 0x6c62272e07bb014262b821756295c58d,
+/// prime 2^88 + 2^8 + 0x3b; from memory).
+fn fnv1a_128(bytes: &[u8]) -> u128 {
+    const OFFSET: u128 = 0x6c62_272e_07bb_0142_62b8_2175_6295_c58d;
+    const PRIME: u128 = (1 << 88) + (1 << 8) + 0x3b;
+    bytes
+        .iter()
+        .fold(OFFSET, |h, &b| (h ^ u128::from(b)).wrapping_mul(PRIME))
+}
+
+impl Manifest {
+    /// Records [`fingerprint`] of this manifest under `extra.fingerprint`; call it last,
+    /// once every key it hashes is set.
+    pub fn set_fingerprint(&mut self) {
+        let doc = serde_json::to_value(&*self).expect("a manifest is plain JSON");
+        self.extra
+            .insert("fingerprint".into(), fingerprint(&doc).into());
+    }
+}
+
 /// Writes `m` as pretty-printed JSON followed by a newline. Non-finite numbers (e.g. the
 /// mean of zero samples) are written as `null`.
 pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
@@ -119,6 +184,10 @@ pub fn write_manifest<W: Write>(m: &Manifest, mut out: W) -> Result<()> {
     out.write_all(b"\n").map_err(|e| Error::io(ctx, e))?;
     out.flush().map_err(|e| Error::io(ctx, e))
 }
+
+/// The note of a WAV written as RF64.
+pub const RF64_NOTE: &str = "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers \
+                             without RF64 support cannot open it";
 
 /// What the manifest says about the container beyond `format`, as keys for its `extra` map
 /// and notes for its `notes` (both empty for CSV and raw):
@@ -141,11 +210,7 @@ pub fn container_facts(
             let plan = super::sink::wav_plan(frames, spec.channels, spec.sample_format)?;
             keys.insert("container".into(), json!(plan.container.name()));
             if plan.container == super::sink::WavContainer::Rf64 {
-                notes.push(
-                    "the WAV passes 4 GiB, so it is RF64 (EBU Tech 3306): readers without \
-                     RF64 support cannot open it"
-                        .to_string(),
-                );
+                notes.push(RF64_NOTE.to_string());
             }
         }
         Format::Npy => {
@@ -206,6 +271,9 @@ pub struct SideManifest {
     /// The band of the profile the file was generated from (`profile.band`: `low_hz`,
     /// `high_hz`, `order`), when the manifest records one.
     pub band: Option<Band>,
+    /// Channels interleaved in the file (`extra.channels`, else `profile.channels`), when the
+    /// manifest records more than one.
+    pub channels: Option<u16>,
     /// The manifest's file name, for messages.
     pub file: String,
 }
@@ -279,10 +347,15 @@ impl SideManifest {
             }
         }
         if let Some(u) = obj.get("unit").filter(|u| !u.is_null()) {
-            m.unit = Some(match u.as_str() {
-                Some("V") => Unit::Volt,
-                Some("A") => Unit::Ampere,
-                _ => return Err(bad("unit", "\"V\" or \"A\"", u)),
+            m.unit = Some(match u.as_str().and_then(Unit::from_text) {
+                Some(unit) => unit,
+                None => {
+                    return Err(bad(
+                        "unit",
+                        "\"V\" or \"A\", or a sensor's unit such as \"g\"",
+                        u,
+                    ));
+                }
             });
         }
         if let Some(r) = obj.get("sample_rate_hz").filter(|r| !r.is_null()) {
@@ -304,6 +377,20 @@ impl SideManifest {
                     order: b["order"].as_u64().unwrap_or(0) as u32,
                 });
             }
+        }
+        let channels = v["extra"]["channels"]
+            .as_u64()
+            .or(v["profile"]["channels"].as_u64());
+        if let Some(c) = channels.filter(|&c| c > 1) {
+            let max = crate::profile::MAX_CHANNELS as u64;
+            let c = u16::try_from(c).ok().filter(|&c| u64::from(c) <= max);
+            m.channels = Some(c.ok_or_else(|| {
+                bad(
+                    "extra.channels",
+                    "a channel count from 1 to 64",
+                    &v["extra"]["channels"],
+                )
+            })?);
         }
         Ok(m)
     }
@@ -439,6 +526,45 @@ mod tests {
         let m = Manifest::new(&s, 1, &report, &stats, 0.1);
         let v = serde_json::to_value(&m).unwrap();
         assert!(v["full_scale"].is_null() && v["level_dbfs"].is_null());
+    }
+
+    /// FNV-1a 128: the empty input hashes to the offset basis, and "a" to the value the FNV
+    /// authors publish in their test table (draft-eastlake-fnv, from memory:
+    /// d228cb696f1a8caf78912b704e4a8964).
+    #[test]
+    fn fingerprints_hash_only_what_decides_the_bytes() {
+        assert_eq!(fnv1a_128(b""), 0x6c62_272e_07bb_0142_62b8_2175_6295_c58d);
+        assert_eq!(fnv1a_128(b"a"), 0xd228_cb69_6f1a_8caf_7891_2b70_4e4a_8964);
+        let doc = serde_json::json!({
+            "version": "0.1.0", "profile": {"sample_rate_hz": 48000.0}, "seed": 7,
+            "sample_rate_hz": 48000.0, "format": "wav", "sample_format": "i16", "unit": "V",
+            "full_scale": 1e-5, "loop": false, "samples": 10, "start_sample": 0,
+            "measured_rms": 1.0,
+            "extra": {"adc": {"bits": 12, "first_sample": 0}, "band_rms": 2.0}
+        });
+        let f = fingerprint(&doc);
+        assert_eq!(f.len(), 32);
+        // Where a file starts, its length and what was measured leave it as it is …
+        let mut same = doc.clone();
+        same["samples"] = 5.into();
+        same["start_sample"] = 5.into();
+        same["measured_rms"] = 0.5.into();
+        same["extra"]["adc"]["first_sample"] = 5.into();
+        same["extra"]["band_rms"] = 3.into();
+        assert_eq!(fingerprint(&same), f);
+        // … the seed, the profile, the scale or the ADC change it.
+        for (key, value) in [
+            ("seed", serde_json::json!(8)),
+            ("profile", serde_json::json!({"sample_rate_hz": 96000.0})),
+            ("full_scale", serde_json::json!(2e-5)),
+        ] {
+            let mut other = doc.clone();
+            other[key] = value;
+            assert_ne!(fingerprint(&other), f, "{key}");
+        }
+        let mut other = doc.clone();
+        other["extra"]["adc"]["bits"] = 16.into();
+        assert_ne!(fingerprint(&other), f);
     }
 
     /// AES17 (REFERENCES §9): a full-scale sine is 0 dBFS and a full-scale square +3.01 dBFS.

@@ -29,7 +29,9 @@ use crate::model::density::{
     BOLTZMANN, butterworth_enbw_ratio, floor_band_variance, integrate_pieces,
     resistance_for_density, source_kinks, source_psd,
 };
-use crate::profile::{DEFAULT_TEMPERATURE_K, Profile, Source, SourceKind, Unit, format_quantity};
+use crate::profile::{
+    DEFAULT_TEMPERATURE_K, InertialTerm, Profile, Source, SourceKind, Unit, format_quantity,
+};
 
 /// One budget band: a brick-wall lower edge and a Butterworth (or brick-wall) upper edge.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -125,6 +127,11 @@ pub fn white_psd(source: &Source, profile: &Profile) -> f64 {
         }
         SourceKind::Resistor { .. } => source_psd(source, profile, 1.0),
         SourceKind::Table { points } => points.last().map_or(0.0, |p| p.1 * p.1),
+        SourceKind::Inertial {
+            term: InertialTerm::RandomWalk,
+            ..
+        } => source_psd(source, profile, 1.0),
+        SourceKind::Inertial { .. } => 0.0,
     }
 }
 
@@ -201,7 +208,11 @@ pub fn source_variance_closed(source: &Source, profile: &Profile, band: &BandSpe
             pole_hz,
             ..
         } => (density * density, corner_hz.unwrap_or(0.0), 1.0, *pole_hz),
-        SourceKind::Table { .. } => return None,
+        SourceKind::Inertial {
+            term: InertialTerm::RandomWalk,
+            ..
+        } => (white_psd(source, profile), 0.0, 1.0, None),
+        SourceKind::Table { .. } | SourceKind::Inertial { .. } => return None,
     };
     match (band.order, pole) {
         (0, None) => Some(floor_band_variance(a.sqrt(), corner, slope, lo, hi)),
@@ -359,7 +370,8 @@ pub struct DensityRow {
 pub struct Budget {
     /// The profile's display name, if any.
     pub name: Option<String>,
-    /// `"V"` or `"A"`: every RMS is in this unit, every density in this unit per √Hz.
+    /// The profile's unit symbol (`"V"`, `"A"`, `"g"`, `"°/s"` …): every RMS is in this unit,
+    /// every density in this unit per √Hz.
     pub unit: &'static str,
     /// The bands, in the order asked.
     pub bands: Vec<BandBudget>,
@@ -372,7 +384,8 @@ pub struct Budget {
     /// band edge and any closed-loop pole.
     pub floor_density: f64,
     /// The resistance in Ω whose thermal noise at [`floor_temperature_k`](Self::floor_temperature_k)
-    /// equals the white floor: e²/(4kT) in a volt profile, 4kT/i² in an ampere profile.
+    /// equals the white floor: e²/(4kT) in a volt profile, 4kT/i² in an ampere profile; NaN
+    /// (JSON null) in a sensor's unit.
     pub floor_resistance_ohm: f64,
     /// The temperature in K of that resistance: the profile's resistors' when they share one,
     /// else 25 °C.
@@ -383,6 +396,38 @@ pub struct Budget {
     /// fills it.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub file_noise_rms: Option<f64>,
+    /// The Allan deviation the profile predicts at decades of τ (a sensor's unit or
+    /// `[[inertial]]` terms only; `None` otherwise): JSON `allan`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub allan: Option<AllanPrediction>,
+}
+
+/// The Allan deviation a profile predicts from its density, before any data exists
+/// ([`crate::model::allan::profile_adev`], for samples at the profile's rate).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AllanPrediction {
+    /// Averaging times in s (decades).
+    pub tau_s: Vec<f64>,
+    /// The Allan deviation at each, in the unit.
+    pub adev: Vec<f64>,
+}
+
+impl AllanPrediction {
+    /// The prediction for `profile` when it is a sensor's (a unit other than V or A, or
+    /// `[[inertial]]` terms); `None` otherwise.
+    pub fn of(profile: &Profile) -> Option<AllanPrediction> {
+        let inertial = profile
+            .sources
+            .iter()
+            .any(|s| matches!(s.kind, SourceKind::Inertial { .. }));
+        if profile.unit.is_electrical() && !inertial {
+            return None;
+        }
+        let tau_s = crate::model::allan::decade_taus(profile);
+        let tau0 = 1.0 / profile.sample_rate_hz;
+        let adev = crate::model::allan::profile_adev(profile, &tau_s, Some(tau0));
+        Some(AllanPrediction { tau_s, adev })
+    }
 }
 
 /// Share of the band's power at or above which a single source gets a note.
@@ -423,6 +468,8 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
     let floor_resistance_ohm = match profile.unit {
         Unit::Volt => resistance_for_density(white.sqrt(), floor_temperature_k),
         Unit::Ampere => four_kt / white,
+        // A sensor's floor is no resistor's thermal noise.
+        _ => f64::NAN,
     };
     Budget {
         name: profile.name.clone(),
@@ -439,6 +486,7 @@ pub fn budget(profile: &Profile, bands: &[BandSpec]) -> Budget {
         floor_resistance_ohm,
         floor_temperature_k,
         file_noise_rms: None,
+        allan: AllanPrediction::of(profile),
     }
 }
 
@@ -872,6 +920,20 @@ pub fn write_text(budget: &Budget, out: &mut dyn Write) -> io::Result<()> {
             format_quantity(f, unit)
         )?;
     }
+    if let Some(a) = &budget.allan {
+        writeln!(
+            out,
+            "\nAllan deviation predicted from the density (samples at the profile's rate):"
+        )?;
+        for (tau, adev) in a.tau_s.iter().zip(&a.adev) {
+            writeln!(
+                out,
+                "  tau {:>12}  {}",
+                format_quantity(*tau, "s"),
+                format_quantity(*adev, unit)
+            )?;
+        }
+    }
     writeln!(out)?;
     write_density_table(budget, width, out)
 }
@@ -1007,6 +1069,14 @@ fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io
     } else {
         "thermal noise \u{221a}(4kTR)"
     };
+    if budget.floor_resistance_ohm.is_nan() {
+        writeln!(
+            out,
+            "white floor {}",
+            format_quantity(budget.floor_density, &density_unit)
+        )?;
+        return Ok(());
+    }
     writeln!(
         out,
         "white floor {}: the {law} of {} at {}",
@@ -1022,8 +1092,10 @@ fn write_density_table(budget: &Budget, width: usize, out: &mut dyn Write) -> io
 /// "p2p_6sigma", "p2p_6_6sigma", "rms_to_nyquist", "sources": [ { "name", "class", "rms", "share",
 /// "rms_numeric", "rms_closed_form" } ], "per_decade": [ { "low_hz", "high_hz", "rms" } ],
 /// "resistor_rms", "amplifier_rms", "notes", "tones": [ { "name", "frequency_hz", "peak",
-/// "rms", "in_band", "snr_db", "enob_bits" } ], "integrated": { "frequency_hz", "rms" } } ], "source_names", "densities": [ {
-/// "frequency_hz", "sources", "total" } ], "floor_density", "floor_resistance_ohm", "floor_temperature_k" }`. RMS values
+/// "rms", "in_band", "snr_db", "enob_bits" } ], "integrated": { "frequency_hz", "rms" } } ],
+/// "source_names", "densities": [ { "frequency_hz", "sources", "total" } ], "floor_density",
+/// "floor_resistance_ohm", "floor_temperature_k", "allan": { "tau_s", "adev" } (sensor profiles
+/// only) }`. RMS values
 /// are in `unit`, densities in `unit`/√Hz, frequencies in Hz, shares 0..1.
 pub fn to_json(budget: &Budget) -> serde_json::Value {
     serde_json::to_value(budget).expect("a budget holds only numbers and strings")

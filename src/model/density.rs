@@ -13,7 +13,7 @@
 //!   [high, min(high·2^(1/4), fs/2)] (a quarter octave), zero above; none if high = fs/2;
 //! - nothing at f ≤ 0 or above fs/2.
 
-use crate::profile::{Band, Profile, Source, SourceKind, Unit};
+use crate::profile::{Band, InertialTerm, Profile, Source, SourceKind, Unit};
 pub use crate::units::BOLTZMANN;
 
 /// Width of the brick-wall (order 0) taper above `band.high`, in octaves.
@@ -51,9 +51,10 @@ pub fn source_psd(source: &Source, profile: &Profile, f: f64) -> f64 {
             temperature_k,
         } => {
             let four_kt = 4.0 * BOLTZMANN * temperature_k;
+            // The parser refuses resistors outside volt and ampere profiles.
             match profile.unit {
-                Unit::Volt => four_kt * resistance_ohm,
                 Unit::Ampere => four_kt / resistance_ohm,
+                _ => four_kt * resistance_ohm,
             }
         }
         SourceKind::Table { points } => {
@@ -66,6 +67,23 @@ pub fn source_psd(source: &Source, profile: &Profile, f: f64) -> f64 {
             pole_hz,
             ..
         } => crate::model::amplifier::part_psd(*density, *corner_hz, *pole_hz, f),
+        SourceKind::Inertial { term, coefficient } => inertial_psd(*term, *coefficient, f),
+    }
+}
+
+/// One-sided density (unit²/Hz) at `f` > 0 Hz of an inertial term with `coefficient` (N in
+/// unit·s^½, B in unit, K in unit·s^−½), before band shaping.
+///
+/// IEEE Std 952-1997 Annex C writes the terms as two-sided densities S of the rate,
+/// S = N², (B²/2π)/f and (K/2π)²/f², whose Allan variances are N²/τ, (2 ln 2/π)B² and
+/// K²τ/3; the one-sided density G = 2S carries the same power on f > 0 only:
+/// G = 2N², B²/(π f), K²/(2π² f²).
+pub fn inertial_psd(term: InertialTerm, coefficient: f64, f: f64) -> f64 {
+    let c2 = coefficient * coefficient;
+    match term {
+        InertialTerm::RandomWalk => 2.0 * c2,
+        InertialTerm::BiasInstability => c2 / (std::f64::consts::PI * f),
+        InertialTerm::RateRandomWalk => c2 / (2.0 * std::f64::consts::PI.powi(2) * f * f),
     }
 }
 
@@ -408,6 +426,7 @@ mod tests {
             label: Default::default(),
             channels: 1,
             correlation: vec![vec![1.0]],
+            sensitivity_v_per_unit: None,
             name: None,
             unit,
             sample_rate_hz: fs,

@@ -17,6 +17,7 @@ pub use burst::{
 pub use channels::{
     MAX_CHANNELS, check_matrix as check_correlation, tolerance as correlation_tolerance,
 };
+pub use schema::inertial::INERTIAL_KEYS;
 pub use schema::{
     DEFAULT_TEMPERATURE_K, MAX_ORDER, MAX_SOURCES, MAX_TABLE_POINTS, MIN_LOW_TO_RATE, parse_profile,
 };
@@ -28,8 +29,9 @@ use crate::error::Result;
 
 use crate::model::amplifier::{Refer, StagePart};
 
-/// What one unit of output means.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+/// What one unit of output means: an electrical quantity, or a sensor's own quantity (the
+/// `unit` key). Values stay in the unit as written: nothing converts between units.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 pub enum Unit {
     /// Volts; densities are in V/√Hz.
     #[serde(rename = "V")]
@@ -37,15 +39,72 @@ pub enum Unit {
     /// Amperes; densities are in A/√Hz.
     #[serde(rename = "A")]
     Ampere,
+    /// Pascals (pressure); densities in Pa/√Hz.
+    #[serde(rename = "Pa")]
+    Pascal,
+    /// Kelvin (a temperature channel); densities in K/√Hz.
+    #[serde(rename = "K")]
+    Kelvin,
+    /// Teslas (magnetic flux density); densities in T/√Hz.
+    #[serde(rename = "T")]
+    Tesla,
+    /// Metres (displacement); densities in m/√Hz.
+    #[serde(rename = "m")]
+    Metre,
+    /// Newtons (force); densities in N/√Hz.
+    #[serde(rename = "N")]
+    Newton,
+    /// Metres per second squared (acceleration); densities in (m/s²)/√Hz.
+    #[serde(rename = "m/s\u{b2}")]
+    MetrePerSecondSquared,
+    /// Standard gravity, 9.806 65 m/s² exactly (3rd CGPM, 1901); densities in g/√Hz.
+    #[serde(rename = "g")]
+    StandardGravity,
+    /// Radians per second (angular rate); densities in (rad/s)/√Hz.
+    #[serde(rename = "rad/s")]
+    RadianPerSecond,
+    /// Degrees per second (angular rate); densities in (°/s)/√Hz.
+    #[serde(rename = "\u{b0}/s")]
+    DegreePerSecond,
 }
 
 impl Unit {
-    /// The unit's symbol, `"V"` or `"A"`.
+    /// Every unit, in the order of [`crate::units::UNITS`].
+    pub const ALL: [Unit; 11] = [
+        Unit::Volt,
+        Unit::Ampere,
+        Unit::Pascal,
+        Unit::Kelvin,
+        Unit::Tesla,
+        Unit::Metre,
+        Unit::Newton,
+        Unit::MetrePerSecondSquared,
+        Unit::StandardGravity,
+        Unit::RadianPerSecond,
+        Unit::DegreePerSecond,
+    ];
+
+    /// The unit's display symbol: `"V"`, `"A"`, `"Pa"`, `"K"`, `"T"`, `"m"`, `"N"`,
+    /// `"m/s²"`, `"g"`, `"rad/s"` or `"°/s"`.
     pub fn symbol(self) -> &'static str {
-        match self {
-            Unit::Volt => "V",
-            Unit::Ampere => "A",
-        }
+        self.spec().symbol
+    }
+
+    /// The unit's spellings and practice forms.
+    pub fn spec(self) -> &'static crate::units::UnitSpec {
+        &crate::units::UNITS[self as usize]
+    }
+
+    /// The unit written as `text` (a symbol or a spelling such as `deg/s`, `m/s^2`), if any.
+    pub fn from_text(text: &str) -> Option<Unit> {
+        Unit::ALL
+            .into_iter()
+            .find(|u| u.symbol() == text || u.spec().spellings.contains(&text))
+    }
+
+    /// Whether the unit is electrical (V or A): resistors and amplifier stages need it.
+    pub fn is_electrical(self) -> bool {
+        matches!(self, Unit::Volt | Unit::Ampere)
     }
 }
 
@@ -115,6 +174,61 @@ pub enum SourceKind {
         /// Closed-loop pole GBW/G_n in Hz, if a GBW was given.
         pole_hz: Option<f64>,
     },
+    /// One term of an `[[inertial]]` table: a power law in f whose Allan deviation has the
+    /// term's slope (see [`InertialTerm`]).
+    Inertial {
+        /// Which term.
+        term: InertialTerm,
+        /// N in unit·s^½ (= unit/√Hz), B in unit, or K in unit·s^−½.
+        coefficient: f64,
+    },
+}
+
+/// One of the three inertial noise terms of IEEE Std 952-1997 Annex C (also IEEE Std
+/// 1554-2005), as the one-sided density (unit²/Hz) it becomes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum InertialTerm {
+    /// Random walk N (unit·s^½, e.g. an angle random walk in (°/s)/√Hz = °/√s): white,
+    /// G = 2N², Allan deviation N/√τ.
+    RandomWalk,
+    /// Bias instability B (unit): G = B²/(π f) within the band, Allan deviation flat at
+    /// B·√(2 ln 2/π) ≈ 0.664·B.
+    BiasInstability,
+    /// Rate random walk K (unit·s^−½): G = K²/(2π² f²) within the band, Allan deviation
+    /// K·√(τ/3) for τ ≪ 1/(2π·band.low).
+    RateRandomWalk,
+}
+
+impl InertialTerm {
+    /// The profile key and JSON name: `random_walk`, `bias_instability`, `rate_random_walk`.
+    pub fn key(self) -> &'static str {
+        match self {
+            InertialTerm::RandomWalk => "random_walk",
+            InertialTerm::BiasInstability => "bias_instability",
+            InertialTerm::RateRandomWalk => "rate_random_walk",
+        }
+    }
+
+    /// The term's words in a source name: `random walk`, `bias instability`, `rate random
+    /// walk`.
+    pub fn words(self) -> &'static str {
+        match self {
+            InertialTerm::RandomWalk => "random walk",
+            InertialTerm::BiasInstability => "bias instability",
+            InertialTerm::RateRandomWalk => "rate random walk",
+        }
+    }
+
+    /// The unit of the coefficient for a profile in `unit`: `unit·s^½` (N), `unit` (B),
+    /// `unit·s^-½` (K).
+    pub fn coefficient_unit(self, unit: &str) -> String {
+        match self {
+            InertialTerm::RandomWalk => format!("{unit}\u{b7}s^\u{bd}"),
+            InertialTerm::BiasInstability => unit.to_string(),
+            InertialTerm::RateRandomWalk => format!("{unit}\u{b7}s^-\u{bd}"),
+        }
+    }
 }
 
 /// How messages name a profile, and the file it was read from (absolute, so a later change
@@ -156,6 +270,10 @@ pub struct Profile {
     pub tones: Vec<Tone>,
     /// DC value in the unit added to every sample (the `offset` key; 0 without it).
     pub offset: f64,
+    /// Volts at the sensor's output per unit of its quantity (the `sensitivity` key, e.g.
+    /// 0.02 for "20 mV/g"): the full scale and an ADC range may then be given in volts.
+    /// `None` without the key (never set in a volt profile).
+    pub sensitivity_v_per_unit: Option<f64>,
     /// Channels per frame, 1 ≤ N ≤ [`MAX_CHANNELS`] (the `channels` key, default 1).
     pub channels: usize,
     /// The N×N correlation matrix between channels (dimensionless; symmetric, unit diagonal,
@@ -221,8 +339,13 @@ impl Profile {
     ///   "tones": [
     ///     { "name": "tone 1", "frequency_hz": 1000.0, "peak": 1e-3, "rms": 7.07e-4,
     ///       "phase_deg": 90.0, "given_as": "peak" } ],
-    ///   "offset": 1.65 }                    // in the unit
+    ///   "offset": 1.65,                     // in the unit
+    ///   "sensitivity_v_per_unit": 0.02 | null }
     /// ```
+    ///
+    /// An `[[inertial]]` term is a source `{ "name", "kind": "inertial", "term":
+    /// "random_walk" | "bias_instability" | "rate_random_walk", "coefficient" }` (N in
+    /// unit·s^½, B in unit, K in unit·s^−½).
     pub fn to_json(&self) -> serde_json::Value {
         use serde_json::json;
         let sources: Vec<serde_json::Value> = self
@@ -274,6 +397,12 @@ impl Profile {
                     "corner_hz": corner_hz,
                     "pole_hz": pole_hz,
                 }),
+                SourceKind::Inertial { term, coefficient } => json!({
+                    "name": s.name,
+                    "kind": "inertial",
+                    "term": term.key(),
+                    "coefficient": coefficient,
+                }),
             })
             .collect();
         json!({
@@ -302,6 +431,7 @@ impl Profile {
                 "given_as": t.convention,
             })).collect::<Vec<_>>(),
             "offset": self.offset,
+            "sensitivity_v_per_unit": self.sensitivity_v_per_unit,
             "channels": self.channels,
             "correlation": self.correlation,
         })
@@ -362,5 +492,38 @@ mod tests {
         assert_eq!(s[2]["kind"], "table");
         assert_eq!(s[2]["points"][0]["frequency_hz"], 1.0);
         assert_eq!(s[2]["points"][0]["density"], 3e-12);
+    }
+
+    #[test]
+    fn sensor_units_and_sensitivity_are_read_and_recorded() {
+        let p = parse_profile(
+            "unit = \"g\"\nsensitivity = \"20 mV/g\"\nsample_rate = \"1 kHz\"\n[band]\n\
+             low = \"0.1 Hz\"\nhigh = \"400 Hz\"\n[[floor]]\ndensity = \"25 ug/rtHz\"\n",
+            "t",
+        )
+        .unwrap();
+        assert_eq!(p.unit, Unit::StandardGravity);
+        assert_eq!(p.sensitivity_v_per_unit, Some(0.02));
+        let j = p.to_json();
+        assert_eq!(j["unit"], "g");
+        assert_eq!(j["sensitivity_v_per_unit"], 0.02);
+        assert_eq!(j["sources"][0]["density"], 25e-6);
+        for (text, unit, symbol) in [
+            ("deg/s", Unit::DegreePerSecond, "\u{b0}/s"),
+            ("\u{b0}/s", Unit::DegreePerSecond, "\u{b0}/s"),
+            ("m/s^2", Unit::MetrePerSecondSquared, "m/s\u{b2}"),
+            ("rad/s", Unit::RadianPerSecond, "rad/s"),
+            ("Pa", Unit::Pascal, "Pa"),
+            ("K", Unit::Kelvin, "K"),
+            ("T", Unit::Tesla, "T"),
+            ("m", Unit::Metre, "m"),
+            ("N", Unit::Newton, "N"),
+        ] {
+            assert_eq!(Unit::from_text(text), Some(unit), "{text}");
+            assert_eq!(unit.symbol(), symbol);
+            // The serde name is the symbol too (manifests and JSON documents).
+            assert_eq!(serde_json::to_value(unit).unwrap(), symbol);
+        }
+        assert_eq!(Unit::from_text("mV"), None);
     }
 }

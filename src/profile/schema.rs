@@ -2,7 +2,8 @@
 //!
 //! ```toml
 //! name = "bench preamp"        # optional display name
-//! unit = "V"                   # "V" or "A"; optional, default "V"
+//! unit = "V"                   # "V", "A" or a sensor's unit ("g", "deg/s", "Pa" …); default "V"
+//! sensitivity = "20 mV/g"      # optional in a sensor profile: volts per unit
 //! sample_rate = "48 kHz"       # required; a string with a unit or a number in Hz
 //! [band]                       # required
 //! low = "0.1 Hz"               # required, > 0
@@ -21,6 +22,8 @@
 //! [[amplifier]]                # an op-amp stage, expanded into named parts: see `amplifier`
 //! topology = "non-inverting"
 //! offset = "1.65 V"            # optional DC value added to every sample (see [`super::Tone`])
+//! [[inertial]]                 # N, B, K of an inertial sensor: see `inertial`
+//! random_walk = "0.2 deg/rth"
 //! [[tone]]                     # a sine added to the noise: frequency, peak or rms, phase
 //! frequency = "1 kHz"
 //! peak = "1 mV"
@@ -47,6 +50,7 @@ use crate::error::{Error, Result};
 use crate::units::expectation;
 
 mod amplifier;
+pub(super) mod inertial;
 
 /// Temperature of a resistor without a `temperature` key: 25 °C in kelvin.
 pub const DEFAULT_TEMPERATURE_K: f64 = 298.15;
@@ -83,6 +87,8 @@ const TOP_KEYS: &[&str] = &[
     "burst",
     "tone",
     "offset",
+    "sensitivity",
+    "inertial",
     "channels",
     "correlation",
 ];
@@ -110,7 +116,10 @@ struct RawProfile {
     burst: Vec<Spanned<RawBurst>>,
     #[serde(default)]
     tone: Vec<Spanned<RawTone>>,
+    #[serde(default)]
+    inertial: Vec<Spanned<inertial::RawInertial>>,
     offset: Option<Spanned<Value>>,
+    sensitivity: Option<Spanned<Value>>,
     channels: Option<Spanned<Value>>,
     correlation: Option<Spanned<Value>>,
 }
@@ -269,8 +278,12 @@ fn check_keys(cx: &Cx<'_>, doc: &DeTable<'_>) -> Result<()> {
                     a(other.type_str())
                 ),
             )),
-            ("floor" | "resistor" | "table" | "amplifier" | "burst" | "tone", value) => {
+            (
+                "floor" | "resistor" | "table" | "amplifier" | "burst" | "tone" | "inertial",
+                value,
+            ) => {
                 let allowed = match name {
+                    "inertial" => inertial::INERTIAL_KEYS,
                     "floor" => FLOOR_KEYS,
                     "resistor" => RESISTOR_KEYS,
                     "amplifier" => amplifier::KEYS,
@@ -439,7 +452,7 @@ pub(super) fn within_magnitude(
 ) -> Result<f64> {
     let scaled = matches!(
         dim,
-        Dimension::Density | Dimension::Amplitude | Dimension::Resistance
+        Dimension::Density | Dimension::Amplitude | Dimension::Resistance | Dimension::RateWalk
     );
     if scaled && x.abs() > MAX_MAGNITUDE {
         let unit_symbol = symbol(dim, unit);
@@ -481,6 +494,7 @@ fn symbol(dim: Dimension, unit: Unit) -> String {
         Dimension::Resistance => "\u{3a9}".into(),
         Dimension::Density => format!("{}/\u{221a}Hz", unit.symbol()),
         Dimension::Amplitude => unit.symbol().into(),
+        Dimension::RateWalk => format!("{}\u{b7}s^-\u{bd}", unit.symbol()),
     }
 }
 
@@ -553,15 +567,17 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
     for (i, a) in raw.amplifier.iter().enumerate() {
         sources.extend(amplifier::validate(cx, i, a, unit)?);
     }
+    sources.extend(inertial::validate_inertial(cx, &raw.inertial, unit)?);
     let bursts = validate_bursts(cx, &raw.burst, unit, fs)?;
     let tones = validate_tones(cx, &raw.tone, unit, fs)?;
     let offset = validate_offset(cx, raw.offset.as_ref(), unit)?;
+    let sensitivity_v_per_unit = validate_sensitivity(cx, raw.sensitivity.as_ref(), unit)?;
     if sources.is_empty() && bursts.is_empty() {
         return Err(cx.err(
             "sources",
             None,
-            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]] \
-             or [[burst]]",
+            "a profile needs at least one [[floor]], [[resistor]], [[table]], [[amplifier]], \
+             [[inertial]] or [[burst]]",
         ));
     }
 
@@ -578,15 +594,47 @@ fn validate(cx: &Cx<'_>, raw: RawProfile) -> Result<Profile> {
         bursts,
         tones,
         offset,
+        sensitivity_v_per_unit,
         channels,
         correlation,
     })
 }
 
+/// The `sensitivity` key: volts per unit of a sensor's quantity, positive; refused in a volt
+/// profile (its values are volts already).
+fn validate_sensitivity(
+    cx: &Cx<'_>,
+    v: Option<&Spanned<Value>>,
+    unit: Unit,
+) -> Result<Option<f64>> {
+    let Some(v) = v else { return Ok(None) };
+    let sym = unit.symbol();
+    if unit == Unit::Volt {
+        return Err(cx.err(
+            "sensitivity",
+            Some(v.span()),
+            "turns a sensor's quantity into volts, but this profile's unit is V already; \
+             remove sensitivity or set the sensor's unit (e.g. unit = \"g\")",
+        ));
+    }
+    let x = match v.get_ref() {
+        Value::String(t) => crate::units::parse_sensitivity(t, sym),
+        Value::Float(x) => crate::units::parse_sensitivity(&format!("{x:e}"), sym),
+        Value::Integer(i) => crate::units::parse_sensitivity(&i.to_string(), sym),
+        other => Err(format!(
+            "expected a sensitivity such as \"20 mV/{}\", got {}",
+            unit.spec().spellings[0],
+            a(other.type_str())
+        )),
+    };
+    x.map(Some)
+        .map_err(|m| cx.err("sensitivity", Some(v.span()), m))
+}
+
 /// Refuses more than [`MAX_SOURCES`] source tables, naming the first one past the limit (in
 /// the order floor, resistor, table, amplifier, burst).
 fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
-    let kinds: [(&str, Vec<Range<usize>>); 5] = [
+    let kinds: [(&str, Vec<Range<usize>>); 6] = [
         ("floor", raw.floor.iter().map(|t| t.span()).collect()),
         ("resistor", raw.resistor.iter().map(|t| t.span()).collect()),
         ("table", raw.table.iter().map(|t| t.span()).collect()),
@@ -595,6 +643,7 @@ fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
             raw.amplifier.iter().map(|t| t.span()).collect(),
         ),
         ("burst", raw.burst.iter().map(|t| t.span()).collect()),
+        ("inertial", raw.inertial.iter().map(|t| t.span()).collect()),
     ];
     let total: usize = kinds.iter().map(|(_, v)| v.len()).sum();
     if total <= MAX_SOURCES {
@@ -623,15 +672,18 @@ fn check_source_count(cx: &Cx<'_>, raw: &RawProfile) -> Result<()> {
 fn validate_unit(cx: &Cx<'_>, unit: Option<&Spanned<String>>) -> Result<Unit> {
     match unit {
         None => Ok(Unit::Volt),
-        Some(u) => match u.get_ref().as_str() {
-            "V" => Ok(Unit::Volt),
-            "A" => Ok(Unit::Ampere),
-            other => Err(cx.err(
+        Some(u) => Unit::from_text(u.get_ref().trim()).ok_or_else(|| {
+            cx.err(
                 "unit",
                 Some(u.span()),
-                format!("expected \"V\" (volts) or \"A\" (amperes), got \"{other}\""),
-            )),
-        },
+                format!(
+                    "expected \"V\" (volts) or \"A\" (amperes), or a sensor's unit: \"Pa\", \
+                     \"K\", \"T\", \"m\", \"N\", \"m/s^2\", \"g\", \"rad/s\" or \"deg/s\" \
+                     (values then take SI prefixes, e.g. \"25 ug/rtHz\"), got \"{}\"",
+                    u.get_ref()
+                ),
+            )
+        }),
     }
 }
 
@@ -799,6 +851,18 @@ fn validate_resistors(
     for (i, r) in resistors.iter().enumerate() {
         let key = |k: &str| format!("resistor[{i}].{k}");
         let span = Some(r.span());
+        if !unit.is_electrical() {
+            return Err(cx.err(
+                &format!("resistor[{i}]"),
+                span,
+                format!(
+                    "a resistor's thermal noise is a voltage (or a current), but this profile's \
+                     unit is {}; write it as a [[floor]] in {}/\u{221a}Hz or set unit = \"V\"",
+                    unit.symbol(),
+                    unit.symbol()
+                ),
+            ));
+        }
         let r = r.get_ref();
         let rv = r
             .resistance
@@ -1316,7 +1380,7 @@ corner = "100 Hz"
         assert_eq!((k.as_str(), l), ("sources", None));
         assert!(
             msg.contains(
-                "at least one [[floor]], [[resistor]], [[table]], [[amplifier]] or [[burst]]"
+                "at least one [[floor]], [[resistor]], [[table]], [[amplifier]], [[inertial]] or [[burst]]"
             ),
             "{msg}"
         );

@@ -12,7 +12,7 @@ use statrs::function::erf::erf;
 
 use super::figure::{Axis, Figure, Mark, Pen};
 use crate::analysis::capture::CaptureReport;
-use crate::analysis::compare::BandCheck;
+use crate::analysis::compare::{BandCheck, Comparison};
 use crate::analysis::integrated::IntegratedNoise;
 use crate::analysis::welch::BandEstimate;
 use crate::model::budget::{Budget, burst_models, log_spaced, total_with_bursts};
@@ -49,16 +49,18 @@ fn tone_rules(profile: &Profile) -> Vec<Mark> {
         .collect()
 }
 
+/// The lowest and highest band edge of `budget`, Hz.
+fn span_hz(budget: &Budget) -> (f64, f64) {
+    let lo = budget.bands.iter().map(|b| b.low_hz);
+    let hi = budget.bands.iter().map(|b| b.high_hz);
+    (lo.fold(f64::INFINITY, f64::min), hi.fold(0.0, f64::max))
+}
+
 /// `budget`'s pictures of `budget` (made from `profile`): every source's density, each burst's
 /// and the total from half the lowest band edge to twice the highest (50 points per decade),
 /// with the band edges and tones; then the integrated noise of each band.
 pub fn budget_figures(profile: &Profile, budget: &Budget) -> Vec<Figure> {
-    let lo = budget
-        .bands
-        .iter()
-        .map(|b| b.low_hz)
-        .fold(f64::INFINITY, f64::min);
-    let hi = budget.bands.iter().map(|b| b.high_hz).fold(0.0, f64::max);
+    let (lo, hi) = span_hz(budget);
     let grid = log_spaced(lo / 2.0, hi * 2.0, 50);
     let bursts = burst_models(profile);
     let mut curves: Vec<(String, Vec<(f64, f64)>)> = profile
@@ -138,12 +140,7 @@ fn band_summary(budget: &Budget) -> String {
 
 /// The integrated noise of each band of `budget`: RMS from the band's low edge up to f.
 fn integrated_figure(name: &str, budget: &Budget) -> Figure {
-    let lo = budget
-        .bands
-        .iter()
-        .map(|b| b.low_hz)
-        .fold(f64::INFINITY, f64::min);
-    let hi = budget.bands.iter().map(|b| b.high_hz).fold(0.0, f64::max);
+    let (lo, hi) = span_hz(budget);
     let top = budget
         .bands
         .iter()
@@ -310,23 +307,7 @@ pub fn density_figure(v: &AnalysisView<'_>) -> Option<Figure> {
         marks.extend(source_marks(p, v.design, &grid));
     }
     if let Some(c) = &r.comparison {
-        let limit = |k: usize| -> Vec<(f64, f64)> {
-            let per = |b: &BandCheck| {
-                let db = if k == 0 { b.limit_db.0 } else { b.limit_db.1 };
-                (b.expected_psd * 10f64.powf(db / 10.0)).sqrt()
-            };
-            c.bands
-                .iter()
-                .flat_map(|b| [(b.band.f_lo_hz, per(b)), (b.band.f_hi_hz, per(b))])
-                .collect()
-        };
-        for k in 0..2 {
-            marks.push(Mark::Line {
-                name: "limits".into(),
-                points: limit(k),
-                pen: Pen::dashed(LIMIT, 1.2, "6 3"),
-            });
-        }
+        marks.extend(limit_marks(c));
     }
     if !designed.is_empty() {
         marks.push(Mark::Line {
@@ -369,6 +350,28 @@ pub fn density_figure(v: &AnalysisView<'_>) -> Option<Figure> {
         ),
         marks,
     })
+}
+
+/// The pass limits of every band checked as two dashed step curves (lower, upper), unit/√Hz.
+fn limit_marks(c: &Comparison) -> Vec<Mark> {
+    let limit = |upper: bool| -> Vec<(f64, f64)> {
+        let per = |b: &BandCheck| {
+            let db = if upper { b.limit_db.1 } else { b.limit_db.0 };
+            (b.expected_psd * 10f64.powf(db / 10.0)).sqrt()
+        };
+        c.bands
+            .iter()
+            .flat_map(|b| [(b.band.f_lo_hz, per(b)), (b.band.f_hi_hz, per(b))])
+            .collect()
+    };
+    [false, true]
+        .into_iter()
+        .map(|upper| Mark::Line {
+            name: "limits".into(),
+            points: limit(upper),
+            pen: Pen::dashed(LIMIT, 1.2, "6 3"),
+        })
+        .collect()
 }
 
 /// A step curve over `bands`: `value(i)` held from band i's lower to its upper edge.

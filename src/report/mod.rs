@@ -1,8 +1,11 @@
 //! Pictures and reports: every SVG picture ([`chart`]: density charts for `budget`, the
 //! density, histogram and trace of an analysis) and the HTML report that holds an analysis's
-//! pictures inline ([`html`]).
+//! pictures inline ([`html`]); the coherence figure of a capture of several channels
+//! ([`coherence`]).
 
+pub mod allan;
 pub mod chart;
+pub mod coherence;
 pub mod figure;
 pub mod html;
 

@@ -157,6 +157,7 @@ fn refuse_folder_name(w: &Written) -> Result<()> {
 fn example(setting: Setting, path: &Path) -> String {
     let name = match setting {
         Setting::Plot => "density.svg",
+        Setting::AllanPlot => "allan.svg",
         Setting::Report => "report.html",
         Setting::Fit => "fitted.toml",
         _ => "noise.wav",

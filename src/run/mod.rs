@@ -1,15 +1,17 @@
 //! Whole runs as library calls: [`Generator`] pulls a profile's samples into the caller's
 //! buffers, [`Render`] does everything `generate` does (engine, scale, ADC codes, formats,
 //! manifest, summary), [`Analysis`] everything `analyze` does (reading, measuring, judging,
-//! fitting, drawing), and [`budget`] what `budget` adds to the budget itself (bands from text,
+//! fitting, drawing), [`Join`] the shards of a run back into one file, and [`budget`] what `budget` adds to the budget itself (bands from text,
 //! its text and chart). The command line only turns its flags into these calls.
 
 pub mod analyze;
 pub mod budget;
 mod generator;
 mod guard;
+pub mod join;
 mod pending;
 pub mod render;
+pub mod shard;
 
 use std::io;
 use std::path::{Path, PathBuf};
@@ -18,6 +20,7 @@ use crate::error::{Error, Result, Setting};
 
 pub use analyze::{Analysis, AnalysisReport, Verdict};
 pub use generator::Generator;
+pub use join::{Join, JoinReport};
 pub(crate) use pending::{PendingFile, commit_all, is_direct_target};
 pub use render::{Render, RenderReport};
 

@@ -66,7 +66,7 @@ const CHUNK_SAMPLES: usize = 16 * 1024;
 pub const FLUSH_BYTES: usize = 64 * 1024;
 
 /// Output container.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, serde::Deserialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Format {
     /// RIFF/WAVE, interleaved frames, with a header written first (needs the total sample
@@ -1033,7 +1033,7 @@ mod tests {
             let mut lines = text.lines();
             assert_eq!(
                 lines.next(),
-                Some(format!("time_s,code_{coding}_{bits}bit").as_str())
+                Some(format!("time_s,code_{}_{bits}bit", coding.tag()).as_str())
             );
             let csv: Vec<i64> = lines
                 .map(|l| l.split_once(',').unwrap().1.parse().unwrap())

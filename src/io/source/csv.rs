@@ -10,8 +10,9 @@
 //!   must be within half a sample period of `1/rate`, else the file is refused, naming the
 //!   line of the step (the samples must be evenly spaced for a density estimate). With
 //!   `--rate` the time column only has to increase overall.
-//! * **Value column**: the first column that is not the time column. Its name says what it
-//!   holds, as `generate` writes it: `value_V` / `value_A` physical volts or amperes,
+//! * **Value columns**: every column that is not the time column, one channel each, in order
+//!   (`generate` writes `ch0_value_V`, `ch1_value_V`, … for several channels). A name says
+//!   what its column holds, and every value column must hold the same kind, as `generate` writes it: `value_V` / `value_A` physical volts or amperes,
 //!   `value_fs` digital values, `code_i16` / `code_i24` / `code_i32` integer codes (read as
 //!   digital, code/(2^(b−1)−1)); any other name is [`Values::Unknown`]. A code must be a
 //!   whole number a b-bit code can hold, −2^(b−1) to 2^(b−1)−1.
@@ -39,7 +40,10 @@ pub struct CsvSource<R: Read> {
     line: String,
     time_col: Option<usize>,
     time_scale: f64,
-    value_col: usize,
+    /// The value columns, one per channel.
+    value_cols: Vec<usize>,
+    /// The values of the row just read, one per channel.
+    row_values: Vec<f64>,
     /// The header's column names, joined by commas (for messages).
     header: String,
     /// Columns in the header.
@@ -103,13 +107,22 @@ fn time_scale(name: &str) -> Option<f64> {
     }
 }
 
-/// What a value column's name says it holds, and for code columns the integer format.
+/// What a value column's name says it holds (`ch<k>_` before it names a channel), and for code
+/// columns the integer format.
 fn value_meaning(name: &str) -> (Values, Option<SampleFormat>) {
     let n = name.trim();
+    // A channel's column, as `generate` names it: `ch<k>_` before the name.
+    let n = n
+        .strip_prefix("ch")
+        .and_then(|r| r.split_once('_'))
+        .filter(|(k, _)| !k.is_empty() && k.bytes().all(|b| b.is_ascii_digit()))
+        .map_or(n, |(_, rest)| rest);
     match n {
-        "value_V" => (Values::Physical(Unit::Volt), None),
-        "value_A" => (Values::Physical(Unit::Ampere), None),
         "value_fs" => (Values::Digital, None),
+        _ if n.strip_prefix("value_").and_then(Unit::from_text).is_some() => {
+            let unit = n.strip_prefix("value_").and_then(Unit::from_text);
+            (Values::Physical(unit.expect("checked")), None)
+        }
         _ => match n
             .strip_prefix("code_")
             .and_then(|s| s.parse::<SampleFormat>().ok())
@@ -140,7 +153,8 @@ impl<R: Read> CsvSource<R> {
             line: String::new(),
             time_col: None,
             time_scale: 1.0,
-            value_col: 0,
+            value_cols: Vec::new(),
+            row_values: Vec::new(),
             header: String::new(),
             columns: 0,
             value_div: 1.0,
@@ -215,20 +229,45 @@ impl<R: Read> CsvSource<R> {
                 )
             })?;
         }
-        src.value_col = (0..header.len())
-            .find(|&c| Some(c) != src.time_col)
-            .ok_or_else(|| {
-                Error::input(
-                    &src.name,
-                    format!(
-                        "line {}: only a time column ({}); expected a value column too",
-                        src.line_no,
-                        echo(&header[0])
-                    ),
-                )
-            })?;
-        let (values, code) = value_meaning(&header[src.value_col]);
+        src.value_cols = (0..header.len())
+            .filter(|&c| Some(c) != src.time_col)
+            .collect();
+        let first = *src.value_cols.first().ok_or_else(|| {
+            Error::input(
+                &src.name,
+                format!(
+                    "line {}: only a time column ({}); expected a value column too",
+                    src.line_no,
+                    echo(&header[0])
+                ),
+            )
+        })?;
+        let (values, code) = value_meaning(&header[first]);
+        let kind = |c: usize| value_meaning(&header[c]);
+        if let Some(&other) = src.value_cols.iter().find(|&&c| kind(c) != (values, code)) {
+            return Err(Error::input(
+                &src.name,
+                format!(
+                    "line {}: the value columns {:?} and {:?} hold different kinds of values; \
+                     every channel's column must hold the same (e.g. ch0_value_V,ch1_value_V)",
+                    src.line_no,
+                    echo(&header[first]),
+                    echo(&header[other])
+                ),
+            ));
+        }
         src.info.values = values;
+        src.info.channels = u16::try_from(src.value_cols.len()).map_err(|_| {
+            Error::input(
+                &src.name,
+                format!(
+                    "line {}: {} value columns; at most {} channels are read",
+                    src.line_no,
+                    src.value_cols.len(),
+                    u16::MAX
+                ),
+            )
+        })?;
         if let Some(sf) = code {
             let max = f64::from(sf.full_scale_code().expect("integer format"));
             src.value_div = max;
@@ -268,12 +307,12 @@ impl<R: Read> CsvSource<R> {
         let mut times = Vec::new();
         let mut lines = Vec::new();
         if src.time_col.is_some() {
-            while src.pending.len() < RATE_ROWS {
+            while times.len() < RATE_ROWS {
                 match src.row()? {
-                    Some((t, v)) => {
+                    Some(t) => {
                         times.push(t.expect("time column"));
                         lines.push(src.line_no);
-                        src.pending.push(v);
+                        src.pending.extend_from_slice(&src.row_values);
                     }
                     None => break,
                 }
@@ -400,25 +439,34 @@ impl<R: Read> CsvSource<R> {
         }
     }
 
-    /// The next row's (time in s, value).
-    fn row(&mut self) -> Result<Option<(Option<f64>, f64)>> {
+    /// The next row's time in s (its values, one per channel, in `row_values`).
+    fn row(&mut self) -> Result<Option<Option<f64>>> {
         if !self.next_line()? {
             return Ok(None);
         }
         let mut time = None;
-        let mut value = None;
         let mut fields = 0;
-        for (c, field) in self.line.trim_end().split(',').enumerate() {
-            fields = c + 1;
-            if Some(c) == self.time_col {
-                time = Some(self.number(field, "time")? * self.time_scale);
-            } else if c == self.value_col {
-                let v = self.number(field, "value")?;
-                self.check_code(v, field)?;
-                value = Some(v / self.value_div);
+        let mut values = std::mem::take(&mut self.row_values);
+        values.clear();
+        let line = std::mem::take(&mut self.line);
+        let parsed = (|| {
+            for (c, field) in line.trim_end().split(',').enumerate() {
+                fields = c + 1;
+                if Some(c) == self.time_col {
+                    time = Some(self.number(field, "time")? * self.time_scale);
+                } else if values.len() < self.value_cols.len() {
+                    let v = self.number(field, "value")?;
+                    self.check_code(v, field, self.value_cols[values.len()])?;
+                    values.push(v / self.value_div);
+                }
             }
-        }
-        let missing = if value.is_none() {
+            Ok(())
+        })();
+        self.line = line;
+        let complete = values.len() == self.value_cols.len();
+        self.row_values = values;
+        parsed?;
+        let missing = if !complete {
             Some("value")
         } else if self.time_col.is_some() && time.is_none() {
             Some("time")
@@ -450,7 +498,7 @@ impl<R: Read> CsvSource<R> {
             ));
         }
         self.rows += 1;
-        Ok(Some((time, value.expect("checked"))))
+        Ok(Some(time))
     }
 
     fn number(&self, field: &str, what: &str) -> Result<f64> {
@@ -468,8 +516,9 @@ impl<R: Read> CsvSource<R> {
         }
     }
 
-    /// Refuses a value `v` (from `field`) of a code column that no code of its width is.
-    fn check_code(&self, v: f64, field: &str) -> Result<()> {
+    /// Refuses a value `v` (from `field`, in column `col`) of a code column that no code of its
+    /// width is.
+    fn check_code(&self, v: f64, field: &str, col: usize) -> Result<()> {
         match self.code {
             Some((bits, lo, hi)) if v.fract() != 0.0 || v < lo || v > hi => Err(Error::input(
                 &self.name,
@@ -478,12 +527,7 @@ impl<R: Read> CsvSource<R> {
                      holds whole numbers from {lo} to {hi}",
                     self.line_no,
                     echo(field.trim()),
-                    echo(
-                        self.header
-                            .split(',')
-                            .nth(self.value_col)
-                            .unwrap_or_default()
-                    )
+                    echo(self.header.split(',').nth(col).unwrap_or_default())
                 ),
             )),
             _ => Ok(()),
@@ -520,7 +564,8 @@ impl<R: Read> SampleSource for CsvSource<R> {
 
     fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize> {
         out.clear();
-        let max = max.max(1);
+        let c = self.value_cols.len();
+        let max = max.max(1) * c;
         if !self.pending.is_empty() {
             let take = max.min(self.pending.len());
             out.extend(self.pending.drain(..take));
@@ -529,14 +574,14 @@ impl<R: Read> SampleSource for CsvSource<R> {
         while out.len() < max {
             match self.row()? {
                 None => break,
-                Some((t, v)) => {
+                Some(t) => {
                     if let (Some(t), true) = (t, self.check_steps) {
                         if let Some(prev) = self.last_time {
                             self.check_step(prev, t, self.line_no)?;
                         }
                         self.last_time = Some(t);
                     }
-                    out.push(v);
+                    out.extend_from_slice(&self.row_values);
                 }
             }
         }
@@ -556,6 +601,7 @@ mod tests {
             fallback_rate_hz: None,
             name: "c.csv".into(),
             length_bytes: Some(text.len() as u64),
+            channels: None,
         };
         let mut s = CsvSource::new(text.as_bytes(), &o)?;
         let mut all = Vec::new();
@@ -564,6 +610,23 @@ mod tests {
             all.extend_from_slice(&b);
         }
         Ok((s.info().clone(), all))
+    }
+
+    #[test]
+    fn value_columns_are_channels_read_frame_by_frame() {
+        // Five rows, read three frames at a time: whole frames, channel 0 first.
+        let text = "time_s,ch0_value_V,ch1_value_V\n0,1,-1\n0.001,2,-2\n0.002,3,-3\n\
+                    0.003,4,-4\n0.004,5,-5\n";
+        let (info, v) = read(text, None).unwrap();
+        assert_eq!(info.channels, 2);
+        assert_eq!(info.values, Values::Physical(Unit::Volt));
+        assert_eq!(info.sample_rate_hz, 1000.0);
+        assert_eq!(v, [1.0, -1.0, 2.0, -2.0, 3.0, -3.0, 4.0, -4.0, 5.0, -5.0]);
+        let e = read("time_s,ch0_value_V,ch1_value_V\n0,1,-1\n0.001,2\n", None).unwrap_err();
+        assert!(
+            e.to_string().contains("line 3: the value field is missing"),
+            "{e}"
+        );
     }
 
     #[test]

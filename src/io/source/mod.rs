@@ -54,7 +54,7 @@ pub struct StreamInfo {
     pub sample_rate_hz: f64,
     /// Samples (per channel) the header announces; `None` when unknown (raw, CSV, streamed WAV).
     pub frames: Option<u64>,
-    /// Channels stored; only the first is read.
+    /// Channels stored; a reader yields every channel, frame by frame (interleaved).
     pub channels: u16,
     /// What the values mean.
     pub values: Values,
@@ -66,8 +66,9 @@ pub struct StreamInfo {
 pub trait SampleSource {
     /// What the header said.
     fn info(&self) -> &StreamInfo;
-    /// Replaces the contents of `out` with up to `max` next values (see the module docs for
-    /// their scale) and returns how many; 0 at the end of the stream.
+    /// Replaces the contents of `out` with up to `max` next frames (at least one), each frame
+    /// the values of every channel in order (see the module docs for their scale), and returns
+    /// how many values; 0 at the end of the stream.
     fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize>;
 }
 
@@ -89,6 +90,9 @@ pub struct SourceOptions {
     /// The input's length in bytes when known (a regular file), so a WAV reader can tell a
     /// size past the end of the file, and bytes after its samples, before reading them.
     pub length_bytes: Option<u64>,
+    /// Channels interleaved in a raw file (from a manifest or a profile); `None` for one.
+    /// WAV and CSV files say how many they hold.
+    pub channels: Option<u16>,
 }
 
 /// Opens a stream of samples over `input`, reading the header now.
@@ -267,7 +271,7 @@ pub(crate) fn read_full<R: Read>(r: &mut R, buf: &mut [u8], name: &str) -> Resul
 }
 
 /// Decodes little-endian stored samples of `sf` from `bytes` (a whole number of samples,
-/// `stride` bytes apart, the first channel at offset 0) into values per the module rule.
+/// `stride` bytes apart) into values per the module rule.
 pub(crate) fn decode_le(bytes: &[u8], sf: SampleFormat, stride: usize, out: &mut Vec<f64>) {
     // Division (correctly rounded) rather than a reciprocal, so code/max is exact to the ulp.
     let code_max = sf.full_scale_code().map_or(1.0, f64::from);

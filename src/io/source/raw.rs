@@ -1,5 +1,6 @@
-//! Headerless little-endian samples: f32, f64, i16, i24 (3 bytes packed), i32, one channel.
-//! The sample format and the rate come from the options (the command line or a manifest).
+//! Headerless little-endian samples: f32, f64, i16, i24 (3 bytes packed), i32, one channel or
+//! several interleaved frame by frame. The sample format, the rate and the channel count come
+//! from the options (the command line, a manifest or a profile).
 
 use std::io::Read;
 
@@ -18,6 +19,8 @@ pub struct RawSource<R: Read> {
     info: StreamInfo,
     name: String,
     sample_format: SampleFormat,
+    /// Bytes per frame (every channel).
+    frame_bytes: usize,
     buf: Vec<u8>,
     /// Bytes read so far.
     read: u64,
@@ -50,7 +53,7 @@ impl<R: Read> RawSource<R> {
             sample_format: Some(sample_format),
             sample_rate_hz: check_rate(rate, "\u{1}rate\u{1}", &name)?,
             frames: None,
-            channels: 1,
+            channels: options.channels.unwrap_or(1).max(1),
             values: if sample_format.is_integer() {
                 Values::Digital
             } else {
@@ -58,11 +61,13 @@ impl<R: Read> RawSource<R> {
             },
             notes: Vec::new(),
         };
+        let frame_bytes = sample_format.bytes() * usize::from(info.channels);
         Ok(RawSource {
             input,
             info,
             name,
             sample_format,
+            frame_bytes,
             buf: vec![0u8; READ_BYTES],
             read: 0,
         })
@@ -77,8 +82,26 @@ impl<R: Read> SampleSource for RawSource<R> {
     fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize> {
         out.clear();
         let b = self.sample_format.bytes();
-        let want = max.max(1).saturating_mul(b).min(self.buf.len() / b * b);
+        let fb = self.frame_bytes;
+        let want = max
+            .max(1)
+            .saturating_mul(fb)
+            .min((self.buf.len() / fb).max(1) * fb);
+        if self.buf.len() < want {
+            self.buf.resize(want, 0);
+        }
         let got = read_full(&mut self.input, &mut self.buf[..want], &self.name)?;
+        if got % fb != 0 && got % b == 0 {
+            let end = self.read + got as u64;
+            return Err(Error::input(
+                &self.name,
+                format!(
+                    "truncated: the file ends at byte {end}, inside a frame of {} channels \
+                     (its length is not a whole number of frames; is the channel count right?)",
+                    self.info.channels
+                ),
+            ));
+        }
         if got % b != 0 {
             let end = self.read + got as u64;
             return Err(Error::input(
@@ -102,6 +125,37 @@ mod tests {
     use super::*;
 
     #[test]
+    fn channels_come_interleaved_in_whole_frames() {
+        let o = SourceOptions {
+            format: Format::Raw,
+            sample_format: Some(SampleFormat::I16),
+            rate_hz: Some(10.0),
+            fallback_rate_hz: None,
+            name: "x.i16".into(),
+            length_bytes: None,
+            channels: Some(3),
+        };
+        let bytes: Vec<u8> = [1i16, 2, 3, 4, 5, 6]
+            .iter()
+            .flat_map(|c| c.to_le_bytes())
+            .collect();
+        let mut s = RawSource::new(&bytes[..], &o).unwrap();
+        assert_eq!(s.info().channels, 3);
+        let mut v = Vec::new();
+        // One frame asked for: three values.
+        assert_eq!(s.read_block(&mut v, 1).unwrap(), 3);
+        assert_eq!(v, [1.0 / 32767.0, 2.0 / 32767.0, 3.0 / 32767.0]);
+        assert_eq!(s.read_block(&mut v, 9).unwrap(), 3);
+        assert_eq!(s.read_block(&mut v, 9).unwrap(), 0);
+        let mut s = RawSource::new(&bytes[..4 * 2], &o).unwrap();
+        let e = s.read_block(&mut v, 9).unwrap_err();
+        assert!(
+            e.to_string().contains("inside a frame of 3 channels"),
+            "{e}"
+        );
+    }
+
+    #[test]
     fn partial_sample_is_an_error_and_options_are_required() {
         let o = SourceOptions {
             format: Format::Raw,
@@ -110,6 +164,7 @@ mod tests {
             fallback_rate_hz: None,
             name: "x.i24".into(),
             length_bytes: None,
+            channels: None,
         };
         let bytes = [0u8; 3 * 5 + 2];
         let mut s = RawSource::new(&bytes[..], &o).unwrap();

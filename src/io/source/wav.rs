@@ -161,11 +161,6 @@ impl<R: Read> WavSource<R> {
             }
             None => placeholder(&mut input, chunk, length, &name, &mut notes)?,
         };
-        if channels > 1 {
-            notes.push(format!(
-                "{channels} channels stored; the first channel is analysed"
-            ));
-        }
         let mut sample_rate_hz = f64::from(rate);
         if let Some(r) = options.rate_hz {
             let r = check_rate(r, "\u{1}rate\u{1}", &name)?;
@@ -543,7 +538,9 @@ impl<R: Read> SampleSource for WavSource<R> {
             }
         }
         self.read += whole as u64;
-        decode_le(&self.buf[..whole], self.sample_format, fb, out);
+        // Every channel, frame by frame (interleaved, as stored).
+        let b = self.sample_format.bytes();
+        decode_le(&self.buf[..whole], self.sample_format, b, out);
         if let Some(rem) = self.remaining.as_mut() {
             *rem -= whole as u64;
         }
@@ -566,6 +563,7 @@ mod tests {
             fallback_rate_hz: None,
             name: "t.wav".into(),
             length_bytes: None,
+            channels: None,
         }
     }
 

@@ -50,7 +50,7 @@ pub(super) fn segment_length_of(s: &Setup) -> Result<usize> {
         // so few are counted exactly for the message.
         let mut n = 0u64;
         s.capture
-            .pass(&s.scale, &AtomicBool::new(false), &mut |x| {
+            .pass(s.channel, &s.scale, &AtomicBool::new(false), &mut |x| {
                 n += x.len() as u64
             })?;
         return Err(Error::input(
@@ -71,7 +71,7 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
     let fs = s.info.sample_rate_hz;
     let mut first = FirstPass::new(fs, TRACE_SAMPLES);
     s.capture
-        .pass(&s.scale, interrupted, &mut |x| first.push(x))?;
+        .pass(s.channel, &s.scale, interrupted, &mut |x| first.push(x))?;
     let st = first.stats;
     if st.count() < 16 {
         return Err(Error::input(
@@ -112,8 +112,9 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
                 .detect(quantum),
         },
         || {
-            s.capture
-                .pass(&s.scale, interrupted, &mut |x| second_pass.push(x))
+            s.capture.pass(s.channel, &s.scale, interrupted, &mut |x| {
+                second_pass.push(x)
+            })
         },
     );
     second?;
@@ -138,15 +139,7 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
     } else {
         Vec::new()
     };
-    // The quantisation floor of integer formats, added to the designed density (uniform
-    // error model, Q/√(6·fs) per √Hz with Q one LSB; REFERENCES §9, IEEE Std 1241).
-    let q_psd = match (s.info.sample_format, s.scale.full_scale) {
-        (Some(sf), Some(fsc)) if sf.is_integer() => {
-            let lsb = sf.lsb(fsc).expect("integer");
-            lsb * lsb / (6.0 * fs)
-        }
-        _ => 0.0,
-    };
+    let q_psd = quantisation_psd(s);
     Ok(Measured {
         stats: st,
         moments,
@@ -159,6 +152,19 @@ pub(super) fn measure(s: &Setup, seg_len: usize, interrupted: &AtomicBool) -> Re
         peaks,
         pp_window: pp_window.unwrap_or(0),
     })
+}
+
+/// The quantisation floor of an integer format (unit²/Hz; 0 otherwise), added to the
+/// designed density (uniform error model, Q/√(6·fs) per √Hz with Q one LSB; REFERENCES §9,
+/// IEEE Std 1241).
+pub(super) fn quantisation_psd(s: &Setup) -> f64 {
+    match (s.info.sample_format, s.scale.full_scale) {
+        (Some(sf), Some(fsc)) if sf.is_integer() => {
+            let lsb = sf.lsb(fsc).expect("integer");
+            lsb * lsb / (6.0 * s.info.sample_rate_hz)
+        }
+        _ => 0.0,
+    }
 }
 
 /// Everything measured, with the capture's facts, the comparison and the notes.

@@ -10,7 +10,10 @@
 //! with the design, `fit` fits a profile, `output` writes the pictures and the report, and
 //! `summary` words the results.
 
+mod allan;
 mod bench;
+mod channels;
+mod correlation;
 mod fit;
 mod measure;
 mod output;
@@ -25,9 +28,14 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 
 use crate::analysis::capture::CaptureReport;
+use crate::analysis::integrated::IntegratedNoise;
+use crate::analysis::trend::Trend;
 use crate::error::{Error, Result, Setting};
 use crate::io::sink::SampleFormat;
 use crate::profile::{Profile, Unit};
+
+pub use channels::ChannelReport;
+pub use correlation::{BandCoherence, CorrelationReport, PairReport};
 
 /// A tone's leakage is left out of the bins where it exceeds this fraction of the designed
 /// noise density (biasing a kept bin by < 0.005 dB).
@@ -58,6 +66,15 @@ struct Settings {
     exclude: Option<String>,
     pp_band: Option<String>,
     pp_window: Option<String>,
+    /// Measure the overlapping Allan deviation.
+    allan: bool,
+    /// Draw the Allan deviation here.
+    allan_plot: Option<PathBuf>,
+    /// The channels to analyse (0-based); empty for every channel.
+    channels: Vec<usize>,
+    /// Print the band table of every channel of a multi-channel capture, not only of the
+    /// failing ones.
+    band_tables: bool,
 }
 
 /// What is analysed.
@@ -129,8 +146,14 @@ pub struct AnalysisReport {
     pub verdict: Verdict,
     /// Everything measured, typed: statistics, the Welch estimate, its bands, the comparison
     /// with the profile, burst levels, notes (values in the capture's unit, densities in
-    /// unit²/Hz).
+    /// unit²/Hz). For a capture of several channels: of the first channel analysed.
     pub measurement: CaptureReport,
+    /// For a capture of several channels: each channel analysed, with its own verdict (the
+    /// objects of `json["channels"]`); empty for a capture of one channel.
+    pub channels: Vec<ChannelReport>,
+    /// For two or more channels analysed: their correlation matrix and coherence, judged
+    /// against the profile's correlation when it describes them (`json["correlation"]`).
+    pub correlation: Option<CorrelationReport>,
 }
 
 impl AnalysisReport {
@@ -357,6 +380,36 @@ impl<'a> Analysis<'a> {
         self
     }
 
+    /// Measures the overlapping Allan deviation of the capture (as a rate) at octave τ with
+    /// its 95 % intervals, fits the inertial terms N, B and K, and with a profile checks each
+    /// τ against the profile's own Allan deviation: JSON `allan` (see
+    /// [`crate::analysis::allan`]).
+    pub fn allan(mut self, on: bool) -> Self {
+        self.s.allan = on;
+        self
+    }
+
+    /// Writes an SVG picture of the Allan deviation at `path` (implies [`Analysis::allan`]).
+    pub fn allan_plot(mut self, path: impl AsRef<Path>) -> Self {
+        self.s.allan = true;
+        self.s.allan_plot = Some(path.as_ref().to_path_buf());
+        self
+    }
+
+    /// Analyses only these channels of a capture of several (0-based, in any order; repeats
+    /// count once). Default: every channel.
+    pub fn channels(mut self, channels: &[usize]) -> Self {
+        self.s.channels = channels.to_vec();
+        self
+    }
+
+    /// Prints the band table of every channel of a multi-channel capture in the summary, not
+    /// only of the channels that fail. Default false.
+    pub fn band_tables(mut self, all: bool) -> Self {
+        self.s.band_tables = all;
+        self
+    }
+
     /// Polled between blocks: when it becomes true the analysis stops with
     /// [`Error::Interrupted`] and leaves none of its output files.
     pub fn interrupt_on(mut self, flag: &'a AtomicBool) -> Self {
@@ -376,39 +429,27 @@ impl<'a> Analysis<'a> {
 
     fn analyse(&self, interrupted: &AtomicBool) -> Result<AnalysisReport> {
         output::check_paths(self)?;
-        let setup = setup::Setup::new(self)?;
+        let mut setup = setup::Setup::new(self)?;
         let seg_len = measure::segment_length_of(&setup)?;
         // The output files are made before the passes, so a folder that cannot take them fails
         // before the work; they land together at the end or not at all.
         let outputs = output::Outputs::create(&self.s)?;
-        let mut measured = measure::measure(&setup, seg_len, interrupted)?;
-        let mut notes = setup.notes.clone();
-        let (tones, tone_bins) = verdict::tones(&setup, &mut measured, &mut notes, interrupted)?;
-        let (spurs, excluded) = bench::lines(&setup, &mut measured, &tone_bins, &setup.bench);
-        let comparison = verdict::compare(&setup, &measured, &mut notes);
-        let left_out = pictures::left_out_bins(&serde_json::json!(tones), &spurs, &excluded);
-        let integrated = pictures::integrated(&setup, &measured, &left_out);
-        let fs = setup.info.sample_rate_hz;
-        let (dc, drift) = bench::drift_json(&measured.trend, fs, !setup.bench.keep_drift);
-        let pp = bench::pp_json(&setup, &measured, &setup.bench, measured.pp_window);
-        let report = measure::report(&setup, measured, comparison, notes);
-        let mut json = report.to_json();
-        if !tones.is_empty() {
-            json["tones"] = serde_json::json!(tones);
+        let mut each = Vec::with_capacity(setup.channels.len());
+        for k in setup.channels.clone() {
+            setup.channel = k;
+            each.push(measure_channel(&setup, seg_len, interrupted)?);
         }
-        if let (Some(band), Some(d)) = (setup.band_rms, &setup.design) {
-            // The profile's own figures, by the functions `generate` and `budget` use.
-            json["profile_rms"] = serde_json::json!({
-                "band_rms": band,
-                "file_noise_rms": d.noise_variance().sqrt(),
-            });
+        setup.channel = setup.channels[0];
+        if setup.info.channels > 1 {
+            return channels::several(self, &setup, each, seg_len, outputs, interrupted);
         }
-        json["dc"] = dc;
-        json["drift"] = drift;
-        json["spurs"] = spurs;
-        json["excluded"] = excluded;
-        json["window_peak_to_peak"] = pp;
-        json["integrated"] = serde_json::json!(integrated);
+        let Measurement {
+            report,
+            mut json,
+            left_out_hz,
+            integrated,
+            ..
+        } = each.pop().expect("one channel");
         let fitted = match &self.s.fit {
             Some(path) => {
                 let (toml, fit_json) = fit::fit(&setup, &report)?;
@@ -418,25 +459,106 @@ impl<'a> Analysis<'a> {
             }
             None => None,
         };
-        let left_out_hz = pictures::left_out_hz(&left_out, report.spectrum.bin_width_hz());
-        outputs.write(
-            &report,
-            &json,
-            fitted.as_deref(),
-            &setup,
-            &left_out_hz,
-            integrated.as_ref(),
-        )?;
-        let summary = summary::summary_text(&report, &json, setup.profile.as_ref())
+        let allan = match self.s.allan {
+            true => Some(allan::measure(&setup, interrupted)?),
+            false => None,
+        };
+        if let Some(a) = &allan {
+            json["allan"] = a.json.clone();
+        }
+        let allan_svg = allan.as_ref().and_then(|a| {
+            self.s
+                .allan_plot
+                .as_ref()
+                .map(|_| a.svg(&report.unit, setup.profile.as_ref()))
+        });
+        let extras = output::Extras {
+            allan_svg: allan_svg.as_deref(),
+            left_out: &left_out_hz,
+            integrated: integrated.as_ref(),
+        };
+        outputs.write(&report, &json, fitted.as_deref(), &setup, &extras)?;
+        let mut summary = summary::summary_text(&report, &json, setup.profile.as_ref())
             + &summary::tone_text(&json, &report.unit);
-        let verdict = verdict::verdict(&report, &setup);
+        let mut verdict = verdict::verdict(&report, &setup);
+        if let Some(a) = &allan {
+            summary += &a.text(&report.unit);
+            verdict = a.judge(verdict);
+        }
         Ok(AnalysisReport {
             json,
             summary,
             verdict,
             measurement: report,
+            channels: Vec::new(),
+            correlation: None,
         })
     }
+}
+
+/// One channel measured and compared, with its JSON object as a capture of one channel has.
+struct Measurement {
+    report: CaptureReport,
+    json: serde_json::Value,
+    /// The line taken out before the density (none when the drift is kept), and the mean of
+    /// what is left (unit).
+    removed: Trend,
+    shift: f64,
+    /// Spans left out of the verdict (tones, spurs, excluded), Hz.
+    left_out_hz: Vec<(f64, f64)>,
+    /// The integrated noise over the profile's band.
+    integrated: Option<IntegratedNoise>,
+}
+
+/// Measures channel `setup.channel`: the passes, the tones, the spurs, the comparison with the
+/// profile and the JSON object.
+fn measure_channel(
+    setup: &setup::Setup,
+    seg_len: usize,
+    interrupted: &AtomicBool,
+) -> Result<Measurement> {
+    let mut measured = measure::measure(setup, seg_len, interrupted)?;
+    let mut notes = setup.notes.clone();
+    let (tones, tone_bins) = verdict::tones(setup, &mut measured, &mut notes, interrupted)?;
+    let (spurs, excluded) = bench::lines(setup, &mut measured, &tone_bins, &setup.bench);
+    let comparison = verdict::compare(setup, &measured, &mut notes);
+    let left_out = pictures::left_out_bins(&serde_json::json!(tones), &spurs, &excluded);
+    let integrated = pictures::integrated(setup, &measured, &left_out);
+    let left_out_hz = pictures::left_out_hz(&left_out, measured.spectrum.bin_width_hz());
+    let fs = setup.info.sample_rate_hz;
+    let (dc, drift) = bench::drift_json(&measured.trend, fs, !setup.bench.keep_drift);
+    let pp = bench::pp_json(setup, &measured, &setup.bench, measured.pp_window);
+    let removed = match setup.bench.keep_drift {
+        true => Trend::none(),
+        false => measured.trend,
+    };
+    let shift = measured.stats.mean() - removed.offset;
+    let report = measure::report(setup, measured, comparison, notes);
+    let mut json = report.to_json();
+    if !tones.is_empty() {
+        json["tones"] = serde_json::json!(tones);
+    }
+    if let (Some(band), Some(d)) = (setup.band_rms, &setup.design) {
+        // The profile's own figures, by the functions `generate` and `budget` use.
+        json["profile_rms"] = serde_json::json!({
+            "band_rms": band,
+            "file_noise_rms": d.noise_variance().sqrt(),
+        });
+    }
+    json["dc"] = dc;
+    json["drift"] = drift;
+    json["spurs"] = spurs;
+    json["excluded"] = excluded;
+    json["window_peak_to_peak"] = pp;
+    json["integrated"] = serde_json::json!(integrated);
+    Ok(Measurement {
+        report,
+        json,
+        removed,
+        shift,
+        left_out_hz,
+        integrated,
+    })
 }
 
 #[cfg(test)]

@@ -44,6 +44,7 @@ pub(super) fn check_paths(a: &Analysis) -> Result<()> {
         (Setting::Fit, &s.fit),
         (Setting::Plot, &s.plot),
         (Setting::Report, &s.report),
+        (Setting::AllanPlot, &s.allan_plot),
     ]
     .into_iter()
     .filter_map(|(setting, path)| {
@@ -57,11 +58,23 @@ pub(super) fn check_paths(a: &Analysis) -> Result<()> {
     check_outputs(&written, &read)
 }
 
+/// What the pictures need beyond the measurement.
+#[derive(Clone, Copy)]
+pub(super) struct Extras<'a> {
+    /// The Allan deviation picture, when asked for.
+    pub(super) allan_svg: Option<&'a str>,
+    /// Spans left out of the verdict (tones, spurs, excluded), Hz.
+    pub(super) left_out: &'a [(f64, f64)],
+    /// The integrated noise.
+    pub(super) integrated: Option<&'a IntegratedNoise>,
+}
+
 /// The output files asked for, under temporary names until [`Outputs::write`] renames them.
 pub(super) struct Outputs {
     fit: Option<PendingFile>,
     plot: Option<PendingFile>,
     report: Option<PendingFile>,
+    allan_plot: Option<PendingFile>,
 }
 
 impl Outputs {
@@ -73,6 +86,7 @@ impl Outputs {
             fit: pending(&s.fit)?,
             plot: pending(&s.plot)?,
             report: pending(&s.report)?,
+            allan_plot: pending(&s.allan_plot)?,
         })
     }
 
@@ -85,9 +99,16 @@ impl Outputs {
         json: &serde_json::Value,
         fit_toml: Option<&str>,
         s: &Setup,
-        left_out: &[(f64, f64)],
-        integrated: Option<&IntegratedNoise>,
+        extra: &Extras<'_>,
     ) -> Result<()> {
+        let Extras {
+            allan_svg,
+            left_out,
+            integrated,
+        } = *extra;
+        if let (Some(out), Some(svg)) = (&self.allan_plot, allan_svg) {
+            out.write_all(svg.as_bytes())?;
+        }
         if let (Some(out), Some(toml)) = (&self.fit, fit_toml) {
             out.write_all(toml.as_bytes())?;
         }
@@ -121,7 +142,7 @@ impl Outputs {
             }
         }
         commit_all(
-            [self.fit, self.plot, self.report]
+            [self.fit, self.plot, self.report, self.allan_plot]
                 .into_iter()
                 .flatten()
                 .collect(),

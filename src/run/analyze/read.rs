@@ -44,15 +44,28 @@ fn open_file(path: &Path) -> Result<fs::File> {
         .map_err(|e| Error::input(path.display().to_string(), format!("cannot open: {e}")))
 }
 
-/// Refuses a non-finite value in `block` (the `done`th sample of the capture is its first),
-/// then scales it to physical values.
-fn checked(block: &mut [f64], done: u64, name: &str, scale: &Scale) -> Result<()> {
+/// Refuses a non-finite value in `block` (frames of `channels` values, or one channel's
+/// samples when `channels` is 1; the `done`th frame of the capture is its first), then scales
+/// it to physical values. `channel` names the one channel picked, if any, in messages.
+fn checked(
+    block: &mut [f64],
+    done: u64,
+    name: &str,
+    scale: &Scale,
+    channels: usize,
+    channel: Option<usize>,
+) -> Result<()> {
     if let Some(i) = block.iter().position(|v| !v.is_finite()) {
+        let frame = done + (i / channels) as u64;
+        let which = match (channel, channels) {
+            (Some(k), _) => format!(" of channel {k}"),
+            (None, 1) => String::new(),
+            (None, c) => format!(" of channel {}", i % c),
+        };
         return Err(Error::input(
             name,
             format!(
-                "sample {} is {}; only finite samples can be analysed",
-                done + i as u64,
+                "sample {frame}{which} is {}; only finite samples can be analysed",
                 block[i]
             ),
         ));
@@ -180,15 +193,40 @@ impl Capture<'_> {
         }
     }
 
-    /// One pass over the capture: every physical sample goes to `each`, in order.
+    /// One pass over channel `channel` of the capture (0 for one channel): every physical
+    /// sample goes to `each`, in order.
     pub(super) fn pass(
+        &self,
+        channel: usize,
+        scale: &Scale,
+        interrupted: &AtomicBool,
+        each: &mut dyn FnMut(&[f64]),
+    ) -> Result<()> {
+        self.any_pass(Some(channel), scale, interrupted, each)
+    }
+
+    /// One pass over every channel of the capture: its physical samples go to `each` frame by
+    /// frame (interleaved), whole frames at a time.
+    pub(super) fn frames(
         &self,
         scale: &Scale,
         interrupted: &AtomicBool,
         each: &mut dyn FnMut(&[f64]),
     ) -> Result<()> {
+        self.any_pass(None, scale, interrupted, each)
+    }
+
+    fn any_pass(
+        &self,
+        channel: Option<usize>,
+        scale: &Scale,
+        interrupted: &AtomicBool,
+        each: &mut dyn FnMut(&[f64]),
+    ) -> Result<()> {
         match self {
-            Capture::File { path, options } => file_pass(path, options, scale, interrupted, each),
+            Capture::File { path, options } => {
+                file_pass(path, options, scale, interrupted, channel, each)
+            }
             Capture::Memory { samples, name, .. } => {
                 let mut block = Vec::with_capacity(BLOCK.min(samples.len()));
                 for (i, chunk) in samples.chunks(BLOCK).enumerate() {
@@ -197,7 +235,7 @@ impl Capture<'_> {
                     }
                     block.clear();
                     block.extend_from_slice(chunk);
-                    checked(&mut block, (i * BLOCK) as u64, name, scale)?;
+                    checked(&mut block, (i * BLOCK) as u64, name, scale, 1, None)?;
                     each(&block);
                 }
                 Ok(())
@@ -206,16 +244,17 @@ impl Capture<'_> {
     }
 }
 
-/// One pass over a capture file.
+/// One pass over a capture file: channel `pick` of it, or every channel frame by frame.
 ///
-/// A reader thread opens, reads, decodes, checks and scales the file block by block while
-/// `each` analyses the block before; blocks go back and forth through two channels, so at
-/// most `READ_AHEAD + 1` blocks are held.
+/// A reader thread opens, reads, decodes, picks, checks and scales the file block by block
+/// while `each` analyses the block before; blocks go back and forth through two channels, so
+/// at most `READ_AHEAD + 1` blocks are held.
 fn file_pass(
     path: &Path,
     options: &SourceOptions,
     scale: &Scale,
     interrupted: &AtomicBool,
+    pick: Option<usize>,
     each: &mut dyn FnMut(&[f64]),
 ) -> Result<()> {
     let (full_tx, full_rx) = mpsc::sync_channel::<Vec<f64>>(READ_AHEAD);
@@ -228,17 +267,32 @@ fn file_pass(
     std::thread::scope(|threads| {
         let reader = threads.spawn(move || -> Result<()> {
             let mut src = open_source(open_file(path)?, options)?;
+            let channels = usize::from(src.info().channels.max(1));
+            let frames = (BLOCK / channels).max(1);
+            let mut all = Vec::new();
             let mut done: u64 = 0;
             // The analysis hands every block back until it stops early.
             while let Ok(mut block) = empty_rx.recv() {
                 if interrupted.load(Ordering::Relaxed) {
                     return Err(Error::Interrupted);
                 }
-                let n = src.read_block(&mut block, BLOCK)?;
+                let n = match (pick, channels) {
+                    (Some(k), c) if c > 1 => {
+                        let n = src.read_block(&mut all, frames)?;
+                        block.clear();
+                        block.extend(all.iter().skip(k).step_by(c));
+                        checked(&mut block, done, &options.name, scale, 1, Some(k))?;
+                        n / c
+                    }
+                    _ => {
+                        let n = src.read_block(&mut block, frames)?;
+                        checked(&mut block, done, &options.name, scale, channels, None)?;
+                        n / channels
+                    }
+                };
                 if n == 0 {
                     break;
                 }
-                checked(&mut block, done, &options.name, scale)?;
                 done += n as u64;
                 if full_tx.send(block).is_err() {
                     break;

@@ -38,6 +38,10 @@ pub(super) struct Setup<'a> {
     pub(super) tolerance_db: f64,
     /// Drift, exclusions and the windowed peak-to-peak.
     pub(super) bench: BenchSpec,
+    /// The channel the per-channel steps measure now (0-based).
+    pub(super) channel: usize,
+    /// The channels analysed, in order (0-based; every channel unless some were picked).
+    pub(super) channels: Vec<usize>,
 }
 
 /// The settings given as text, parsed.
@@ -103,6 +107,12 @@ impl<'a> Setup<'a> {
                     fallback_rate_hz: manifest.as_ref().and_then(|m| m.sample_rate_hz),
                     name: name.clone(),
                     length_bytes,
+                    // A raw file holds as many channels as its manifest, else its profile,
+                    // says.
+                    channels: manifest.as_ref().and_then(|m| m.channels).or(profile
+                        .as_ref()
+                        .map(|p| p.channels as u16)
+                        .filter(|&c| c > 1)),
                 },
             },
             Input::Samples { samples, rate_hz } => Capture::Memory {
@@ -114,6 +124,7 @@ impl<'a> Setup<'a> {
         };
         // The header alone, to settle the scale, rate and segment length before the passes.
         let info = capture.header()?;
+        let channels = super::channels::picked(&a.s.channels, &info, profile.as_ref(), &name)?;
         let scale = scale(
             &info,
             manifest.as_ref(),
@@ -153,6 +164,8 @@ impl<'a> Setup<'a> {
             resolution: parsed.resolution,
             tolerance_db: parsed.tolerance_db,
             bench: parsed.bench,
+            channel: channels[0],
+            channels,
         })
     }
 
@@ -229,10 +242,10 @@ fn sample_format(
 /// in amperes, `("V", …)` for one in volts, `None` for a bare number (which takes the
 /// capture's unit).
 fn unit_written_in(full_scale: &str) -> Option<(&'static str, &'static str)> {
-    let reads_in = |u| parse_quantity(full_scale, Dimension::Amplitude, u).is_ok();
-    match (reads_in("V"), reads_in("A")) {
-        (true, false) => Some(("V", "the unit of the full scale")),
-        (false, true) => Some(("A", "the unit of the full scale")),
+    let reads_in = |u: &Unit| parse_quantity(full_scale, Dimension::Amplitude, u.symbol()).is_ok();
+    let mut units = Unit::ALL.iter().filter(|u| reads_in(u));
+    match (units.next(), units.next()) {
+        (Some(u), None) => Some((u.symbol(), "the unit of the full scale")),
         _ => None,
     }
 }
@@ -301,10 +314,9 @@ fn scale(
 ) -> Result<Scale> {
     // A full scale was parsed in the unit of the profile or manifest (volts when neither
     // says), so that is the unit of the scaled values.
-    let full_scale_unit = parsed.full_scale.map(|_| match unit_hint {
-        "A" => Unit::Ampere,
-        _ => Unit::Volt,
-    });
+    let full_scale_unit = parsed
+        .full_scale
+        .map(|_| Unit::from_text(unit_hint).unwrap_or(Unit::Volt));
     let full_scale_mark = Setting::FullScale.mark().to_string();
     let profile_name = profile.map_or(full_scale_mark.as_str(), |p| p.label());
     Scale::resolve(

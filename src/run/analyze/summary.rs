@@ -72,19 +72,7 @@ fn head(r: &CaptureReport) -> String {
         format_quantity(r.sample_rate_hz, "Hz"),
         format_quantity(st.count() as f64 / r.sample_rate_hz, "s"),
     );
-    match f["full_scale"].as_f64() {
-        Some(fsc) => {
-            s += &format!(
-                "  scale           digital 1.0 = {} (from {})\n",
-                q(fsc),
-                f["scale_origin"].as_str().unwrap_or("")
-            )
-        }
-        None if u == "FS" => {
-            s += "  scale           digital values (no full scale known: give --full-scale)\n"
-        }
-        None => s += &format!("  scale           physical values ({u})\n"),
-    }
+    s += &scale_line(r);
     s += &format!("  mean            {}\n", q(st.mean()));
     s += &format!(
         "  RMS             {} (AC + DC), std {} (AC)\n",
@@ -122,8 +110,25 @@ fn head(r: &CaptureReport) -> String {
     s
 }
 
+/// The scale line: the full scale and where it came from, or what the values are.
+pub(super) fn scale_line(r: &CaptureReport) -> String {
+    let u = r.unit.as_str();
+    let f = &r.file;
+    match f["full_scale"].as_f64() {
+        Some(fsc) => format!(
+            "  scale           digital 1.0 = {} (from {})\n",
+            format_quantity(fsc, u),
+            f["scale_origin"].as_str().unwrap_or("")
+        ),
+        None if u == "FS" => {
+            "  scale           digital values (no full scale known: give --full-scale)\n".into()
+        }
+        None => format!("  scale           physical values ({u})\n"),
+    }
+}
+
 /// The density estimate and its bands, each with its verdict when compared.
-fn density_table(r: &CaptureReport) -> String {
+pub(super) fn density_table(r: &CaptureReport) -> String {
     let u = r.unit.as_str();
     let sp = &r.spectrum;
     let mut s = String::new();

@@ -47,7 +47,7 @@ pub(super) fn tones(
     let freqs: Vec<f64> = p.tones.iter().map(|t| t.frequency_hz).collect();
     let mut fit = ToneFit::new(&freqs, fs);
     s.capture
-        .pass(&s.scale, interrupted, &mut |x| fit.push(x))?;
+        .pass(s.channel, &s.scale, interrupted, &mut |x| fit.push(x))?;
     let fitted = fit.finish().map(|(t, _)| t);
     // Measured in-band noise: the Welch bins inside the band, each tone's excluded bins
     // counted at the designed density instead.
@@ -138,13 +138,18 @@ pub(super) fn compare(s: &Setup, m: &Measured, notes: &mut Vec<String>) -> Optio
 /// The verdict of the comparison: a failure names the capture, the profile and the first
 /// band outside its limits.
 pub(super) fn verdict(report: &CaptureReport, s: &Setup) -> Verdict {
+    verdict_named(report, s, &s.name)
+}
+
+/// As [`verdict`], the capture called `name` (a channel of it, say).
+pub(super) fn verdict_named(report: &CaptureReport, s: &Setup, name: &str) -> Verdict {
     let Some(c) = &report.comparison else {
         return Verdict::NotJudged;
     };
     if c.pass {
         return Verdict::Pass;
     }
-    let (name, pname) = (&s.name, s.profile_name());
+    let pname = s.profile_name();
     Verdict::Fail(Error::Mismatch(match c.failure_line() {
         Some(line) => format!("{name} does not match {pname}: {line}"),
         None => format!("{name} could not be checked against {pname}: no band inside its band"),

@@ -14,7 +14,7 @@ use crate::io::adc::Dither;
 use crate::io::sink::{Format, SampleFormat, SinkSpec, wav_plan};
 use crate::model::budget::{BandSpec, band_rms};
 use crate::model::density;
-use crate::profile::{Dimension, Profile, format_quantity, parse_quantity};
+use crate::profile::{Profile, format_quantity};
 use crate::stop::Stop;
 use crate::synth::tone;
 use crate::synth::{
@@ -212,8 +212,12 @@ fn scale(plan: &Plan, s: &Settings, expected_rms: f64) -> Result<Scale> {
         return Ok(unscaled);
     }
     if let Some(q) = &s.full_scale {
-        let v = parse_quantity(q, Dimension::Amplitude, plan.profile.unit.symbol())
-            .map_err(|m| Error::setting(Setting::FullScale, m))?;
+        let v = crate::units::parse_amplitude(
+            q,
+            plan.profile.unit.symbol(),
+            plan.profile.sensitivity_v_per_unit,
+        )
+        .map_err(|m| Error::setting(Setting::FullScale, m))?;
         if !(v > 0.0 && v.is_finite()) {
             return Err(Error::setting(
                 Setting::FullScale,

@@ -24,6 +24,7 @@ use crate::error::{Error, Result, Setting};
 use crate::io::adc::{Coding, Dither};
 use crate::io::sink::{Format, SampleFormat};
 use crate::profile::{Profile, format_quantity_exact};
+use crate::run::shard::Shard;
 
 /// The WAV and integer formats' default level, dBFS (AES17 convention: 0 dBFS is the RMS of a
 /// full-scale sine).
@@ -39,6 +40,7 @@ struct Settings {
     samples: Option<u64>,
     start: Option<String>,
     start_sample: Option<u64>,
+    shard: Option<String>,
     rate: Option<String>,
     seed: u64,
     loop_buffer: bool,
@@ -174,6 +176,7 @@ impl<'a> Render<'a> {
                 samples: None,
                 start: None,
                 start_sample: None,
+                shard: None,
                 rate: None,
                 seed: 1,
                 loop_buffer: false,
@@ -205,6 +208,7 @@ impl<'a> Render<'a> {
         match setting {
             Setting::Duration => (s.duration, s.samples) = (t, None),
             Setting::Start => (s.start, s.start_sample) = (t, None),
+            Setting::Shard => s.shard = t,
             Setting::Rate => s.rate = t,
             Setting::Format => s.format = t,
             Setting::Name => s.name = t,
@@ -255,6 +259,15 @@ impl<'a> Render<'a> {
     /// the longer run).
     pub fn start_sample(mut self, frame: u64) -> Self {
         (self.s.start_sample, self.s.start) = (Some(frame), None);
+        self
+    }
+
+    /// Makes only this shard of the run: the `index`-th (0-based) of `count` consecutive,
+    /// equal-as-possible parts of the run that the length defines (a segment, see
+    /// [`crate::run::shard`]); `{shard}` in the output's name becomes the index. The manifest
+    /// records the shard, so [`crate::run::Join`] can put the parts back together.
+    pub fn shard(mut self, shard: Shard) -> Self {
+        self.s.shard = Some(shard.to_string());
         self
     }
 

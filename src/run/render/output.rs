@@ -234,6 +234,16 @@ fn manifest_doc(
     manifest.start_s = plan.start as f64 / fs;
     manifest.notes = notes.to_vec();
     manifest.extra.extend(built.container_keys.clone());
+    if let Some((shard, run_samples)) = plan.shard {
+        manifest.extra.insert(
+            "shard".into(),
+            serde_json::json!({
+                "index": shard.index,
+                "count": shard.count,
+                "run_samples": run_samples,
+            }),
+        );
+    }
     // The band RMS and the file RMS of the noise, as `budget` and `analyze` print them.
     manifest
         .extra
@@ -243,6 +253,25 @@ fn manifest_doc(
         .insert("file_noise_rms".into(), built.noise_variance.sqrt().into());
     if let Some(a) = &plan.adc {
         manifest.extra.insert("adc".into(), a.to_json(fs));
+    }
+    if let Some(v_per_unit) = profile.sensitivity_v_per_unit {
+        use crate::units::volts;
+        let full_scale = built.scale.full_scale;
+        manifest.extra.insert(
+            "sensor".into(),
+            serde_json::json!({
+                "unit": profile.unit.symbol(),
+                "sensitivity_v_per_unit": v_per_unit,
+                "full_scale": full_scale,
+                "full_scale_v": full_scale.map(|x| volts(x, v_per_unit)),
+                "range": plan.adc.as_ref().map(|a| [a.lo(), a.hi()]),
+                "range_v": plan
+                    .adc
+                    .as_ref()
+                    .map(|a| [volts(a.lo(), v_per_unit), volts(a.hi(), v_per_unit)]),
+                "lsb_v": plan.adc.as_ref().map(|a| a.lsb() * v_per_unit),
+            }),
+        );
     }
     if let Some(g) = &built.generator {
         burst_manifest(&mut manifest, &g.borrow(), profile, plan.per_source, spec);
@@ -264,6 +293,7 @@ fn manifest_doc(
             &measured.channels,
         );
     }
+    manifest.set_fingerprint();
     manifest
 }
 
@@ -287,6 +317,9 @@ fn summary(
             plan.start,
             plan.start as f64 / profile.sample_rate_hz
         );
+    }
+    if let Some((shard, total)) = plan.shard {
+        details += &format!("  shard           {shard} of a run of {total} samples\n");
     }
     let (var, mean) = (built.expected_variance, built.expected_mean);
     if let Some(g) = &built.generator {

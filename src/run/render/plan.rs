@@ -11,6 +11,7 @@ use crate::io::adc::{Adc, Coding, Container, Dither, parse_range};
 use crate::io::sink::{Format, SampleFormat};
 use crate::profile::{Dimension, Profile, format_quantity, parse_quantity};
 use crate::run::guard::{Read, Written, check_outputs};
+use crate::run::shard::{SHARD_PLACEHOLDER, Shard};
 use crate::run::{is_direct_target, manifest_path};
 use crate::synth::tone;
 
@@ -34,7 +35,12 @@ pub(super) struct Plan {
     pub(super) segment: bool,
     /// CSV columns per source.
     pub(super) per_source: bool,
+    /// The shard this run makes, and the frames of the whole run it is a part of.
+    pub(super) shard: Option<ShardOfRun>,
 }
+
+/// A shard and the frames of the whole run it is a part of.
+pub(super) type ShardOfRun = (Shard, u64);
 
 impl Plan {
     pub(super) fn new(profile: &Profile, s: &Settings, target: Target) -> Result<Plan> {
@@ -55,6 +61,7 @@ impl Plan {
             ));
         }
         let adc = adc_from_settings(s, &profile)?;
+        let shard = s.shard.as_deref().map(str::parse::<Shard>).transpose()?;
         let target = match target {
             Target::Folder(dir) => {
                 let stem = Path::new(&file)
@@ -62,9 +69,26 @@ impl Plan {
                     .map_or("noise".into(), |s| s.to_string_lossy().into_owned());
                 // ADC codes cannot go to WAV: default to a raw file named after their container.
                 let ext = adc.as_ref().map_or("wav", |a| a.container().name());
-                Target::File(dir.join(format!("{stem}.{ext}")))
+                let name = match shard {
+                    Some(_) => format!("{stem}-{SHARD_PLACEHOLDER}.{ext}"),
+                    None => format!("{stem}.{ext}"),
+                };
+                Target::File(dir.join(name))
             }
             t => t,
+        };
+        // A C array is named after the output without the shard's index, so every shard of
+        // a run names it alike.
+        let array_stem = match &target {
+            Target::File(p) if shard.is_some() => {
+                Some(p.to_string_lossy().replace(SHARD_PLACEHOLDER, ""))
+            }
+            Target::File(p) => Some(p.to_string_lossy().into_owned()),
+            _ => None,
+        };
+        let target = match (target, shard) {
+            (Target::File(p), Some(sh)) => Target::File(sh.file_name(&p)),
+            (t, _) => t,
         };
         let format = format_of(s, &target)?;
         let extension = match &target {
@@ -73,13 +97,14 @@ impl Plan {
         };
         check_extension(extension.as_deref(), format, adc.as_ref())?;
         let sample_format = sample_format_of(s, &target, extension.as_deref(), format)?;
-        let array_name = array_name(s, format, &target)?;
+        let array_name = array_name(s, format, &target, array_stem.as_deref().map(Path::new))?;
         let samples = length(s, &target, fs, profile.unit.symbol())?;
         let start = start_index(s, fs, profile.unit.symbol())?;
+        let (start, samples, shard) = shard_part(s, shard, start, samples)?;
         // The dither of each stored value depends on its index in the run from 0 (interleaved
         // values of several channels each count).
         let adc = adc.map(|a| a.starting_at(start * profile.channels as u64));
-        let segment = s.start.is_some() || s.start_sample.is_some();
+        let segment = s.start.is_some() || s.start_sample.is_some() || shard.is_some();
         if segment && s.loop_buffer {
             return Err(Error::setting(
                 Setting::Loop,
@@ -103,6 +128,7 @@ impl Plan {
             start,
             segment,
             per_source,
+            shard,
         })
     }
 }
@@ -271,8 +297,14 @@ fn sample_format_of(
     Ok(given)
 }
 
-/// The C array's name (C headers only): as set, else the file's stem made an identifier.
-fn array_name(s: &Settings, format: Format, target: &Target) -> Result<Option<String>> {
+/// The C array's name (C headers only): as set, else the stem of `named_after` (the output
+/// file's name) made an identifier.
+fn array_name(
+    s: &Settings,
+    format: Format,
+    target: &Target,
+    named_after: Option<&Path>,
+) -> Result<Option<String>> {
     if matches!(format, Format::Npy | Format::C) && target.is_stream() {
         return Err(Error::setting(
             Setting::Output,
@@ -295,8 +327,9 @@ fn array_name(s: &Settings, format: Format, target: &Target) -> Result<Option<St
                  give \u{1}format\u{1} c"
             ),
         )),
-        (None, Format::C, Target::File(p)) => Ok(Some(crate::io::sink::default_array_name(
-            &p.file_stem()
+        (None, Format::C, Target::File(_)) => Ok(Some(crate::io::sink::default_array_name(
+            &named_after
+                .and_then(Path::file_stem)
                 .map_or(String::new(), |s| s.to_string_lossy().into_owned()),
         ))),
         (None, _, _) => Ok(None),
@@ -349,6 +382,46 @@ fn length(s: &Settings, target: &Target, fs: f64, unit: &str) -> Result<Option<u
         ));
     }
     Ok(Some(samples))
+}
+
+/// A shard's first frame and length in the run the length defines (the start and length as
+/// they are without a shard); refuses a shard with a start of its own, a loop or no end.
+fn shard_part(
+    s: &Settings,
+    shard: Option<Shard>,
+    start: u64,
+    samples: Option<u64>,
+) -> Result<(u64, Option<u64>, Option<ShardOfRun>)> {
+    let Some(shard) = shard else {
+        return Ok((start, samples, None));
+    };
+    let why = if s.start.is_some() || s.start_sample.is_some() {
+        "a shard starts where K/N puts it in the run from 0: \u{1}shard\u{1} cannot be used with \
+         \u{1}start\u{1} or \u{1}start_sample\u{1}"
+    } else if s.loop_buffer {
+        "a loop buffer is one whole period, not a part of a longer run: \u{1}shard\u{1} cannot \
+         be used with \u{1}loop\u{1}"
+    } else if samples.is_none() {
+        "a run without an end cannot be cut into parts: give \u{1}duration\u{1} or \
+         \u{1}samples\u{1} for the whole run"
+    } else {
+        ""
+    };
+    if !why.is_empty() {
+        return Err(Error::setting(Setting::Shard, why));
+    }
+    let total = samples.expect("checked above");
+    let (first, n) = shard.part(total)?;
+    if first >= crate::synth::MAX_START {
+        return Err(Error::setting(
+            Setting::Shard,
+            format!(
+                "{shard} starts at sample {first}, beyond the last possible start, sample {}",
+                crate::synth::MAX_START - 1
+            ),
+        ));
+    }
+    Ok((first, Some(n), Some((shard, total))))
 }
 
 /// Relative tolerance for a start time to count as on a sample: far above the rounding of
@@ -543,7 +616,8 @@ fn adc_from_settings(s: &Settings, profile: &Profile) -> Result<Option<Adc>> {
             ),
         ));
     };
-    let (lo, hi) = parse_range(range, unit).map_err(|m| Error::setting(Setting::Range, m))?;
+    let (lo, hi) = parse_range(range, unit, profile.sensitivity_v_per_unit)
+        .map_err(|m| Error::setting(Setting::Range, m))?;
     let coding = s.code.as_deref().map(str::parse::<Coding>).transpose()?;
     let dither = match s.dither.as_deref() {
         Some(d) => d.parse::<Dither>()?,
