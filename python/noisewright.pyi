@@ -1,6 +1,7 @@
 """Type stubs of noisewright, the extension module built from python/src (PyO3).
 
-Samples are float64 in the profile's unit (V or A); frequencies in Hz; times in seconds.
+Samples are float64 in the profile's unit (V, A or a sensor unit); frequencies in Hz; times
+in seconds.
 """
 
 import os
@@ -38,7 +39,7 @@ class Profile:
         """The sample rate, Hz."""
     @property
     def unit(self) -> str:
-        """The physical unit of the samples: "V" or "A"."""
+        """The samples' unit symbol: "V", "A", or a sensor unit such as "Pa"."""
     @property
     def band(self) -> Tuple[float, float]:
         """The band of interest, (low, high) in Hz."""

@@ -9,8 +9,8 @@ use pyo3::prelude::*;
 
 use crate::convert::{count, float64_array, lib, profile_arg, whole_or};
 
-/// A profile's noise as a stream of samples in its unit (V or A), from a seed and a start
-/// frame: consecutive fill() and read() calls continue the same run, bit for bit what
+/// A profile's noise as a stream of samples in its unit (V, A or a sensor unit), from a seed
+/// and a start frame: consecutive fill() and read() calls continue the same run, bit for bit what
 /// `noisewright generate --format raw --sample-format f64 --seed SEED --start-sample START`
 /// writes. One channel gives arrays of shape (n,), several give (n, channels).
 ///

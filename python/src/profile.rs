@@ -40,7 +40,7 @@ impl Profile {
         self.inner.sample_rate_hz
     }
 
-    /// The physical unit of the samples: "V" or "A".
+    /// The symbol of the samples' unit: "V", "A", or a sensor unit such as "Pa" or "rad/s".
     #[getter]
     fn unit(&self) -> &'static str {
         self.inner.unit.symbol()

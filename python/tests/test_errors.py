@@ -31,7 +31,7 @@ def test_a_bad_profile_raises_profile_error_with_the_clis_message(cli, tmp_path)
     assert isinstance(e, ValueError)
     assert str(e) == cli_message
     assert e.key == "floor[0].density" and e.line == 7 and e.file == str(path)
-    assert "floor[0].density" in str(e) and "expected" in str(e)
+    assert "floor[0].density" in str(e) and "expect" in str(e)  # what the key takes
     # From text, the label stands for the file; generate() with a path raises the same.
     with pytest.raises(noisewright.ProfileError, match=r"^inline:7: floor\[0\]\.density: "):
         noisewright.Profile.from_toml(BAD_DENSITY, label="inline")
