@@ -116,6 +116,30 @@ fn generator_starting_at_is_generates_segment_also_with_channels() {
     }
 }
 
+#[test]
+fn generator_refuses_a_start_past_the_engines_last_with_render_s_words() {
+    let last = noisewright::synth::MAX_START - 1;
+    for channels in ["", "channels = 2\n"] {
+        let p = Profile::from_toml_str(
+            &format!(
+                "sample_rate = \"8 kHz\"\n{channels}[band]\nlow = \"10 Hz\"\nhigh = \"3 kHz\"\n\
+                 [[floor]]\ndensity = \"10 nV/rtHz\"\n"
+            ),
+            "inline",
+        )
+        .unwrap();
+        let e = Generator::starting_at(&p, 1, last + 1)
+            .err()
+            .expect("refused");
+        let r = Render::new(&p)
+            .samples(1)
+            .start_sample(last + 1)
+            .to_writer(std::io::sink());
+        assert_eq!(e.to_string(), r.unwrap_err().to_string());
+        assert!(e.to_string().contains(&format!("sample {last}")), "{e}");
+    }
+}
+
 /// The outputs compared: file name, the command's options (U: the profile's unit), and the
 /// same run as a Render.
 type Case = (
@@ -218,6 +242,11 @@ fn render_cases(p: &Path, base: &Path) {
             );
             assert!(a == b, "{what}: {f} differs");
         }
+        // The report holds the manifest it wrote.
+        let written: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(lib_dir.join(format!("{name}.json"))).unwrap())
+                .unwrap();
+        assert_eq!(report.manifest.as_ref(), Some(&written), "{what}: manifest");
         let summary = String::from_utf8(summary).unwrap();
         assert_eq!(
             report.summary.replace(lib_dir.to_str().unwrap(), "OUT"),
@@ -249,7 +278,7 @@ fn render_streams_to_a_writer_what_generate_streams_to_standard_output() {
         .unwrap();
     assert_eq!(*buffer.lock().unwrap(), cli);
     assert_eq!(report.frames, 5000);
-    assert!(report.path.is_none() && report.manifest_path.is_none());
+    assert!(report.path.is_none() && report.manifest_path.is_none() && report.manifest.is_none());
 }
 
 #[test]

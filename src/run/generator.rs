@@ -1,9 +1,28 @@
 //! [`Generator`]: a profile's samples pulled into the caller's buffers, one channel or several
 //! interleaved, exactly the values `generate` writes as raw f64.
 
-use crate::error::Result;
+use crate::error::{Error, Result, Setting};
 use crate::profile::Profile;
 use crate::synth::{self, ChannelGenerator};
+
+/// Samples the engine makes per step when a caller's buffer is larger, as `generate` does
+/// (its working buffers, a burst's column among them, are this size, not the caller's).
+pub(crate) const BLOCK_SAMPLES: usize = 1 << 16;
+
+/// Refuses a first frame at or past [`synth::MAX_START`], the last the engine can seek to.
+pub(crate) fn check_start_sample(n: u64) -> Result<()> {
+    let limit = synth::MAX_START;
+    if n >= limit {
+        return Err(Error::setting(
+            Setting::StartSample,
+            format!(
+                "{n} is beyond the last possible start, sample {}",
+                limit - 1
+            ),
+        ));
+    }
+    Ok(())
+}
 
 /// A profile's noise (with its bursts, tones and offset) as a pull stream in physical units
 /// (the profile's unit, V or A): the same values, bit for bit, that a [`crate::Render`] (and
@@ -45,8 +64,10 @@ impl Generator {
     }
 
     /// The run of `profile` and `seed` from frame `start_sample` on (0-based): its samples
-    /// are those the run from 0 makes from there.
+    /// are those the run from 0 makes from there. A start at or past
+    /// [`synth::MAX_START`] is refused ([`Setting::StartSample`]).
     pub fn starting_at(profile: &Profile, seed: u64, start_sample: u64) -> Result<Generator> {
+        check_start_sample(start_sample)?;
         let inner = if profile.channels > 1 {
             Inner::Many(Box::new(ChannelGenerator::starting_at(
                 profile,
@@ -76,10 +97,31 @@ impl Generator {
     ///
     /// # Panics
     /// With several channels, if `out.len()` is not a whole number of frames.
+    ///
+    /// Called from a thread outside any rayon pool, the call runs on a worker of rayon's
+    /// global pool (all cores, or `RAYON_NUM_THREADS`), so the engine's parallel steps share
+    /// the cores; the values are the same on any pool.
     pub fn fill(&mut self, out: &mut [f64]) {
-        match &mut self.inner {
-            Inner::One(g) => g.fill(out),
-            Inner::Many(m) => m.fill_frames(out),
+        if rayon::current_thread_index().is_none() && rayon::current_num_threads() > 1 {
+            // One hand-off per call; the engine's steps then run on the pool's workers (off
+            // a worker they would run one after another on this thread).
+            rayon::scope(|_| self.fill_here(out));
+        } else {
+            self.fill_here(out);
+        }
+    }
+
+    /// [`Generator::fill`] on the calling thread's pool (or alone, off any pool), in blocks
+    /// of about [`BLOCK_SAMPLES`] samples: the engine's working buffers stay that size
+    /// however large `out` is.
+    fn fill_here(&mut self, out: &mut [f64]) {
+        let ch = self.channels();
+        let block = (BLOCK_SAMPLES / ch).max(1024) * ch;
+        for part in out.chunks_mut(block) {
+            match &mut self.inner {
+                Inner::One(g) => g.fill(part),
+                Inner::Many(m) => m.fill_frames(part),
+            }
         }
     }
 

@@ -120,6 +120,9 @@ pub struct RenderReport {
     pub path: Option<PathBuf>,
     /// The manifest written beside it (`None` for a stream, a device or a pipe).
     pub manifest_path: Option<PathBuf>,
+    /// The manifest's content as written to [`RenderReport::manifest_path`] (`None` when no
+    /// manifest was written); numbers in SI units and the profile's unit.
+    pub manifest: Option<serde_json::Value>,
     /// What the run changed or noticed (a replaced rate, a quantisation floor, clipping …),
     /// also in the summary and the manifest.
     pub notes: Vec<String>,

@@ -59,13 +59,13 @@ pub(super) fn write(
         .and_then(|_| sink.finish())
         .map_err(|e| naming_output(e, &shown))
     };
-    let (sink_report, path, manifest_file) = match target {
+    let (sink_report, path, manifest_file, manifest_value) = match target {
         Target::Stream { writer, .. } => {
             match run(
                 Box::new(BufWriter::with_capacity(FLUSH_BYTES, writer)),
                 &mut built,
             ) {
-                Ok(r) => (r, None, None),
+                Ok(r) => (r, None, None, None),
                 Err(Error::Io { source, .. }) if source.kind() == io::ErrorKind::BrokenPipe => {
                     return Ok(closed_report(&built));
                 }
@@ -97,15 +97,17 @@ pub(super) fn write(
             match manifest {
                 None => {
                     commit_all(vec![pending])?;
-                    (report, Some(path), None)
+                    (report, Some(path), None, None)
                 }
                 Some(m) => {
                     let doc = manifest_doc(&plan, &built, s, &report, &measured, &notes);
                     write_manifest(&doc, BufWriter::new(m.file()?))
                         .map_err(|e| naming_output(e, &mp.display().to_string()))?;
+                    let value = serde_json::to_value(&doc)
+                        .map_err(|e| Error::io("writing the manifest", e.into()))?;
                     // The noise file last: where it exists, its manifest does too.
                     commit_all(vec![m, pending])?;
-                    (report, Some(path), Some(mp))
+                    (report, Some(path), Some(mp), Some(value))
                 }
             }
         }
@@ -121,6 +123,7 @@ pub(super) fn write(
         frames: measured.all.count() / channels.max(1) as u64,
         path,
         manifest_path: manifest_file,
+        manifest: manifest_value,
         notes,
         reader_closed: false,
         summary,
@@ -154,6 +157,7 @@ fn closed_report(built: &Built) -> RenderReport {
         frames: 0,
         path: None,
         manifest_path: None,
+        manifest: None,
         notes: Vec::new(),
         reader_closed: true,
         summary: String::new(),

@@ -433,15 +433,7 @@ const START_TOLERANCE: f64 = 1e-13;
 fn start_index(s: &Settings, fs: f64, unit: &str) -> Result<u64> {
     let limit = crate::synth::MAX_START;
     if let Some(n) = s.start_sample {
-        if n >= limit {
-            return Err(Error::setting(
-                Setting::StartSample,
-                format!(
-                    "{n} is beyond the last possible start, sample {}",
-                    limit - 1
-                ),
-            ));
-        }
+        crate::run::generator::check_start_sample(n)?;
         return Ok(n);
     }
     let Some(text) = &s.start else {

@@ -11,7 +11,7 @@ use crate::io::sink::Sink;
 use crate::profile::Profile;
 
 /// Samples produced and written per step.
-const CHUNK: usize = 1 << 16;
+const CHUNK: usize = crate::run::generator::BLOCK_SAMPLES;
 /// Runs longer than this many samples show a progress bar (when stderr is a terminal).
 const PROGRESS_MIN_SAMPLES: u64 = 1 << 23;
 
