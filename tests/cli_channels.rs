@@ -453,12 +453,39 @@ fn every_container_gives_every_channel_and_channel_picks() {
         &["--sample-format", "i24", "--full-scale", "5uV"],
     );
     let csv = capture(&dir, "p.toml", &p, "x.csv", &[]);
+    // The same run as the WAV, as an .npy array of shape (N, 3) with its codes widened to
+    // four bytes: every number of the analysis must be the WAV's.
+    let npy = capture(
+        &dir,
+        "p.toml",
+        &p,
+        "x.npy",
+        &["--sample-format", "i24", "--full-scale", "5uV"],
+    );
     let prof = dir.path("p.toml");
     let pa = prof.to_str().unwrap();
-    for f in [&wav, &csv] {
+    let mut jsons = Vec::new();
+    for f in [&wav, &csv, &npy] {
         let (code, j, stderr) = analyze_json(&dir, f, &["--profile", pa]);
         assert_eq!(code, 0, "{}: {stderr} (seed {SEED})", f.display());
         assert_eq!(j["channels"].as_array().unwrap().len(), 3);
+        jsons.push(j);
+    }
+    assert_eq!(jsons[0]["correlation"], jsons[2]["correlation"]);
+    let (wav_ch, npy_ch) = (&jsons[0]["channels"], &jsons[2]["channels"]);
+    for (k, (w, n)) in wav_ch
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(npy_ch.as_array().unwrap())
+        .enumerate()
+    {
+        for key in ["density", "std", "mean", "pass"] {
+            assert_eq!(
+                w[key], n[key],
+                "channel {k} {key}: the .npy reads as the WAV"
+            );
+        }
     }
     // Without its manifest the CSV's column names (`ch0_value_V` …) still say volts.
     let bare = dir.path("bare.csv");

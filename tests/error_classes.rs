@@ -2142,15 +2142,11 @@ fn cases() -> Vec<Case> {
             &["few.wav", "8 samples", "at least 16"],
         ),
         capture(
-            "npy capture",
+            "npy capture cut inside its header",
             "a.npy",
             b"\x93NUMPY".to_vec(),
             &[],
-            &[
-                "a.npy",
-                "npy files are not read by analyze",
-                "raw or WAV output",
-            ],
+            &["a.npy", "truncated inside its npy header"],
         ),
         capture(
             "C header capture",

@@ -1,4 +1,4 @@
-//! Readers of captured samples: WAV, CSV and raw files on any [`std::io::Read`], streamed in
+//! Readers of captured samples: WAV, CSV, raw and `.npy` files on any [`std::io::Read`], streamed in
 //! blocks with bounded memory.
 //!
 //! A reader yields **stored values** as `f64`, with one rule for every format:
@@ -18,10 +18,12 @@
 //! Malformed or truncated input is an [`Error::Input`] naming the file and what is wrong.
 
 mod csv;
+mod npy;
 mod raw;
 mod wav;
 
 pub use csv::CsvSource;
+pub use npy::NpySource;
 pub use raw::RawSource;
 pub use wav::WavSource;
 
@@ -104,12 +106,13 @@ pub fn open_source<'a, R: Read + 'a>(
         Format::Wav => Box::new(WavSource::new(input, options)?),
         Format::Csv => Box::new(CsvSource::new(input, options)?),
         Format::Raw => Box::new(RawSource::new(input, options)?),
-        Format::Npy | Format::C => {
+        Format::Npy => Box::new(NpySource::new(input, options)?),
+        Format::C => {
             return Err(Error::input(
                 &options.name,
                 format!(
-                    "{} files are not read by analyze; analyse the raw or WAV output of the \
-                     same run instead",
+                    "{} files are not read by analyze; analyse the raw, .npy or WAV output of \
+                     the same run instead",
                     options.format
                 ),
             ));

@@ -19,6 +19,9 @@ pub struct RawSource<R: Read> {
     info: StreamInfo,
     name: String,
     sample_format: SampleFormat,
+    /// Bytes from one stored value to the next (the sample format's size, or 4 for 24-bit
+    /// codes widened to four bytes in an `.npy` array).
+    stride: usize,
     /// Bytes per frame (every channel).
     frame_bytes: usize,
     buf: Vec<u8>,
@@ -29,6 +32,17 @@ pub struct RawSource<R: Read> {
 impl<R: Read> RawSource<R> {
     /// Needs `options.sample_format` and `options.rate_hz`.
     pub fn new(input: R, options: &SourceOptions) -> Result<RawSource<R>> {
+        let stride = options.sample_format.map_or(1, |f| f.bytes());
+        RawSource::with_stride(input, options, stride)
+    }
+
+    /// [`RawSource::new`] with values `stride` bytes apart (at least the sample format's
+    /// size; each value in the low bytes, little-endian).
+    pub(super) fn with_stride(
+        input: R,
+        options: &SourceOptions,
+        stride: usize,
+    ) -> Result<RawSource<R>> {
         let name = options.name.clone();
         let sample_format = options.sample_format.ok_or_else(|| {
             Error::setting(
@@ -61,16 +75,27 @@ impl<R: Read> RawSource<R> {
             },
             notes: Vec::new(),
         };
-        let frame_bytes = sample_format.bytes() * usize::from(info.channels);
+        let stride = stride.max(sample_format.bytes());
+        let frame_bytes = stride * usize::from(info.channels);
         Ok(RawSource {
             input,
             info,
             name,
             sample_format,
+            stride,
             frame_bytes,
             buf: vec![0u8; READ_BYTES],
             read: 0,
         })
+    }
+}
+
+impl<R: Read> RawSource<R> {
+    /// Marks the stream as read from a container with a header (`format`) that announced
+    /// `frames` frames.
+    pub(super) fn set_header(&mut self, format: Format, frames: u64) {
+        self.info.format = format;
+        self.info.frames = Some(frames);
     }
 }
 
@@ -81,7 +106,7 @@ impl<R: Read> SampleSource for RawSource<R> {
 
     fn read_block(&mut self, out: &mut Vec<f64>, max: usize) -> Result<usize> {
         out.clear();
-        let b = self.sample_format.bytes();
+        let b = self.stride;
         let fb = self.frame_bytes;
         let want = max
             .max(1)
@@ -115,7 +140,7 @@ impl<R: Read> SampleSource for RawSource<R> {
             ));
         }
         self.read += got as u64;
-        decode_le(&self.buf[..got], self.sample_format, b, out);
+        decode_le(&self.buf[..got], self.sample_format, self.stride, out);
         Ok(out.len())
     }
 }

@@ -77,8 +77,8 @@ fn checked(
 }
 
 impl Capture<'_> {
-    /// The container of a capture file, from its extension: `.wav`, `.csv`, `.npy` and `.h`
-    /// (both refused by the readers), anything else raw.
+    /// The container of a capture file, from its extension: `.wav`, `.csv`, `.npy`, `.h`
+    /// (refused by the readers), anything else raw.
     pub(super) fn format_of(path: &Path) -> Format {
         match path
             .extension()
@@ -87,8 +87,8 @@ impl Capture<'_> {
         {
             Some("wav") => Format::Wav,
             Some("csv") => Format::Csv,
-            // Not read: named so the refusal says why instead of reading a header as samples.
             Some("npy") => Format::Npy,
+            // Not read: named so the refusal says why instead of reading a header as samples.
             Some("h") => Format::C,
             _ => Format::Raw,
         }
