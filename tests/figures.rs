@@ -13,6 +13,9 @@ use usvg::{Node, Options, Rect, Tree};
 fn tree(svg: &str) -> Tree {
     let mut opt = Options::default();
     opt.fontdb_mut().load_system_fonts();
+    // The generic family a picture may name resolves to the font installed for the tests
+    // (fontdb's default, Arial, is not on a Debian machine).
+    opt.fontdb_mut().set_sans_serif_family("DejaVu Sans");
     assert!(
         !opt.fontdb.is_empty(),
         "no font found: install one (Debian: fonts-dejavu-core) so text can be laid out"
