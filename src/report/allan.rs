@@ -5,6 +5,7 @@
 use super::figure::{Axis, Figure, Mark, Pen, page};
 use crate::analysis::allan::{AllanDeviation, CONFIDENCE, InertialFit};
 use crate::model::allan::bias_instability_factor;
+use crate::model::budget::log_spaced;
 
 /// The SVG text of the picture; `profile_adev` (unit, at the same τ) adds the profile's
 /// curve; `title` names the profile. A picture with nothing to draw says so in its place.
@@ -74,9 +75,7 @@ pub fn allan_figure(
             pen: Pen::total(),
         });
     }
-    let grid: Vec<f64> = (0..=200)
-        .map(|j| t0 * (t1 / t0).powf(f64::from(j) / 200.0))
-        .collect();
+    let grid = log_spaced(t0, t1, 50);
     let lines: [FittedLine; 3] = [
         (fit.random_walk, "fit N/\u{221a}\u{3c4}", 2, |c, t| {
             c / t.sqrt()

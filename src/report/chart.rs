@@ -34,16 +34,15 @@ fn edge_rules(edges: impl IntoIterator<Item = f64>) -> Vec<Mark> {
         .collect()
 }
 
-/// Each tone of `profile` as a labelled rule where it sits.
-fn tone_rules(profile: &Profile) -> Vec<Mark> {
-    profile
-        .tones
-        .iter()
-        .map(|t| Mark::Rule {
+/// A labelled rule at each tone frequency (Hz), where the tone sits.
+fn tone_rules(frequencies_hz: impl IntoIterator<Item = f64>) -> Vec<Mark> {
+    frequencies_hz
+        .into_iter()
+        .map(|f| Mark::Rule {
             name: "tones".into(),
             vertical: true,
-            at: t.frequency_hz,
-            label: format!("tone {}", format_quantity(t.frequency_hz, "Hz")),
+            at: f,
+            label: format!("tone {}", format_quantity(f, "Hz")),
             pen: Pen::dashed("#b8860b", 1.4, "2 3"),
         })
         .collect()
@@ -83,7 +82,7 @@ pub fn budget_figures(profile: &Profile, budget: &Budget) -> Vec<Figure> {
     let bottom = total.iter().map(|p| p.1).fold(f64::INFINITY, f64::min) / 3.0;
     let name = budget.name.as_deref().unwrap_or("profile");
     let mut marks = edge_rules(budget.bands.iter().flat_map(|b| [b.low_hz, b.high_hz]));
-    marks.extend(tone_rules(profile));
+    marks.extend(tone_rules(profile.tones.iter().map(|t| t.frequency_hz)));
     let alone = curves.len() == 1;
     for (i, (source, pts)) in curves.into_iter().enumerate() {
         // One source is the total: drawn once, named as both.
@@ -289,13 +288,7 @@ pub fn density_figure(v: &AnalysisView<'_>) -> Option<Figure> {
     if let Some(p) = v.profile {
         marks.extend(edge_rules([p.band.low_hz, p.band.high_hz]));
     }
-    marks.extend(v.tones.iter().map(|&f| Mark::Rule {
-        name: "tones".into(),
-        vertical: true,
-        at: f,
-        label: format!("tone {}", format_quantity(f, "Hz")),
-        pen: Pen::dashed("#b8860b", 1.4, "2 3"),
-    }));
+    marks.extend(tone_rules(v.tones.iter().copied()));
     marks.push(Mark::Area {
         name: "95 % interval".into(),
         upper: steps(&bands, &|i| ci[i].1.sqrt()),

@@ -176,13 +176,14 @@ pub(super) fn drift_json(t: &Trend, fs: f64, removed: bool) -> (Value, Value) {
 }
 
 /// Spurs found in the estimate (the tones' bins `tones` skipped) and the user's exclusions:
-/// their bins leave every band (split around them). Returns the `spurs` and `excluded` JSON.
+/// their bins leave every band (split around them). Returns the `spurs` and `excluded` JSON,
+/// and the bin ranges of both.
 pub(super) fn lines(
     s: &Setup,
     m: &mut Measured,
     tones: &[Range<usize>],
     bench: &BenchSpec,
-) -> (Value, Value) {
+) -> (Value, Value, Vec<Range<usize>>) {
     let sp = &m.spectrum;
     let found = find_spurs(sp, tones, SPUR_FALSE_ALARM);
     let q_psd = m.q_psd;
@@ -230,7 +231,7 @@ pub(super) fn lines(
         .zip(&user)
         .map(|(&(lo, hi), r)| json!({"low_hz": lo, "high_hz": hi, "excluded_bins": [r.start, r.end]}))
         .collect();
-    (spurs, json!(excluded))
+    (spurs, json!(excluded), all)
 }
 
 fn spur_json(p: &Spur, r: &Range<usize>) -> Value {

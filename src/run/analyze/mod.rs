@@ -521,9 +521,9 @@ fn measure_channel(
     let mut measured = measure::measure(setup, seg_len, interrupted)?;
     let mut notes = setup.notes.clone();
     let (tones, tone_bins) = verdict::tones(setup, &mut measured, &mut notes, interrupted)?;
-    let (spurs, excluded) = bench::lines(setup, &mut measured, &tone_bins, &setup.bench);
+    let (spurs, excluded, lines) = bench::lines(setup, &mut measured, &tone_bins, &setup.bench);
     let comparison = verdict::compare(setup, &measured, &mut notes);
-    let left_out = pictures::left_out_bins(&serde_json::json!(tones), &spurs, &excluded);
+    let left_out = [tone_bins, lines].concat();
     let integrated = pictures::integrated(setup, &measured, &left_out);
     let left_out_hz = pictures::left_out_hz(&left_out, measured.spectrum.bin_width_hz());
     let fs = setup.info.sample_rate_hz;

@@ -1,29 +1,12 @@
 //! What an analysis's pictures and its integrated noise need beyond the measurement: the
-//! bins left out of the verdict (tones, spurs, excluded spans) and the integrated noise over
-//! the profile's band.
+//! bins left out of the verdict (tones, spurs, excluded spans) as frequency spans, and the
+//! integrated noise over the profile's band.
 
 use std::ops::Range;
-
-use serde_json::Value;
 
 use super::measure::Measured;
 use super::setup::Setup;
 use crate::analysis::integrated::{IntegratedNoise, integrated_noise};
-
-/// Every bin range left out of the verdict, from the JSON parts that list them: each tone's,
-/// each spur's and each excluded span's `excluded_bins` ([start, end) of the Welch bins).
-pub(super) fn left_out_bins(tones: &Value, spurs: &Value, excluded: &Value) -> Vec<Range<usize>> {
-    let list = |v: &Value| v.as_array().cloned().unwrap_or_default();
-    list(tones)
-        .iter()
-        .chain(list(&spurs["found"]).iter())
-        .chain(list(excluded).iter())
-        .filter_map(|e| {
-            let b = e["excluded_bins"].as_array()?;
-            Some(b.first()?.as_u64()? as usize..b.get(1)?.as_u64()? as usize)
-        })
-        .collect()
-}
 
 /// The left-out bin ranges as frequency spans in Hz (each bin ± half a bin width).
 pub(super) fn left_out_hz(bins: &[Range<usize>], bin_width_hz: f64) -> Vec<(f64, f64)> {
