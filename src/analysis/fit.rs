@@ -308,6 +308,7 @@ pub fn fit_floor(r: &CaptureReport, options: &FitOptions) -> Result<FloorFit> {
         low_hz: range_hz.0.max(fs * 1e-9),
         high_hz: range_hz.1.min(fs / 2.0),
         order: 0,
+        low_order: 0,
     });
     if !keep_rise {
         let scale = (sse_white / (n - 1.0)).max(1.0);

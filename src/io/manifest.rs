@@ -375,6 +375,7 @@ impl SideManifest {
                     low_hz: lo,
                     high_hz: hi,
                     order: b["order"].as_u64().unwrap_or(0) as u32,
+                    low_order: b["low_order"].as_u64().unwrap_or(0) as u32,
                 });
             }
         }
@@ -446,7 +447,8 @@ mod tests {
             Some(Band {
                 low_hz: 2.0,
                 high_hz: 300.0,
-                order: 4
+                order: 4,
+                low_order: 0,
             })
         );
         let m = SideManifest::parse(r#"{"full_scale": null}"#, "m.json").unwrap();

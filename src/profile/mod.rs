@@ -111,13 +111,15 @@ impl Unit {
 /// The synthesised band.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Band {
-    /// Lower edge in Hz (> 0). Below it the density falls to zero within one octave
-    /// (see [`crate::model::density`]).
+    /// Lower edge in Hz (> 0); the edge's shape is [`Band::low_order`] (see
+    /// [`crate::model::density`]).
     pub low_hz: f64,
     /// Upper edge in Hz (≤ sample_rate / 2).
     pub high_hz: f64,
     /// Butterworth low-pass order at `high_hz`; 0 = brick wall.
     pub order: u32,
+    /// Butterworth high-pass order at `low_hz`; 0 = brick wall (the default).
+    pub low_order: u32,
 }
 
 /// One uncorrelated noise source. All sources of a profile add in power.
@@ -413,6 +415,7 @@ impl Profile {
                 "low_hz": self.band.low_hz,
                 "high_hz": self.band.high_hz,
                 "order": self.band.order,
+                "low_order": self.band.low_order,
             },
             "sources": sources,
             "bursts": self.bursts.iter().map(|b| json!({

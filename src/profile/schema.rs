@@ -92,7 +92,7 @@ const TOP_KEYS: &[&str] = &[
     "channels",
     "correlation",
 ];
-const BAND_KEYS: &[&str] = &["low", "high", "order"];
+const BAND_KEYS: &[&str] = &["low", "high", "order", "low_order"];
 const FLOOR_KEYS: &[&str] = &["name", "density", "corner", "slope"];
 const RESISTOR_KEYS: &[&str] = &["name", "resistance", "temperature"];
 const TABLE_KEYS: &[&str] = &["name", "points"];
@@ -130,6 +130,7 @@ struct RawBand {
     low: Option<Spanned<Value>>,
     high: Option<Spanned<Value>>,
     order: Option<Spanned<Value>>,
+    low_order: Option<Spanned<Value>>,
 }
 
 #[derive(Deserialize)]
@@ -758,18 +759,20 @@ fn validate_band(
     Ok(Band {
         low_hz: low,
         high_hz: high,
-        order: band_order(cx, band.order.as_ref())?,
+        order: band_order(cx, "band.order", band.order.as_ref())?,
+        low_order: band_order(cx, "band.low_order", band.low_order.as_ref())?,
     })
 }
 
-/// `band.order`: 0 (brick wall) when absent, else a Butterworth order up to [`MAX_ORDER`].
-fn band_order(cx: &Cx<'_>, order: Option<&Spanned<Value>>) -> Result<u32> {
+/// `band.order` or `band.low_order` (`key`): 0 (brick wall) when absent, else a Butterworth
+/// order up to [`MAX_ORDER`].
+fn band_order(cx: &Cx<'_>, key: &str, order: Option<&Spanned<Value>>) -> Result<u32> {
     match order {
         None => Ok(0),
         Some(o) => match o.get_ref() {
             Value::Integer(n) if (0..=i64::from(MAX_ORDER)).contains(n) => Ok(*n as u32),
             other => Err(cx.err(
-                "band.order",
+                key,
                 Some(o.span()),
                 format!(
                     "expected an integer from 0 (brick wall) to {MAX_ORDER} \
@@ -1078,7 +1081,8 @@ points = [[1.0, 30e-9], ["10 Hz", "12 nV/rtHz"], [1000, 5e-9]]
             Band {
                 low_hz: 0.1,
                 high_hz: 20e3,
-                order: 2
+                order: 2,
+                low_order: 0,
             }
         );
         let names: Vec<&str> = p.sources.iter().map(|s| s.name.as_str()).collect();

@@ -3,10 +3,15 @@
 //! The band from DC to fs/2 is split over a pyramid of levels. Level `j` runs at
 //! `fs_j = fs / RATIO^j` and owns the part of the target density given by a smooth
 //! partition-of-unity weight `w_j(f)` (a raised cosine in log f), which is non-zero only on
-//! `[CROSS_LO/RATIO, CROSS_HI] · fs_j` — about three octaves well inside what a
-//! `SHAPER_TAPS`-tap FIR at that rate resolves. Level `j` filters its own white input with a
-//! linear-phase FIR `F_j`, adds the output of level `j+1` interpolated by `RATIO` through a
-//! Kaiser-windowed sinc `G` (≈145 dB image rejection), and hands the sum up.
+//! `[CROSS_LO/RATIO, CROSS_HI] · fs_j` — about three octaves. Level `j` filters its own white
+//! input with a linear-phase FIR `F_j`, adds the output of level `j+1` interpolated by `RATIO`
+//! through a Kaiser-windowed sinc `G` (≈145 dB image rejection), and hands the sum up.
+//!
+//! Each level's FIR is as short as the accuracy of its share allows: the lengths in
+//! [`SHAPER_LENGTHS`] are tried from the shortest, and the first whose realised share stays
+//! within [`SHARE_TOLERANCE`] of the whole target (or [`LEAK_FLOOR`] of the level's peak
+//! where the target is tiny) is kept: the crossovers ask for about 1023 taps, a level that
+//! holds a brick-wall band edge or a sharp table corner for the longest.
 //!
 //! The designed density is exact: with `A_F`, `A_G` the zero-phase amplitude responses,
 //!
@@ -28,16 +33,10 @@ use crate::stop::Stop;
 
 /// Rate ratio between adjacent pyramid levels.
 pub const RATIO: usize = 4;
-/// Complex FFT length of the overlap-save blocks, in samples.
-pub const FFT_LEN: usize = 8192;
-/// Input samples each overlap-save block shares with the one before (≥ filter length − 1).
-pub const HISTORY: usize = 2048;
-/// New samples per overlap-save block.
-pub const HOP: usize = FFT_LEN - HISTORY;
-/// Length of each level's shaping FIR (odd: linear phase, integer delay).
-pub const SHAPER_TAPS: usize = HISTORY - 1;
+/// The shaping FIR lengths a level may get (odd: linear phase, integer delay), shortest first.
+pub const SHAPER_LENGTHS: [usize; 6] = [255, 511, 1023, 2047, 4095, 8191];
 /// Length of the interpolation filter.
-pub const INTERP_TAPS: usize = 511;
+pub const INTERP_TAPS: usize = 159;
 /// Kaiser β of the shaping FIR window (sidelobes ≈ −90 dB).
 const SHAPER_BETA: f64 = 9.0;
 /// Kaiser β of the interpolator window (stopband ≈ −145 dB).
@@ -46,30 +45,62 @@ const INTERP_BETA: f64 = 15.0;
 /// below `CROSS_LO·fs_j` a level hands everything down; above `CROSS_HI·fs_j` it keeps it.
 const CROSS_LO: f64 = 0.15;
 const CROSS_HI: f64 = 0.35;
-/// The deepest level is the first one at which band.low is at least this fraction of its rate.
-const LOW_EDGE_MIN: f64 = 0.06;
-/// Frequency-sampling grid used to design each shaping FIR.
-const DESIGN_GRID: usize = 1 << 15;
-/// Deepest pyramid allowed: band.low / fs down to LOW_EDGE_MIN / 4^23 ≈ 8.5e-16.
+/// The deepest level is the first one at which band.low is at least this fraction of its
+/// rate: band.low then lies in `[LOW_EDGE_MIN, RATIO·LOW_EDGE_MIN) · fs_J`, below
+/// `CROSS_LO·fs_J`, where the deepest level alone makes the density, with its finest FIR.
+const LOW_EDGE_MIN: f64 = CROSS_LO / RATIO as f64;
+/// Finest frequency-sampling grid used to design a shaping FIR (points per period): eight
+/// per tap of the longest.
+const MAX_GRID: usize = 1 << 16;
+/// Deepest pyramid allowed: band.low / fs down to LOW_EDGE_MIN / 4^23 ≈ 5.3e-16.
 const MAX_LEVELS: usize = 24;
 // Every profile the schema accepts (band.low / fs ≥ MIN_LOW_TO_RATE) fits in the pyramid.
 const _: () = assert!(
     crate::profile::MIN_LOW_TO_RATE * (1u128 << (2 * (MAX_LEVELS - 1))) as f64 >= LOW_EDGE_MIN
 );
 /// Lags of the exact autocorrelation recursion; enough for INTERP_TAPS / (RATIO − 1).
-const ACF_LAGS: usize = 200;
+const ACF_LAGS: usize = 60;
+const _: () = assert!(ACF_LAGS * (RATIO - 1) >= INTERP_TAPS);
+/// Largest error of a level's realised share, relative to the whole target at the same
+/// frequency, that lets a shorter FIR be kept (1.15e-3 ≈ 0.005 dB: two levels share any
+/// frequency, so the sum stays within 0.01 dB).
+pub const SHARE_TOLERANCE: f64 = 1.15e-3;
+/// Where the target is zero or tiny, the largest error of the realised share, relative to the
+/// level's largest share (−80 dB: beyond a brick-wall edge's guard the density is at least
+/// that far below the level's peak, within the 60 dB an edge promises).
+pub const LEAK_FLOOR: f64 = 1e-8;
 
 /// One pyramid level's filters.
 #[derive(Debug, Clone)]
 pub struct Level {
     /// Sample rate of this level in Hz.
     pub rate_hz: f64,
-    /// Shaping FIR taps (length [`SHAPER_TAPS`], symmetric); they scale unit-variance white
-    /// noise to the level's share of the target, in the target's unit.
+    /// Shaping FIR taps (odd length, one of [`SHAPER_LENGTHS`], symmetric); they scale
+    /// unit-variance white noise to the level's share of the target, in the target's unit.
     pub taps: Vec<f64>,
     /// False when the level's share of the target is zero everywhere (no white input drawn).
     pub active: bool,
 }
+
+impl Level {
+    /// Input samples each overlap-save block of this level shares with the one before: its
+    /// FIR length + 1 (≥ the interpolator's), a power of two.
+    pub fn history(&self) -> usize {
+        self.taps.len() + 1
+    }
+
+    /// Complex FFT length of this level's overlap-save blocks, in samples: 16 histories for
+    /// the short FIRs, 8 for the long ones (the cheapest per sample on the project machine
+    /// among powers of two, `examples/speed`), at least 4096.
+    pub fn fft_len(&self) -> usize {
+        let h = self.history();
+        if h <= 512 { 16 * h } else { 8 * h }.max(4096)
+    }
+}
+
+/// A brick-wall edge's transition band (Hz, low end first): where the design does not hold
+/// a level's share to [`SHARE_TOLERANCE`].
+pub type Guard = (f64, f64);
 
 /// The complete design of the streaming shaper for one target density.
 #[derive(Debug, Clone)]
@@ -90,14 +121,17 @@ impl Design {
         sample_rate_hz: f64,
         low_hz: f64,
     ) -> Result<Design> {
-        Design::new_until(target, sample_rate_hz, low_hz, Stop::default())
+        Design::new_until(target, sample_rate_hz, low_hz, &[], Stop::default())
     }
 
-    /// [`Design::new`], polling `stop` every 1024 density evaluations of each level.
+    /// [`Design::new`] for a target with brick-wall band edges whose transition bands (Hz) are
+    /// `guards` (the design's accuracy is not held there), polling
+    /// `stop` every 1024 density evaluations of each level.
     pub(crate) fn new_until(
         target: &(dyn Fn(f64) -> f64 + Sync),
         sample_rate_hz: f64,
         low_hz: f64,
+        guards: &[Guard],
         stop: Stop<'_>,
     ) -> Result<Design> {
         if !(sample_rate_hz > 0.0 && sample_rate_hz.is_finite()) {
@@ -123,54 +157,13 @@ impl Design {
                 )));
             }
         }
-        let mut planner = FftPlannerScalar::<f64>::new();
-        let inverse = planner.plan_fft_inverse(DESIGN_GRID);
-        let window = kaiser(SHAPER_TAPS, SHAPER_BETA);
         // The levels are independent: designed in parallel, the same arithmetic each; the
         // first failing level (in order) is the one reported.
         let levels = (0..count)
             .into_par_iter()
             .map(|j| {
                 let rate = sample_rate_hz / (RATIO as f64).powi(j as i32);
-                let mut grid = vec![Complex::new(0.0, 0.0); DESIGN_GRID];
-                for k in 0..=DESIGN_GRID / 2 {
-                    if k % 1024 == 0 {
-                        stop.check()?;
-                    }
-                    let x = k as f64 / DESIGN_GRID as f64;
-                    let w = level_weight(j, count, x);
-                    let a = if w > 0.0 {
-                        let t = target(x * rate);
-                        if !(t.is_finite() && t >= 0.0) {
-                            return Err(Error::Unsupported(format!(
-                                "the target density is {t} at {} Hz; it must be finite and ≥ 0",
-                                x * rate
-                            )));
-                        }
-                        (t * w * rate / 2.0).sqrt()
-                    } else {
-                        0.0
-                    };
-                    grid[k] = Complex::new(a, 0.0);
-                    if k > 0 && k < DESIGN_GRID / 2 {
-                        grid[DESIGN_GRID - k] = Complex::new(a, 0.0);
-                    }
-                }
-                inverse.process(&mut grid);
-                let c = SHAPER_TAPS / 2;
-                let taps: Vec<f64> = (0..SHAPER_TAPS)
-                    .map(|i| {
-                        let lag =
-                            (i as isize - c as isize).rem_euclid(DESIGN_GRID as isize) as usize;
-                        grid[lag].re / DESIGN_GRID as f64 * window[i]
-                    })
-                    .collect();
-                let active = taps.iter().any(|&t| t != 0.0);
-                Ok(Level {
-                    rate_hz: rate,
-                    taps,
-                    active,
-                })
+                design_level(target, (j, count, rate), guards, stop)
             })
             .collect::<Vec<Result<Level>>>()
             .into_iter()
@@ -257,6 +250,136 @@ impl Design {
             below = Some(r);
         }
         below.map_or(0.0, |r| r[0])
+    }
+}
+
+/// Level `j`'s target on nested design grids: point k of the finest grid
+/// ([`MAX_GRID`] points per period) is f = k/MAX_GRID·rate; a grid of g points uses every
+/// (MAX_GRID/g)-th one. Points are evaluated when a grid first needs them.
+struct LevelGrid<'a> {
+    target: &'a (dyn Fn(f64) -> f64 + Sync),
+    j: usize,
+    count: usize,
+    rate: f64,
+    guards: &'a [Guard],
+    stop: Stop<'a>,
+    /// Share of the target (unit²/Hz), NaN where not yet evaluated.
+    share: Vec<f64>,
+    /// The whole target (unit²/Hz).
+    total: Vec<f64>,
+}
+
+impl LevelGrid<'_> {
+    /// Evaluate every point of the `g`-point grid not yet evaluated.
+    fn fill(&mut self, g: usize) -> Result<()> {
+        let stride = MAX_GRID / g;
+        for k in (0..=MAX_GRID / 2).step_by(stride) {
+            if !self.share[k].is_nan() {
+                continue;
+            }
+            if k % (1024 * stride) == 0 {
+                self.stop.check()?;
+            }
+            let x = k as f64 / MAX_GRID as f64;
+            let f = x * self.rate;
+            let t = (self.target)(f);
+            if !(t.is_finite() && t >= 0.0) {
+                return Err(Error::Unsupported(format!(
+                    "the target density is {t} at {f} Hz; it must be finite and ≥ 0"
+                )));
+            }
+            self.total[k] = t;
+            self.share[k] = t * level_weight(self.j, self.count, x);
+        }
+        Ok(())
+    }
+
+    fn in_guard(&self, k: usize) -> bool {
+        let f = k as f64 / MAX_GRID as f64 * self.rate;
+        self.guards.iter().any(|&(lo, hi)| f > lo && f < hi)
+    }
+}
+
+/// Design level `j` of `count` at `rate` Hz: the shortest FIR of [`SHAPER_LENGTHS`] whose
+/// realised share (2/rate)·A(f)² is within max([`SHARE_TOLERANCE`]·target, [`LEAK_FLOOR`]·peak
+/// share) of the level's share at every point of its grid (8 points per tap) outside the edge
+/// guards; if none is, the one that comes closest. Each is the frequency-sampled ideal
+/// response windowed by a Kaiser window of its length.
+fn design_level(
+    target: &(dyn Fn(f64) -> f64 + Sync),
+    (j, count, rate): (usize, usize, f64),
+    guards: &[Guard],
+    stop: Stop<'_>,
+) -> Result<Level> {
+    let mut grid = LevelGrid {
+        target,
+        j,
+        count,
+        rate,
+        guards,
+        stop,
+        share: vec![f64::NAN; MAX_GRID / 2 + 1],
+        total: vec![0.0; MAX_GRID / 2 + 1],
+    };
+    let mut planner = FftPlannerScalar::<f64>::new();
+    let mut best: Option<(f64, Vec<f64>)> = None;
+    for len in SHAPER_LENGTHS {
+        let g = 8 * (len + 1);
+        grid.fill(g)?;
+        let stride = MAX_GRID / g;
+        let share = |k: usize| grid.share[k * stride];
+        let peak = (0..=g / 2).fold(0.0f64, |m, k| m.max(share(k)));
+        if peak == 0.0 {
+            return Ok(level_of(rate, vec![0.0; len]));
+        }
+        let fft = planner.plan_fft_inverse(g);
+        let mut ideal = vec![Complex::new(0.0, 0.0); g];
+        for k in 0..=g / 2 {
+            let a = Complex::new((share(k) * rate / 2.0).sqrt(), 0.0);
+            ideal[k] = a;
+            if k > 0 && k < g / 2 {
+                ideal[g - k] = a;
+            }
+        }
+        fft.process(&mut ideal);
+        let window = kaiser(len, SHAPER_BETA);
+        let c = len / 2;
+        let lag = |i: usize| (i as isize - c as isize).rem_euclid(g as isize) as usize;
+        let taps: Vec<f64> = (0..len)
+            .map(|i| ideal[lag(i)].re / g as f64 * window[i])
+            .collect();
+        // The realised zero-phase amplitude on the same grid: the taps placed around lag 0.
+        let mut resp = vec![Complex::new(0.0, 0.0); g];
+        for (i, &t) in taps.iter().enumerate() {
+            resp[lag(i)] = Complex::new(t, 0.0);
+        }
+        fft.process(&mut resp);
+        let mut worst = 0.0f64;
+        for k in 0..=g / 2 {
+            if grid.in_guard(k * stride) {
+                continue;
+            }
+            let realised = 2.0 / rate * resp[k].re * resp[k].re;
+            let allowed = (SHARE_TOLERANCE * grid.total[k * stride]).max(LEAK_FLOOR * peak);
+            worst = worst.max((realised - share(k)).abs() / allowed);
+        }
+        if worst <= 1.0 {
+            return Ok(level_of(rate, taps));
+        }
+        if best.as_ref().is_none_or(|(w, _)| worst < *w) {
+            best = Some((worst, taps));
+        }
+    }
+    let (_, taps) = best.expect("SHAPER_LENGTHS is not empty");
+    Ok(level_of(rate, taps))
+}
+
+fn level_of(rate: f64, taps: Vec<f64>) -> Level {
+    let active = taps.iter().any(|&t| t != 0.0);
+    Level {
+        rate_hz: rate,
+        taps,
+        active,
     }
 }
 
@@ -392,7 +515,7 @@ mod tests {
 
     #[test]
     fn amplitude_matches_direct_sum() {
-        let taps: Vec<f64> = (0..SHAPER_TAPS)
+        let taps: Vec<f64> = (0..SHAPER_LENGTHS[3])
             .map(|i| ((i * 7919) % 1000) as f64 / 1000.0 - 0.5)
             .map(|v| v * 1e-3)
             .collect();
@@ -465,7 +588,7 @@ mod tests {
     #[test]
     fn exact_variance_equals_integral_of_density() {
         // The designed density is an even trigonometric polynomial in f with period fs; for
-        // three levels its degree is below 2^16, so the trapezoid rule on 2^17 points over one
+        // two levels its degree is below 2^16, so the trapezoid rule on 2^17 points over one
         // period is exact (common practice: trapezoid rule on periodic polynomials).
         let target = |f: f64| {
             if f >= 500.0 {
@@ -475,7 +598,7 @@ mod tests {
             }
         };
         let d = Design::new(&target, 48_000.0, 500.0).unwrap();
-        assert_eq!(d.levels().len(), 3);
+        assert_eq!(d.levels().len(), 2);
         let n = 1usize << 17;
         let h = 48_000.0 / n as f64;
         let mut total = 0.5 * (d.density(0.0) + d.density(24_000.0));

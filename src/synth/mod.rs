@@ -20,7 +20,7 @@ mod ziggurat;
 
 pub use burst::{BurstChain, BurstTally};
 pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
-pub use design::{Design, FFT_LEN, HISTORY, HOP, INTERP_TAPS, Level, RATIO, SHAPER_TAPS};
+pub use design::{Design, Guard, INTERP_TAPS, Level, RATIO, SHAPER_LENGTHS};
 pub(crate) use periodic::periodic_buffer_until;
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
@@ -32,7 +32,7 @@ use crate::error::{Error, Result};
 use crate::model::burst::BurstModel;
 use crate::stop::Stop;
 
-use crate::model::density::target_psd;
+use crate::model::density::{edge_guards, target_psd};
 use crate::profile::{MIN_DWELL_SAMPLES, Profile, Tone, format_quantity};
 
 /// The streaming engine for a profile: the Gaussian part (its [`Design`] and a seeded
@@ -365,6 +365,7 @@ pub(crate) fn design_profile_until(profile: &Profile, stop: Stop<'_>) -> Result<
         &|f| target_psd(profile, f),
         profile.sample_rate_hz,
         profile.band.low_hz,
+        &edge_guards(&profile.band, profile.sample_rate_hz),
         stop,
     )
 }

@@ -17,7 +17,7 @@ use crate::analysis::window_pp::{
     HIGH_PASS_ORDER, LOW_PASS_ORDER, band_filter, median, power_gain, settling_s,
 };
 use crate::error::{Error, Result, Setting};
-use crate::model::density::{integrate_pieces, target_psd};
+use crate::model::density::{band_support, integrate_pieces, target_psd};
 use crate::profile::{Dimension, format_quantity, parse_quantity};
 
 /// Total false-alarm probability of the spur search over one capture (Bonferroni over the
@@ -185,7 +185,17 @@ pub(super) fn lines(
     bench: &BenchSpec,
 ) -> (Value, Value, Vec<Range<usize>>) {
     let sp = &m.spectrum;
-    let found = find_spurs(sp, tones, SPUR_FALSE_ALARM);
+    // With a profile, lines are looked for where it has density: beyond a brick-wall edge's
+    // step the engine's own filters leave a density 80–90 dB down with a fine structure of
+    // their own, which is no one's spur.
+    let mut skip = tones.to_vec();
+    if let Some(p) = &s.profile {
+        let (bottom, top) = band_support(&p.band, p.sample_rate_hz);
+        let (df, n) = (sp.bin_width_hz(), sp.psd.len());
+        skip.push(0..((bottom / df).floor() as usize).min(n));
+        skip.push(((top / df).ceil() as usize + 1).min(n)..n);
+    }
+    let found = find_spurs(sp, &skip, SPUR_FALSE_ALARM);
     let q_psd = m.q_psd;
     let design = s.design.as_ref();
     let spur_ranges: Vec<Range<usize>> = found
