@@ -10,7 +10,7 @@ use std::fs::File;
 use std::io::{self, BufWriter, Write};
 use std::time::Instant;
 
-use noisewright::synth::{Domain, HOP, WhiteStreams};
+use noisewright::synth::{Domain, WHITE_CHUNK, WhiteStreams};
 
 /// Samples drawn and written per step (the CLI's step too).
 const CHUNK: usize = 1 << 16;
@@ -36,8 +36,8 @@ fn main() -> io::Result<()> {
     let t = Instant::now();
     while done < samples {
         let n = ((samples - done) as usize).min(CHUNK);
-        // One stream per HOP samples, as the engine's finest level draws its input.
-        for part in x[..n].chunks_mut(HOP) {
+        // One stream per chunk, as the engine's levels draw their input.
+        for part in x[..n].chunks_mut(WHITE_CHUNK) {
             white.fill(WhiteStreams::stream_id(Domain::Shaper, 0, stream), part);
             stream += 1;
         }

@@ -22,6 +22,9 @@ use crate::units::DBFS_CONVENTION;
 pub struct Manifest {
     /// noisewright's version that wrote the file.
     pub version: String,
+    /// The sample engine's version ([`crate::synth::ENGINE_VERSION`]): the same profile, seed
+    /// and engine version give the same noise bytes.
+    pub engine_version: u32,
     /// The resolved profile (filled by the caller; `null` until then).
     pub profile: serde_json::Value,
     /// The random seed; the same seed and version give byte-identical output.
@@ -82,6 +85,7 @@ impl Manifest {
     ) -> Manifest {
         Manifest {
             version: env!("CARGO_PKG_VERSION").to_string(),
+            engine_version: crate::synth::ENGINE_VERSION,
             profile: serde_json::Value::Null,
             seed,
             sample_rate_hz: spec.sample_rate_hz,
@@ -112,13 +116,15 @@ impl Manifest {
 }
 
 /// The keys of a manifest (top level, then under `extra`) whose values decide the bytes of
-/// the noise, apart from where a file starts and how long it is: the version, the canonical
+/// the noise, apart from where a file starts and how long it is: the version and engine
+/// version, the canonical
 /// profile (its sample rate replaced by a rate setting), the seed, the container and sample
 /// format, the unit and full scale, the loop, the channels, the ADC (without its
 /// `first_sample`, which is where a file starts), CSV source columns, the C array's name and
 /// the npy dtype. [`fingerprint`] hashes them.
-pub const FINGERPRINT_KEYS: [&str; 9] = [
+pub const FINGERPRINT_KEYS: [&str; 10] = [
     "version",
+    "engine_version",
     "profile",
     "seed",
     "sample_rate_hz",
@@ -479,6 +485,7 @@ mod tests {
         let keys: Vec<&str> = v.as_object().unwrap().keys().map(|k| k.as_str()).collect();
         for k in [
             "version",
+            "engine_version",
             "profile",
             "seed",
             "sample_rate_hz",
@@ -503,7 +510,7 @@ mod tests {
         ] {
             assert!(keys.contains(&k), "missing {k}");
         }
-        assert_eq!(keys.len(), 22);
+        assert_eq!(keys.len(), 23);
         assert_eq!(v["version"], env!("CARGO_PKG_VERSION"));
         assert_eq!(v["format"], "wav");
         assert_eq!(v["sample_format"], "i24");

@@ -450,7 +450,6 @@ fn gauss_kronrod_15(g: &dyn Fn(f64) -> f64, a: f64, b: f64) -> (f64, f64) {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use std::f64::consts::{LN_2, PI};
 
     fn profile(unit: Unit, band: Band, fs: f64, kinds: Vec<SourceKind>) -> Profile {
         Profile {
@@ -584,7 +583,14 @@ mod tests {
         for f in [bottom, 10.0, 500.0, 1e3, top] {
             assert_eq!(g(1e4, f), 1.0, "f {f}");
         }
-        for f in [bottom * (1.0 - 1e-12), 5.0, 0.0, -1.0, top * (1.0 + 1e-12), 2e3] {
+        for f in [
+            bottom * (1.0 - 1e-12),
+            5.0,
+            0.0,
+            -1.0,
+            top * (1.0 + 1e-12),
+            2e3,
+        ] {
             assert_eq!(g(1e4, f), 0.0, "f {f}");
         }
         assert_eq!(band_support(&band, 1e4), (bottom, top));

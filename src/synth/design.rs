@@ -89,6 +89,11 @@ impl Level {
         self.taps.len() + 1
     }
 
+    /// New input samples per overlap-save block: [`Level::fft_len`] − [`Level::history`].
+    pub fn hop(&self) -> usize {
+        self.fft_len() - self.history()
+    }
+
     /// Complex FFT length of this level's overlap-save blocks, in samples: 16 histories for
     /// the short FIRs, 8 for the long ones (the cheapest per sample on the project machine
     /// among powers of two, `examples/speed`), at least 4096.

@@ -23,8 +23,15 @@ pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
 pub use design::{Design, Guard, INTERP_TAPS, Level, RATIO, SHAPER_LENGTHS};
 pub(crate) use periodic::periodic_buffer_until;
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
-pub use shaper::{BATCH_PAIRS, MAX_START, Shaper};
+pub use shaper::{BATCH_PAIRS, MAX_START, Shaper, WHITE_CHUNK};
 pub use white::{Domain, WhiteStreams};
+
+/// Version of the sample engine (the design, the shaper and the white streams), written to
+/// every manifest as `engine_version`. The same profile, seed and engine version give the same
+/// noise bytes on every machine and for any thread count. Version 1 is noisewright 0.1.x;
+/// version 2 (noisewright 0.2.0 on) chooses each level's FIR length, makes brick-wall edges
+/// exact and reads `band.low_order`.
+pub const ENGINE_VERSION: u32 = 2;
 
 use std::sync::Arc;
 

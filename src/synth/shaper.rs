@@ -28,8 +28,9 @@ use super::design::{Design, Level, RATIO};
 use super::team;
 use super::white::{Domain, WhiteStreams};
 
-/// White samples per random stream.
-const CHUNK: usize = 2048;
+/// White samples per random stream: every level draws its input in chunks of this many.
+pub const WHITE_CHUNK: usize = 2048;
+const CHUNK: usize = WHITE_CHUNK;
 /// Fewest block pairs (2·hop output samples each) computed per batch and level: one per core
 /// of the two-core machine it was tuned on (`generate`, 2^24 samples to /dev/null, medians
 /// of 7, 2026-12-03, one / two threads: 1 pair 256 / 168 ms, 2 pairs 259 / 152 ms, 4 pairs

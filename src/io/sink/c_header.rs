@@ -1,7 +1,7 @@
 //! A C header holding the samples as a `static const` array, for firmware and test rigs.
 //!
 //! ```c
-//! /* noisewright 0.1.0: <provenance lines: profile, seed>
+//! /* noisewright 0.2.0: <provenance lines: profile, seed>
 //!  * 4 frames x 1 channel at 48000 Hz, f32, digital 1.0 = 2 V */
 //! #ifndef HISS_H
 //! #define HISS_H
