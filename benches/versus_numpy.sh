@@ -3,7 +3,8 @@
 # (benches/numpy_reference.py) on the same job — white floor 4 nV/√Hz with a 100 Hz corner,
 # 48 kHz, f32 WAV at -20 dBFS — at 2^22, 2^24 and 2^26 samples, plus the floor (the same number
 # of N(0,1) samples drawn and written as raw f32, examples/floor.rs). Prints Markdown tables:
-# the comparison with ratios, then single- and two-thread rows (`--threads 1` / `--threads 2`,
+# the comparison with ratios (noisewright twice: the band from 0.5 Hz, and from fs/2^24 as low
+# as the numpy script's single block reaches at 2^24 samples), then single- and two-thread rows (`--threads 1` / `--threads 2`,
 # the speed-up), one memory row at BIG samples streamed to /dev/null, and `analyze`'s density
 # of a 2^24-sample file beside scipy.signal.welch (benches/analyze.sh does the full version).
 #
@@ -46,6 +47,11 @@ order = 0
 density = "4 nV/rtHz"
 corner = "100 Hz"
 TOML
+# The same job reaching as low as the numpy script's single block does at 2^24 samples:
+# band.low = fs/2^24 (seven decades below 24 kHz).
+sed 's/^low = "0.5 Hz"/low = "0.00286102294921875 Hz"/; s/^name = .*/name = "versus numpy, seven decades"/' \
+    "$WORK/job.toml" >"$WORK/job7.toml"
+grep -q '^low = "0.0028' "$WORK/job7.toml" || { echo "versus_numpy.sh: job7.toml not made" >&2; exit 2; }
 
 # run NAME CMD... → appends "wall_s peak_kib" to $WORK/NAME
 run() {
@@ -86,9 +92,11 @@ for n in $SIZES; do
         echo "n=$n ..." >&2
         run "nw.$n" "$BIN" generate "$WORK/job.toml" -o "$WORK/out.wav" --samples "$n" --quiet
         run "np.$n" python3 benches/numpy_reference.py "$n" "$WORK/out.wav"
+        run "n7.$n" "$BIN" generate "$WORK/job7.toml" -o "$WORK/out.wav" --samples "$n" --quiet
         run "fl.$n" "$FLOOR" "$n" "$WORK/out.raw"
     done
-    row "noisewright (f32 WAV, all cores)" "$n" "nw.$n" "np.$n"
+    row "noisewright, band from 0.5 Hz (f32 WAV, all cores)" "$n" "nw.$n" "np.$n"
+    row "noisewright, band from fs/2^24 (f32 WAV, all cores)" "$n" "n7.$n" "np.$n"
     row "numpy script (f32 WAV)" "$n" "np.$n" "np.$n"
     row "floor: N(0,1) drawn + raw f32 written, one core" "$n" "fl.$n" "np.$n"
     awk -v a="$(cut -d' ' -f1 "$WORK/nw.$n" | median)" -v b="$(cut -d' ' -f1 "$WORK/fl.$n" | median)" \
@@ -101,6 +109,8 @@ for _ in $(seq "$REPS"); do
     run "t1" "$BIN" generate "$WORK/job.toml" -o "$WORK/out.wav" --samples "$n" --quiet --threads 1
     run "t2" "$BIN" generate "$WORK/job.toml" -o "$WORK/out.wav" --samples "$n" --quiet --threads 2
     run "tf" "$FLOOR" "$n" "$WORK/out.raw"
+    run "s1" "$BIN" generate "$WORK/job7.toml" -o "$WORK/out.wav" --samples "$n" --quiet --threads 1
+    run "s2" "$BIN" generate "$WORK/job7.toml" -o "$WORK/out.wav" --samples "$n" --quiet --threads 2
 done
 echo
 echo "| samples | program | wall s | M samples/s | peak RSS MiB | speed ÷ one thread |"
@@ -110,18 +120,25 @@ row "noisewright --threads 2 (f32 WAV)" "$n" t2 t1
 row "floor, one core" "$n" tf t1
 awk -v a="$(cut -d' ' -f1 "$WORK/t1" | median)" -v b="$(cut -d' ' -f1 "$WORK/tf" | median)" \
     'BEGIN{ printf "| | one thread ÷ floor (throughput) | | %.2f | | |\n", b / a }'
+row "noisewright --threads 1, band from fs/2^24" "$n" s1 s1
+row "noisewright --threads 2, band from fs/2^24" "$n" s2 s1
+awk -v a="$(cut -d' ' -f1 "$WORK/s1" | median)" -v b="$(cut -d' ' -f1 "$WORK/tf" | median)" \
+    'BEGIN{ printf "| | one thread ÷ floor (throughput), band from fs/2^24 | | %.2f | | |\n", b / a }'
 
 if [[ $BIG -gt 0 ]]; then
-    echo "memory, n=$BIG ..." >&2
-    t0=$EPOCHREALTIME
-    $GNU_TIME -f '%M' -o "$WORK/mem" bash -c "\"$BIN\" generate \"$WORK/job.toml\" -o - --samples $BIG --quiet > /dev/null" ||
-        exit 1
-    t1=$EPOCHREALTIME
     echo
     echo "| samples | program | wall s | M samples/s | peak RSS MiB |"
     echo "|---:|---|---:|---:|---:|"
-    awk -v n="$BIG" -v a="$t0" -v b="$t1" -v k="$(tail -n1 "$WORK/mem")" 'BEGIN{
-        printf "| %d | noisewright -o - > /dev/null (one run) | %.1f | %.1f | %.1f |\n", n, b-a, n/(b-a)/1e6, k/1024 }'
+    for job in job job7; do
+        echo "memory, $job, n=$BIG ..." >&2
+        t0=$EPOCHREALTIME
+        $GNU_TIME -f '%M' -o "$WORK/mem" bash -c "\"$BIN\" generate \"$WORK/$job.toml\" -o - --samples $BIG --quiet > /dev/null" ||
+            exit 1
+        t1=$EPOCHREALTIME
+        label=$([[ $job == job ]] && echo "band from 0.5 Hz" || echo "band from fs/2^24")
+        awk -v n="$BIG" -v a="$t0" -v b="$t1" -v k="$(tail -n1 "$WORK/mem")" -v l="$label" 'BEGIN{
+            printf "| %d | noisewright -o - > /dev/null, %s (one run) | %.1f | %.1f | %.1f |\n", n, l, b-a, n/(b-a)/1e6, k/1024 }'
+    done
 fi
 
 if [[ $ANALYZE -gt 0 ]]; then

@@ -1062,8 +1062,8 @@ fn formatted_quantities_parse_back_exactly() {
 }
 
 /// Regression (found by property C, case seed 805330897720388065): a table whose log-log
-/// slope (power) turns from −9.0 to +2.5 at 2.94 Hz, the point of a V. The design rounds the
-/// corner over a few of its FIR's bins, 0.109 dB off the target there, above the plain 0.1 dB
+/// slope (power) turns from −9.0 to +2.5 at 2.94 Hz, the point of a V. Engine version 1
+/// rounded the corner over a few of its FIR's bins, 0.109 dB off the target there, above the plain 0.1 dB
 /// the docs promised; docs/profiles.md ("Band edges") now states the kink term (≈ 0.01 dB per unit of slope
 /// change) and this case pins both sides of it.
 #[test]
@@ -1084,8 +1084,11 @@ points = [["16.21398592595674mHz", "346.5871455453561 fA/√Hz"], ["81.630183328
     let kink = sharpest_kink(&p);
     assert!((kink - 11.5).abs() < 0.05, "sharpest kink {kink}");
     let worst = densities_are_sound(&p).unwrap_or_else(|e| panic!("{e}"));
+    // Engine version 2 gives the level holding the kink a longer FIR (its share must be
+    // within 0.005 dB wherever a shorter one would do), so the kink now costs less than the
+    // plain promise, well inside the stated kink term.
     assert!(
-        worst > DESIGN_ACCURACY_DB && worst <= KINK_DB_PER_SLOPE * kink,
+        worst <= DESIGN_ACCURACY_DB && worst <= KINK_DB_PER_SLOPE * kink,
         "worst deviation {worst} dB at a kink of {kink}"
     );
 }

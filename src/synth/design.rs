@@ -21,7 +21,7 @@
 //! included, not dropped). Its integral is computed exactly from autocorrelations.
 
 use std::f64::consts::PI;
-use std::sync::OnceLock;
+use std::sync::{Mutex, OnceLock, PoisonError};
 
 use rayon::prelude::*;
 
@@ -80,6 +80,9 @@ pub struct Level {
     pub taps: Vec<f64>,
     /// False when the level's share of the target is zero everywhere (no white input drawn).
     pub active: bool,
+    /// Complex FFT length of this level's overlap-save blocks, in samples (see
+    /// [`Level::fft_len`]).
+    fft_len: usize,
 }
 
 impl Level {
@@ -94,12 +97,13 @@ impl Level {
         self.fft_len() - self.history()
     }
 
-    /// Complex FFT length of this level's overlap-save blocks, in samples: 16 histories for
-    /// the short FIRs, 8 for the long ones (the cheapest per sample on the project machine
-    /// among powers of two, `examples/speed`), at least 4096.
+    /// Complex FFT length of this level's overlap-save blocks, in samples. The top two
+    /// levels make most of the samples and get the length cheapest per sample: 16 histories
+    /// for the short FIRs, 8 for the long ones (at least 4096); deeper levels make few
+    /// samples in any run, where what counts is the first batch every run computes, so they
+    /// get 2 histories (at least 4096).
     pub fn fft_len(&self) -> usize {
-        let h = self.history();
-        if h <= 512 { 16 * h } else { 8 * h }.max(4096)
+        self.fft_len
     }
 }
 
@@ -163,12 +167,13 @@ impl Design {
             }
         }
         // The levels are independent: designed in parallel, the same arithmetic each; the
-        // first failing level (in order) is the one reported.
+        // first failing level (in order) is the one reported. They share the FFT plans.
+        let planner = Mutex::new(FftPlannerScalar::<f64>::new());
         let levels = (0..count)
             .into_par_iter()
             .map(|j| {
                 let rate = sample_rate_hz / (RATIO as f64).powi(j as i32);
-                design_level(target, (j, count, rate), guards, stop)
+                design_level(target, (j, count, rate), guards, &planner, stop)
             })
             .collect::<Vec<Result<Level>>>()
             .into_iter()
@@ -278,13 +283,15 @@ impl LevelGrid<'_> {
     /// Evaluate every point of the `g`-point grid not yet evaluated.
     fn fill(&mut self, g: usize) -> Result<()> {
         let stride = MAX_GRID / g;
+        let mut evaluated = 0usize;
         for k in (0..=MAX_GRID / 2).step_by(stride) {
             if !self.share[k].is_nan() {
                 continue;
             }
-            if k % (1024 * stride) == 0 {
+            if evaluated % 1024 == 0 {
                 self.stop.check()?;
             }
+            evaluated += 1;
             let x = k as f64 / MAX_GRID as f64;
             let f = x * self.rate;
             let t = (self.target)(f);
@@ -314,6 +321,7 @@ fn design_level(
     target: &(dyn Fn(f64) -> f64 + Sync),
     (j, count, rate): (usize, usize, f64),
     guards: &[Guard],
+    planner: &Mutex<FftPlannerScalar<f64>>,
     stop: Stop<'_>,
 ) -> Result<Level> {
     let mut grid = LevelGrid {
@@ -326,7 +334,6 @@ fn design_level(
         share: vec![f64::NAN; MAX_GRID / 2 + 1],
         total: vec![0.0; MAX_GRID / 2 + 1],
     };
-    let mut planner = FftPlannerScalar::<f64>::new();
     let mut best: Option<(f64, Vec<f64>)> = None;
     for len in SHAPER_LENGTHS {
         let g = 8 * (len + 1);
@@ -335,9 +342,12 @@ fn design_level(
         let share = |k: usize| grid.share[k * stride];
         let peak = (0..=g / 2).fold(0.0f64, |m, k| m.max(share(k)));
         if peak == 0.0 {
-            return Ok(level_of(rate, vec![0.0; len]));
+            return Ok(level_of(j, rate, vec![0.0; len]));
         }
-        let fft = planner.plan_fft_inverse(g);
+        let fft = planner
+            .lock()
+            .unwrap_or_else(PoisonError::into_inner)
+            .plan_fft_inverse(g);
         let mut ideal = vec![Complex::new(0.0, 0.0); g];
         for k in 0..=g / 2 {
             let a = Complex::new((share(k) * rate / 2.0).sqrt(), 0.0);
@@ -369,22 +379,29 @@ fn design_level(
             worst = worst.max((realised - share(k)).abs() / allowed);
         }
         if worst <= 1.0 {
-            return Ok(level_of(rate, taps));
+            return Ok(level_of(j, rate, taps));
         }
         if best.as_ref().is_none_or(|(w, _)| worst < *w) {
             best = Some((worst, taps));
         }
     }
     let (_, taps) = best.expect("SHAPER_LENGTHS is not empty");
-    Ok(level_of(rate, taps))
+    Ok(level_of(j, rate, taps))
 }
 
-fn level_of(rate: f64, taps: Vec<f64>) -> Level {
+fn level_of(j: usize, rate: f64, taps: Vec<f64>) -> Level {
     let active = taps.iter().any(|&t| t != 0.0);
+    let h = taps.len() + 1;
+    let fft_len = match (j, h) {
+        (0 | 1, ..=512) => 16 * h,
+        (0 | 1, _) => 8 * h,
+        _ => 2 * h,
+    };
     Level {
         rate_hz: rate,
         taps,
         active,
+        fft_len: fft_len.max(4096),
     }
 }
 
