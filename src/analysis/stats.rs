@@ -326,6 +326,24 @@ mod tests {
         }
     }
 
+    /// The minimum and maximum are found in every lane and in the tail past the last whole
+    /// group of lanes, for every block length up to 40.
+    #[test]
+    fn extremes_in_every_lane_and_the_tail() {
+        for n in 1..=40usize {
+            for i in 0..n {
+                let mut x: Vec<f64> = (0..n).map(|k| (k % 7) as f64 * 0.1).collect();
+                x[i] = -3.0;
+                x[(i + 1) % n] = 9.0;
+                let lo = x.iter().fold(f64::INFINITY, |a, &b| a.min(b));
+                let hi = x.iter().fold(f64::NEG_INFINITY, |a, &b| a.max(b));
+                let mut st = RunningStats::new();
+                st.push(&x);
+                assert_eq!((st.min(), st.max()), (lo, hi), "n {n}, i {i}");
+            }
+        }
+    }
+
     #[test]
     fn extremes_and_small_cases() {
         let mut st = RunningStats::new();

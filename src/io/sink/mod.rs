@@ -567,6 +567,10 @@ impl Scaler {
         }
         let m = self.code_max;
         match self.sample_format {
+            // With a full scale the digital value is within ±1, so f32 cannot overflow.
+            SampleFormat::F32 if self.gain.is_some() => {
+                self.encode_each(samples, buf, |d| ((d as f32).to_le_bytes(), false))
+            }
             SampleFormat::F32 => self.encode_each(samples, buf, |d| {
                 let v = d as f32;
                 if v.is_infinite() {
@@ -691,7 +695,7 @@ impl Lanes {
     }
 }
 
-/// True when every sample is finite: `x − x` is 0 for a finite `x` and NaN for ±∞ and NaN,
+/// True when every sample is finite: `0·x` is ±0 for a finite `x` and NaN for ±∞ and NaN,
 /// and a NaN stays in its lane's sum. One pass without an early exit, in [`LANES`] lanes, so
 /// that it vectorises.
 #[inline(always)]
@@ -700,7 +704,7 @@ fn all_finite(samples: &[f64]) -> bool {
     let mut parts = samples.chunks_exact(LANES);
     for part in &mut parts {
         for j in 0..LANES {
-            acc[j] += part[j] - part[j];
+            acc[j] += 0.0 * part[j];
         }
     }
     parts.remainder().iter().all(|x| x.is_finite()) && acc.iter().all(|&a| a == 0.0)
@@ -708,7 +712,7 @@ fn all_finite(samples: &[f64]) -> bool {
 
 /// Samples [`Scaler::encode_each`] encodes on the stack before appending them to the buffer
 /// (a multiple of [`LANES`]).
-const GROUP: usize = 64;
+const GROUP: usize = 128;
 
 /// Independent lanes of [`Scaler::encode_each`]'s peak and clip count (eight f64 are two
 /// AVX2 registers).
@@ -994,6 +998,30 @@ mod tests {
         };
         assert_eq!(report.samples, 2);
         assert_eq!(bytes.len(), 8);
+    }
+
+    /// A non-finite value is found in every lane and in the tail, and named by its index in
+    /// the whole run; the largest finite values pass.
+    #[test]
+    fn non_finite_samples_are_found_anywhere() {
+        let s = spec(Format::Raw, SampleFormat::F64, None, None);
+        for bad in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            for i in [0, 5, 7, 8, 63, 64, 100, 101] {
+                let mut sink = open_sink(&s, Vec::new()).unwrap();
+                sink.write(&[0.5; 3]).unwrap();
+                let mut x = vec![f64::MAX; 102];
+                x[1] = f64::MIN;
+                x[2] = -0.0;
+                x[i] = bad;
+                let e = sink.write(&x).unwrap_err();
+                assert!(
+                    e.to_string()
+                        .contains(&format!("sample {} is {bad}", i + 3)),
+                    "{bad} at {i}: {e}"
+                );
+                assert!(sink.write(&x[i + 1..]).is_ok(), "{bad} at {i}");
+            }
+        }
     }
 
     #[test]
