@@ -108,6 +108,7 @@ pub mod run;
 mod stop;
 pub mod synth;
 pub mod units;
+mod wide;
 
 pub use error::{Error, Result, Setting};
 pub use model::budget::{BandSpec, Budget, budget};

@@ -73,47 +73,63 @@ impl RunningStats {
         if self.n == 0 {
             self.shift = x[0];
         }
-        for block in x.chunks(BLOCK) {
-            let k = self.shift;
-            // LANES independent partial sums, minima and maxima, so that the loops vectorise;
-            // the sums are combined in a fixed order, so the result depends only on the data.
-            let mut sum = [0.0; LANES];
-            let mut lo = [f64::INFINITY; LANES];
-            let mut hi = [f64::NEG_INFINITY; LANES];
-            let mut parts = block.chunks_exact(LANES);
-            for part in &mut parts {
-                for j in 0..LANES {
-                    let v = part[j];
-                    sum[j] += v - k;
-                    // Written as comparisons (a NaN sample leaves both alone, as f64::min and
-                    // f64::max do) so that they become vector min/max instructions.
-                    lo[j] = if v < lo[j] { v } else { lo[j] };
-                    hi[j] = if v > hi[j] { v } else { hi[j] };
+        // The same lanes and order of additions either way; AVX2 only takes fewer instructions.
+        crate::wide::avx2(
+            #[inline(always)]
+            || {
+                for block in x.chunks(BLOCK) {
+                    self.push_block(block);
                 }
-            }
-            for (j, &v) in parts.remainder().iter().enumerate() {
+            },
+        );
+    }
+
+    /// Adds one block of at most [`BLOCK`] samples (not empty; the shift is set): two passes,
+    /// the sum of `x − K` then the squared deviations from the block's mean, each in [`LANES`]
+    /// partial sums added by [`lanes_sum`], then one [`RunningStats::merge_parts`].
+    #[inline(always)]
+    fn push_block(&mut self, block: &[f64]) {
+        let k = self.shift;
+        // LANES independent partial sums, minima and maxima, so that the loops vectorise;
+        // the sums are combined in a fixed order, so the result depends only on the data.
+        let mut sum = [0.0; LANES];
+        let mut lo = [f64::INFINITY; LANES];
+        let mut hi = [f64::NEG_INFINITY; LANES];
+        let mut parts = block.chunks_exact(LANES);
+        for part in &mut parts {
+            for j in 0..LANES {
+                let v = part[j];
                 sum[j] += v - k;
-                lo[j] = lo[j].min(v);
-                hi[j] = hi[j].max(v);
+                // Written as comparisons (a NaN sample leaves both alone, as f64::min and
+                // f64::max do) so that they become vector min/max instructions.
+                lo[j] = if v < lo[j] { v } else { lo[j] };
+                hi[j] = if v > hi[j] { v } else { hi[j] };
             }
-            let nb = block.len() as f64;
-            let mean_b = lanes_sum(sum) / nb;
-            let mut m2 = [0.0; LANES];
-            let mut parts = block.chunks_exact(LANES);
-            for part in &mut parts {
-                for j in 0..LANES {
-                    let d = (part[j] - k) - mean_b;
-                    m2[j] += d * d;
-                }
-            }
-            for (j, &v) in parts.remainder().iter().enumerate() {
-                let d = (v - k) - mean_b;
+        }
+        let (mut sum, mut lo, mut hi) = crate::wide::fence((sum, lo, hi));
+        for (j, &v) in parts.remainder().iter().enumerate() {
+            sum[j] += v - k;
+            lo[j] = lo[j].min(v);
+            hi[j] = hi[j].max(v);
+        }
+        let nb = block.len() as f64;
+        let mean_b = lanes_sum(sum) / nb;
+        let mut m2 = [0.0; LANES];
+        let mut parts = block.chunks_exact(LANES);
+        for part in &mut parts {
+            for j in 0..LANES {
+                let d = (part[j] - k) - mean_b;
                 m2[j] += d * d;
             }
-            self.merge_parts(block.len() as u64, mean_b, lanes_sum(m2));
-            self.min = lo.iter().fold(self.min, |a, &b| a.min(b));
-            self.max = hi.iter().fold(self.max, |a, &b| a.max(b));
         }
+        let mut m2 = crate::wide::fence(m2);
+        for (j, &v) in parts.remainder().iter().enumerate() {
+            let d = (v - k) - mean_b;
+            m2[j] += d * d;
+        }
+        self.merge_parts(block.len() as u64, mean_b, lanes_sum(m2));
+        self.min = lo.iter().fold(self.min, |a, &b| a.min(b));
+        self.max = hi.iter().fold(self.max, |a, &b| a.max(b));
     }
 
     /// Merges statistics of another stream (e.g. from another thread) into these, as if its
@@ -307,6 +323,24 @@ mod tests {
             assert!(rel(lhs, rhs) < 8.0 * f64::EPSILON, "dc {dc}");
             let (_, _, rms) = two_pass(&x);
             assert!(rel(st.rms(), rms) < 1e-12, "dc {dc}");
+        }
+    }
+
+    /// The minimum and maximum are found in every lane and in the tail past the last whole
+    /// group of lanes, for every block length up to 40.
+    #[test]
+    fn extremes_in_every_lane_and_the_tail() {
+        for n in 1..=40usize {
+            for i in 0..n {
+                let mut x: Vec<f64> = (0..n).map(|k| (k % 7) as f64 * 0.1).collect();
+                x[i] = -3.0;
+                x[(i + 1) % n] = 9.0;
+                let lo = x.iter().fold(f64::INFINITY, |a, &b| a.min(b));
+                let hi = x.iter().fold(f64::NEG_INFINITY, |a, &b| a.max(b));
+                let mut st = RunningStats::new();
+                st.push(&x);
+                assert_eq!((st.min(), st.max()), (lo, hi), "n {n}, i {i}");
+            }
         }
     }
 
