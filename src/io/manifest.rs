@@ -288,6 +288,16 @@ pub struct SideManifest {
 pub const MAX_MANIFEST_BYTES: u64 = 16 << 20;
 
 impl SideManifest {
+    /// How messages name the source of these facts: "the capture's manifest", or "the WAV's
+    /// INFO comment" when [`SideManifest::wav_comment`].
+    pub fn said_by(&self) -> &'static str {
+        if self.wav_comment {
+            "the WAV's INFO comment"
+        } else {
+            "the capture's manifest"
+        }
+    }
+
     /// The facts of a WAV's INFO comment ([`crate::io::wav_info`]), which stand in for the
     /// manifest when none is beside the WAV `capture` (its name, for messages): the unit and
     /// full scale.

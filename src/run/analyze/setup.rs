@@ -56,22 +56,17 @@ struct Parsed {
 
 impl<'a> Setup<'a> {
     pub(super) fn new(a: &'a Analysis<'_>) -> Result<Setup<'a>> {
+        let mut early_notes = Vec::new();
         let (name, manifest, length_bytes) = match &a.input {
             Input::Path(p) => {
                 // First: a pipe is refused before anything else reads it.
                 let length = Capture::length_of(p)?;
-                (
-                    p.display().to_string(),
-                    SideManifest::read(&manifest_path(p))?,
-                    length,
-                )
+                let name = p.display().to_string();
+                let m = SideManifest::read(&manifest_path(p))?;
+                let m = with_wav_comment(m, p, length, &name, &mut early_notes);
+                (name, m, length)
             }
             Input::Samples { .. } => (a.s.label.clone().unwrap_or("samples".into()), None, None),
-        };
-        let mut early_notes = Vec::new();
-        let manifest = match &a.input {
-            Input::Path(p) => with_wav_comment(manifest, p, length_bytes, &name, &mut early_notes),
-            Input::Samples { .. } => manifest,
         };
         let mut profile = load_profile(a.profile.as_ref())?;
         let samples_unit = match &a.input {
@@ -82,16 +77,9 @@ impl<'a> Setup<'a> {
         let (unit_hint, unit_from) = profile
             .as_ref()
             .map(|p| (p.unit.symbol(), "the profile"))
-            .or(manifest.as_ref().and_then(|m| m.unit).map(|u| {
-                (
-                    u.symbol(),
-                    if manifest.as_ref().is_some_and(|m| m.wav_comment) {
-                        "the WAV's INFO comment"
-                    } else {
-                        "the capture's manifest"
-                    },
-                )
-            }))
+            .or(manifest
+                .as_ref()
+                .and_then(|m| Some((m.unit?.symbol(), m.said_by()))))
             .or(samples_unit.map(|u| (u.symbol(), "the samples' label")))
             .or(a.s.full_scale.as_deref().and_then(unit_written_in))
             .unwrap_or(("V", "the default (no profile or manifest says otherwise)"));
