@@ -762,16 +762,26 @@ mod tests {
     }
 
     /// The header our writer makes past 4 GiB, followed by only a few samples: the reader
-    /// takes the frame count from ds64 and then reports the file as truncated.
+    /// takes the frame count from ds64 (first after "WAVE", the INFO comment after `fmt `)
+    /// and the comment, and then reports the file as truncated.
     #[test]
     fn our_rf64_header_reads_its_64_bit_sizes() {
         let frames = (1u64 << 31) + 3; // i16: 4 GiB + 6 bytes of data
+        let comment = WavInfo {
+            unit: Unit::Ampere,
+            full_scale: 2.5e-3,
+            profile: Some("big".into()),
+            seed: Some(9),
+        };
         let mut b =
-            crate::io::sink::wav_header(frames, 1, SampleFormat::I16, 48_000, None).unwrap();
-        assert_eq!(&b[0..4], b"RF64");
+            crate::io::sink::wav_header(frames, 1, SampleFormat::I16, 48_000, Some(&comment))
+                .unwrap();
+        assert_eq!((&b[0..4], &b[12..16]), (&b"RF64"[..], &b"ds64"[..]));
+        assert_eq!(&b[72..76], b"LIST");
         b.extend_from_slice(&[0u8; 64]);
         let mut src = open_source(&b[..], &opts()).unwrap();
         assert_eq!(src.info().frames, Some(frames));
+        assert_eq!(src.info().wav_info, Some(Ok(comment)));
         let mut block = Vec::new();
         assert_eq!(src.read_block(&mut block, 32).unwrap(), 32);
         let e = loop {
