@@ -18,8 +18,8 @@
 //!
 //! The comment: the word `noisewright`, then `key=value` words separated by one space:
 //! `unit` (the unit's ASCII spelling, e.g. `m/s^2`, `deg/s`), `full_scale` (the physical value
-//! of digital 1.0 in that unit, Rust's shortest round-trip digits, so it reads back to the same
-//! `f64`), `seed` (when known) and last `profile` (the profile's name, when it has one),
+//! of digital 1.0 in that unit, Rust's shortest digits that read back to the same `f64`, in
+//! exponent form outside 1e−4 ≤ v < 1e16), `seed` (when known) and last `profile` (the profile's name, when it has one),
 //! which runs to the end of the text; in it `%` and any byte outside printable ASCII are
 //! written `%XX` (hex, as URI percent-encoding, RFC 3986 §2.1), so the comment is ASCII.
 //! A reader takes unknown keys as they come and ignores them.
