@@ -57,9 +57,15 @@ fn three_channel_wav_has_an_extensible_header_byte_by_byte() {
     assert!(generate(&dir, keys, "x.i16", &args).status.success());
     let b = std::fs::read(dir.path("x.wav")).unwrap();
     let data = 5 * 3 * 2u32;
+    // The INFO comment's LIST chunk sits between `fmt ` and `data` (tests/cli_wav_info.rs
+    // checks it); without it the header is 68 bytes.
+    let d = common::wav_data_chunk_at(&b);
+    assert_eq!(&b[60..64], b"LIST");
+    let list = d - 60;
     let mut want = Vec::new();
     want.extend_from_slice(b"RIFF");
-    want.extend_from_slice(&(68 - 8 + data).to_le_bytes()); // RIFF size, pad-free (30 even)
+    // RIFF size, pad-free (30 even)
+    want.extend_from_slice(&(68 + list as u32 - 8 + data).to_le_bytes());
     want.extend_from_slice(b"WAVE");
     want.extend_from_slice(b"fmt ");
     want.extend_from_slice(&40u32.to_le_bytes());
@@ -76,12 +82,12 @@ fn three_channel_wav_has_an_extensible_header_byte_by_byte() {
         0x01, 0x00, 0x00, 0x00, 0x00, 0x00, 0x10, 0x00, 0x80, 0x00, 0x00, 0xAA, 0x00, 0x38, 0x9B,
         0x71,
     ]); // KSDATAFORMAT_SUBTYPE_PCM
-    want.extend_from_slice(b"data");
-    want.extend_from_slice(&data.to_le_bytes());
-    assert_eq!(&b[..68], &want[..]);
+    assert_eq!(&b[..60], &want[..]);
+    assert_eq!(&b[d..d + 4], b"data");
+    assert_eq!(&b[d + 4..d + 8], &data.to_le_bytes());
     let raw = std::fs::read(dir.path("x.i16")).unwrap();
-    assert_eq!(&b[68..], &raw[..]);
-    assert_eq!(b.len(), 68 + data as usize);
+    assert_eq!(&b[d + 8..], &raw[..]);
+    assert_eq!(b.len(), 68 + list + data as usize);
 }
 
 /// Two 16-bit channels keep the plain PCM header (tag 1): WAVEFORMATEX describes stereo
@@ -96,7 +102,9 @@ fn two_channel_16_bit_wav_keeps_the_pcm_header() {
             .success()
     );
     let b = std::fs::read(dir.path("x.wav")).unwrap();
-    assert_eq!(b.len(), 44 + 4 * 2 * 2);
+    // 44 header bytes and the INFO comment's LIST chunk before `data`.
+    assert_eq!(b.len(), common::wav_data_chunk_at(&b) + 8 + 4 * 2 * 2);
+    assert_eq!(&b[36..40], b"LIST");
     assert_eq!(&b[20..22], &1u16.to_le_bytes());
     assert_eq!(&b[22..24], &2u16.to_le_bytes());
     assert_eq!(&b[32..34], &4u16.to_le_bytes());

@@ -352,9 +352,11 @@ fn analyze_reads_rf64_like_the_same_riff_file() {
     let riff = generate(&dir, "r.wav", &["--sample-format", "i16"]);
     let b = std::fs::read(&riff).unwrap();
     assert_eq!(&b[..4], b"RIFF");
-    // i16 RIFF: 12-byte RIFF header, fmt chunk (8 + 16), data chunk header at 36.
-    assert_eq!(&b[36..40], b"data");
-    let data_len = u32::from_le_bytes(b[40..44].try_into().unwrap()) as u64;
+    // i16 RIFF: 12-byte RIFF header, fmt chunk (8 + 16) at 12, the INFO comment's LIST
+    // chunk at 36, then the data chunk's header.
+    assert_eq!(&b[36..40], b"LIST");
+    let d = common::wav_data_chunk_at(&b);
+    let data_len = u32::from_le_bytes(b[d + 4..d + 8].try_into().unwrap()) as u64;
     let mut r = Vec::new();
     r.extend_from_slice(b"RF64");
     r.extend_from_slice(&u32::MAX.to_le_bytes());
@@ -365,9 +367,9 @@ fn analyze_reads_rf64_like_the_same_riff_file() {
     r.extend_from_slice(&data_len.to_le_bytes()); // dataSize
     r.extend_from_slice(&SAMPLES.to_le_bytes()); // sampleCount
     r.extend_from_slice(&0u32.to_le_bytes()); // table length
-    r.extend_from_slice(&b[12..40]); // fmt chunk and "data"
+    r.extend_from_slice(&b[12..d + 4]); // fmt and LIST chunks, and "data"
     r.extend_from_slice(&u32::MAX.to_le_bytes());
-    r.extend_from_slice(&b[44..]);
+    r.extend_from_slice(&b[d + 8..]);
     let rf64 = dir.path("r64.wav");
     std::fs::write(&rf64, &r).unwrap();
     std::fs::copy(dir.path("r.wav.json"), dir.path("r64.wav.json")).unwrap();

@@ -213,7 +213,9 @@ pub fn container_facts(
     let frames = spec.frames.unwrap_or(0);
     match spec.format {
         Format::Wav => {
-            let plan = super::sink::wav_plan(frames, spec.channels, spec.sample_format)?;
+            let info = super::sink::wav_info_of(spec);
+            let plan =
+                super::sink::wav_plan(frames, spec.channels, spec.sample_format, info.as_ref())?;
             keys.insert("container".into(), json!(plan.container.name()));
             if plan.container == super::sink::WavContainer::Rf64 {
                 notes.push(RF64_NOTE.to_string());
@@ -282,6 +284,9 @@ pub struct SideManifest {
     pub channels: Option<u16>,
     /// The manifest's file name, for messages.
     pub file: String,
+    /// True when these facts are a WAV's INFO comment standing in for a missing manifest
+    /// ([`SideManifest::of_wav_info`]), not a manifest file.
+    pub wav_comment: bool,
 }
 
 /// The largest manifest read, in bytes: 16 MiB. A manifest is a few KiB (64 channels with
@@ -289,6 +294,30 @@ pub struct SideManifest {
 pub const MAX_MANIFEST_BYTES: u64 = 16 << 20;
 
 impl SideManifest {
+    /// How messages name the source of these facts: "the capture's manifest", or "the WAV's
+    /// INFO comment" when [`SideManifest::wav_comment`].
+    pub fn said_by(&self) -> &'static str {
+        if self.wav_comment {
+            "the WAV's INFO comment"
+        } else {
+            "the capture's manifest"
+        }
+    }
+
+    /// The facts of a WAV's INFO comment ([`crate::io::wav_info`]), which stand in for the
+    /// manifest when none is beside the WAV `capture` (its name, for messages): the unit and
+    /// full scale.
+    pub fn of_wav_info(info: &crate::io::wav_info::WavInfo, capture: &str) -> SideManifest {
+        SideManifest {
+            full_scale: Some(info.full_scale),
+            unit: Some(info.unit),
+            states_scale: true,
+            file: format!("{capture} (its INFO comment)"),
+            wav_comment: true,
+            ..SideManifest::default()
+        }
+    }
+
     /// The manifest at `path` (`FILE.json` beside a capture), if there is one; one larger than
     /// [`MAX_MANIFEST_BYTES`] is refused.
     pub fn read(path: &Path) -> Result<Option<SideManifest>> {
@@ -616,10 +645,16 @@ mod tests {
     }
 
     /// The manifest names the container; the switch to RF64 is the WAV writer's (one frame
-    /// past the plain RIFF limit), so nothing needs writing to see it.
+    /// past the plain RIFF limit, which the INFO comment's `LIST` chunk moves down by its
+    /// length in 2-byte frames), so nothing needs writing to see it.
     #[test]
     fn container_facts_follow_the_format() {
-        let max = crate::io::sink::wav_max_frames(SampleFormat::I16).unwrap();
+        let one = spec(Format::Wav, SampleFormat::I16, Some(1.0), Some(1));
+        let list = crate::io::sink::wav_info_of(&one)
+            .unwrap()
+            .list_chunk()
+            .len() as u64;
+        let max = crate::io::sink::wav_max_frames(SampleFormat::I16).unwrap() - list / 2;
         for (frames, want) in [(max, "RIFF"), (max + 1, "RF64")] {
             let s = spec(Format::Wav, SampleFormat::I16, Some(1.0), Some(frames));
             let (keys, notes) = container_facts(&s).unwrap();

@@ -317,6 +317,18 @@ pub fn run_ok<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
     o
 }
 
+/// The byte offset of the `data` chunk's header in the RIFF/RF64 WAV `b`, found by walking
+/// its chunks from byte 12 (each an id, a u32 size and the body padded to an even length;
+/// RIFF/WAVE 1.0): WAV files carry `fact`, `ds64` or a `LIST` chunk before their samples.
+pub fn wav_data_chunk_at(b: &[u8]) -> usize {
+    let mut at = 12;
+    while &b[at..at + 4] != b"data" {
+        let size = u32::from_le_bytes(b[at + 4..at + 8].try_into().unwrap()) as usize;
+        at += 8 + size + (size & 1);
+    }
+    at
+}
+
 /// Bytes (a program's stdout or stderr) as text, invalid UTF-8 replaced.
 pub fn text(b: &[u8]) -> String {
     String::from_utf8_lossy(b).into_owned()

@@ -44,7 +44,8 @@ pub use csv::{CsvSink, source_column_names};
 pub use npy::{NpySink, npy_descr, npy_header, npy_shape, npy_spec_descr};
 pub use raw::RawSink;
 pub use wav::{
-    WavContainer, WavPlan, WavSink, check_wav_size, wav_bytes, wav_header, wav_max_frames, wav_plan,
+    WavContainer, WavPlan, WavSink, check_wav_size, wav_bytes, wav_header, wav_info_of,
+    wav_max_frames, wav_plan,
 };
 
 use std::fmt;
@@ -290,6 +291,11 @@ pub struct SinkSpec {
     /// Where the data came from (profile, seed, version), one line each, for formats that
     /// can carry comments (the C header writes them in its leading comment).
     pub provenance: Vec<String>,
+    /// The name of the profile the samples come from, if it has one: WAV writes it in its
+    /// INFO comment ([`crate::io::wav_info`]).
+    pub profile_name: Option<String>,
+    /// The run's random seed, if any: WAV writes it in its INFO comment.
+    pub seed: Option<u64>,
 }
 
 impl SinkSpec {
@@ -802,6 +808,8 @@ pub(crate) mod test_util {
             adc: None,
             name: None,
             provenance: Vec::new(),
+            profile_name: None,
+            seed: None,
         }
     }
 

@@ -8,8 +8,14 @@
 //! | i16 | PCM, tag 1, 16 bytes | – | 44 / 80 |
 //! | i24, i32 | EXTENSIBLE, tag 0xFFFE, 40 bytes (cbSize 22, valid bits = container bits, channel mask, PCM SubFormat GUID) | – | 68 / 104 |
 //! | f32 | IEEE float, tag 3, 18 bytes (cbSize 0) | `fact` (sample frames) | 58 / 94 |
-//!
 //! | f32, more than 2 channels | EXTENSIBLE, 40 bytes, IEEE float SubFormat GUID | `fact` | 80 / 116 |
+//!
+//! The header bytes above are without the INFO comment. A WAV written with a full scale (every
+//! WAV `generate` writes) also carries a `LIST`/`INFO` chunk with its unit, full scale,
+//! profile name and seed ([`crate::io::wav_info`]), right before `data`: the header grows by
+//! that chunk's length (even, so `data` stays on an even offset). Readers skip chunks they do
+//! not know (RIFF), so every WAV reader still opens the file; `analyze` reads the comment
+//! when no manifest is beside the file.
 //!
 //! EXTENSIBLE is used for PCM wider than 16 bits and for more than 2 channels, as Microsoft's
 //! WAVEFORMATEXTENSIBLE documentation and its "Multiple channel audio data and WAVE files"
@@ -40,6 +46,7 @@ use serde::Serialize;
 
 use super::{Buffered, CHUNK_SAMPLES, SampleFormat, Scaler, Sink, SinkReport, SinkSpec};
 use crate::error::{Error, Result, Setting};
+use crate::io::wav_info::WavInfo;
 
 /// WAVE format tag for integer PCM (RIFF/WAVE 1.0).
 const TAG_PCM: u16 = 1;
@@ -126,7 +133,19 @@ impl WavPlan {
     }
 }
 
-/// Bytes before the samples of the plain RIFF layout of `sample_format`.
+/// The INFO comment a WAV of `spec` carries: its unit, full scale, profile name and seed;
+/// `None` without a full scale (such a spec is refused for WAV).
+pub fn wav_info_of(spec: &SinkSpec) -> Option<WavInfo> {
+    Some(WavInfo {
+        unit: spec.unit,
+        full_scale: spec.full_scale?,
+        profile: spec.profile_name.clone(),
+        seed: spec.seed,
+    })
+}
+
+/// Bytes before the samples of the plain RIFF layout of `sample_format`, without the INFO
+/// comment.
 fn riff_header_bytes(sample_format: SampleFormat, channels: u16) -> Result<u64> {
     if sample_format == SampleFormat::F32 && extensible(sample_format, channels) {
         // 12 + fmt (8+40) + fact (8+4) + data header (8)
@@ -163,11 +182,18 @@ fn too_large(frames: u64, channels: u16, sample_format: SampleFormat) -> Error {
 }
 
 /// The container and sizes of a WAV holding `frames` frames of `channels` channels in
-/// `sample_format`: plain RIFF while its RIFF size (file length − 8) fits the u32 field,
-/// RF64 (EBU Tech 3306, see the module docs) beyond. A pure function; errors for
-/// [`SampleFormat::F64`] (not offered), 0 channels, and sizes past 2^64 bytes.
-pub fn wav_plan(frames: u64, channels: u16, sample_format: SampleFormat) -> Result<WavPlan> {
-    let riff_header = riff_header_bytes(sample_format, channels)?;
+/// `sample_format`, with the INFO comment `info` if any: plain RIFF while its RIFF size (file
+/// length − 8) fits the u32 field, RF64 (EBU Tech 3306, see the module docs) beyond. A pure
+/// function; errors for [`SampleFormat::F64`] (not offered), 0 channels, and sizes past 2^64
+/// bytes.
+pub fn wav_plan(
+    frames: u64,
+    channels: u16,
+    sample_format: SampleFormat,
+    info: Option<&WavInfo>,
+) -> Result<WavPlan> {
+    let list_bytes = info.map_or(0, |i| i.list_chunk().len() as u64);
+    let riff_header = riff_header_bytes(sample_format, channels)? + list_bytes;
     if channels == 0 {
         return Err(Error::Unsupported(
             "channels: expected at least 1 channel".into(),
@@ -203,17 +229,18 @@ pub fn wav_plan(frames: u64, channels: u16, sample_format: SampleFormat) -> Resu
     })
 }
 
-/// Total size in bytes of a mono WAV holding `frames` samples in `sample_format`: header,
-/// data and pad byte (RF64 past 4 GiB, see [`wav_plan`]). Saturates at `u64::MAX` for
+/// Total size in bytes of a mono WAV without an INFO comment holding `frames` samples in
+/// `sample_format`: header, data and pad byte (RF64 past 4 GiB, see [`wav_plan`]). Saturates at `u64::MAX` for
 /// counts beyond 64-bit sizes. Errors for [`SampleFormat::F64`], which WAV output does not
 /// offer.
 pub fn wav_bytes(frames: u64, sample_format: SampleFormat) -> Result<u64> {
     riff_header_bytes(sample_format, CHANNELS)?;
-    Ok(wav_plan(frames, CHANNELS, sample_format).map_or(u64::MAX, |p| p.total_bytes()))
+    Ok(wav_plan(frames, CHANNELS, sample_format, None).map_or(u64::MAX, |p| p.total_bytes()))
 }
 
-/// The most samples a mono **plain RIFF** WAV in `sample_format` can hold under the 4 GiB
-/// limit of its u32 RIFF size field; one more and the file is written as RF64. Errors for
+/// The most samples a mono **plain RIFF** WAV in `sample_format` without an INFO comment can
+/// hold under the 4 GiB limit of its u32 RIFF size field; one more and the file is written as
+/// RF64 (a comment's `LIST` chunk moves the limit down by its length). Errors for
 /// [`SampleFormat::F64`].
 pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
     let header = riff_header_bytes(sample_format, CHANNELS)?;
@@ -222,7 +249,7 @@ pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
     // byte pushes it over.
     let room = RIFF_SIZE_MAX - (header - 8);
     let mut frames = room / bytes;
-    while wav_plan(frames, CHANNELS, sample_format)?.container != WavContainer::Riff {
+    while wav_plan(frames, CHANNELS, sample_format, None)?.container != WavContainer::Riff {
         frames -= 1;
     }
     Ok(frames)
@@ -232,7 +259,7 @@ pub fn wav_max_frames(sample_format: SampleFormat) -> Result<u64> {
 /// fields (and f64, which WAV output does not offer). A WAV past 4 GiB is fine: it is written
 /// as RF64. Nothing is written; call before opening.
 pub fn check_wav_size(frames: u64, sample_format: SampleFormat) -> Result<()> {
-    wav_plan(frames, CHANNELS, sample_format).map(|_| ())
+    wav_plan(frames, CHANNELS, sample_format, None).map(|_| ())
 }
 
 /// WAV-specific checks of a spec (called from [`SinkSpec::validate`]).
@@ -254,20 +281,28 @@ pub(super) fn validate(spec: &SinkSpec) -> Result<()> {
                 .to_string(),
         ));
     };
-    wav_plan(frames, spec.channels, spec.sample_format).map(|_| ())
+    wav_plan(
+        frames,
+        spec.channels,
+        spec.sample_format,
+        wav_info_of(spec).as_ref(),
+    )
+    .map(|_| ())
 }
 
 /// The header bytes (everything before the first sample) of a WAV holding `frames` frames of
-/// `channels` channels in `sample_format` at `sample_rate_hz` (whole samples per second):
-/// RIFF or RF64 as [`wav_plan`] decides. A pure function. Errors as [`wav_plan`], and when
-/// the byte rate `rate × channels × bytes` does not fit its u32 field.
+/// `channels` channels in `sample_format` at `sample_rate_hz` (whole samples per second),
+/// with the INFO comment `info` (a `LIST` chunk right before `data`) if any: RIFF or RF64 as
+/// [`wav_plan`] decides. A pure function. Errors as [`wav_plan`], and when the byte rate
+/// `rate × channels × bytes` does not fit its u32 field.
 pub fn wav_header(
     frames: u64,
     channels: u16,
     sample_format: SampleFormat,
     sample_rate_hz: u32,
+    info: Option<&WavInfo>,
 ) -> Result<Vec<u8>> {
-    let plan = wav_plan(frames, channels, sample_format)?;
+    let plan = wav_plan(frames, channels, sample_format, info)?;
     let container_bytes = sample_format.bytes() as u16;
     let block_align = channels * container_bytes;
     let byte_rate = sample_rate_hz
@@ -339,6 +374,9 @@ pub fn wav_header(
         }
         _ => {}
     }
+    if let Some(i) = info {
+        h.extend_from_slice(&i.list_chunk());
+    }
     h.extend_from_slice(b"data");
     h.extend_from_slice(&field(plan.data_bytes).to_le_bytes());
     debug_assert_eq!(h.len() as u64, plan.header_bytes);
@@ -372,7 +410,8 @@ impl<W: Write> WavSink<W> {
             )));
         }
         let frames = spec.frames.expect("validated");
-        let plan = wav_plan(frames, spec.channels, spec.sample_format)?;
+        let info = wav_info_of(spec);
+        let plan = wav_plan(frames, spec.channels, spec.sample_format, info.as_ref())?;
         let mut out = Buffered::new(out, "writing WAV");
         // validate() checked the rate is a whole number whose byte rate fits a u32.
         let rate = spec.sample_rate_hz as u32;
@@ -381,6 +420,7 @@ impl<W: Write> WavSink<W> {
             spec.channels,
             spec.sample_format,
             rate,
+            info.as_ref(),
         )?);
         Ok(WavSink {
             out,
@@ -459,6 +499,20 @@ mod tests {
         .unwrap()
     }
 
+    /// The INFO comment's `LIST` chunk of a test spec (volts, no profile name or seed):
+    /// 72 bytes, its layout checked byte by byte in `crate::io::wav_info`.
+    fn list(full_scale: f64) -> Vec<u8> {
+        let c = WavInfo {
+            unit: crate::profile::Unit::Volt,
+            full_scale,
+            profile: None,
+            seed: None,
+        }
+        .list_chunk();
+        assert_eq!(c.len(), 72);
+        c
+    }
+
     /// Golden bytes, field by field from the RIFF/WAVE 1.0 `fmt ` layout (REFERENCES §10).
     #[test]
     fn pcm16_mono_two_samples_golden_bytes() {
@@ -466,7 +520,7 @@ mod tests {
         let (b, r) = wav(SampleFormat::I16, 2.0, &[0.5, -1.0]);
         let mut want = Vec::new();
         want.extend_from_slice(b"RIFF");
-        want.extend_from_slice(&[40, 0, 0, 0]); // file 48 bytes − 8
+        want.extend_from_slice(&[112, 0, 0, 0]); // file 48 + 72 bytes − 8
         want.extend_from_slice(b"WAVE");
         want.extend_from_slice(b"fmt ");
         want.extend_from_slice(&[16, 0, 0, 0]); // chunk size
@@ -476,12 +530,16 @@ mod tests {
         want.extend_from_slice(&[0x00, 0x77, 0x01, 0x00]); // nAvgBytesPerSec = 96000
         want.extend_from_slice(&[2, 0]); // nBlockAlign = 1 ch × 2 bytes
         want.extend_from_slice(&[16, 0]); // wBitsPerSample
+        want.extend_from_slice(&list(2.0)); // INFO comment, right before data
         want.extend_from_slice(b"data");
         want.extend_from_slice(&[4, 0, 0, 0]);
         want.extend_from_slice(&[0x00, 0x20]); // 8192 = 0x2000
         want.extend_from_slice(&[0x00, 0xC0]); // −16384 = 0xC000
         assert_eq!(b, want);
-        assert_eq!(b.len() as u64, wav_bytes(2, SampleFormat::I16).unwrap());
+        assert_eq!(
+            b.len() as u64,
+            wav_bytes(2, SampleFormat::I16).unwrap() + 72
+        );
         assert_eq!((r.samples, r.clipped, r.peak_abs), (2, 0, 1.0));
     }
 
@@ -493,7 +551,7 @@ mod tests {
         let (b, _) = wav(SampleFormat::I24, 1.0, &[0.5, -0.25]);
         let mut want = Vec::new();
         want.extend_from_slice(b"RIFF");
-        want.extend_from_slice(&[66, 0, 0, 0]); // 74 − 8
+        want.extend_from_slice(&[138, 0, 0, 0]); // 74 + 72 − 8
         want.extend_from_slice(b"WAVE");
         want.extend_from_slice(b"fmt ");
         want.extend_from_slice(&[40, 0, 0, 0]);
@@ -509,12 +567,16 @@ mod tests {
         // SubFormat KSDATAFORMAT_SUBTYPE_PCM 00000001-0000-0010-8000-00AA00389B71
         want.extend_from_slice(&[1, 0, 0, 0, 0, 0, 0x10, 0]);
         want.extend_from_slice(&[0x80, 0, 0, 0xAA, 0, 0x38, 0x9B, 0x71]);
+        want.extend_from_slice(&list(1.0));
         want.extend_from_slice(b"data");
         want.extend_from_slice(&[6, 0, 0, 0]);
         want.extend_from_slice(&[0x00, 0x00, 0x40]);
         want.extend_from_slice(&[0x00, 0x00, 0xE0]);
         assert_eq!(b, want);
-        assert_eq!(b.len() as u64, wav_bytes(2, SampleFormat::I24).unwrap());
+        assert_eq!(
+            b.len() as u64,
+            wav_bytes(2, SampleFormat::I24).unwrap() + 72
+        );
     }
 
     /// Golden bytes for IEEE float: tag 3, cbSize 0 and a `fact` chunk (Rev. 3 rule quoted in
@@ -524,7 +586,7 @@ mod tests {
         let (b, r) = wav(SampleFormat::F32, 1.0, &[0.5, -1.5]);
         let mut want = Vec::new();
         want.extend_from_slice(b"RIFF");
-        want.extend_from_slice(&[58, 0, 0, 0]); // 66 − 8
+        want.extend_from_slice(&[130, 0, 0, 0]); // 66 + 72 − 8
         want.extend_from_slice(b"WAVE");
         want.extend_from_slice(b"fmt ");
         want.extend_from_slice(&[18, 0, 0, 0]);
@@ -538,6 +600,7 @@ mod tests {
         want.extend_from_slice(b"fact");
         want.extend_from_slice(&[4, 0, 0, 0]);
         want.extend_from_slice(&[2, 0, 0, 0]); // dwSampleLength = 2 frames
+        want.extend_from_slice(&list(1.0));
         want.extend_from_slice(b"data");
         want.extend_from_slice(&[8, 0, 0, 0]);
         want.extend_from_slice(&[0x00, 0x00, 0x00, 0x3F]); // 0.5f32 = 0x3F000000
@@ -549,10 +612,10 @@ mod tests {
     #[test]
     fn odd_data_gets_a_pad_byte_counted_in_riff_size_only() {
         let (b, _) = wav(SampleFormat::I24, 1.0, &[0.1, 0.2, 0.3]);
-        assert_eq!(b.len(), 68 + 9 + 1);
-        assert_eq!(u32::from_le_bytes(b[4..8].try_into().unwrap()), 78 - 8);
-        assert_eq!(&b[60..64], b"data");
-        assert_eq!(u32::from_le_bytes(b[64..68].try_into().unwrap()), 9);
+        assert_eq!(b.len(), 68 + 72 + 9 + 1);
+        assert_eq!(u32::from_le_bytes(b[4..8].try_into().unwrap()), 150 - 8);
+        assert_eq!(&b[132..136], b"data");
+        assert_eq!(u32::from_le_bytes(b[136..140].try_into().unwrap()), 9);
         assert_eq!(*b.last().unwrap(), 0);
         let r = hound::WavReader::new(Cursor::new(&b)).unwrap();
         assert_eq!(r.len(), 3);
@@ -573,7 +636,11 @@ mod tests {
             SampleFormat::F32,
         ] {
             let (b, rep) = wav(sf, full_scale, &x);
-            assert_eq!(b.len() as u64, wav_bytes(n as u64, sf).unwrap(), "{sf}");
+            assert_eq!(
+                b.len() as u64,
+                wav_bytes(n as u64, sf).unwrap() + 72,
+                "{sf}"
+            );
             let mut rd = hound::WavReader::new(Cursor::new(&b)).expect("hound opens it");
             let s = rd.spec();
             assert_eq!((s.channels, s.sample_rate), (1, 48_000), "{sf}");
@@ -660,11 +727,11 @@ mod tests {
             SampleFormat::F32,
         ] {
             let max = wav_max_frames(sf).unwrap();
-            let p = wav_plan(max, 1, sf).unwrap();
+            let p = wav_plan(max, 1, sf, None).unwrap();
             assert_eq!(p.container, WavContainer::Riff, "{sf}");
             assert!(p.riff_size <= u64::from(u32::MAX), "{sf}");
             assert_eq!(p.total_bytes(), wav_bytes(max, sf).unwrap());
-            let q = wav_plan(max + 1, 1, sf).unwrap();
+            let q = wav_plan(max + 1, 1, sf, None).unwrap();
             assert_eq!(q.container, WavContainer::Rf64, "{sf}");
             // RF64 adds the 36-byte ds64 chunk and nothing else.
             assert_eq!(q.header_bytes, p.header_bytes + 36, "{sf}");
@@ -732,7 +799,7 @@ mod tests {
             ),
         ];
         for (sf, frames, header, data, riff, data_at) in cases {
-            let h = wav_header(frames, 1, sf, 48_000).unwrap();
+            let h = wav_header(frames, 1, sf, 48_000, None).unwrap();
             assert_eq!(h.len(), header, "{sf}");
             assert_eq!(&h[0..4], b"RF64", "{sf}");
             assert_eq!(u32_at(&h, 4), u32::MAX, "{sf}: RIFF size marker");
@@ -756,24 +823,24 @@ mod tests {
                 );
             }
             // The plan says the same, and the file length is riffSize + 8.
-            let p = wav_plan(frames, 1, sf).unwrap();
+            let p = wav_plan(frames, 1, sf, None).unwrap();
             assert_eq!((p.data_bytes, p.riff_size), (data, riff), "{sf}");
             assert_eq!(p.total_bytes(), header as u64 + data + data % 2, "{sf}");
             // One frame less is plain RIFF, with the true sizes in the u32 fields.
-            let h = wav_header(frames - 1, 1, sf, 48_000).unwrap();
+            let h = wav_header(frames - 1, 1, sf, 48_000, None).unwrap();
             assert_eq!(&h[0..4], b"RIFF", "{sf}");
             assert_eq!(h.len(), header - 36, "{sf}");
-            let p = wav_plan(frames - 1, 1, sf).unwrap();
+            let p = wav_plan(frames - 1, 1, sf, None).unwrap();
             assert_eq!(u64::from(u32_at(&h, 4)), p.riff_size, "{sf}");
             assert_eq!(u64::from(u32_at(&h, data_at - 32)), p.data_bytes, "{sf}");
         }
         // Past 2^32 frames (i16 mono, 8 GiB + ε), fact-less i16 still carries the true
         // sampleCount in ds64; an f32 file's fact count becomes the marker.
         let n = (1u64 << 32) + 5;
-        let h = wav_header(n, 1, SampleFormat::I16, 48_000).unwrap();
+        let h = wav_header(n, 1, SampleFormat::I16, 48_000, None).unwrap();
         assert_eq!(u64_at(&h, 36), n);
         assert_eq!(u64_at(&h, 28), 2 * n);
-        let h = wav_header(n, 1, SampleFormat::F32, 48_000).unwrap();
+        let h = wav_header(n, 1, SampleFormat::F32, 48_000, None).unwrap();
         assert_eq!(u32_at(&h, 82), u32::MAX);
         assert_eq!(u64_at(&h, 36), n);
     }
@@ -790,7 +857,8 @@ mod tests {
             sink.write(&vec![0.5; 20_000]).unwrap();
             // Dropped unfinished: the header and whatever reached the writer is there.
         }
-        let h = wav_header(frames, 1, SampleFormat::F32, 48_000).unwrap();
+        let info = wav_info_of(&s);
+        let h = wav_header(frames, 1, SampleFormat::F32, 48_000, info.as_ref()).unwrap();
         assert_eq!(&out[..h.len()], &h[..]);
         assert_eq!(&out[0..4], b"RF64");
         assert_eq!(&out[h.len()..h.len() + 4], &0.5f32.to_le_bytes());
@@ -816,7 +884,7 @@ mod tests {
     #[test]
     fn empty_wav_is_a_valid_file() {
         let (b, r) = wav(SampleFormat::F32, 1.0, &[]);
-        assert_eq!((b.len(), r.samples), (58, 0));
+        assert_eq!((b.len(), r.samples), (58 + 72, 0));
         assert_eq!(hound::WavReader::new(Cursor::new(&b)).unwrap().len(), 0);
     }
 }

@@ -147,6 +147,7 @@ impl<R: Read> CsvSource<R> {
                 channels: 1,
                 values: Values::Unknown,
                 notes: Vec::new(),
+                wav_info: None,
             },
             name,
             line_no: 0,

@@ -62,6 +62,9 @@ pub struct StreamInfo {
     pub values: Values,
     /// Remarks for the user (a streaming WAV size placeholder, extra channels, ...).
     pub notes: Vec<String>,
+    /// A WAV's INFO comment ([`crate::io::wav_info`]): `None` when the file has none (or is
+    /// not a WAV), `Some(Err(why))` when its comment is another program's or malformed.
+    pub wav_info: Option<std::result::Result<crate::io::wav_info::WavInfo, String>>,
 }
 
 /// A stream of samples from a capture.
@@ -130,7 +133,8 @@ pub struct Scale {
     pub unit: Option<Unit>,
     /// The full scale that was applied (physical value of digital 1.0), if any.
     pub full_scale: Option<f64>,
-    /// Where the scale came from, for the report: "--full-scale", "manifest", "file", "none".
+    /// Where the scale came from, for the report: "--full-scale", "manifest", "info_comment"
+    /// (a WAV's INFO comment, used when no manifest is beside it), "file", "none".
     pub origin: &'static str,
 }
 
@@ -143,7 +147,8 @@ impl Scale {
     ///
     /// * A full scale given wins: the values are taken as digital and multiplied by it.
     /// * Otherwise a manifest's `full_scale` number applies to digital or unknown values; its
-    ///   `null` marks unknown values as physical.
+    ///   `null` marks unknown values as physical. A WAV's INFO comment in the manifest's
+    ///   place ([`SideManifest::wav_comment`]) applies the same way, origin `info_comment`.
     /// * Physical values keep gain 1; their unit comes from the file, the manifest or the
     ///   profile, in that order. Units that disagree are an error.
     /// * Digital values with no full scale stay digital (unit `None`).
@@ -206,6 +211,10 @@ impl Scale {
         let manifest_fs = manifest.and_then(|m| m.full_scale);
         let manifest_says_physical =
             manifest.is_some_and(|m| m.states_scale && m.full_scale.is_none());
+        let manifest_origin = match manifest {
+            Some(m) if m.wav_comment => "info_comment",
+            _ => "manifest",
+        };
         match values {
             Values::Digital | Values::Unknown if manifest_fs.is_some() => {
                 let fs = manifest_fs.expect("checked");
@@ -213,7 +222,7 @@ impl Scale {
                     gain: fs,
                     unit,
                     full_scale: Some(fs),
-                    origin: "manifest",
+                    origin: manifest_origin,
                 })
             }
             Values::Physical(_) => Ok(Scale {

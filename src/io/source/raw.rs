@@ -74,6 +74,7 @@ impl<R: Read> RawSource<R> {
                 Values::Unknown
             },
             notes: Vec::new(),
+            wav_info: None,
         };
         let stride = stride.max(sample_format.bytes());
         let frame_bytes = stride * usize::from(info.channels);

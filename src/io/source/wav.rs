@@ -6,7 +6,9 @@
 //! 0xFFFFFFFF).
 //!
 //! Chunks before `data` that are not `fmt ` (`fact`, `LIST`, `JUNK`, ...) are skipped, with
-//! their pad byte. A `data` size of 0xFFFFFFFF or 0 (placeholders of writers that stream) is
+//! their pad byte; a `LIST` chunk of type `INFO` up to [`MAX_LIST_BYTES`] is read first for
+//! noisewright's INFO comment ([`crate::io::wav_info`]), which [`StreamInfo::wav_info`]
+//! hands on. A `data` size of 0xFFFFFFFF or 0 (placeholders of writers that stream) is
 //! read to the end of the stream, with a note; a size of 0 is a placeholder only when `data`
 //! is the last chunk, so a 0 followed by another chunk's header (a four-character code,
 //! RIFF's chunk id, and a size that fits the file) is an empty chunk and refused. A stream
@@ -20,6 +22,7 @@ use std::io::Read;
 use super::{SampleSource, SourceOptions, StreamInfo, Values, check_rate, decode_le, read_full};
 use crate::error::{Error, Result};
 use crate::io::sink::{Format, SampleFormat};
+use crate::io::wav_info::{MAX_LIST_BYTES, WavInfo};
 
 /// WAVE format tag for integer PCM.
 const TAG_PCM: u16 = 1;
@@ -85,6 +88,8 @@ struct Preamble {
     fmt: Option<(SampleFormat, u16, u32)>,
     /// Notes for [`StreamInfo::notes`].
     notes: Vec<String>,
+    /// What a `LIST`/`INFO` chunk's comment says, for [`StreamInfo::wav_info`].
+    wav_info: Option<std::result::Result<WavInfo, String>>,
 }
 
 impl<R: Read> WavSource<R> {
@@ -106,6 +111,7 @@ impl<R: Read> WavSource<R> {
             ds64_data,
             fmt: None,
             notes: Vec::new(),
+            wav_info: None,
         };
         loop {
             let mut ch = [0u8; 8];
@@ -127,6 +133,10 @@ impl<R: Read> WavSource<R> {
             match &chunk.id {
                 b"fmt " => pre.fmt = Some(read_fmt_chunk(&mut input, &name, &chunk, &mut pos)?),
                 b"data" => return WavSource::open_data(input, options, name, &chunk, pre),
+                b"LIST" if chunk.size <= MAX_LIST_BYTES && pre.wav_info.is_none() => {
+                    let body = read_body(&mut input, &name, &chunk, &mut pos)?;
+                    pre.wav_info = WavInfo::from_list(&body);
+                }
                 _ => skip_chunk(&mut input, &name, &chunk, &mut pos)?,
             }
         }
@@ -188,6 +198,7 @@ impl<R: Read> WavSource<R> {
             channels,
             values: Values::Digital,
             notes,
+            wav_info: pre.wav_info,
         };
         Ok(WavSource {
             input,
@@ -396,6 +407,28 @@ fn data_bytes(
     })
 }
 
+/// The body of the chunk `chunk` (its pad byte read and dropped); `pos` moves past them.
+fn read_body<R: Read>(input: &mut R, name: &str, chunk: &Chunk, pos: &mut u64) -> Result<Vec<u8>> {
+    let size = chunk.size as usize;
+    let mut body = vec![0u8; size + (size & 1)];
+    let got = read_full(input, &mut body, name)?;
+    if got < size {
+        return Err(Error::input(
+            name,
+            format!(
+                "truncated inside the {:?} chunk at byte {} before the samples: it announces \
+                 {size} bytes but the file ends at byte {}",
+                String::from_utf8_lossy(&chunk.id),
+                chunk.at,
+                *pos + got as u64
+            ),
+        ));
+    }
+    *pos += body.len() as u64;
+    body.truncate(size);
+    Ok(body)
+}
+
 /// Skips the chunk `chunk` (not `fmt ` or `data`) and its pad byte; `pos` moves past them.
 fn skip_chunk<R: Read>(input: &mut R, name: &str, chunk: &Chunk, pos: &mut u64) -> Result<()> {
     let bad = |m: String| Error::input(name, m);
@@ -580,6 +613,8 @@ mod tests {
             adc: None,
             name: None,
             provenance: Vec::new(),
+            profile_name: None,
+            seed: None,
         };
         let mut b = Vec::new();
         {
@@ -664,7 +699,7 @@ mod tests {
 
     #[test]
     fn streaming_placeholder_reads_to_the_end() {
-        let mut b = written(SampleFormat::I16, &[0.5; 10]);
+        let mut b = ten_samples();
         b[40..44].copy_from_slice(&u32::MAX.to_le_bytes());
         let (info, y) = read_all(&b).unwrap();
         assert_eq!(y.len(), 10);
@@ -727,15 +762,26 @@ mod tests {
     }
 
     /// The header our writer makes past 4 GiB, followed by only a few samples: the reader
-    /// takes the frame count from ds64 and then reports the file as truncated.
+    /// takes the frame count from ds64 (first after "WAVE", the INFO comment after `fmt `)
+    /// and the comment, and then reports the file as truncated.
     #[test]
     fn our_rf64_header_reads_its_64_bit_sizes() {
         let frames = (1u64 << 31) + 3; // i16: 4 GiB + 6 bytes of data
-        let mut b = crate::io::sink::wav_header(frames, 1, SampleFormat::I16, 48_000).unwrap();
-        assert_eq!(&b[0..4], b"RF64");
+        let comment = WavInfo {
+            unit: Unit::Ampere,
+            full_scale: 2.5e-3,
+            profile: Some("big".into()),
+            seed: Some(9),
+        };
+        let mut b =
+            crate::io::sink::wav_header(frames, 1, SampleFormat::I16, 48_000, Some(&comment))
+                .unwrap();
+        assert_eq!((&b[0..4], &b[12..16]), (&b"RF64"[..], &b"ds64"[..]));
+        assert_eq!(&b[72..76], b"LIST");
         b.extend_from_slice(&[0u8; 64]);
         let mut src = open_source(&b[..], &opts()).unwrap();
         assert_eq!(src.info().frames, Some(frames));
+        assert_eq!(src.info().wav_info, Some(Ok(comment)));
         let mut block = Vec::new();
         assert_eq!(src.read_block(&mut block, 32).unwrap(), 32);
         let e = loop {
@@ -748,12 +794,71 @@ mod tests {
         assert!(e.to_string().contains("truncated"), "{e}");
     }
 
-    /// Our 16-bit file of 10 samples is 44 + 20 bytes; its `data` chunk is at byte 36 with
-    /// the size at bytes 40..44 (RIFF/WAVE 1.0 layout).
+    /// Our 16-bit file of 10 samples without its INFO comment is 44 + 20 bytes; its `data`
+    /// chunk is at byte 36 with the size at bytes 40..44 (RIFF/WAVE 1.0 layout).
     fn ten_samples() -> Vec<u8> {
-        let b = written(SampleFormat::I16, &[0.5; 10]);
+        let w = written(SampleFormat::I16, &[0.5; 10]);
+        let mut b = crate::io::sink::wav_header(10, 1, SampleFormat::I16, 44_100, None).unwrap();
+        b.extend_from_slice(&w[w.len() - 20..]);
         assert_eq!((b.len(), &b[36..40]), (64, &b"data"[..]));
         b
+    }
+
+    /// Our writer's INFO comment comes back from the header; a file without one says
+    /// nothing, another program's comment and a malformed one are reasons, and a `LIST`
+    /// chunk too large to be ours is skipped unread. The samples read the same in every case.
+    #[test]
+    fn the_info_comment_is_read_before_the_samples() {
+        let x = [0.25, -0.5, 0.75];
+        let (info, y) = read_file(&written(SampleFormat::F32, &x)).unwrap();
+        let want = WavInfo {
+            unit: Unit::Volt,
+            full_scale: 1.0,
+            profile: None,
+            seed: None,
+        };
+        assert_eq!(info.wav_info, Some(Ok(want)));
+        assert_eq!(y, x);
+        let plain = ten_samples();
+        let (info, plain_y) = read_file(&plain).unwrap();
+        assert_eq!(info.wav_info, None);
+        // A LIST chunk spliced in before "data" at byte 36, the RIFF size grown to match.
+        let with_list = |list: &[u8]| {
+            let mut b = plain[..36].to_vec();
+            b.extend_from_slice(list);
+            b.extend_from_slice(&plain[36..]);
+            let riff = (b.len() - 8) as u32;
+            b[4..8].copy_from_slice(&riff.to_le_bytes());
+            b
+        };
+        let foreign = b"LIST\x16\0\0\0INFOICMT\x0a\0\0\0take five\0";
+        let (info, y) = read_file(&with_list(foreign)).unwrap();
+        let why = info.wav_info.unwrap().unwrap_err();
+        assert!(
+            why.contains("\"take five\" is not one noisewright writes"),
+            "{why}"
+        );
+        assert_eq!(y, plain_y);
+        let bad = WavInfo {
+            unit: Unit::Volt,
+            full_scale: 1.0,
+            profile: None,
+            seed: None,
+        }
+        .list_chunk();
+        let text_at = bad.len() - 32; // "noisewright unit=V full_scale=1\0"
+        let mut bad = bad;
+        bad[text_at + 19..text_at + 22].copy_from_slice(b"fxl");
+        let (info, y) = read_file(&with_list(&bad)).unwrap();
+        let why = info.wav_info.unwrap().unwrap_err();
+        assert!(why.contains("no full_scale="), "{why}");
+        assert_eq!(y, plain_y);
+        let mut huge = b"LIST".to_vec();
+        huge.extend_from_slice(&(MAX_LIST_BYTES + 2).to_le_bytes());
+        huge.extend_from_slice(&vec![0u8; MAX_LIST_BYTES as usize + 2]);
+        huge[8..12].copy_from_slice(b"INFO");
+        let (info, y) = read_file(&with_list(&huge)).unwrap();
+        assert_eq!((info.wav_info, y), (None, plain_y));
     }
 
     /// A size of 0 is a placeholder only for the last chunk: with samples to the end it reads

@@ -183,7 +183,7 @@ pub(super) fn report(
             "channels": s.info.channels,
             "full_scale": s.scale.full_scale,
             "scale_origin": s.scale.origin,
-            "manifest": s.manifest.is_some(),
+            "manifest": s.manifest.as_ref().is_some_and(|m| !m.wav_comment),
         }),
         unit: s.scale.symbol().to_string(),
         sample_rate_hz: s.info.sample_rate_hz,

@@ -10,6 +10,7 @@ use std::sync::mpsc;
 use crate::error::{Error, Result};
 use crate::io::sink::{Format, SampleFormat};
 use crate::io::source::{Scale, SourceOptions, StreamInfo, Values, open_source};
+use crate::io::wav_info::WavInfo;
 use crate::profile::Unit;
 
 /// Samples read per block.
@@ -116,6 +117,30 @@ impl Capture<'_> {
         ))
     }
 
+    /// What the INFO comment of the WAV at `path` says ([`StreamInfo::wav_info`]); `None`
+    /// also when its header cannot be read (the analysis's own read of it says why).
+    pub(super) fn wav_comment(
+        path: &Path,
+        length_bytes: Option<u64>,
+        name: &str,
+    ) -> Option<std::result::Result<WavInfo, String>> {
+        let options = SourceOptions {
+            format: Format::Wav,
+            sample_format: None,
+            rate_hz: None,
+            fallback_rate_hz: None,
+            name: name.to_string(),
+            length_bytes,
+            channels: None,
+        };
+        let file = fs::File::open(path).ok()?;
+        open_source(BufReader::new(file), &options)
+            .ok()?
+            .info()
+            .wav_info
+            .clone()
+    }
+
     /// How the report names the container: the file's format, or `memory`.
     pub(super) fn container(&self, info: &StreamInfo) -> &'static str {
         match self {
@@ -150,6 +175,7 @@ impl Capture<'_> {
                     channels: 1,
                     values: Values::Physical(*unit),
                     notes: Vec::new(),
+                    wav_info: None,
                 })
             }
         }

@@ -56,15 +56,15 @@ struct Parsed {
 
 impl<'a> Setup<'a> {
     pub(super) fn new(a: &'a Analysis<'_>) -> Result<Setup<'a>> {
+        let mut early_notes = Vec::new();
         let (name, manifest, length_bytes) = match &a.input {
             Input::Path(p) => {
                 // First: a pipe is refused before anything else reads it.
                 let length = Capture::length_of(p)?;
-                (
-                    p.display().to_string(),
-                    SideManifest::read(&manifest_path(p))?,
-                    length,
-                )
+                let name = p.display().to_string();
+                let m = SideManifest::read(&manifest_path(p))?;
+                let m = with_wav_comment(m, p, length, &name, &mut early_notes);
+                (name, m, length)
             }
             Input::Samples { .. } => (a.s.label.clone().unwrap_or("samples".into()), None, None),
         };
@@ -79,8 +79,7 @@ impl<'a> Setup<'a> {
             .map(|p| (p.unit.symbol(), "the profile"))
             .or(manifest
                 .as_ref()
-                .and_then(|m| m.unit)
-                .map(|u| (u.symbol(), "the capture's manifest")))
+                .and_then(|m| Some((m.unit?.symbol(), m.said_by()))))
             .or(samples_unit.map(|u| (u.symbol(), "the samples' label")))
             .or(a.s.full_scale.as_deref().and_then(unit_written_in))
             .unwrap_or(("V", "the default (no profile or manifest says otherwise)"));
@@ -133,7 +132,8 @@ impl<'a> Setup<'a> {
             unit_hint,
             &name,
         )?;
-        let mut notes = info.notes.clone();
+        let mut notes = early_notes;
+        notes.extend(info.notes.iter().cloned());
         let design = match profile.as_mut() {
             Some(p) => {
                 let stop = a.interrupt.map_or_else(Stop::default, Stop::on);
@@ -172,6 +172,50 @@ impl<'a> Setup<'a> {
     /// How messages name the profile: its file as given, or the label it was parsed with.
     pub(super) fn profile_name(&self) -> &str {
         self.profile.as_ref().map_or("", |p| p.label())
+    }
+}
+
+/// The manifest beside the capture `path`, or, when there is none and the capture is a WAV
+/// with noisewright's INFO comment, the comment in its place (see [`crate::io::wav_info`]).
+/// With both, the manifest wins and a note says so if they disagree; a comment that is
+/// another program's or malformed is ignored with a note. A WAV whose header cannot be read
+/// gives nothing here: reading its header for the analysis reports why.
+fn with_wav_comment(
+    manifest: Option<SideManifest>,
+    path: &std::path::Path,
+    length_bytes: Option<u64>,
+    name: &str,
+    notes: &mut Vec<String>,
+) -> Option<SideManifest> {
+    if Capture::format_of(path) != Format::Wav {
+        return manifest;
+    }
+    let comment = Capture::wav_comment(path, length_bytes, name);
+    match (manifest, comment) {
+        (Some(m), Some(Ok(c))) => {
+            let differs = m.full_scale.is_some_and(|fs| fs != c.full_scale)
+                || m.unit.is_some_and(|u| u != c.unit);
+            if differs {
+                notes.push(format!(
+                    "the WAV's INFO comment says digital 1.0 = {}, its manifest {}: the \
+                     manifest is used",
+                    format_quantity(c.full_scale, c.unit.symbol()),
+                    m.full_scale.map_or("physical values".to_string(), |fs| {
+                        format_quantity(fs, m.unit.unwrap_or(c.unit).symbol())
+                    })
+                ));
+            }
+            Some(m)
+        }
+        (Some(m), _) => Some(m),
+        (None, Some(Ok(c))) => Some(SideManifest::of_wav_info(&c, name)),
+        (None, Some(Err(why))) => {
+            notes.push(format!(
+                "no manifest beside {name} and {why}: its INFO comment is ignored"
+            ));
+            None
+        }
+        (None, None) => None,
     }
 }
 

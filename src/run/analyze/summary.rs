@@ -118,7 +118,10 @@ pub(super) fn scale_line(r: &CaptureReport) -> String {
         Some(fsc) => format!(
             "  scale           digital 1.0 = {} (from {})\n",
             format_quantity(fsc, u),
-            f["scale_origin"].as_str().unwrap_or("")
+            match f["scale_origin"].as_str().unwrap_or("") {
+                "info_comment" => "the WAV's INFO comment, no manifest beside it",
+                other => other,
+            }
         ),
         None if u == "FS" => {
             "  scale           digital values (no full scale known: give --full-scale)\n".into()

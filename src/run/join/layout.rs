@@ -12,6 +12,7 @@ use crate::error::{Error, Result};
 use crate::io::adc::Container;
 use crate::io::manifest::Manifest;
 use crate::io::sink::{Format, SampleFormat, npy_header, npy_shape, wav_header, wav_plan};
+use crate::io::wav_info::WavInfo;
 
 /// Bytes moved per read and write while copying samples (1 MiB): the memory a join holds.
 const COPY_BYTES: usize = 1 << 20;
@@ -21,11 +22,13 @@ const MAX_CSV_HEADER: u64 = 64 << 10;
 /// How one run's files hold their samples.
 #[derive(Debug, Clone)]
 pub(super) enum Layout {
-    /// RIFF/RF64 WAV: the header for the length, the frames, a pad byte to an even length.
+    /// RIFF/RF64 WAV: the header for the length (with the run's INFO comment), the frames,
+    /// a pad byte to an even length.
     Wav {
         channels: u16,
         sample_format: SampleFormat,
         rate: u32,
+        info: Option<WavInfo>,
     },
     /// numpy `.npy`: the header for the shape, then the values.
     Npy {
@@ -63,10 +66,18 @@ impl Layout {
                 })?,
         };
         Ok(match m.format {
+            // The comment the writer put in every shard: the run's unit, full scale, profile
+            // name and seed, the same for every shard (none says where it starts).
             Format::Wav => Layout::Wav {
                 channels,
                 sample_format: m.sample_format.parse()?,
                 rate: m.sample_rate_hz as u32,
+                info: m.full_scale.map(|full_scale| WavInfo {
+                    unit: m.unit,
+                    full_scale,
+                    profile: m.profile["name"].as_str().map(str::to_string),
+                    seed: Some(m.seed),
+                }),
             },
             Format::Npy => {
                 let descr = m.extra.get("npy_dtype").and_then(|d| d.as_str());
@@ -103,7 +114,8 @@ impl Layout {
                 channels,
                 sample_format,
                 rate,
-            } => wav_header(frames, *channels, *sample_format, *rate),
+                info,
+            } => wav_header(frames, *channels, *sample_format, *rate, info.as_ref()),
             Layout::Npy {
                 descr, channels, ..
             } => Ok(npy_header(descr, &npy_shape(frames, *channels))),
@@ -118,9 +130,10 @@ impl Layout {
             Layout::Wav {
                 channels,
                 sample_format,
+                info,
                 ..
             } => {
-                let plan = wav_plan(frames, *channels, *sample_format)?;
+                let plan = wav_plan(frames, *channels, *sample_format, info.as_ref())?;
                 Some((plan.data_bytes, plan.pad_bytes))
             }
             Layout::Npy {
@@ -302,10 +315,17 @@ mod tests {
     /// 3306), though every shard is a plain RIFF file: the header follows the whole length.
     #[test]
     fn the_whole_header_follows_the_whole_length() {
+        let info = WavInfo {
+            unit: crate::profile::Unit::Volt,
+            full_scale: 0.5,
+            profile: Some("hiss".into()),
+            seed: Some(3),
+        };
         let layout = Layout::Wav {
             channels: 1,
             sample_format: SampleFormat::F32,
             rate: 1_000_000,
+            info: Some(info.clone()),
         };
         let shard = 100_000_000; // 400 MB: RIFF
         let whole = 16 * shard; // 6.4 GB: RF64
@@ -314,7 +334,7 @@ mod tests {
         assert_eq!(&h[..4], b"RF64");
         assert_eq!(
             h,
-            wav_header(whole, 1, SampleFormat::F32, 1_000_000).unwrap()
+            wav_header(whole, 1, SampleFormat::F32, 1_000_000, Some(&info)).unwrap()
         );
         assert_eq!(layout.data_bytes(whole).unwrap(), Some((4 * whole, 0)));
         // i24 mono: an odd number of frames has an odd data size and a pad byte.
@@ -322,6 +342,7 @@ mod tests {
             channels: 1,
             sample_format: SampleFormat::I24,
             rate: 48_000,
+            info: None,
         };
         assert_eq!(i24.data_bytes(7).unwrap(), Some((21, 1)));
         let npy = Layout::Npy {

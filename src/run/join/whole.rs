@@ -40,8 +40,12 @@ pub(super) fn whole_manifest(pieces: &[Piece], layout: &Layout) -> Result<Manife
         Layout::Wav {
             channels,
             sample_format,
+            info,
             ..
-        } => wav_plan(total, *channels, *sample_format)?.container == WavContainer::Rf64,
+        } => {
+            wav_plan(total, *channels, *sample_format, info.as_ref())?.container
+                == WavContainer::Rf64
+        }
         _ => false,
     };
     m.notes = merged_notes(pieces.iter().flat_map(|p| &p.manifest.notes), rf64);

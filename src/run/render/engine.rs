@@ -97,7 +97,9 @@ pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Bui
         plan.notes.push(note);
     }
     if let (Format::Wav, Some(n)) = (plan.format, plan.samples) {
-        wav_plan(n, profile.channels as u16, plan.sample_format)?;
+        // Feasibility only (sizes past 2^64 bytes); `validate` checks it again with the
+        // INFO comment.
+        wav_plan(n, profile.channels as u16, plan.sample_format, None)?;
     }
     let spec = SinkSpec {
         format: plan.format,
@@ -118,6 +120,8 @@ pub(super) fn build(plan: &mut Plan, s: &Settings, stop: Stop<'_>) -> Result<Bui
             ),
             format!("seed: {}", s.seed),
         ],
+        profile_name: profile.name.clone(),
+        seed: Some(s.seed),
     };
     spec.validate()?;
     let (container_keys, container_notes) = crate::io::manifest::container_facts(&spec)?;
