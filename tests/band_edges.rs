@@ -145,3 +145,24 @@ fn low_order_is_read_from_the_profile_and_checked() {
         "{err}"
     );
 }
+
+/// Every bundled profile's designed density is within 0.01 dB of its target over its whole
+/// band, edges included (the design holds each level's share to 0.005 dB; two levels share
+/// any frequency).
+#[test]
+fn every_bundled_profile_is_designed_within_a_hundredth_of_a_db_in_band() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("profiles");
+    let mut seen = 0;
+    for entry in std::fs::read_dir(&dir).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("toml") {
+            continue;
+        }
+        let p = Profile::from_path(&path).unwrap();
+        let high = p.band.high_hz.min(p.sample_rate_hz / 2.0);
+        let (dev, at) = worst_in_band_db(&p, p.band.low_hz, high, 2000);
+        assert!(dev.abs() < 0.01, "{}: {dev} dB at {at} Hz", path.display());
+        seen += 1;
+    }
+    assert!(seen >= 12, "{seen} bundled profiles");
+}
