@@ -20,7 +20,9 @@ mod ziggurat;
 
 pub use burst::{BurstChain, BurstTally};
 pub use channels::{ChannelGenerator, channel_seed, mixing_matrix};
-pub use design::{Design, Guard, INTERP_TAPS, Level, RATIO, SHAPER_LENGTHS};
+pub use design::{
+    Design, Guard, INTERP_TAPS, LEAK_FLOOR, Level, RATIO, SHAPER_LENGTHS, SHARE_TOLERANCE,
+};
 pub(crate) use periodic::periodic_buffer_until;
 pub use periodic::{MAX_PERIODIC_SAMPLES, periodic_buffer, periodic_variance};
 pub use shaper::{BATCH_PAIRS, MAX_START, Shaper, WHITE_CHUNK};
