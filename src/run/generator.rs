@@ -116,7 +116,11 @@ impl Generator {
     /// however large `out` is.
     fn fill_here(&mut self, out: &mut [f64]) {
         let ch = self.channels();
-        let block = (BLOCK_SAMPLES / ch).max(1024) * ch;
+        let block = self
+            .engine()
+            .design()
+            .block_samples((BLOCK_SAMPLES / ch).max(1024))
+            * ch;
         for part in out.chunks_mut(block) {
             match &mut self.inner {
                 Inner::One(g) => g.fill(part),

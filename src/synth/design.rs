@@ -196,6 +196,16 @@ impl Design {
         &self.levels
     }
 
+    /// A number of samples at most `around` (at least one block pair) that a [`super::Shaper`]
+    /// hands out straight from its FFTs: a multiple of the top level's block pair (2·hop).
+    /// Calls of other sizes give the same samples, through one more copy.
+    pub fn block_samples(&self, around: usize) -> usize {
+        self.levels.first().map_or(around, |top| {
+            let pair = 2 * top.hop();
+            (around / pair).max(1) * pair
+        })
+    }
+
     /// The interpolation filter between levels (gain [`RATIO`] in its passband).
     pub fn interpolator(&self) -> &[f64] {
         &self.interp

@@ -46,8 +46,20 @@ pub(super) fn write(
         // Writing beside the engine pays off with a second core; per-source CSV columns are
         // written from buffers the engine refills, so that path stays in step.
         let overlap = !plan.per_source && rayon::current_num_threads() > 1;
+        let design = built
+            .generator
+            .as_ref()
+            .map(|g| g.borrow().design().clone())
+            .or_else(|| {
+                built
+                    .multi
+                    .as_ref()
+                    .map(|m| m.borrow().generator().design().clone())
+            });
+        let hint = |frames: usize| design.as_ref().map_or(frames, |d| d.block_samples(frames));
         pump(
             &mut *built.engine,
+            &hint,
             &mut *sink,
             plan.samples,
             &mut measured.all,

@@ -16,8 +16,9 @@ const CHUNK: usize = crate::run::generator::BLOCK_SAMPLES;
 const PROGRESS_MIN_SAMPLES: u64 = 1 << 23;
 
 /// Runs the engine into the sink: `samples` frames (None: until interrupted) of
-/// `channel_stats.len()` interleaved channels; `stats` over every sample, `channel_stats`
-/// per channel (only kept for more than one channel).
+/// `channel_stats.len()` interleaved channels, in blocks of [`block_frames`]`(frames_hint)`
+/// frames; `stats` over every sample, `channel_stats` per channel (only kept for more than one
+/// channel).
 ///
 /// With `overlap` (a pool of two or more threads), the statistics, the encoding and the
 /// writing of each block run as a job on the rayon pool while this thread makes the next
@@ -26,6 +27,7 @@ const PROGRESS_MIN_SAMPLES: u64 = 1 << 23;
 #[allow(clippy::too_many_arguments)]
 pub(super) fn pump(
     engine: &mut dyn FnMut(&mut [f64]),
+    frames_hint: &dyn Fn(usize) -> usize,
     sink: &mut dyn Sink,
     samples: Option<u64>,
     stats: &mut RunningStats,
@@ -38,7 +40,7 @@ pub(super) fn pump(
     let mut blocks = Blocks {
         samples,
         done: 0,
-        frames: (CHUNK / ch).max(MIN_BLOCK_FRAMES),
+        frames: block_frames(ch, frames_hint),
     };
     let mut tally = Tally {
         stats,
@@ -93,6 +95,12 @@ pub(super) fn pump(
             None => return Ok(()),
         }
     }
+}
+
+/// Frames per block for `ch` channels: about [`CHUNK`] samples, at least
+/// [`MIN_BLOCK_FRAMES`] frames, rounded by `hint` to what the engine hands out without a copy.
+pub(super) fn block_frames(ch: usize, hint: &dyn Fn(usize) -> usize) -> usize {
+    hint((CHUNK / ch).max(MIN_BLOCK_FRAMES))
 }
 
 /// Fewest frames per block, however many channels (a block holds about [`CHUNK`] samples).
