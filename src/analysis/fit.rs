@@ -304,12 +304,10 @@ pub fn fit_floor(r: &CaptureReport, options: &FitOptions) -> Result<FloorFit> {
         .levels
         .as_ref()
         .map(|l| (l.levels.clone(), l.dwell_s.clone()));
-    let out_band = options.band.unwrap_or(Band {
-        low_hz: range_hz.0.max(fs * 1e-9),
-        high_hz: range_hz.1.min(fs / 2.0),
-        order: 0,
-        low_order: 0,
-    });
+    let out_band = options.band.unwrap_or(Band::brick_wall(
+        range_hz.0.max(fs * 1e-9),
+        range_hz.1.min(fs / 2.0),
+    ));
     if !keep_rise {
         let scale = (sse_white / (n - 1.0)).max(1.0);
         let var = invert(jtj_white, 1).map_or(f64::NAN, |c| c[0][0] * scale);

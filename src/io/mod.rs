@@ -5,6 +5,7 @@
 
 pub mod adc;
 pub mod manifest;
+mod quote;
 pub mod sink;
 pub mod source;
 pub mod wav_info;

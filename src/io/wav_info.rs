@@ -53,7 +53,7 @@ impl WavInfo {
         let mut s = format!(
             "{SIGNATURE} unit={} full_scale={}",
             ascii_unit(self.unit),
-            crate::io::source::short(self.full_scale)
+            crate::io::quote::short(self.full_scale)
         );
         if let Some(seed) = self.seed {
             s += &format!(" seed={seed}");
@@ -74,7 +74,7 @@ impl WavInfo {
     /// Reads a comment line back. `Err` says why it is not one noisewright wrote (another
     /// program's comment) or what is wrong with it.
     pub fn parse(text: &str) -> Result<WavInfo, String> {
-        let shown = crate::io::source::echo(text);
+        let shown = crate::io::quote::echo(text);
         let Some(rest) = text
             .strip_prefix(SIGNATURE)
             .and_then(|r| r.strip_prefix(' '))

@@ -122,6 +122,18 @@ pub struct Band {
     pub low_order: u32,
 }
 
+impl Band {
+    /// A band from `low_hz` to `high_hz` (Hz) with brick walls at both edges.
+    pub fn brick_wall(low_hz: f64, high_hz: f64) -> Band {
+        Band {
+            low_hz,
+            high_hz,
+            order: 0,
+            low_order: 0,
+        }
+    }
+}
+
 /// One uncorrelated noise source. All sources of a profile add in power.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Source {
