@@ -52,25 +52,9 @@ fn os(s: &str) -> OsString {
     OsString::from(s)
 }
 
-/// `generate PROFILE -o OUT --seed SEED -q EXTRA…` in OUT's folder; panics with stderr on
-/// failure.
+/// `generate PROFILE -o OUT --seed SEED -q EXTRA…` in OUT's folder, which must succeed.
 fn generate(profile: &Path, out: &Path, extra: &[&str]) {
-    let mut a: Vec<OsString> = vec![
-        os("generate"),
-        profile.into(),
-        os("-o"),
-        out.into(),
-        os("--seed"),
-        os(&SEED.to_string()),
-        os("-q"),
-    ];
-    a.extend(extra.iter().map(|s| os(s)));
-    let o = run(&a, out.parent().expect("OUT is in a folder"));
-    assert!(
-        o.status.success(),
-        "generate {extra:?}: {} (seed {SEED})",
-        text(&o.stderr)
-    );
+    common::generate_seeded(profile, out, SEED, extra);
 }
 
 /// `analyze FILE --json EXTRA…` in FILE's folder → (exit code, JSON, stderr).

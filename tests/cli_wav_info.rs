@@ -24,24 +24,9 @@ fn os(s: &str) -> OsString {
 
 /// `generate PROFILE -o OUT --seed SEED --samples SAMPLES -q EXTRA…`, which must succeed.
 fn generate(profile: &Path, out: &Path, extra: &[&str]) {
-    let mut a: Vec<OsString> = vec![
-        os("generate"),
-        profile.into(),
-        os("-o"),
-        out.into(),
-        os("--seed"),
-        os(&SEED.to_string()),
-        os("--samples"),
-        os(SAMPLES),
-        os("-q"),
-    ];
-    a.extend(extra.iter().map(|s| os(s)));
-    let o = run(&a, out.parent().expect("OUT is in a folder"));
-    assert!(
-        o.status.success(),
-        "generate {extra:?}: {} (seed {SEED})",
-        text(&o.stderr)
-    );
+    let mut a = vec!["--samples", SAMPLES];
+    a.extend_from_slice(extra);
+    common::generate_seeded(profile, out, SEED, &a);
 }
 
 /// `analyze FILE --json EXTRA…`, which must succeed → (JSON, text summary of the same run).

@@ -300,6 +300,27 @@ pub fn run<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
         .expect("the noisewright binary runs")
 }
 
+/// `generate PROFILE -o OUT --seed SEED -q EXTRA…` in OUT's folder, which must succeed
+/// (panics with stderr and the seed otherwise).
+pub fn generate_seeded(profile: &Path, out: &Path, seed: u64, extra: &[&str]) {
+    let mut a: Vec<std::ffi::OsString> = vec![
+        "generate".into(),
+        profile.into(),
+        "-o".into(),
+        out.into(),
+        "--seed".into(),
+        seed.to_string().into(),
+        "-q".into(),
+    ];
+    a.extend(extra.iter().map(std::ffi::OsString::from));
+    let o = run(&a, out.parent().expect("OUT is in a folder"));
+    assert!(
+        o.status.success(),
+        "generate {extra:?}: {} (seed {seed})",
+        text(&o.stderr)
+    );
+}
+
 /// [`run`], which must succeed: panics with the command line, the exit status and stderr
 /// otherwise.
 pub fn run_ok<S: AsRef<OsStr>>(args: &[S], cwd: &Path) -> Output {
