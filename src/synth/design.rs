@@ -326,7 +326,8 @@ impl LevelGrid<'_> {
 /// realised share (2/rate)·A(f)² is within max([`SHARE_TOLERANCE`]·target, [`LEAK_FLOOR`]·peak
 /// share) of the level's share at every point of its grid (8 points per tap) outside the edge
 /// guards; if none is, the one that comes closest. Each is the frequency-sampled ideal
-/// response windowed by a Kaiser window of its length.
+/// response windowed by a Kaiser window of its length. A level whose share is zero at every
+/// point of the finest grid is inactive.
 fn design_level(
     target: &(dyn Fn(f64) -> f64 + Sync),
     (j, count, rate): (usize, usize, f64),
@@ -352,7 +353,12 @@ fn design_level(
         let share = |k: usize| grid.share[k * stride];
         let peak = (0..=g / 2).fold(0.0f64, |m, k| m.max(share(k)));
         if peak == 0.0 {
-            return Ok(level_of(j, rate, vec![0.0; len]));
+            // A share narrower than this grid's spacing can fall between its points: only
+            // the finest grid may call the level empty.
+            if len == SHAPER_LENGTHS[SHAPER_LENGTHS.len() - 1] {
+                return Ok(level_of(j, rate, vec![0.0; SHAPER_LENGTHS[0]]));
+            }
+            continue;
         }
         let fft = planner
             .lock()
@@ -615,6 +621,24 @@ mod tests {
             worst = worst.max((10.0 * ratio.log10()).abs());
         }
         assert!(worst < 0.1, "worst deviation {worst} dB");
+    }
+
+    #[test]
+    fn a_share_narrower_than_the_coarse_grids_is_not_lost() {
+        // A 1 Hz band at 1 kHz (48 kHz): at its deepest level (12 kHz) it is 8.3e-5 of the
+        // rate wide, narrower than the spacing of the grids for 255 … 1023 taps (1/2048 …
+        // 1/8192), so a coarse grid can see none of it; the level must still be designed.
+        let target = |f: f64| {
+            if (1000.0..=1001.0).contains(&f) {
+                1e-16
+            } else {
+                0.0
+            }
+        };
+        let d = Design::new(&target, 48_000.0, 1000.0).unwrap();
+        let deepest = d.levels().last().unwrap();
+        assert!(deepest.active, "{} taps", deepest.taps.len());
+        assert!(d.variance() > 0.0 && d.density(1000.5) > 0.0);
     }
 
     #[test]

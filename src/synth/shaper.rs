@@ -57,8 +57,7 @@ struct Geometry {
 
 impl Geometry {
     fn of(level: &Level) -> Geometry {
-        let (n, history) = (level.fft_len(), level.history());
-        let hop = n - history;
+        let (n, history, hop) = (level.fft_len(), level.history(), level.hop());
         let mut pairs = BATCH_PAIRS;
         while (2 * hop * pairs) % CHUNK != 0 {
             pairs += 1;
